@@ -1,0 +1,60 @@
+#pragma once
+//! \file species.hpp
+//! Gas species properties and the registry loaded from data/species.csv.
+
+#include <map>
+#include <string>
+#include <vector>
+
+namespace exosieve {
+
+//! Properties of one gas species (isotopes and isotopologues are species of their own).
+struct Species {
+    std::string name;           //!< registry key, e.g. "H2", "36Ar"
+    double mass = 0.0;          //!< particle mass [kg]
+    double lj_diameter = 0.0;   //!< Lennard-Jones collision diameter sigma [m]
+    double lj_well_depth = 0.0; //!< Lennard-Jones well depth eps/k_B [K]
+    double cross_section = 0.0; //!< collision cross-section for the mean free path [m^2]
+    double thermal_diffusion_factor = 0.0; //!< alpha in the diffusive-equilibrium equation [1]
+    std::string mass_source;          //!< where the mass comes from
+    std::string lj_source;            //!< where the Lennard-Jones parameters come from
+    std::string cross_section_source; //!< where the cross-section comes from
+
+    //! Mass in unified atomic mass units [u].
+    double mass_u() const;
+};
+
+//! Throw InputError unless the species' numbers are physical (mass > 0 and so on).
+void validate(const Species& s);
+
+//! Name -> Species registry; unknown names raise InputError suggesting the closest names.
+class SpeciesRegistry {
+  public:
+    //! Parse a registry from CSV text with the columns of data/species.csv.
+    static SpeciesRegistry from_csv(const std::string& csv_text, const std::string& origin);
+
+    //! The species called `name`; InputError with suggestions when unknown.
+    const Species& get(const std::string& name) const;
+    //! True when `name` is registered.
+    bool contains(const std::string& name) const;
+    //! Add or replace a species (validated first).
+    void add(const Species& s);
+    //! All names, sorted.
+    std::vector<std::string> names() const;
+    //! Up to `count` registered names closest to `name` (edit distance, case-insensitive).
+    std::vector<std::string> closest(const std::string& name, std::size_t count = 3) const;
+
+  private:
+    std::map<std::string, Species> by_name_;
+};
+
+//! The process-wide registry, built from the species table compiled into the library.
+SpeciesRegistry& default_registry();
+
+//! Shorthand for default_registry().get(name).
+const Species& species(const std::string& name);
+
+//! The text of data/species.csv as compiled into the library.
+const char* species_table_csv();
+
+} // namespace exosieve

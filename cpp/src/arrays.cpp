@@ -1,0 +1,64 @@
+#include "exosieve/arrays.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <string>
+#include <thread>
+#include <vector>
+
+#include "exosieve/errors.hpp"
+
+namespace exosieve {
+
+void check_lengths(std::size_t count, std::initializer_list<ArrayArg> args) {
+    std::size_t position = 0;
+    for (const ArrayArg& a : args) {
+        if (a.size != 1 && a.size != count)
+            throw InputError("array argument " + std::to_string(position) + " has length " +
+                             std::to_string(a.size) + ", expected 1 or " + std::to_string(count));
+        ++position;
+    }
+}
+
+namespace {
+template <class Ok>
+void require_each(const char* what, ArrayArg values, Ok ok, const char* rule) {
+    for (std::size_t i = 0; i < values.size; ++i) {
+        const double v = values.data[i];
+        if (!std::isfinite(v) || !ok(v)) {
+            std::string where = values.size == 1 ? "" : " (element " + std::to_string(i) + ")";
+            throw InputError(std::string(what) + " must be finite and " + rule + ", got " +
+                             format_value(v) + where);
+        }
+    }
+}
+} // namespace
+
+void require_positive(const char* what, ArrayArg values) {
+    require_each(what, values, [](double v) { return v > 0.0; }, "> 0");
+}
+
+void require_non_negative(const char* what, ArrayArg values) {
+    require_each(what, values, [](double v) { return v >= 0.0; }, ">= 0");
+}
+
+void parallel_for(std::size_t count, const std::function<void(std::size_t, std::size_t)>& body) {
+    // Threads pay off only when each one gets a few hundred microseconds of work.
+    constexpr std::size_t min_per_thread = 1u << 16;
+    const std::size_t hardware = std::max(1u, std::thread::hardware_concurrency());
+    const std::size_t threads = std::min(hardware, count / min_per_thread);
+    if (threads <= 1) {
+        body(0, count);
+        return;
+    }
+    std::vector<std::thread> pool;
+    const std::size_t chunk = (count + threads - 1) / threads;
+    for (std::size_t t = 1; t < threads; ++t) {
+        const std::size_t begin = t * chunk, end = std::min(count, begin + chunk);
+        if (begin < end) pool.emplace_back(body, begin, end);
+    }
+    body(0, std::min(count, chunk));
+    for (auto& th : pool) th.join();
+}
+
+} // namespace exosieve

@@ -1,0 +1,256 @@
+#include "exosieve/jeans.hpp"
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+
+#include "exosieve/constants.hpp"
+#include "exosieve/errors.hpp"
+#include "vector_exp.hpp"
+
+namespace exosieve {
+
+using constants::G;
+using constants::k_B;
+
+namespace {
+
+constexpr double inv_two_sqrt_pi = 0.28209479177387814347; // 1 / (2 sqrt(pi))
+
+void check_lambda_args(double temperature, double mass, double planet_mass, double radius) {
+    require_positive("temperature", temperature);
+    require_positive("mass", mass);
+    require_positive("planet_mass", planet_mass);
+    require_positive("radius", radius);
+}
+
+void check_flux_args(double density, double temperature, double mass, double planet_mass,
+                     double radius) {
+    require_non_negative("density", density);
+    check_lambda_args(temperature, mass, planet_mass, radius);
+}
+
+// Arguments of a 5-input array kernel, processed in blocks whose inputs are contiguous so
+// that the inner loops vectorise; broadcast inputs are expanded into a small local buffer.
+constexpr std::size_t block = 512;
+
+struct BlockInputs {
+    std::array<ArrayArg, 5> args;
+    std::array<std::array<double, block>, 5> buffers;
+
+    explicit BlockInputs(std::array<ArrayArg, 5> a) : args(a) {
+        for (std::size_t k = 0; k < 5; ++k)
+            if (args[k].size == 1) buffers[k].fill(args[k].data[0]);
+    }
+    const double* at(std::size_t k, std::size_t begin) const {
+        return args[k].size == 1 ? buffers[k].data() : args[k].data + begin;
+    }
+};
+
+// kernel(n, T, m, M, r, out, length) on contiguous blocks, in parallel for long arrays.
+template <class Kernel>
+void run_blocks(std::array<ArrayArg, 5> args, double* out, std::size_t count, Kernel kernel) {
+    parallel_for(count, [&](std::size_t begin, std::size_t end) {
+        BlockInputs in(args);
+        for (std::size_t b = begin; b < end; b += block) {
+            const std::size_t len = std::min(block, end - b);
+            kernel(in.at(0, b), in.at(1, b), in.at(2, b), in.at(3, b), in.at(4, b), out + b, len);
+        }
+    });
+}
+
+void check_flux_arrays(ArrayArg density, ArrayArg temperature, ArrayArg mass,
+                       ArrayArg planet_mass, ArrayArg radius, std::size_t count) {
+    check_lengths(count, {density, temperature, mass, planet_mass, radius});
+    require_non_negative("density", density);
+    require_positive("temperature", temperature);
+    require_positive("mass", mass);
+    require_positive("planet_mass", planet_mass);
+    require_positive("radius", radius);
+}
+
+// Jeans flux on a contiguous block without the tail factor; vectorises.
+void flux_block(const double* n, const double* T, const double* m, const double* M,
+                const double* r, double* out, std::size_t len) {
+    for (std::size_t i = 0; i < len; ++i) {
+        const double kT = k_B * T[i];
+        const double lambda = G * M[i] * m[i] / (kT * r[i]);
+        const double v0 = std::sqrt(2.0 * kT / m[i]);
+        // lambda beyond ~1e300 would make (1 + lambda) * exp(-lambda) = inf * 0.
+        const double lam = lambda < 1e300 ? lambda : 1e300;
+        out[i] = n[i] * v0 * inv_two_sqrt_pi * ((1.0 + lam) * detail::vector_exp(-lam));
+    }
+}
+
+void apply_tail(const TailDepletion& tail, const double* T, const double* m, const double* M,
+                const double* r, double* out, std::size_t len) {
+    if (tail.is_identity()) return;
+    for (std::size_t i = 0; i < len; ++i) out[i] *= tail(G * M[i] * m[i] / (k_B * T[i] * r[i]));
+}
+
+} // namespace
+
+TailDepletion::TailDepletion(double factor) : constant_(factor) {
+    require_positive("tail_depletion", factor);
+}
+
+TailDepletion::TailDepletion(std::vector<double> jeans_parameter, std::vector<double> factor)
+    : lambdas_(std::move(jeans_parameter)), factors_(std::move(factor)) {
+    if (lambdas_.size() != factors_.size() || lambdas_.empty())
+        throw InputError("tail_depletion table: jeans_parameter and factor must be non-empty and "
+                         "of equal length, got " +
+                         std::to_string(lambdas_.size()) + " and " +
+                         std::to_string(factors_.size()));
+    for (std::size_t i = 0; i < lambdas_.size(); ++i) {
+        require_finite("tail_depletion jeans_parameter", lambdas_[i]);
+        require_positive("tail_depletion factor", factors_[i]);
+        if (i > 0 && !(lambdas_[i] > lambdas_[i - 1]))
+            throw InputError("tail_depletion jeans_parameter must be strictly increasing, got " +
+                             format_value(lambdas_[i]) + " after " +
+                             format_value(lambdas_[i - 1]));
+    }
+}
+
+double TailDepletion::operator()(double lambda) const {
+    if (lambdas_.empty()) return constant_;
+    if (lambda <= lambdas_.front()) return factors_.front();
+    if (lambda >= lambdas_.back()) return factors_.back();
+    const auto hi = std::upper_bound(lambdas_.begin(), lambdas_.end(), lambda) - lambdas_.begin();
+    const auto lo = hi - 1;
+    const double w = (lambda - lambdas_[lo]) / (lambdas_[hi] - lambdas_[lo]);
+    return factors_[lo] + w * (factors_[hi] - factors_[lo]);
+}
+
+double escape_speed(double planet_mass, double radius) {
+    require_positive("planet_mass", planet_mass);
+    require_positive("radius", radius);
+    return std::sqrt(2.0 * G * planet_mass / radius);
+}
+
+double jeans_parameter(double temperature, double mass, double planet_mass, double radius) {
+    check_lambda_args(temperature, mass, planet_mass, radius);
+    return G * planet_mass * mass / (k_B * temperature * radius);
+}
+
+double jeans_flux_unchecked(double density, double v0, double lambda, const TailDepletion& tail) {
+    if (!(lambda < 1e300)) return 0.0;
+    return density * v0 * inv_two_sqrt_pi * (1.0 + lambda) * std::exp(-lambda) * tail(lambda);
+}
+
+double jeans_flux(double density, double temperature, double mass, double planet_mass,
+                  double radius, const TailDepletion& tail) {
+    check_flux_args(density, temperature, mass, planet_mass, radius);
+    const double lambda = G * planet_mass * mass / (k_B * temperature * radius);
+    const double v0 = std::sqrt(2.0 * k_B * temperature / mass);
+    return jeans_flux_unchecked(density, v0, lambda, tail);
+}
+
+double log_jeans_flux(double density, double temperature, double mass, double planet_mass,
+                      double radius, const TailDepletion& tail) {
+    check_flux_args(density, temperature, mass, planet_mass, radius);
+    const double lambda = G * planet_mass * mass / (k_B * temperature * radius);
+    const double v0 = std::sqrt(2.0 * k_B * temperature / mass);
+    return std::log(density * v0 * inv_two_sqrt_pi) + std::log1p(lambda) - lambda +
+           std::log(tail(lambda));
+}
+
+double jeans_energy_flux(double density, double temperature, double mass, double planet_mass,
+                         double radius, const TailDepletion& tail) {
+    const double flux = jeans_flux(density, temperature, mass, planet_mass, radius, tail);
+    if (flux == 0.0) return 0.0;
+    const double lambda = G * planet_mass * mass / (k_B * temperature * radius);
+    return flux * k_B * temperature * (lambda * lambda + 2.0 * lambda + 2.0) / (lambda + 1.0);
+}
+
+double jeans_escape_rate(double density, double temperature, double mass, double planet_mass,
+                         double radius, const TailDepletion& tail) {
+    return 4.0 * constants::pi * radius * radius *
+           jeans_flux(density, temperature, mass, planet_mass, radius, tail);
+}
+
+double log_jeans_escape_rate(double density, double temperature, double mass,
+                             double planet_mass, double radius, const TailDepletion& tail) {
+    return std::log(4.0 * constants::pi * radius * radius) +
+           log_jeans_flux(density, temperature, mass, planet_mass, radius, tail);
+}
+
+double jeans_effusion_velocity(double temperature, double mass, double planet_mass,
+                               double radius, const TailDepletion& tail) {
+    return jeans_flux(1.0, temperature, mass, planet_mass, radius, tail);
+}
+
+void escape_speed(ArrayArg planet_mass, ArrayArg radius, double* out, std::size_t count) {
+    check_lengths(count, {planet_mass, radius});
+    require_positive("planet_mass", planet_mass);
+    require_positive("radius", radius);
+    for (std::size_t i = 0; i < count; ++i) out[i] = std::sqrt(2.0 * G * planet_mass[i] / radius[i]);
+}
+
+void jeans_parameter(ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass, ArrayArg radius,
+                     double* out, std::size_t count) {
+    check_lengths(count, {temperature, mass, planet_mass, radius});
+    require_positive("temperature", temperature);
+    require_positive("mass", mass);
+    require_positive("planet_mass", planet_mass);
+    require_positive("radius", radius);
+    parallel_for(count, [&](std::size_t begin, std::size_t end) {
+        for (std::size_t i = begin; i < end; ++i)
+            out[i] = G * planet_mass[i] * mass[i] / (k_B * temperature[i] * radius[i]);
+    });
+}
+
+void jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
+                ArrayArg radius, double* out, std::size_t count, const TailDepletion& tail) {
+    check_flux_arrays(density, temperature, mass, planet_mass, radius, count);
+    run_blocks({density, temperature, mass, planet_mass, radius}, out, count,
+               [&](const double* n, const double* T, const double* m, const double* M,
+                   const double* r, double* o, std::size_t len) {
+                   flux_block(n, T, m, M, r, o, len);
+                   apply_tail(tail, T, m, M, r, o, len);
+               });
+}
+
+void log_jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
+                    ArrayArg radius, double* out, std::size_t count, const TailDepletion& tail) {
+    check_flux_arrays(density, temperature, mass, planet_mass, radius, count);
+    parallel_for(count, [&](std::size_t begin, std::size_t end) {
+        for (std::size_t i = begin; i < end; ++i) {
+            const double lambda =
+                G * planet_mass[i] * mass[i] / (k_B * temperature[i] * radius[i]);
+            const double v0 = std::sqrt(2.0 * k_B * temperature[i] / mass[i]);
+            out[i] = std::log(density[i] * v0 * inv_two_sqrt_pi) + std::log1p(lambda) - lambda +
+                     std::log(tail(lambda));
+        }
+    });
+}
+
+void jeans_energy_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass,
+                       ArrayArg planet_mass, ArrayArg radius, double* out, std::size_t count,
+                       const TailDepletion& tail) {
+    jeans_flux(density, temperature, mass, planet_mass, radius, out, count, tail);
+    parallel_for(count, [&](std::size_t begin, std::size_t end) {
+        for (std::size_t i = begin; i < end; ++i) {
+            if (out[i] == 0.0) continue;
+            const double kT = k_B * temperature[i];
+            const double lambda = G * planet_mass[i] * mass[i] / (kT * radius[i]);
+            out[i] *= kT * (lambda * lambda + 2.0 * lambda + 2.0) / (lambda + 1.0);
+        }
+    });
+}
+
+void jeans_escape_rate(ArrayArg density, ArrayArg temperature, ArrayArg mass,
+                       ArrayArg planet_mass, ArrayArg radius, double* out, std::size_t count,
+                       const TailDepletion& tail) {
+    jeans_flux(density, temperature, mass, planet_mass, radius, out, count, tail);
+    for (std::size_t i = 0; i < count; ++i) out[i] *= 4.0 * constants::pi * radius[i] * radius[i];
+}
+
+void log_jeans_escape_rate(ArrayArg density, ArrayArg temperature, ArrayArg mass,
+                           ArrayArg planet_mass, ArrayArg radius, double* out, std::size_t count,
+                           const TailDepletion& tail) {
+    log_jeans_flux(density, temperature, mass, planet_mass, radius, out, count, tail);
+    for (std::size_t i = 0; i < count; ++i)
+        out[i] += std::log(4.0 * constants::pi * radius[i] * radius[i]);
+}
+
+} // namespace exosieve

@@ -1,0 +1,132 @@
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <vector>
+
+#include "exosieve/constants.hpp"
+#include "exosieve/errors.hpp"
+#include "exosieve/jeans.hpp"
+#include "exosieve/maxwell.hpp"
+
+using namespace exosieve;
+using constants::amu;
+using constants::G;
+using constants::k_B;
+
+namespace {
+const double M_planet = constants::M_earth;
+const double r_exo = constants::R_earth + 500e3;
+const double m_H = 1.008 * amu;
+} // namespace
+
+TEST_CASE("escape speed of Earth from the IAU nominal GM and radius (common practice: 11.2 km/s)") {
+    CHECK(escape_speed(M_planet, constants::R_earth) == doctest::Approx(11186.0).epsilon(1e-3));
+}
+
+TEST_CASE("the Jeans parameter is (v_esc / v0)^2") {
+    const double T = 1000.0;
+    const double lambda = jeans_parameter(T, m_H, M_planet, r_exo);
+    const double ratio = escape_speed(M_planet, r_exo) / most_probable_speed(T, m_H);
+    CHECK(lambda == doctest::Approx(ratio * ratio).epsilon(1e-13));
+    // from memory (textbook value): H at a 1000 K exobase 500 km up on Earth, lambda near 7.
+    CHECK(lambda == doctest::Approx(7.0).epsilon(0.1));
+}
+
+TEST_CASE("flux equals the closed form and the upward Maxwellian flux above v_esc") {
+    const double n = 1e11, T = 1000.0;
+    const double v0 = most_probable_speed(T, m_H);
+    const double lambda = jeans_parameter(T, m_H, M_planet, r_exo);
+    const double closed = n * v0 / (2 * std::sqrt(constants::pi)) * (1 + lambda) * std::exp(-lambda);
+    CHECK(jeans_flux(n, T, m_H, M_planet, r_exo) == doctest::Approx(closed).epsilon(1e-14));
+    // Kinetic theory: the upward flux of particles faster than v_esc through a surface is
+    // (n / 4) * integral_{v_esc}^inf v f(v) dv. Simpson's rule up to v_esc + 40 v0.
+    const double v_esc = escape_speed(M_planet, r_exo);
+    const int steps = 20000;
+    const double h = 40.0 * v0 / steps;
+    double sum = 0.0;
+    for (int i = 0; i <= steps; ++i) {
+        const double v = v_esc + i * h;
+        const double weight = (i == 0 || i == steps) ? 1.0 : (i % 2 ? 4.0 : 2.0);
+        sum += weight * v * speed_pdf(v, T, m_H);
+    }
+    CHECK(jeans_flux(n, T, m_H, M_planet, r_exo) ==
+          doctest::Approx(0.25 * n * sum * h / 3.0).epsilon(1e-10));
+}
+
+TEST_CASE("energy flux, escape rate, effusion velocity") {
+    const double n = 1e11, T = 1000.0;
+    const double flux = jeans_flux(n, T, m_H, M_planet, r_exo);
+    const double lambda = jeans_parameter(T, m_H, M_planet, r_exo);
+    CHECK(jeans_energy_flux(n, T, m_H, M_planet, r_exo) ==
+          doctest::Approx(flux * k_B * T * (lambda * lambda + 2 * lambda + 2) / (lambda + 1)));
+    // Energy per escaping particle exceeds the escape energy G M m / r = lambda k T.
+    CHECK(jeans_energy_flux(n, T, m_H, M_planet, r_exo) / flux > lambda * k_B * T);
+    CHECK(jeans_escape_rate(n, T, m_H, M_planet, r_exo) ==
+          doctest::Approx(4 * constants::pi * r_exo * r_exo * flux));
+    CHECK(jeans_effusion_velocity(T, m_H, M_planet, r_exo) == doctest::Approx(flux / n));
+}
+
+TEST_CASE("monotonic: flux rises with temperature and falls with mass") {
+    double previous = 0.0;
+    for (double T = 200.0; T < 5000.0; T *= 1.1) {
+        const double f = jeans_flux(1e12, T, 16 * amu, M_planet, r_exo);
+        CHECK(f > previous);
+        previous = f;
+    }
+    CHECK(jeans_flux(1e12, 1000, 2 * amu, M_planet, r_exo) > jeans_flux(1e12, 1000, 4 * amu, M_planet, r_exo));
+}
+
+TEST_CASE("deep tail: flux underflows to 0, the log form stays finite") {
+    const double T = 50.0, m = 131.293 * amu;
+    const double lambda = jeans_parameter(T, m, M_planet, constants::R_earth);
+    CHECK(lambda > 1e4);
+    CHECK(jeans_flux(1e15, T, m, M_planet, constants::R_earth) == 0.0);
+    const double log_flux = log_jeans_flux(1e15, T, m, M_planet, constants::R_earth);
+    CHECK(std::isfinite(log_flux));
+    const double v0 = most_probable_speed(T, m);
+    CHECK(log_flux == doctest::Approx(std::log(1e15 * v0 / (2 * std::sqrt(constants::pi))) +
+                                      std::log1p(lambda) - lambda));
+    // Away from underflow the two forms agree.
+    CHECK(std::exp(log_jeans_flux(1e11, 1000, m_H, M_planet, r_exo)) ==
+          doctest::Approx(jeans_flux(1e11, 1000, m_H, M_planet, r_exo)).epsilon(1e-12));
+    // An absurdly cold gas: lambda overflows to inf, flux is 0 and not NaN.
+    CHECK(jeans_flux(1.0, 1e-300, m, M_planet, 1.0) == 0.0);
+}
+
+TEST_CASE("tail depletion: constant and tabulated factors") {
+    const double n = 1e11, T = 1000.0;
+    const double plain = jeans_flux(n, T, m_H, M_planet, r_exo);
+    CHECK(jeans_flux(n, T, m_H, M_planet, r_exo, TailDepletion(0.7)) == doctest::Approx(0.7 * plain));
+    TailDepletion table({2.0, 10.0}, {0.5, 0.9});
+    CHECK(table(0.0) == 0.5);
+    CHECK(table(6.0) == doctest::Approx(0.7));
+    CHECK(table(20.0) == 0.9);
+    const double lambda = jeans_parameter(T, m_H, M_planet, r_exo);
+    CHECK(jeans_flux(n, T, m_H, M_planet, r_exo, table) == doctest::Approx(table(lambda) * plain));
+    CHECK_THROWS_AS(TailDepletion({2.0, 1.0}, {0.5, 0.9}), InputError);
+    CHECK_THROWS_AS(TailDepletion(0.0), InputError);
+}
+
+TEST_CASE("array kernels: equal to scalar forms, broadcast, threaded for long arrays") {
+    const std::size_t count = 300000; // long enough for the threaded path
+    std::vector<double> T(count), out(count), log_out(count);
+    for (std::size_t i = 0; i < count; ++i) T[i] = 200.0 + 5000.0 * i / count;
+    const double n = 1e12, m = 4.002602 * amu;
+    jeans_flux(ArrayArg{&n, 1}, ArrayArg{T.data(), count}, ArrayArg{&m, 1}, ArrayArg{&M_planet, 1},
+               ArrayArg{&r_exo, 1}, out.data(), count);
+    log_jeans_flux(ArrayArg{&n, 1}, ArrayArg{T.data(), count}, ArrayArg{&m, 1},
+                   ArrayArg{&M_planet, 1}, ArrayArg{&r_exo, 1}, log_out.data(), count);
+    for (std::size_t i = 0; i < count; i += 997) {
+        const double ref = jeans_flux(n, T[i], m, M_planet, r_exo);
+        CHECK(out[i] == doctest::Approx(ref).epsilon(1e-14));
+        CHECK(log_out[i] == doctest::Approx(std::log(ref)).epsilon(1e-13));
+    }
+    std::vector<double> bad_density = {1.0, -1.0};
+    CHECK_THROWS_WITH_AS(jeans_flux(ArrayArg{bad_density.data(), 2}, ArrayArg{T.data(), 2},
+                                    ArrayArg{&m, 1}, ArrayArg{&M_planet, 1}, ArrayArg{&r_exo, 1},
+                                    out.data(), 2),
+                         "density must be finite and >= 0, got -1 (element 1)", InputError);
+    CHECK_THROWS_AS(jeans_flux(ArrayArg{T.data(), 3}, ArrayArg{T.data(), 2}, ArrayArg{&m, 1},
+                               ArrayArg{&M_planet, 1}, ArrayArg{&r_exo, 1}, out.data(), 2),
+                    InputError);
+}

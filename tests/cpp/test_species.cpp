@@ -1,0 +1,64 @@
+#include <doctest/doctest.h>
+
+#include <string>
+
+#include "exosieve/constants.hpp"
+#include "exosieve/errors.hpp"
+#include "exosieve/species.hpp"
+
+using namespace exosieve;
+
+TEST_CASE("the compiled table holds every species the design asks for") {
+    for (const char* name : {"H", "D", "He", "3He", "H2", "HD", "C", "N", "O", "CH4", "NH3", "H2O",
+                             "N2", "O2", "CO", "CO2", "Ne", "36Ar", "38Ar", "40Ar", "Ar", "Kr",
+                             "Xe"}) {
+        CAPTURE(name);
+        const Species& s = species(name);
+        CHECK(s.mass > 0.0);
+        CHECK(s.lj_diameter > 1e-10);
+        CHECK(s.lj_well_depth > 0.0);
+        CHECK(s.cross_section > 1e-20);
+        CHECK(!s.mass_source.empty());
+        CHECK(!s.lj_source.empty());
+    }
+}
+
+TEST_CASE("masses are sums of standard atomic weights (IUPAC)") {
+    // IUPAC 2021 abridged: N 14.007, C 12.011, O 15.999.
+    CHECK(species("N2").mass_u() == doctest::Approx(28.014).epsilon(1e-9));
+    CHECK(species("CO2").mass_u() == doctest::Approx(44.009).epsilon(1e-9));
+    // AME2020: deuterium 2.01410177812 u.
+    CHECK(species("D").mass_u() == doctest::Approx(2.01410177812).epsilon(1e-9));
+    CHECK(species("H2").mass == doctest::Approx(2 * species("H").mass));
+}
+
+TEST_CASE("unknown names suggest the closest ones") {
+    try {
+        species("CO3");
+        FAIL("expected InputError");
+    } catch (const InputError& e) {
+        const std::string what = e.what();
+        CHECK(what.find("unknown species 'CO3'") != std::string::npos);
+        CHECK(what.find("CO2") != std::string::npos);
+    }
+}
+
+TEST_CASE("user species are validated and registered") {
+    SpeciesRegistry registry = SpeciesRegistry::from_csv(species_table_csv(), "table");
+    Species s;
+    s.name = "Xx";
+    s.mass = 10 * constants::amu;
+    registry.add(s);
+    CHECK(registry.contains("Xx"));
+    s.mass = -1.0;
+    CHECK_THROWS_AS(registry.add(s), InputError);
+}
+
+TEST_CASE("malformed tables are refused with the line named") {
+    const std::string bad = "name,mass_u,mass_source,lj_diameter_angstrom,lj_well_depth_K,lj_source,"
+                            "cross_section_m2,cross_section_source,thermal_diffusion_factor\n"
+                            "A,abc,s,1,1,s,1e-19,s,0\n";
+    CHECK_THROWS_WITH_AS(SpeciesRegistry::from_csv(bad, "bad.csv"),
+                         doctest::Contains("bad.csv line 2 column mass_u"), InputError);
+    CHECK_THROWS_AS(SpeciesRegistry::from_csv("name,mass_u\nA,1\n", "short.csv"), InputError);
+}
