@@ -1,0 +1,138 @@
+#pragma once
+//! \file evolution.hpp
+//! Loss of each species' inventory over time:
+//!   dN_i/dt = S_i(t) - Q_i(t, N),
+//! with Q_i the global escape rate (Jeans escape from the exobase model, or energy-limited
+//! hydrodynamic loss shared with dragged species) and S_i a source (outgassing).
+//!
+//! Integrated in y_i = ln N_i with Boost.Odeint's Dormand–Prince 5(4) pair under step-size
+//! control, with its dense output for requested times and events. In ln N a species whose loss
+//! follows its inventory obeys dy_i/dt = S_i e^(-y_i) - k_i(t): no stiffness however fast it is
+//! lost, and inventories far below 1e-308 of the start stay representable. The error test is
+//! the one of a linear-N integration with tolerances (rtol, atol_i):
+//! |err(y_i)| <= rtol + atol_i / N_i.
+
+#include <cstddef>
+#include <functional>
+#include <limits>
+#include <memory>
+#include <optional>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "exosieve/exobase_model.hpp"
+#include "exosieve/hydrodynamic.hpp"
+#include "exosieve/jeans.hpp"
+#include "exosieve/species.hpp"
+#include "exosieve/stellar.hpp"
+
+namespace exosieve {
+
+//! A species source [s^-1]: constant, or a table against time (linear, held at the ends).
+class SourceRate {
+  public:
+    //! No source.
+    SourceRate() = default;
+    //! Constant rate [s^-1] (>= 0).
+    explicit SourceRate(double rate);
+    //! Rates [s^-1] (>= 0) against strictly increasing times [s].
+    SourceRate(std::vector<double> times, std::vector<double> rates);
+
+    //! Rate [s^-1] at time t [s].
+    double operator()(double t) const { return table_.empty() ? rate_ : table_(t); }
+    //! True when the rate is zero at all times.
+    bool is_zero() const { return table_.empty() && rate_ == 0.0; }
+    //! The table (empty for a constant rate).
+    const TimeTable& table() const { return table_; }
+    //! JSON description.
+    std::string to_json() const;
+
+  private:
+    double rate_ = 0.0;
+    TimeTable table_;
+};
+
+//! Everything one run needs; plain data, no interpreter objects, so runs can go in parallel.
+struct EvolutionConfig {
+    //! Start from a planet; fill in the rest before calling evolve().
+    explicit EvolutionConfig(Planet p) : planet(std::move(p)) {}
+
+    Planet planet;                       //!< the planet (and its star, for XUV-driven models)
+    std::vector<Species> species;        //!< the species, in the exobase model's order
+    std::vector<double> initial_inventory; //!< N_i(t_start) [particles] (> 0)
+    std::shared_ptr<const ExobaseModel> exobase; //!< exobase radius and densities
+    ExobaseTemperature temperature;      //!< exobase temperature history
+    std::vector<SourceRate> sources;     //!< empty or one per species [s^-1]
+    std::optional<HydrodynamicOptions> hydrodynamic; //!< energy-limited loss with drag
+    RegimeThresholds thresholds;         //!< Jeans-parameter regime thresholds
+    TailDepletion tail;                  //!< factor on every Jeans flux
+    double t_start = 0.0;                //!< start time (stellar age) [s]
+    double t_end = 0.0;                  //!< end time [s] (> t_start)
+    std::vector<double> t_eval;          //!< output times [s]; empty: every step
+    double rtol = 1e-8;                  //!< relative tolerance on each N_i [1]
+    //! Absolute tolerance on each N_i [particles]; empty: rtol * depletion_fraction * N_i(t_start).
+    std::vector<double> atol;
+    double depletion_fraction = 1e-3;    //!< a species is depleted below this share of N_i(t_start)
+    std::size_t max_steps = 100000;      //!< accepted + rejected steps before giving up
+    //! Isotope ratios to report, (numerator, denominator) species names.
+    std::vector<std::pair<std::string, std::string>> isotope_ratios;
+    //! Called after every accepted step with the time [s]; returning false stops the run.
+    std::function<bool(double)> progress;
+
+    //! Throw InputError naming the argument and value for anything that cannot run.
+    void validate() const;
+    //! JSON description of the whole model (without t_eval and the callbacks).
+    std::string to_json() const;
+};
+
+//! A regime change located during a run.
+struct RegimeChange {
+    double time;  //!< [s]
+    Regime from;  //!< regime before
+    Regime to;    //!< regime after
+};
+
+//! Output of evolve(): time series (row-major, time x species) and diagnostics.
+struct EvolutionResult {
+    std::vector<std::string> species;       //!< species names
+    std::vector<double> time;               //!< output times [s]
+    std::vector<double> inventory;          //!< N_i [particles], time x species
+    std::vector<double> escape_rate;        //!< Q_i [s^-1], time x species
+    std::vector<double> source_rate;        //!< S_i [s^-1], time x species
+    std::vector<double> jeans_parameter;    //!< lambda_i at the exobase [1], time x species
+    std::vector<double> exobase_radius;     //!< [m], per time
+    std::vector<double> exobase_temperature;//!< [K], per time
+    std::vector<double> xuv_flux;           //!< [W m^-2], per time (NaN without a star)
+    std::vector<int> regime;                //!< Regime code, per time
+    std::vector<int> energy_limited;        //!< 1 where energy-limited loss acted, per time
+    std::vector<std::string> ratio_names;   //!< e.g. "D/H"
+    std::vector<double> isotope_ratio;      //!< time x ratio [1]
+    std::vector<double> depletion_time;     //!< per species [s]; NaN where not reached
+    std::vector<RegimeChange> regime_changes; //!< located regime changes
+    std::size_t steps = 0;                  //!< accepted steps
+    std::size_t rejected_steps = 0;         //!< rejected steps
+    std::size_t rhs_evaluations = 0;        //!< right-hand-side evaluations
+    bool completed = false;                 //!< false when stopped by the progress hook
+    double t_reached = 0.0;                 //!< last time reached [s]
+    std::string config;                     //!< JSON of the model
+
+    std::size_t time_count() const { return time.size(); }       //!< output times
+    std::size_t species_count() const { return species.size(); } //!< species
+};
+
+//! Integrate the inventories from t_start to t_end. Thread-safe for configs whose temperature
+//! history is thread-safe; throws InputError for bad input (before any step) and
+//! NumericalError when the run cannot make progress (saying where and why).
+EvolutionResult evolve(const EvolutionConfig& config);
+
+//! Default isotope ratios present among `species`: D/H, HD/H2, 3He/He, 36Ar/38Ar, 40Ar/36Ar.
+std::vector<std::pair<std::string, std::string>> default_isotope_ratios(
+    const std::vector<std::string>& species);
+
+//! Write a result to an HDF5 file at `path` (atomically: temporary file, then rename).
+//! Dimensions time, species, ratio; units and long_name on every variable; global attribute
+//! `config` holds the model JSON.
+void write_result(const EvolutionResult& result, const std::string& path);
+
+} // namespace exosieve

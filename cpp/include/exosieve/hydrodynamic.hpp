@@ -1,0 +1,107 @@
+#pragma once
+//! \file hydrodynamic.hpp
+//! Where the Jeans picture fails: regime classification by the Jeans parameter, energy-limited
+//! hydrodynamic loss with the Roche-lobe correction, and drag of heavier species by the escaping
+//! light one.
+
+#include <cstddef>
+#include <string>
+#include <vector>
+
+namespace exosieve {
+
+//! Escape regime at the exobase, by the Jeans parameter of the bulk gas (Volkov et al. 2011).
+enum class Regime : int {
+    Jeans = 0,         //!< lambda > enhanced threshold: close to the Jeans rate
+    EnhancedJeans = 1, //!< molecule-by-molecule escape, enhanced over the Jeans rate
+    Transition = 2,    //!< transition from kinetic to hydrodynamic escape
+    Hydrodynamic = 3,  //!< lambda <= hydrodynamic threshold: hydrodynamic outflow
+};
+
+//! Regime name: "jeans", "enhanced_jeans", "transition" or "hydrodynamic".
+const char* regime_name(Regime regime);
+
+//! Jeans-parameter thresholds between regimes [1]. Defaults: Volkov et al. (2011, ApJL 729,
+//! L24), direct simulation Monte Carlo of a single-gas atmosphere: ~6, ~3 and ~2.1.
+struct RegimeThresholds {
+    double enhanced = 6.0;     //!< below this: enhanced (molecule-by-molecule) escape
+    double transition = 3.0;   //!< below this: transition
+    double hydrodynamic = 2.1; //!< at or below this: hydrodynamic outflow
+
+    //! Throw InputError unless 0 < hydrodynamic < transition < enhanced, all finite.
+    void validate() const;
+};
+
+//! Regime of Jeans parameter `lambda` [1]; each interval is open below, closed above.
+Regime classify_regime(double lambda, const RegimeThresholds& thresholds = {});
+
+//! Roche-lobe distance ratio xi = a (M_p / (3 M_star))^(1/3) / R_p [1] (Erkaev et al. 2007).
+//! planet_mass, star_mass [kg]; semi_major_axis, radius [m].
+double roche_lobe_ratio(double planet_mass, double star_mass, double semi_major_axis,
+                        double radius);
+
+//! Roche-lobe factor K(xi) = 1 - 3/(2 xi) + 1/(2 xi^3) [1] (Erkaev et al. 2007); xi > 1.
+//! K -> 1 for a planet deep in its Roche lobe, K -> 0 as the lobe shrinks to the planet.
+double roche_lobe_factor(double xi);
+
+//! Energy-limited mass-loss rate [kg s^-1] (Watson et al. 1981; Erkaev et al. 2007):
+//! dM/dt = eta pi R_p R_xuv^2 F_xuv / (G M_p K).
+//! efficiency eta [1] in (0, 1]; radii [m]; xuv_flux [W m^-2]; planet_mass [kg]; K in (0, 1].
+double energy_limited_mass_loss(double efficiency, double planet_radius, double xuv_radius,
+                                double xuv_flux, double planet_mass, double roche_factor = 1.0);
+
+//! Crossover mass [kg] of Hunten, Pepin & Walker (1987):
+//! m_c = m_1 + k T F_1 / (b g x_1), with m_1 the escaping light species' mass [kg], T [K],
+//! F_1 its flux [m^-2 s^-1], b the binary diffusion parameter of the heavy species in the light
+//! one [m^-1 s^-1], g gravity [m s^-2] and x_1 the light species' mole fraction [1].
+double crossover_mass(double light_mass, double temperature, double light_flux,
+                      double diffusion_parameter, double gravity, double light_mole_fraction);
+
+//! Flux of a heavier species dragged by the escaping light one [m^-2 s^-1] (Hunten, Pepin &
+//! Walker 1987): F_i = (x_i/x_1) F_1 (m_c - m_i)/(m_c - m_1) for m_i < m_c, else 0.
+double dragged_flux(double mass, double mole_fraction, double light_mass, double light_flux,
+                    double light_mole_fraction, double crossover_mass);
+
+//! Binary diffusion parameter law b(T) = A (T / 1 K)^s [m^-1 s^-1] of one species in the
+//! escaping light gas. A zero coefficient means "not dragged".
+struct DiffusionLaw {
+    double coefficient = 0.0; //!< A [m^-1 s^-1]
+    double exponent = 0.0;    //!< s [1]
+    //! b at temperature T [K].
+    double operator()(double temperature) const;
+};
+
+//! Share an energy-limited mass-loss rate between the escaping light species and the species it
+//! drags, conserving the mass rate (global rates, so the radius drops out:
+//! Q_i = (x_i/x_1) max(0, Q_1 - q_i), q_i = 4 pi G M_p (m_i - m_1) b_i x_1 / (k T), and
+//! sum_i m_i Q_i = dM/dt, piecewise linear in Q_1 and solved exactly).
+//! mass, mole_fraction, diffusion_parameter b_i [m^-1 s^-1] (0: not dragged) have length n;
+//! `escaping` indexes the light species; species lighter than it are not dragged.
+//! Writes global escape rates [s^-1] to `rates` (length n).
+void partition_mass_loss(double mass_loss, double temperature, double planet_mass,
+                         std::size_t escaping, const double* mass, const double* mole_fraction,
+                         const double* diffusion_parameter, std::size_t n, double* rates);
+
+//! When the energy-limited option replaces Jeans escape.
+enum class HydrodynamicActivation : int {
+    Hydrodynamic = 0, //!< while the bulk regime is hydrodynamic
+    Transition = 1,   //!< while the bulk regime is transition or hydrodynamic
+    Always = 2,       //!< throughout the run
+};
+
+//! Options of energy-limited hydrodynamic escape with drag.
+struct HydrodynamicOptions {
+    double efficiency = 0.15; //!< heating efficiency eta [1] (common practice: 0.1–0.3)
+    double xuv_radius = 0.0;  //!< radius where XUV is absorbed [m]; 0 means the planet radius
+    bool roche_lobe = true;   //!< apply the Roche-lobe factor K (needs the star and the orbit)
+    std::string escaping_species; //!< the light escaping species; empty: the lightest present
+    HydrodynamicActivation activation = HydrodynamicActivation::Hydrodynamic; //!< when it acts
+    //! Diffusion law of each dragged species in the light gas, by species name; species not
+    //! listed are not dragged and keep Jeans escape.
+    std::vector<std::pair<std::string, DiffusionLaw>> diffusion;
+
+    //! Throw InputError for an efficiency outside (0, 1] or a negative radius or coefficient.
+    void validate() const;
+};
+
+} // namespace exosieve

@@ -1,0 +1,777 @@
+#include "exosieve/evolution.hpp"
+
+// Odeint with Eigen: the Eigen adaptor must follow odeint and stays inside this file.
+#include <boost/numeric/odeint.hpp>
+#include <boost/numeric/odeint/external/eigen/eigen.hpp>
+
+#include <Eigen/Core>
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <map>
+
+#include "exosieve/constants.hpp"
+#include "exosieve/errors.hpp"
+#include "json_text.hpp"
+
+namespace exosieve {
+
+namespace odeint = boost::numeric::odeint;
+using State = Eigen::VectorXd;
+using constants::G;
+using constants::k_B;
+using detail::json_array;
+using detail::json_number;
+using detail::json_string;
+using detail::JsonObject;
+
+namespace {
+
+constexpr double inf = std::numeric_limits<double>::infinity();
+constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+constexpr double log_inv_two_sqrt_pi = -1.2655121234846454; // ln(1 / (2 sqrt(pi)))
+
+std::string when(double t) {
+    return format_value(t) + " s (" + format_value(t / constants::Myr) + " Myr)";
+}
+
+// Error test in y = ln N equivalent to |err(N_i)| <= rtol N_i + atol_i, the test of a linear
+// integration: |err(y_i)| <= rtol + atol_i / N_i. Records the species that dominates.
+class LogErrorChecker {
+  public:
+    using value_type = double;
+    using algebra_type = odeint::vector_space_algebra;
+    using operations_type = odeint::default_operations;
+
+    LogErrorChecker() = default;
+    LogErrorChecker(double rtol, const State* log_atol, std::size_t* worst)
+        : rtol_(rtol), log_atol_(log_atol), worst_(worst) {}
+
+    template <class Algebra, class StateT, class Deriv, class Err, class Time>
+    double error(Algebra&, const StateT& y_old, const Deriv&, Err& y_err, Time) const {
+        double largest = 0.0;
+        std::size_t index = 0;
+        for (Eigen::Index i = 0; i < y_err.size(); ++i) {
+            const double tol = rtol_ + std::exp((*log_atol_)[i] - y_old[i]);
+            double ratio = std::abs(y_err[i]) / tol;
+            if (std::isnan(ratio)) ratio = inf; // a NaN trial step must be rejected
+            if (ratio > largest) {
+                largest = ratio;
+                index = static_cast<std::size_t>(i);
+            }
+        }
+        if (worst_) *worst_ = index;
+        return largest;
+    }
+
+  private:
+    double rtol_ = 1e-8;
+    const State* log_atol_ = nullptr;
+    std::size_t* worst_ = nullptr;
+};
+
+using Dopri5 = odeint::runge_kutta_dopri5<State>;
+using Controlled = odeint::controlled_runge_kutta<Dopri5, LogErrorChecker>;
+
+// Switches that change the right-hand side discontinuously; held fixed during a step.
+struct Mode {
+    bool energy_limited = false;
+    std::vector<char> frozen;
+    bool operator==(const Mode& o) const {
+        return energy_limited == o.energy_limited && frozen == o.frozen;
+    }
+};
+
+// Everything the model gives at one (t, y), for output and diagnostics.
+struct Snapshot {
+    double temperature = 0.0, flux = nan, radius = 0.0;
+    Regime regime = Regime::Jeans;
+    std::vector<double> log_rate, lambda, source;
+};
+
+// The right-hand side and its diagnostics. One per run: scratch buffers make it not shareable.
+class Model {
+  public:
+    explicit Model(const EvolutionConfig& c) : c_(c), n_(c.species.size()) {
+        y0_.resize(n_);
+        mass_.resize(n_);
+        for (std::size_t i = 0; i < n_; ++i) {
+            y0_[i] = std::log(c.initial_inventory[i]);
+            mass_[i] = c.species[i].mass;
+        }
+        state_.log_density.assign(n_, 0.0);
+        state_.log_escape_rate.assign(n_, 0.0);
+        log_fraction_.resize(n_);
+        log_rate_.resize(n_);
+        lambda_.resize(n_);
+        needs_flux_ = c.temperature.needs_xuv_flux() || c.hydrodynamic.has_value();
+        log_area_factor_ = std::log(4.0 * constants::pi);
+        if (c.hydrodynamic) setup_hydrodynamic(*c.hydrodynamic);
+        mode_.frozen.assign(n_, 0);
+    }
+
+    std::size_t size() const { return n_; }
+    const std::vector<double>& y0() const { return y0_; }
+    const Mode& mode() const { return mode_; }
+    void set_mode(const Mode& m) { mode_ = m; }
+    std::size_t evaluations() const { return evaluations_; }
+
+    // dy_i/dt = S_i e^(-y_i) - Q_i e^(-y_i), Q_i from ln Q_i so that no rate overflows.
+    void rhs(const State& y, State& dydt, double t) {
+        evaluate(t, y, mode_);
+        for (std::size_t i = 0; i < n_; ++i) {
+            if (mode_.frozen[i]) {
+                dydt[i] = 0.0;
+                continue;
+            }
+            double d = -std::exp(log_rate_[i] - y[i]);
+            if (has_sources_) {
+                const double s = c_.sources[i](t);
+                if (s > 0.0) d += std::exp(std::log(s) - y[i]);
+            }
+            dydt[i] = d;
+        }
+    }
+
+    // Regime of the bulk gas (densest species at the exobase) at (t, y).
+    Regime regime(double t, const State& y) {
+        evaluate(t, y, mode_);
+        return bulk_regime_;
+    }
+
+    // All the diagnostics at (t, y) under `mode`.
+    void snapshot(double t, const State& y, const Mode& mode, Snapshot& s) {
+        evaluate(t, y, mode);
+        s.temperature = temperature_;
+        s.flux = flux_;
+        s.radius = state_.radius;
+        s.regime = bulk_regime_;
+        s.log_rate = log_rate_;
+        s.lambda = lambda_;
+        s.source.resize(n_);
+        for (std::size_t i = 0; i < n_; ++i)
+            s.source[i] = c_.sources.empty() ? 0.0 : c_.sources[i](t);
+        for (std::size_t i = 0; i < n_; ++i)
+            if (mode.frozen[i]) s.log_rate[i] = -inf;
+    }
+
+    // Whether energy-limited loss acts in `regime`.
+    bool energy_limited_in(Regime regime) const {
+        if (!c_.hydrodynamic) return false;
+        switch (c_.hydrodynamic->activation) {
+        case HydrodynamicActivation::Always: return true;
+        case HydrodynamicActivation::Transition:
+            return regime == Regime::Transition || regime == Regime::Hydrodynamic;
+        case HydrodynamicActivation::Hydrodynamic: return regime == Regime::Hydrodynamic;
+        }
+        return false;
+    }
+
+    // Why a derivative is not finite, for error messages.
+    std::string explain(std::size_t i, double t, const State& y) {
+        evaluate(t, y, mode_);
+        return "species " + c_.species[i].name + ": ln N = " + format_value(y[i]) +
+               ", ln Q = " + format_value(log_rate_[i]) +
+               ", Jeans parameter = " + format_value(lambda_[i]) +
+               ", exobase temperature = " + format_value(temperature_) +
+               " K, exobase radius = " + format_value(state_.radius) + " m";
+    }
+
+  private:
+    void setup_hydrodynamic(const HydrodynamicOptions& h) {
+        const Planet& p = c_.planet;
+        xuv_radius_ = h.xuv_radius > 0.0 ? h.xuv_radius : p.radius();
+        roche_ = 1.0;
+        if (h.roche_lobe)
+            roche_ = roche_lobe_factor(roche_lobe_ratio(p.mass(), p.star().mass(),
+                                                        p.semi_major_axis(), p.radius()));
+        escaping_ = 0;
+        if (h.escaping_species.empty()) {
+            for (std::size_t i = 1; i < n_; ++i)
+                if (mass_[i] < mass_[escaping_]) escaping_ = i;
+        } else {
+            for (std::size_t i = 0; i < n_; ++i)
+                if (c_.species[i].name == h.escaping_species) escaping_ = i;
+        }
+        laws_.assign(n_, DiffusionLaw{});
+        for (const auto& [name, law] : h.diffusion)
+            for (std::size_t i = 0; i < n_; ++i)
+                if (c_.species[i].name == name) laws_[i] = law;
+        mole_fraction_.resize(n_);
+        diffusion_.resize(n_);
+        partition_.resize(n_);
+    }
+
+    void evaluate(double t, const State& y, const Mode& mode) {
+        ++evaluations_;
+        flux_ = needs_flux_ ? c_.planet.xuv_flux(t) : nan;
+        temperature_ = c_.temperature(t, flux_);
+        for (std::size_t i = 0; i < n_; ++i) log_fraction_[i] = y[i] - y0_[i];
+        c_.exobase->evaluate(t, log_fraction_.data(), temperature_, state_);
+        const double r = state_.radius;
+        const double kT = k_B * temperature_;
+        const double gm_over_ktr = G * c_.planet.mass() / (kT * r);
+        const double log_area = log_area_factor_ + 2.0 * std::log(r);
+        std::size_t densest = 0;
+        for (std::size_t i = 0; i < n_; ++i) {
+            const double lambda = gm_over_ktr * mass_[i];
+            lambda_[i] = lambda;
+            if (state_.has_escape_rates) {
+                log_rate_[i] = state_.log_escape_rate[i];
+            } else {
+                // ln(4 pi r^2 n v0/(2 sqrt(pi)) (1 + lambda) e^-lambda f_tail(lambda))
+                const double log_v0 = 0.5 * std::log(2.0 * kT / mass_[i]);
+                double lr = log_area + state_.log_density[i] + log_v0 + log_inv_two_sqrt_pi +
+                            std::log1p(lambda) - lambda;
+                if (!c_.tail.is_identity()) lr += std::log(c_.tail(lambda));
+                log_rate_[i] = lr;
+            }
+            if (state_.log_density[i] > state_.log_density[densest]) densest = i;
+        }
+        bulk_regime_ = classify_regime(lambda_[densest], c_.thresholds);
+        if (mode.energy_limited) apply_energy_limited(y);
+    }
+
+    // Energy-limited loss of the light species, shared with the species it drags; a dragged
+    // species keeps its Jeans rate where that is larger.
+    void apply_energy_limited(const State& y) {
+        const HydrodynamicOptions& h = *c_.hydrodynamic;
+        const double mass_loss = energy_limited_mass_loss(h.efficiency, c_.planet.radius(),
+                                                          xuv_radius_, flux_, c_.planet.mass(),
+                                                          roche_);
+        double y_max = -inf;
+        for (std::size_t i = 0; i < n_; ++i) y_max = std::max(y_max, y[i]);
+        double sum = 0.0;
+        for (std::size_t i = 0; i < n_; ++i) sum += std::exp(y[i] - y_max);
+        for (std::size_t i = 0; i < n_; ++i) {
+            mole_fraction_[i] = std::exp(y[i] - y_max) / sum;
+            diffusion_[i] = laws_[i](temperature_);
+        }
+        partition_mass_loss(mass_loss, temperature_, c_.planet.mass(), escaping_, mass_.data(),
+                            mole_fraction_.data(), diffusion_.data(), n_, partition_.data());
+        for (std::size_t i = 0; i < n_; ++i) {
+            const double lp = partition_[i] > 0.0 ? std::log(partition_[i]) : -inf;
+            log_rate_[i] = i == escaping_ ? lp : std::max(log_rate_[i], lp);
+        }
+        // A vanishing mole fraction makes the shared rate 0 * inf: rebuild it in logs.
+        if (!(mole_fraction_[escaping_] > 0.0)) log_rate_[escaping_] = -inf;
+    }
+
+    const EvolutionConfig& c_;
+    std::size_t n_;
+    std::vector<double> y0_, mass_, log_fraction_, log_rate_, lambda_;
+    ExobaseState state_;
+    bool needs_flux_ = false;
+    bool has_sources_ = false;
+    double log_area_factor_ = 0.0;
+    double flux_ = nan, temperature_ = 0.0;
+    Regime bulk_regime_ = Regime::Jeans;
+    Mode mode_;
+    std::size_t evaluations_ = 0;
+    // energy-limited option
+    double xuv_radius_ = 0.0, roche_ = 1.0;
+    std::size_t escaping_ = 0;
+    std::vector<DiffusionLaw> laws_;
+    std::vector<double> mole_fraction_, diffusion_, partition_;
+
+  public:
+    void enable_sources(bool on) { has_sources_ = on; }
+};
+
+// The system functor handed to odeint: a pointer, so that copies are cheap.
+struct Rhs {
+    Model* model;
+    void operator()(const State& y, State& dydt, double t) const { model->rhs(y, dydt, t); }
+};
+
+// Collects the output time series.
+class Recorder {
+  public:
+    Recorder(EvolutionResult& r, std::size_t n,
+             const std::vector<std::pair<std::size_t, std::size_t>>& ratios)
+        : r_(r), n_(n), ratios_(ratios) {}
+
+    void record(double t, const State& y, const Snapshot& s, bool energy_limited) {
+        r_.time.push_back(t);
+        for (std::size_t i = 0; i < n_; ++i) {
+            r_.inventory.push_back(std::exp(y[i]));
+            r_.escape_rate.push_back(std::exp(s.log_rate[i]));
+            r_.source_rate.push_back(s.source[i]);
+            r_.jeans_parameter.push_back(s.lambda[i]);
+        }
+        r_.exobase_radius.push_back(s.radius);
+        r_.exobase_temperature.push_back(s.temperature);
+        r_.xuv_flux.push_back(s.flux);
+        r_.regime.push_back(static_cast<int>(s.regime));
+        r_.energy_limited.push_back(energy_limited ? 1 : 0);
+        for (const auto& [a, b] : ratios_) r_.isotope_ratio.push_back(std::exp(y[a] - y[b]));
+    }
+
+  private:
+    EvolutionResult& r_;
+    std::size_t n_;
+    const std::vector<std::pair<std::size_t, std::size_t>>& ratios_;
+};
+
+std::size_t index_of(const std::vector<Species>& species, const std::string& name,
+                     const char* what) {
+    for (std::size_t i = 0; i < species.size(); ++i)
+        if (species[i].name == name) return i;
+    std::string names;
+    for (const Species& s : species) names += (names.empty() ? "" : ", ") + s.name;
+    throw InputError(std::string(what) + " '" + name + "' is not among the species (" + names +
+                     ")");
+}
+
+// Bisection for the first time in [lo, hi] where `changed(t)` holds (it holds at hi, not at
+// lo), to the resolution of doubles.
+template <class Pred>
+double locate(double lo, double hi, Pred changed) {
+    for (int k = 0; k < 200 && hi - lo > 4.0 * std::numeric_limits<double>::epsilon() * std::abs(hi);
+         ++k) {
+        const double mid = 0.5 * (lo + hi);
+        if (mid <= lo || mid >= hi) break;
+        if (changed(mid))
+            hi = mid;
+        else
+            lo = mid;
+    }
+    return hi;
+}
+
+} // namespace
+
+SourceRate::SourceRate(double rate) : rate_(rate) { require_non_negative("source rate", rate); }
+
+SourceRate::SourceRate(std::vector<double> times, std::vector<double> rates) {
+    for (std::size_t i = 0; i < rates.size(); ++i)
+        if (!std::isfinite(rates[i]) || !(rates[i] >= 0.0))
+            throw InputError("source table: rates[" + std::to_string(i) +
+                             "] must be finite and >= 0, got " + format_value(rates[i]));
+    table_ = TimeTable(std::move(times), std::move(rates), "source table");
+}
+
+std::string SourceRate::to_json() const {
+    if (table_.empty()) return JsonObject().string("kind", "constant").number("rate_s-1", rate_).str();
+    return JsonObject()
+        .string("kind", "table")
+        .add("times_s", json_array(table_.times()))
+        .add("rates_s-1", json_array(table_.values()))
+        .str();
+}
+
+void EvolutionConfig::validate() const {
+    const std::size_t n = species.size();
+    if (n == 0) throw InputError("inventory: at least one species is needed");
+    if (!exobase) throw InputError("exobase: no exobase model given");
+    const auto& names = exobase->species_names();
+    if (names.size() != n)
+        throw InputError("exobase model has " + std::to_string(names.size()) +
+                         " species but the inventory has " + std::to_string(n));
+    for (std::size_t i = 0; i < n; ++i) {
+        if (names[i] != species[i].name)
+            throw InputError("exobase model species[" + std::to_string(i) + "] is '" + names[i] +
+                             "' but the inventory's is '" + species[i].name + "'");
+        exosieve::validate(species[i]);
+        for (std::size_t j = 0; j < i; ++j)
+            if (species[j].name == species[i].name)
+                throw InputError("inventory: species '" + species[i].name + "' appears twice");
+    }
+    if (initial_inventory.size() != n)
+        throw InputError("inventory: need one value per species, got " +
+                         std::to_string(initial_inventory.size()) + " for " + std::to_string(n));
+    for (std::size_t i = 0; i < n; ++i) {
+        const double v = initial_inventory[i];
+        if (!std::isfinite(v) || !(v > 0.0))
+            throw InputError("inventory of " + species[i].name + " must be finite and > 0 "
+                             "[particles], got " + format_value(v) +
+                             (v == 0.0 ? " (the inventory is integrated in logarithms: give a "
+                                         "small positive value for a species that starts absent)"
+                                       : ""));
+    }
+    require_finite("t_span start", t_start);
+    require_finite("t_span end", t_end);
+    if (!(t_start >= 0.0))
+        throw InputError("t_span start must be >= 0 [s], got " + format_value(t_start));
+    if (!(t_end > t_start))
+        throw InputError("t_span must be increasing: end " + format_value(t_end) +
+                         " s is not after start " + format_value(t_start) + " s");
+    for (std::size_t k = 0; k < t_eval.size(); ++k) {
+        const double t = t_eval[k];
+        if (!std::isfinite(t) || t < t_start || t > t_end)
+            throw InputError("t_eval[" + std::to_string(k) + "] = " + format_value(t) +
+                             " s is outside t_span [" + format_value(t_start) + ", " +
+                             format_value(t_end) + "] s");
+        if (k > 0 && !(t > t_eval[k - 1]))
+            throw InputError("t_eval must be strictly increasing, got t_eval[" +
+                             std::to_string(k) + "] = " + format_value(t) + " after " +
+                             format_value(t_eval[k - 1]));
+    }
+    if (!std::isfinite(rtol) || !(rtol > 0.0) || !(rtol < 1.0))
+        throw InputError("rtol must be finite and in (0, 1), got " + format_value(rtol));
+    if (rtol < 1e-13)
+        throw InputError("rtol below 1e-13 cannot be met in double precision, got " +
+                         format_value(rtol));
+    if (!atol.empty() && atol.size() != n)
+        throw InputError("atol: need one value per species or none, got " +
+                         std::to_string(atol.size()) + " for " + std::to_string(n));
+    for (std::size_t i = 0; i < atol.size(); ++i)
+        require_positive(("atol of " + species[i].name).c_str(), atol[i]);
+    if (!std::isfinite(depletion_fraction) || !(depletion_fraction > 0.0) ||
+        !(depletion_fraction < 1.0))
+        throw InputError("depletion_fraction must be in (0, 1), got " +
+                         format_value(depletion_fraction));
+    if (max_steps == 0) throw InputError("max_steps must be > 0");
+    if (!sources.empty() && sources.size() != n)
+        throw InputError("sources: need one per species or none, got " +
+                         std::to_string(sources.size()) + " for " + std::to_string(n));
+    thresholds.validate();
+    exobase->check(planet);
+    const bool needs_flux = temperature.needs_xuv_flux() || hydrodynamic.has_value();
+    if (needs_flux && !planet.has_star())
+        throw InputError(std::string(temperature.needs_xuv_flux() ? "an XUV-driven exobase "
+                                                                    "temperature"
+                                                                  : "the hydrodynamic option") +
+                         " needs the planet's semi_major_axis and star");
+    if (needs_flux && !(t_start > 0.0))
+        throw InputError("t_span start must be > 0 (a stellar age) when the XUV flux is used, "
+                         "got " + format_value(t_start));
+    if (hydrodynamic) {
+        hydrodynamic->validate();
+        if (!hydrodynamic->escaping_species.empty())
+            index_of(species, hydrodynamic->escaping_species, "escaping species");
+        for (const auto& d : hydrodynamic->diffusion) index_of(species, d.first, "dragged species");
+        if (hydrodynamic->xuv_radius > 0.0 && hydrodynamic->xuv_radius < planet.radius())
+            throw InputError("xuv_radius " + format_value(hydrodynamic->xuv_radius) +
+                             " m is below the planet radius " + format_value(planet.radius()) +
+                             " m");
+        if (hydrodynamic->roche_lobe)
+            roche_lobe_factor(roche_lobe_ratio(planet.mass(), planet.star().mass(),
+                                               planet.semi_major_axis(), planet.radius()));
+    }
+    for (const auto& [a, b] : isotope_ratios) {
+        index_of(species, a, "isotope ratio numerator");
+        index_of(species, b, "isotope ratio denominator");
+    }
+}
+
+std::string EvolutionConfig::to_json() const {
+    JsonObject planet_json;
+    planet_json.number("mass_kg", planet.mass()).number("radius_m", planet.radius());
+    if (planet.has_star()) {
+        const Star& s = planet.star();
+        planet_json.number("semi_major_axis_m", planet.semi_major_axis())
+            .add("star", JsonObject()
+                             .number("mass_kg", s.mass())
+                             .number("luminosity_W", s.luminosity())
+                             .number("xuv_saturation_ratio", s.xuv().saturation_ratio)
+                             .number("xuv_saturation_time_s", s.xuv().saturation_time)
+                             .number("xuv_decay_index", s.xuv().decay_index)
+                             .str());
+    }
+    std::vector<std::string> names;
+    std::vector<double> masses;
+    for (const Species& s : species) {
+        names.push_back(s.name);
+        masses.push_back(s.mass);
+    }
+    JsonObject o;
+    o.string("model", "exosieve.evolve")
+        .string("version", EXOSIEVE_VERSION)
+        .add("planet", planet_json.str())
+        .add("species", json_array(names))
+        .add("species_mass_kg", json_array(masses))
+        .add("initial_inventory", json_array(initial_inventory))
+        .add("exobase", exobase ? exobase->to_json() : "null")
+        .add("exobase_temperature", temperature.to_json());
+    if (!sources.empty()) {
+        JsonObject src;
+        for (std::size_t i = 0; i < sources.size(); ++i)
+            if (!sources[i].is_zero()) src.add(species[i].name, sources[i].to_json());
+        o.add("sources", src.str());
+    }
+    if (hydrodynamic) {
+        const HydrodynamicOptions& h = *hydrodynamic;
+        JsonObject diff;
+        for (const auto& [name, law] : h.diffusion)
+            diff.add(name, JsonObject()
+                               .number("coefficient_m-1_s-1", law.coefficient)
+                               .number("temperature_exponent", law.exponent)
+                               .str());
+        const char* act = h.activation == HydrodynamicActivation::Always       ? "always"
+                          : h.activation == HydrodynamicActivation::Transition ? "transition"
+                                                                               : "hydrodynamic";
+        o.add("hydrodynamic", JsonObject()
+                                  .number("efficiency", h.efficiency)
+                                  .number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius
+                                                                              : planet.radius())
+                                  .add("roche_lobe", h.roche_lobe ? "true" : "false")
+                                  .string("escaping_species", h.escaping_species)
+                                  .string("activation", act)
+                                  .add("diffusion", diff.str())
+                                  .str());
+    }
+    o.add("regime_thresholds", JsonObject()
+                                   .number("enhanced", thresholds.enhanced)
+                                   .number("transition", thresholds.transition)
+                                   .number("hydrodynamic", thresholds.hydrodynamic)
+                                   .str());
+    if (!tail.is_identity()) {
+        if (tail.table_jeans_parameter().empty())
+            o.number("tail_depletion", tail.constant());
+        else
+            o.add("tail_depletion", JsonObject()
+                                        .add("jeans_parameter",
+                                             json_array(tail.table_jeans_parameter()))
+                                        .add("factor", json_array(tail.table_factor()))
+                                        .str());
+    }
+    std::vector<std::string> ratio_names;
+    for (const auto& [a, b] : isotope_ratios) ratio_names.push_back(a + "/" + b);
+    o.add("t_span_s", json_array(std::vector<double>{t_start, t_end}))
+        .number("rtol", rtol)
+        .add("atol", atol.empty() ? "null" : json_array(atol))
+        .number("depletion_fraction", depletion_fraction)
+        .number("max_steps", static_cast<double>(max_steps))
+        .add("isotope_ratios", json_array(ratio_names))
+        .string("integrator", "Boost.Odeint runge_kutta_dopri5 on ln N, controlled, dense output");
+    return o.str();
+}
+
+std::vector<std::pair<std::string, std::string>> default_isotope_ratios(
+    const std::vector<std::string>& species) {
+    static const std::pair<const char*, const char*> known[] = {
+        {"D", "H"}, {"HD", "H2"}, {"3He", "He"}, {"36Ar", "38Ar"}, {"40Ar", "36Ar"}};
+    std::vector<std::pair<std::string, std::string>> out;
+    auto has = [&](const char* name) {
+        return std::find(species.begin(), species.end(), name) != species.end();
+    };
+    for (const auto& [a, b] : known)
+        if (has(a) && has(b)) out.emplace_back(a, b);
+    return out;
+}
+
+EvolutionResult evolve(const EvolutionConfig& c) {
+    c.validate();
+    const std::size_t n = c.species.size();
+    Model model(c);
+    bool any_source = false;
+    for (const SourceRate& s : c.sources) any_source = any_source || !s.is_zero();
+    model.enable_sources(any_source);
+
+    EvolutionResult r;
+    for (const Species& s : c.species) r.species.push_back(s.name);
+    std::vector<std::pair<std::size_t, std::size_t>> ratios;
+    for (const auto& [a, b] : c.isotope_ratios) {
+        ratios.emplace_back(index_of(c.species, a, "isotope ratio numerator"),
+                            index_of(c.species, b, "isotope ratio denominator"));
+        r.ratio_names.push_back(a + "/" + b);
+    }
+    r.depletion_time.assign(n, nan);
+    r.config = c.to_json();
+    Recorder recorder(r, n, ratios);
+
+    // Tolerances in logs, and the depletion level of each species.
+    State log_atol(n);
+    std::vector<double> log_depleted(n);
+    for (std::size_t i = 0; i < n; ++i) {
+        const double a = c.atol.empty() ? c.rtol * c.depletion_fraction * c.initial_inventory[i]
+                                        : c.atol[i];
+        log_atol[i] = std::log(a);
+        log_depleted[i] = std::log(c.depletion_fraction) + model.y0()[i];
+    }
+
+    // Times where a history has a kink: no step straddles them.
+    std::vector<double> stops = c.temperature.breakpoints(c.planet, c.t_start, c.t_end);
+    for (const SourceRate& s : c.sources)
+        for (double t : s.table().times())
+            if (t > c.t_start && t < c.t_end) stops.push_back(t);
+    if ((c.temperature.needs_xuv_flux() || c.hydrodynamic) && c.planet.has_star()) {
+        const double ts = c.planet.star().xuv().saturation_time;
+        if (ts > c.t_start && ts < c.t_end) stops.push_back(ts);
+    }
+    std::sort(stops.begin(), stops.end());
+    stops.erase(std::unique(stops.begin(), stops.end()), stops.end());
+    stops.push_back(c.t_end);
+
+    double t = c.t_start;
+    State y(n), dydt(n), y_new(n), dydt_new(n), y_probe(n);
+    for (std::size_t i = 0; i < n; ++i) y[i] = model.y0()[i];
+
+    Mode mode;
+    mode.frozen.assign(n, 0);
+    Regime regime = model.regime(t, y); // also probes a callable temperature before any step
+    mode.energy_limited = model.energy_limited_in(regime);
+    model.set_mode(mode);
+    model.rhs(y, dydt, t);
+    for (std::size_t i = 0; i < n; ++i)
+        if (!std::isfinite(dydt[i]))
+            throw NumericalError("the initial rate of change is not finite at t = " + when(t) +
+                                 ": " + model.explain(i, t, y));
+
+    Snapshot snap;
+    std::size_t next_eval = 0;
+    auto record = [&](double time, const State& state) {
+        model.snapshot(time, state, mode, snap);
+        recorder.record(time, state, snap, mode.energy_limited);
+    };
+    if (c.t_eval.empty()) {
+        record(t, y);
+    } else if (c.t_eval[0] == t) {
+        record(t, y);
+        next_eval = 1;
+    }
+
+    // First step: a small fraction of the time scale set by the stellar age (histories vary on
+    // it), the span and the fastest e-folding; the controller grows it by up to 5x per step.
+    double scale = c.t_end - c.t_start;
+    if (c.t_start > 0.0) scale = std::min(scale, c.t_start);
+    for (std::size_t i = 0; i < n; ++i)
+        if (dydt[i] != 0.0) scale = std::min(scale, 1.0 / std::abs(dydt[i]));
+    double dt = 0.01 * std::pow(c.rtol, 0.2) * scale;
+
+    std::size_t worst = 0;
+    Controlled stepper{LogErrorChecker(c.rtol, &log_atol, &worst)};
+    Rhs system{&model};
+    std::size_t stop_index = 0;
+    std::size_t consecutive_rejections = 0;
+    const double span = c.t_end - c.t_start;
+
+    while (t < c.t_end) {
+        if (r.steps + r.rejected_steps >= c.max_steps)
+            throw NumericalError(
+                "no progress: max_steps = " + std::to_string(c.max_steps) + " steps used (" +
+                std::to_string(r.rejected_steps) + " rejected) and only t = " + when(t) +
+                " of t_span end " + when(c.t_end) + " reached; step size " + format_value(dt) +
+                " s, limited by the error of ln N[" + c.species[worst].name + "] (" +
+                model.explain(worst, t, y) + "); raise max_steps or loosen rtol/atol");
+        const double t_stop = stops[stop_index];
+        const bool landing = dt >= t_stop - t;
+        const double h_planned = landing ? t_stop - t : dt;
+        double h = h_planned;
+        double t_try = t;
+        const auto result = stepper.try_step(system, y, dydt, t_try, y_new, dydt_new, h);
+        if (result == odeint::fail) {
+            ++r.rejected_steps;
+            ++consecutive_rejections;
+            dt = h;
+            if (consecutive_rejections > 50 || dt < 1e-14 * std::max(std::abs(t), span)) {
+                std::string why = "the error of ln N[" + c.species[worst].name +
+                                  "] stays above tolerance";
+                for (std::size_t i = 0; i < n; ++i)
+                    if (!std::isfinite(y_new[i]) || !std::isfinite(dydt_new[i])) {
+                        why = "the rate of change of " + c.species[i].name +
+                              " is not finite within the step";
+                        worst = i;
+                        break;
+                    }
+                throw NumericalError("no progress at t = " + when(t) + ": the step size fell to " +
+                                     format_value(dt) + " s after " +
+                                     std::to_string(consecutive_rejections) +
+                                     " rejected steps; " + why + " (" +
+                                     model.explain(worst, t, y) + ")");
+            }
+            continue;
+        }
+        consecutive_rejections = 0;
+        ++r.steps;
+        const double t_step_end = t + h_planned; // the end used by the interpolant
+        const double t_new = landing ? t_stop : t_try;
+        // h now holds the controller's proposal; a step cut short to land on a stop keeps the
+        // larger step it had planned.
+        dt = landing ? std::max(h, dt) : h;
+
+        auto dense = [&](double tq, State& out) {
+            stepper.stepper().calc_state(tq, out, y, dydt, t, y_new, dydt_new, t_step_end);
+        };
+
+        // Events inside (t, t_new]: depletion (a mode change when the species' loss does not
+        // follow its inventory) and regime changes (a mode change when they switch the
+        // energy-limited option).
+        double t_cut = t_new;
+        Mode next_mode = mode;
+        std::vector<double> depleted_at(n, nan);
+        for (std::size_t i = 0; i < n; ++i) {
+            if (!std::isnan(r.depletion_time[i]) || !(y_new[i] < log_depleted[i])) continue;
+            depleted_at[i] = locate(t, t_new, [&](double tq) {
+                dense(tq, y_probe);
+                return y_probe[i] < log_depleted[i];
+            });
+        }
+        if (!c.exobase->loss_follows_inventory()) {
+            double first = inf;
+            for (std::size_t i = 0; i < n; ++i)
+                if (!std::isnan(depleted_at[i])) first = std::min(first, depleted_at[i]);
+            if (first < t_cut) t_cut = first;
+        }
+        const Regime regime_new = model.regime(t_new, y_new);
+        double regime_time = nan;
+        Regime regime_after = regime_new;
+        if (regime_new != regime) {
+            regime_time = locate(t, t_new, [&](double tq) {
+                dense(tq, y_probe);
+                return model.regime(tq, y_probe) != regime;
+            });
+            dense(regime_time, y_probe);
+            regime_after = model.regime(regime_time, y_probe);
+            if (model.energy_limited_in(regime_after) != mode.energy_limited &&
+                regime_time < t_cut)
+                t_cut = regime_time;
+        }
+        // Apply the events at or before t_cut.
+        for (std::size_t i = 0; i < n; ++i)
+            if (!std::isnan(depleted_at[i]) && depleted_at[i] <= t_cut) {
+                r.depletion_time[i] = depleted_at[i];
+                if (!c.exobase->loss_follows_inventory()) next_mode.frozen[i] = 1;
+            }
+        if (!std::isnan(regime_time) && regime_time <= t_cut) {
+            r.regime_changes.push_back({regime_time, regime, regime_after});
+            regime = regime_after;
+            next_mode.energy_limited = model.energy_limited_in(regime);
+        }
+        // Output inside (t, t_cut].
+        while (next_eval < c.t_eval.size() && c.t_eval[next_eval] <= t_cut) {
+            const double te = c.t_eval[next_eval];
+            if (te == t_new && t_cut == t_new) {
+                record(te, y_new);
+            } else {
+                dense(te, y_probe);
+                record(te, y_probe);
+            }
+            ++next_eval;
+        }
+        if (t_cut < t_new) {
+            dense(t_cut, y_probe);
+            y = y_probe;
+            t = t_cut;
+            if (c.t_eval.empty()) record(t, y);
+            mode = next_mode;
+            model.set_mode(mode);
+            model.rhs(y, dydt, t);
+        } else {
+            y.swap(y_new);
+            dydt.swap(dydt_new);
+            t = t_new;
+            if (c.t_eval.empty()) record(t, y);
+            if (landing) ++stop_index;
+            if (!(next_mode == mode)) {
+                mode = next_mode;
+                model.set_mode(mode);
+                model.rhs(y, dydt, t);
+            }
+        }
+        if (c.progress && !c.progress(t)) {
+            r.t_reached = t;
+            r.completed = false;
+            r.rhs_evaluations = model.evaluations();
+            return r;
+        }
+    }
+    r.t_reached = t;
+    r.completed = true;
+    r.rhs_evaluations = model.evaluations();
+    return r;
+}
+
+} // namespace exosieve

@@ -1,0 +1,168 @@
+#include "exosieve/hydrodynamic.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <numeric>
+
+#include "exosieve/constants.hpp"
+#include "exosieve/errors.hpp"
+
+namespace exosieve {
+
+using constants::G;
+using constants::k_B;
+
+const char* regime_name(Regime regime) {
+    switch (regime) {
+    case Regime::Jeans: return "jeans";
+    case Regime::EnhancedJeans: return "enhanced_jeans";
+    case Regime::Transition: return "transition";
+    case Regime::Hydrodynamic: return "hydrodynamic";
+    }
+    return "unknown";
+}
+
+void RegimeThresholds::validate() const {
+    require_positive("hydrodynamic threshold", hydrodynamic);
+    require_positive("transition threshold", transition);
+    require_positive("enhanced threshold", enhanced);
+    if (!(hydrodynamic < transition && transition < enhanced))
+        throw InputError("regime thresholds must satisfy hydrodynamic < transition < enhanced, "
+                         "got " + format_value(hydrodynamic) + ", " + format_value(transition) +
+                         ", " + format_value(enhanced));
+}
+
+Regime classify_regime(double lambda, const RegimeThresholds& t) {
+    if (lambda > t.enhanced) return Regime::Jeans;
+    if (lambda > t.transition) return Regime::EnhancedJeans;
+    if (lambda > t.hydrodynamic) return Regime::Transition;
+    return Regime::Hydrodynamic;
+}
+
+double roche_lobe_ratio(double planet_mass, double star_mass, double semi_major_axis,
+                        double radius) {
+    require_positive("planet_mass", planet_mass);
+    require_positive("star_mass", star_mass);
+    require_positive("semi_major_axis", semi_major_axis);
+    require_positive("radius", radius);
+    return semi_major_axis * std::cbrt(planet_mass / (3.0 * star_mass)) / radius;
+}
+
+double roche_lobe_factor(double xi) {
+    require_finite("roche lobe ratio xi", xi);
+    if (!(xi > 1.0))
+        throw InputError("roche lobe ratio xi must be > 1 (the planet inside its Roche lobe), got " +
+                         format_value(xi));
+    return 1.0 - 1.5 / xi + 0.5 / (xi * xi * xi);
+}
+
+double energy_limited_mass_loss(double efficiency, double planet_radius, double xuv_radius,
+                                double xuv_flux, double planet_mass, double roche_factor) {
+    require_positive("efficiency", efficiency);
+    if (efficiency > 1.0)
+        throw InputError("efficiency must be <= 1, got " + format_value(efficiency));
+    require_positive("planet_radius", planet_radius);
+    require_positive("xuv_radius", xuv_radius);
+    require_non_negative("xuv_flux", xuv_flux);
+    require_positive("planet_mass", planet_mass);
+    require_positive("roche_factor", roche_factor);
+    if (roche_factor > 1.0)
+        throw InputError("roche_factor must be <= 1, got " + format_value(roche_factor));
+    return efficiency * constants::pi * planet_radius * xuv_radius * xuv_radius * xuv_flux /
+           (G * planet_mass * roche_factor);
+}
+
+double crossover_mass(double light_mass, double temperature, double light_flux,
+                      double diffusion_parameter, double gravity, double light_mole_fraction) {
+    require_positive("light_mass", light_mass);
+    require_positive("temperature", temperature);
+    require_non_negative("light_flux", light_flux);
+    require_positive("diffusion_parameter", diffusion_parameter);
+    require_positive("gravity", gravity);
+    require_positive("light_mole_fraction", light_mole_fraction);
+    return light_mass +
+           k_B * temperature * light_flux / (diffusion_parameter * gravity * light_mole_fraction);
+}
+
+double dragged_flux(double mass, double mole_fraction, double light_mass, double light_flux,
+                    double light_mole_fraction, double crossover) {
+    require_positive("mass", mass);
+    require_non_negative("mole_fraction", mole_fraction);
+    require_positive("light_mass", light_mass);
+    require_non_negative("light_flux", light_flux);
+    require_positive("light_mole_fraction", light_mole_fraction);
+    require_positive("crossover_mass", crossover);
+    if (!(mass < crossover) || !(crossover > light_mass)) return 0.0;
+    return mole_fraction / light_mole_fraction * light_flux * (crossover - mass) /
+           (crossover - light_mass);
+}
+
+double DiffusionLaw::operator()(double temperature) const {
+    return exponent == 0.0 ? coefficient : coefficient * std::pow(temperature, exponent);
+}
+
+void partition_mass_loss(double mass_loss, double temperature, double planet_mass,
+                         std::size_t escaping, const double* mass, const double* mole_fraction,
+                         const double* diffusion_parameter, std::size_t n, double* rates) {
+    std::fill(rates, rates + n, 0.0);
+    const double m1 = mass[escaping];
+    const double x1 = mole_fraction[escaping];
+    if (!(mass_loss > 0.0) || !(x1 > 0.0)) return;
+    // Dragged species j: threshold q_j and slope weight w_j = m_j x_j / x_1, so that
+    // total(Q1) = m1 Q1 + sum_j w_j max(0, Q1 - q_j).
+    struct Dragged {
+        std::size_t index;
+        double threshold;
+        double weight;
+    };
+    Dragged list[64];
+    std::vector<Dragged> heap;
+    Dragged* dragged = list;
+    if (n > 64) {
+        heap.resize(n);
+        dragged = heap.data();
+    }
+    std::size_t count = 0;
+    const double scale = 4.0 * constants::pi * G * planet_mass * x1 / (k_B * temperature);
+    for (std::size_t j = 0; j < n; ++j) {
+        if (j == escaping || !(diffusion_parameter[j] > 0.0) || mass[j] < m1) continue;
+        if (!(mole_fraction[j] > 0.0)) continue;
+        dragged[count++] = {j, scale * (mass[j] - m1) * diffusion_parameter[j],
+                            mass[j] * mole_fraction[j] / x1};
+    }
+    std::sort(dragged, dragged + count,
+              [](const Dragged& a, const Dragged& b) { return a.threshold < b.threshold; });
+    // Walk the breakpoints: on [q_k, q_{k+1}] total(Q1) is linear with slope m1 + sum w_j.
+    double slope = m1, offset = 0.0; // total(Q1) = slope Q1 - offset on the current piece
+    double light = 0.0;
+    std::size_t k = 0;
+    for (;; ++k) {
+        const double end = k < count ? dragged[k].threshold : INFINITY;
+        const double total_at_end = slope * end - offset;
+        if (!(total_at_end < mass_loss)) {
+            light = (mass_loss + offset) / slope;
+            break;
+        }
+        slope += dragged[k].weight;
+        offset += dragged[k].weight * dragged[k].threshold;
+    }
+    rates[escaping] = light;
+    for (std::size_t j = 0; j < k; ++j)
+        rates[dragged[j].index] =
+            mole_fraction[dragged[j].index] / x1 * std::max(0.0, light - dragged[j].threshold);
+}
+
+void HydrodynamicOptions::validate() const {
+    require_positive("efficiency", efficiency);
+    if (efficiency > 1.0)
+        throw InputError("efficiency must be <= 1, got " + format_value(efficiency));
+    require_non_negative("xuv_radius", xuv_radius);
+    for (const auto& [name, law] : diffusion) {
+        if (!std::isfinite(law.coefficient) || !(law.coefficient >= 0.0))
+            throw InputError("diffusion coefficient of " + name + " must be finite and >= 0, got " +
+                             format_value(law.coefficient));
+        require_finite(("diffusion exponent of " + name).c_str(), law.exponent);
+    }
+}
+
+} // namespace exosieve
