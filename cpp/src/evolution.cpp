@@ -168,6 +168,14 @@ class Model {
         return false;
     }
 
+    // True when species i's loss vanishes with its inventory under `mode`; otherwise its
+    // inventory would reach zero in finite time, where ln N is singular, so it is held at
+    // depletion.
+    bool loss_follows_inventory(std::size_t i, const Mode& mode) const {
+        if (!c_.exobase->loss_follows_inventory()) return false;
+        return !(mode.energy_limited && i == escaping_);
+    }
+
     // Why a derivative is not finite, for error messages.
     std::string explain(std::size_t i, double t, const State& y) {
         evaluate(t, y, mode_);
@@ -656,7 +664,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             ++r.rejected_steps;
             ++consecutive_rejections;
             dt = h;
-            if (consecutive_rejections > 50 || dt < 1e-14 * std::max(std::abs(t), span)) {
+            if (consecutive_rejections > 50 ||
+                dt < 8.0 * std::numeric_limits<double>::epsilon() * std::max(std::abs(t), span)) {
                 std::string why = "the error of ln N[" + c.species[worst].name +
                                   "] stays above tolerance";
                 for (std::size_t i = 0; i < n; ++i)
@@ -699,12 +708,9 @@ EvolutionResult evolve(const EvolutionConfig& c) {
                 return y_probe[i] < log_depleted[i];
             });
         }
-        if (!c.exobase->loss_follows_inventory()) {
-            double first = inf;
-            for (std::size_t i = 0; i < n; ++i)
-                if (!std::isnan(depleted_at[i])) first = std::min(first, depleted_at[i]);
-            if (first < t_cut) t_cut = first;
-        }
+        for (std::size_t i = 0; i < n; ++i)
+            if (!std::isnan(depleted_at[i]) && !model.loss_follows_inventory(i, mode))
+                t_cut = std::min(t_cut, depleted_at[i]);
         const Regime regime_new = model.regime(t_new, y_new);
         double regime_time = nan;
         Regime regime_after = regime_new;
@@ -723,7 +729,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         for (std::size_t i = 0; i < n; ++i)
             if (!std::isnan(depleted_at[i]) && depleted_at[i] <= t_cut) {
                 r.depletion_time[i] = depleted_at[i];
-                if (!c.exobase->loss_follows_inventory()) next_mode.frozen[i] = 1;
+                if (!model.loss_follows_inventory(i, mode)) next_mode.frozen[i] = 1;
             }
         if (!std::isnan(regime_time) && regime_time <= t_cut) {
             r.regime_changes.push_back({regime_time, regime, regime_after});

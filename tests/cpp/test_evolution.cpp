@@ -1,0 +1,384 @@
+#include <doctest/doctest.h>
+
+#include <atomic>
+#include <cmath>
+#include <memory>
+#include <string>
+#include <thread>
+#include <vector>
+
+#include "exosieve/constants.hpp"
+#include "exosieve/errors.hpp"
+#include "exosieve/evolution.hpp"
+#include "exosieve/jeans.hpp"
+
+using namespace exosieve;
+using constants::Gyr;
+using constants::Myr;
+
+namespace {
+
+const double r_exo = constants::R_earth + 500e3;
+
+// An Earth-mass planet with a prescribed exobase 500 km up.
+EvolutionConfig prescribed(const std::vector<std::string>& names, const std::vector<double>& n0,
+                           const std::vector<double>& N0, DensityScaling scaling, double T) {
+    EvolutionConfig c(Planet(constants::M_earth, constants::R_earth));
+    for (const auto& name : names) c.species.push_back(species(name));
+    c.initial_inventory = N0;
+    c.exobase = std::make_shared<PrescribedExobase>(r_exo, names, n0, scaling);
+    c.temperature = ExobaseTemperature::constant(T);
+    return c;
+}
+
+double rate(const std::string& name, double n, double T) {
+    return jeans_escape_rate(n, T, species(name).mass, constants::M_earth, r_exo);
+}
+
+std::size_t col(const EvolutionResult& r, std::size_t k, std::size_t i) {
+    return k * r.species_count() + i;
+}
+
+} // namespace
+
+TEST_CASE("exponential decay when densities follow the inventory at constant temperature") {
+    // Worked analytic solution: dN/dt = -(Q0/N0) N, so N(t) = N0 exp(-Q0 t / N0).
+    const double T = 1000.0, n0 = 1e11;
+    const double Q0 = rate("H", n0, T);
+    const double N0 = Q0 * 1.0 * Gyr; // e-folding time 1 Gyr
+    auto c = prescribed({"H"}, {n0}, {N0}, DensityScaling::Inventory, T);
+    c.t_start = 0.0;
+    c.t_end = 8 * Gyr;
+    c.rtol = 1e-10;
+    c.depletion_fraction = 1e-3;
+    for (int k = 0; k <= 50; ++k) c.t_eval.push_back(0.1 * k * Gyr);
+    const auto r = evolve(c);
+    REQUIRE(r.completed);
+    REQUIRE(r.time_count() == 51);
+    for (std::size_t k = 0; k < r.time_count(); ++k) {
+        const double exact = N0 * std::exp(-Q0 * r.time[k] / N0);
+        CHECK(r.inventory[k] == doctest::Approx(exact).epsilon(1e-9));
+        CHECK(r.escape_rate[k] == doctest::Approx(Q0 * exact / N0).epsilon(1e-9));
+    }
+    // In ln N the solution is linear: a handful of steps, whatever the span.
+    CHECK(r.steps < 20);
+    CHECK(r.rejected_steps == 0);
+    // Depletion when N = 1e-3 N0: t = ln(1000) Gyr.
+    CHECK(r.depletion_time[0] == doctest::Approx(std::log(1000.0) * Gyr).epsilon(1e-9));
+    CHECK(r.exobase_temperature[3] == T);
+    CHECK(r.exobase_radius[3] == r_exo);
+}
+
+TEST_CASE("linear loss and the depletion time when densities are fixed") {
+    // Worked analytic solution: dN/dt = -Q0, N(t) = N0 - Q0 t; N = f N0 at t = (1 - f) N0 / Q0.
+    const double T = 1000.0, n0 = 1e11, f = 1e-3;
+    const double Q0 = rate("H", n0, T);
+    const double N0 = Q0 * 2.0 * Gyr;
+    auto c = prescribed({"H"}, {n0}, {N0}, DensityScaling::Fixed, T);
+    c.t_end = 3 * Gyr;
+    c.rtol = 1e-9;
+    c.depletion_fraction = f;
+    for (int k = 0; k <= 30; ++k) c.t_eval.push_back(0.1 * k * Gyr);
+    const auto r = evolve(c);
+    REQUIRE(r.completed);
+    const double t_dep = (1 - f) * N0 / Q0;
+    CHECK(r.depletion_time[0] == doctest::Approx(t_dep).epsilon(1e-9));
+    for (std::size_t k = 0; k < r.time_count(); ++k) {
+        CAPTURE(r.time[k]);
+        if (r.time[k] < t_dep) {
+            CHECK(r.inventory[k] == doctest::Approx(N0 - Q0 * r.time[k]).epsilon(1e-8));
+            CHECK(r.escape_rate[k] == doctest::Approx(Q0).epsilon(1e-12));
+        } else {
+            // After depletion a fixed density cannot be fed: the species is held and stops.
+            CHECK(r.inventory[k] == doctest::Approx(f * N0).epsilon(1e-8));
+            CHECK(r.escape_rate[k] == 0.0);
+        }
+    }
+}
+
+TEST_CASE("piecewise behaviour under a temperature table") {
+    // Temperature held at 900 K until 1 Gyr, linear to 1200 K at 2 Gyr, held after (the table's
+    // definition). Densities follow the inventory, so ln N(t) = ln N0 - integral of k(T(t)) dt
+    // with k(T) = Q(n0, T) / N0: exactly linear in t outside the ramp. Reference for the ramp:
+    // composite Simpson's rule with 20000 intervals (worked quadrature).
+    const double n0 = 1e11, T1 = 900.0, T2 = 1200.0;
+    const double N0 = rate("H", n0, T2) * 3.0 * Gyr;
+    auto c = prescribed({"H"}, {n0}, {N0}, DensityScaling::Inventory, T1);
+    c.temperature = ExobaseTemperature::table({1 * Gyr, 2 * Gyr}, {T1, T2});
+    c.t_end = 4 * Gyr;
+    c.rtol = 1e-10;
+    c.t_eval = {0.5 * Gyr, 1 * Gyr, 1.5 * Gyr, 2 * Gyr, 3 * Gyr, 4 * Gyr};
+    const auto r = evolve(c);
+    auto k = [&](double T) { return rate("H", n0, T) / N0; };
+    auto ramp = [&](double t_end) { // integral of k(T(t)) over [1 Gyr, t_end]
+        const int m = 20000;
+        const double a = 1 * Gyr, h = (t_end - a) / m;
+        double s = 0.0;
+        for (int i = 0; i <= m; ++i) {
+            const double t = a + i * h;
+            const double w = (i == 0 || i == m) ? 1 : (i % 2 ? 4 : 2);
+            s += w * k(T1 + (T2 - T1) * (t - a) / Gyr);
+        }
+        return s * h / 3.0;
+    };
+    const double full_ramp = ramp(2 * Gyr);
+    const std::vector<double> expected_log = {
+        -k(T1) * 0.5 * Gyr,
+        -k(T1) * 1.0 * Gyr,
+        -k(T1) * 1.0 * Gyr - ramp(1.5 * Gyr),
+        -k(T1) * 1.0 * Gyr - full_ramp,
+        -k(T1) * 1.0 * Gyr - full_ramp - k(T2) * 1.0 * Gyr,
+        -k(T1) * 1.0 * Gyr - full_ramp - k(T2) * 2.0 * Gyr,
+    };
+    REQUIRE(r.time_count() == expected_log.size());
+    for (std::size_t i = 0; i < expected_log.size(); ++i) {
+        CAPTURE(r.time[i]);
+        CHECK(std::log(r.inventory[i] / N0) == doctest::Approx(expected_log[i]).epsilon(1e-9));
+    }
+    CHECK(r.exobase_temperature[2] == doctest::Approx(1050.0).epsilon(1e-14));
+}
+
+TEST_CASE("the Rayleigh law R/R0 = f^(alpha - 1) for D against H") {
+    // Rayleigh fractionation (worked analytic solution): with both losses proportional to the
+    // inventories, f = N_H/N_H0 = exp(-k_H t) and N_D/N_D0 = f^alpha, alpha = k_D / k_H, so the
+    // D/H ratio relative to its start is f^(alpha - 1).
+    const double T = 1500.0;
+    const std::vector<double> n0 = {1e11, 1e7};
+    const double N_H0 = rate("H", n0[0], T) * 1.0 * Gyr;
+    const std::vector<double> N0 = {N_H0, N_H0 * 1e-4};
+    auto c = prescribed({"H", "D"}, n0, N0, DensityScaling::Inventory, T);
+    c.t_end = 4 * Gyr;
+    c.rtol = 1e-10;
+    c.isotope_ratios = default_isotope_ratios({"H", "D"});
+    REQUIRE(c.isotope_ratios.size() == 1);
+    const auto r = evolve(c);
+    REQUIRE(r.ratio_names.size() == 1);
+    CHECK(r.ratio_names[0] == "D/H");
+    const double alpha = (rate("D", n0[1], T) / N0[1]) / (rate("H", n0[0], T) / N0[0]);
+    CHECK(alpha < 1.0); // D escapes less efficiently
+    for (std::size_t k = 1; k < r.time_count(); ++k) {
+        const double f = r.inventory[col(r, k, 0)] / N0[0];
+        const double ratio0 = N0[1] / N0[0];
+        CHECK(r.isotope_ratio[k] / ratio0 == doctest::Approx(std::pow(f, alpha - 1)).epsilon(1e-8));
+    }
+    // Enrichment at the end: H fell by e^-4, so D/H rose by e^(4 (1 - alpha)).
+    CHECK(r.isotope_ratio.back() / (N0[1] / N0[0]) ==
+          doctest::Approx(std::exp(4.0 * (1 - alpha))).epsilon(1e-8));
+}
+
+TEST_CASE("a species gone in 1e4 yr beside one lasting 10 Gyr costs no more steps") {
+    // Stiffness check: e-folding times 1e4 yr and 10 Gyr in one run over 10 Gyr under a
+    // temperature that varies. Reference: the exact exponential of the slow species at
+    // constant temperature (worked analytic solution), then a varying-temperature run compared
+    // to one with the slow species alone.
+    const double T = 1000.0;
+    const std::vector<double> n0 = {1e11, 1e11};
+    const std::vector<double> N0 = {rate("H", n0[0], T) * 1e4 * constants::year,
+                                    rate("O", n0[1], T) * 10 * Gyr};
+    auto c = prescribed({"H", "O"}, n0, N0, DensityScaling::Inventory, T);
+    c.t_end = 10 * Gyr;
+    c.rtol = 1e-8;
+    auto r = evolve(c);
+    CHECK(r.steps < 30);
+    CHECK(r.inventory.back() == doctest::Approx(N0[1] * std::exp(-1.0)).epsilon(1e-7));
+    CHECK(r.depletion_time[0] == doctest::Approx(std::log(1000.0) * 1e4 * constants::year)
+                                     .epsilon(1e-7));
+    // Now with a temperature that falls over the run (1e4 yr to 10 Gyr).
+    c.temperature = ExobaseTemperature::table({0.0, 10 * Gyr}, {1000.0, 700.0});
+    c.t_start = 1e4 * constants::year;
+    r = evolve(c);
+    auto alone = prescribed({"O"}, {n0[1]}, {N0[1]}, DensityScaling::Inventory, T);
+    alone.temperature = c.temperature;
+    alone.t_start = c.t_start;
+    alone.t_end = c.t_end;
+    alone.rtol = c.rtol;
+    const auto r1 = evolve(alone);
+    MESSAGE("two species: " << r.steps << " steps (" << r.rejected_steps
+                            << " rejected); slow species alone: " << r1.steps << " steps");
+    CHECK(r.steps <= r1.steps + 10);
+    CHECK(r.inventory.back() == doctest::Approx(r1.inventory.back()).epsilon(1e-7));
+    // The fast species went far below 1e-308 of its start and stayed finite in logs.
+    CHECK(r.inventory[col(r, r.time_count() - 1, 0)] == 0.0);
+    CHECK(std::isfinite(r.escape_rate[col(r, r.time_count() - 1, 0)]));
+}
+
+TEST_CASE("outgassing: a constant source balances a proportional loss") {
+    // dN/dt = S - k N: N(t) = S/k + (N0 - S/k) exp(-k t) (worked analytic solution).
+    const double T = 1000.0, n0 = 1e11;
+    const double Q0 = rate("H", n0, T);
+    const double N0 = Q0 * 1.0 * Gyr, k = Q0 / N0, S = 0.3 * Q0;
+    auto c = prescribed({"H"}, {n0}, {N0}, DensityScaling::Inventory, T);
+    c.sources = {SourceRate(S)};
+    c.t_end = 5 * Gyr;
+    c.rtol = 1e-10;
+    c.t_eval = {1 * Gyr, 2 * Gyr, 5 * Gyr};
+    const auto r = evolve(c);
+    for (std::size_t i = 0; i < 3; ++i) {
+        const double t = r.time[i];
+        CHECK(r.inventory[i] == doctest::Approx(S / k + (N0 - S / k) * std::exp(-k * t)).epsilon(1e-9));
+        CHECK(r.source_rate[i] == S);
+    }
+}
+
+TEST_CASE("a regime change is located where the bulk Jeans parameter crosses its threshold") {
+    // H dominates; the temperature ramps 1000 -> 2000 K over 1 Gyr. lambda_H = G M m / (k T r)
+    // crosses 6 (Volkov et al. 2011 threshold) where T = G M m / (6 k r): an exact time on the
+    // linear table.
+    auto c = prescribed({"H", "O"}, {1e13, 1e10}, {1e45, 1e42}, DensityScaling::Inventory, 1000.0);
+    c.temperature = ExobaseTemperature::table({0.0, 1 * Gyr}, {1000.0, 2000.0});
+    c.t_end = 1 * Gyr;
+    const auto r = evolve(c);
+    const double T6 = jeans_parameter(1.0, species("H").mass, constants::M_earth, r_exo) / 6.0;
+    const double t6 = (T6 - 1000.0) / 1000.0 * Gyr;
+    REQUIRE(r.regime_changes.size() >= 1);
+    CHECK(r.regime_changes[0].from == Regime::Jeans);
+    CHECK(r.regime_changes[0].to == Regime::EnhancedJeans);
+    CHECK(r.regime_changes[0].time == doctest::Approx(t6).epsilon(1e-12));
+    CHECK(r.regime.front() == static_cast<int>(Regime::Jeans));
+}
+
+TEST_CASE("energy-limited loss during saturation: linear loss of the light species") {
+    // During saturation the XUV flux is constant, so with 'always' the light species loses
+    // dM/dt / m_H per second (Watson et al. 1981 energy-limited rate; worked analytic solution)
+    // while a heavy undragged species keeps its (negligible) Jeans rate.
+    XuvHistory x;
+    x.saturation_time = 100 * Myr;
+    const Star star(constants::M_sun, constants::L_sun, x);
+    const Planet planet(constants::M_earth, constants::R_earth, constants::au, star);
+    EvolutionConfig c(planet);
+    c.species = {species("H"), species("CO2")};
+    c.initial_inventory = {1e48, 1e46};
+    c.exobase = std::make_shared<PrescribedExobase>(r_exo, std::vector<std::string>{"H", "CO2"},
+                                                    std::vector<double>{1e10, 1e13},
+                                                    DensityScaling::Inventory);
+    c.temperature = ExobaseTemperature::constant(800.0);
+    HydrodynamicOptions h;
+    h.efficiency = 0.15;
+    h.activation = HydrodynamicActivation::Always;
+    h.roche_lobe = true;
+    c.hydrodynamic = h;
+    c.t_start = 10 * Myr;
+    c.t_end = 90 * Myr;
+    c.rtol = 1e-10;
+    c.t_eval = {10 * Myr, 50 * Myr, 90 * Myr};
+    const auto r = evolve(c);
+    const double K = roche_lobe_factor(roche_lobe_ratio(planet.mass(), star.mass(),
+                                                        planet.semi_major_axis(), planet.radius()));
+    const double mdot = energy_limited_mass_loss(0.15, planet.radius(), planet.radius(),
+                                                 planet.xuv_flux(50 * Myr), planet.mass(), K);
+    const double q = mdot / species("H").mass;
+    CHECK(r.inventory[col(r, 1, 0)] == doctest::Approx(1e48 - q * 40 * Myr).epsilon(1e-9));
+    CHECK(r.inventory[col(r, 2, 0)] == doctest::Approx(1e48 - q * 80 * Myr).epsilon(1e-9));
+    CHECK(r.escape_rate[col(r, 1, 0)] == doctest::Approx(q).epsilon(1e-12));
+    CHECK(r.energy_limited[1] == 1);
+}
+
+TEST_CASE("energy-limited loss with drag conserves the mass budget") {
+    // Sum over species of m_i dN_i/dt equals -dM/dt (Hunten, Pepin & Walker 1987 partition of the
+    // Watson et al. 1981 rate), during saturation at constant flux: total mass lost = dM/dt * t.
+    XuvHistory x;
+    x.saturation_time = 100 * Myr;
+    const Star star(constants::M_sun, constants::L_sun, x);
+    const Planet planet(constants::M_earth, constants::R_earth, constants::au, star);
+    EvolutionConfig c(planet);
+    c.species = {species("H"), species("O"), species("CO2")};
+    c.initial_inventory = {4e47, 1e47, 1e45};
+    c.exobase = std::make_shared<PrescribedExobase>(
+        r_exo, std::vector<std::string>{"H", "O", "CO2"}, std::vector<double>{1e10, 1e9, 1e8},
+        DensityScaling::Inventory);
+    c.temperature = ExobaseTemperature::constant(3000.0);
+    HydrodynamicOptions h;
+    h.activation = HydrodynamicActivation::Always;
+    h.roche_lobe = false;
+    h.diffusion = {{"O", DiffusionLaw{4.8e19, 0.75}}, {"CO2", DiffusionLaw{8.4e19, 0.6}}};
+    c.hydrodynamic = h;
+    c.t_start = 1 * Myr;
+    c.t_end = 50 * Myr;
+    c.rtol = 1e-10;
+    const auto r = evolve(c);
+    const double mdot = energy_limited_mass_loss(h.efficiency, planet.radius(), planet.radius(),
+                                                 planet.xuv_flux(10 * Myr), planet.mass());
+    double lost = 0.0;
+    for (std::size_t i = 0; i < 3; ++i)
+        lost += c.species[i].mass * (c.initial_inventory[i] - r.inventory[col(r, r.time_count() - 1, i)]);
+    // Jeans escape of O and CO2 at 3000 K is many orders below the dragged rates here.
+    CHECK(lost == doctest::Approx(mdot * 49 * Myr).epsilon(1e-7));
+    const std::size_t last = r.time_count() - 1;
+    CHECK(r.escape_rate[col(r, last, 1)] > 0.0); // O is dragged
+}
+
+TEST_CASE("bad input raises InputError naming the argument before any step") {
+    auto base = [] {
+        auto c = prescribed({"H"}, {1e11}, {1e35}, DensityScaling::Inventory, 1000.0);
+        c.t_end = 1 * Gyr;
+        return c;
+    };
+    auto c = base();
+    c.initial_inventory = {-5.0};
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("inventory of H"), InputError);
+    c = base();
+    c.t_eval = {0.0, 2 * Gyr};
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("outside t_span"), InputError);
+    c = base();
+    c.t_eval = {0.5 * Gyr, 0.2 * Gyr};
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("strictly increasing"), InputError);
+    c = base();
+    c.t_end = -1.0;
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("t_span"), InputError);
+    c = base();
+    std::atomic<int> calls{0};
+    c.temperature = ExobaseTemperature::callable(
+        [&](double) {
+            ++calls;
+            return std::nan("");
+        },
+        "test");
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("callable returned nan"), InputError);
+    CHECK(calls == 1); // found at the first evaluation
+    c = base();
+    c.temperature = ExobaseTemperature::xuv_power_law(1000, 1, 0.5, 500, 3000);
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("semi_major_axis and star"), InputError);
+    c = base();
+    c.exobase = std::make_shared<PrescribedExobase>(0.5 * constants::R_earth,
+                                                    std::vector<std::string>{"H"},
+                                                    std::vector<double>{1e11},
+                                                    DensityScaling::Inventory);
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("below the planet's surface"), InputError);
+}
+
+TEST_CASE("a run that cannot progress says where and why") {
+    auto c = prescribed({"H"}, {1e11}, {1e30}, DensityScaling::Fixed, 1000.0);
+    c.temperature = ExobaseTemperature::table({0.0, 1 * Gyr}, {800.0, 1500.0});
+    c.t_end = 1 * Gyr;
+    c.max_steps = 3;
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("max_steps = 3"), NumericalError);
+}
+
+TEST_CASE("the progress hook can stop a run; results so far are kept") {
+    auto c = prescribed({"H"}, {1e11}, {1e35}, DensityScaling::Inventory, 1000.0);
+    c.temperature = ExobaseTemperature::table({0.0, 1 * Gyr}, {800.0, 1500.0});
+    c.t_end = 1 * Gyr;
+    int calls = 0;
+    c.progress = [&](double) { return ++calls < 3; };
+    const auto r = evolve(c);
+    CHECK(!r.completed);
+    CHECK(calls == 3);
+    CHECK(r.t_reached < c.t_end);
+    CHECK(r.time.back() == r.t_reached);
+}
+
+TEST_CASE("runs in parallel threads give identical results") {
+    auto c = prescribed({"H", "D", "O"}, {1e11, 1e7, 1e12}, {1e36, 1e32, 1e38},
+                        DensityScaling::Inventory, 1000.0);
+    c.temperature = ExobaseTemperature::table({0.0, 4 * Gyr}, {1500.0, 900.0});
+    c.t_end = 4 * Gyr;
+    const auto reference = evolve(c);
+    std::vector<EvolutionResult> results(4);
+    std::vector<std::thread> threads;
+    for (auto& slot : results) threads.emplace_back([&c, &slot] { slot = evolve(c); });
+    for (auto& t : threads) t.join();
+    for (const auto& r : results) {
+        CHECK(r.inventory == reference.inventory);
+        CHECK(r.steps == reference.steps);
+    }
+}
