@@ -2,6 +2,8 @@
 
 #include <algorithm>
 #include <array>
+#include <atomic>
+#include <limits>
 #include <cmath>
 
 #include "exosieve/constants.hpp"
@@ -47,16 +49,49 @@ struct BlockInputs {
     }
 };
 
+// True when every value of the block is valid: density finite and >= 0, the other four
+// finite and > 0. Branch-free so that it vectorises; it runs on cache-hot data just before
+// the kernel, which saves a separate pass over memory.
+bool block_valid(const double* n, const double* T, const double* m, const double* M,
+                 const double* r, std::size_t len) {
+    constexpr double big = std::numeric_limits<double>::max();
+    double bad = 0.0;
+    for (std::size_t i = 0; i < len; ++i) {
+        const bool ok = (n[i] >= 0.0) & (n[i] <= big) & (T[i] > 0.0) & (T[i] <= big) &
+                        (m[i] > 0.0) & (m[i] <= big) & (M[i] > 0.0) & (M[i] <= big) &
+                        (r[i] > 0.0) & (r[i] <= big);
+        bad += ok ? 0.0 : 1.0;
+    }
+    return bad == 0.0;
+}
+
+void check_flux_arrays(ArrayArg density, ArrayArg temperature, ArrayArg mass,
+                       ArrayArg planet_mass, ArrayArg radius, std::size_t count);
+
 // kernel(n, T, m, M, r, out, length) on contiguous blocks, in parallel for long arrays.
+// Inputs are validated block by block; if any block is bad, nothing is returned and the
+// serial check reports the first offending argument and element.
 template <class Kernel>
 void run_blocks(std::array<ArrayArg, 5> args, double* out, std::size_t count, Kernel kernel) {
+    check_lengths(count, {args[0], args[1], args[2], args[3], args[4]});
+    std::atomic<bool> all_valid{true};
     parallel_for(count, [&](std::size_t begin, std::size_t end) {
         BlockInputs in(args);
         for (std::size_t b = begin; b < end; b += block) {
             const std::size_t len = std::min(block, end - b);
-            kernel(in.at(0, b), in.at(1, b), in.at(2, b), in.at(3, b), in.at(4, b), out + b, len);
+            const double *n = in.at(0, b), *T = in.at(1, b), *m = in.at(2, b), *M = in.at(3, b),
+                         *r = in.at(4, b);
+            if (!block_valid(n, T, m, M, r, len)) {
+                all_valid = false;
+                return;
+            }
+            kernel(n, T, m, M, r, out + b, len);
         }
     });
+    if (!all_valid) {
+        check_flux_arrays(args[0], args[1], args[2], args[3], args[4], count);
+        throw NumericalError("jeans kernel: block check and argument check disagree");
+    }
 }
 
 void check_flux_arrays(ArrayArg density, ArrayArg temperature, ArrayArg mass,
@@ -201,7 +236,6 @@ void jeans_parameter(ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass, 
 
 void jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
                 ArrayArg radius, double* out, std::size_t count, const TailDepletion& tail) {
-    check_flux_arrays(density, temperature, mass, planet_mass, radius, count);
     run_blocks({density, temperature, mass, planet_mass, radius}, out, count,
                [&](const double* n, const double* T, const double* m, const double* M,
                    const double* r, double* o, std::size_t len) {
