@@ -113,7 +113,10 @@ void flux_block(const double* n, const double* T, const double* m, const double*
         const double v0 = std::sqrt(2.0 * kT / m[i]);
         // lambda beyond ~1e300 would make (1 + lambda) * exp(-lambda) = inf * 0.
         const double lam = lambda < 1e300 ? lambda : 1e300;
-        out[i] = n[i] * v0 * inv_two_sqrt_pi * ((1.0 + lam) * detail::vector_exp(-lam));
+        // exp(-lambda) as a square applied to the prefactor one factor at a time: the result
+        // keeps full precision where exp(-lambda) alone would be subnormal (lambda > 708).
+        const double half = detail::vector_exp(-0.5 * lam);
+        out[i] = (n[i] * v0 * inv_two_sqrt_pi * (1.0 + lam) * half) * half;
     }
 }
 
@@ -169,7 +172,8 @@ double jeans_parameter(double temperature, double mass, double planet_mass, doub
 
 double jeans_flux_unchecked(double density, double v0, double lambda, const TailDepletion& tail) {
     if (!(lambda < 1e300)) return 0.0;
-    return density * v0 * inv_two_sqrt_pi * (1.0 + lambda) * std::exp(-lambda) * tail(lambda);
+    const double half = std::exp(-0.5 * lambda); // see flux_block
+    return (density * v0 * inv_two_sqrt_pi * (1.0 + lambda) * half) * half * tail(lambda);
 }
 
 double jeans_flux(double density, double temperature, double mass, double planet_mass,

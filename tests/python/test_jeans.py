@@ -124,3 +124,19 @@ def test_array_kernels_run_in_parallel_threads():
                                 range(4)))
     for r in results:
         assert np.array_equal(r, reference)
+
+
+@pytest.mark.parametrize("lam_target", [700.0, 740.0, 760.0])
+def test_flux_keeps_precision_where_exp_alone_is_subnormal(lam_target):
+    # mpmath at 50 digits; exp(-740) alone would be a subnormal double with few digits,
+    # yet with n = 1e20 the flux itself is a normal double.
+    mpmath.mp.dps = 50
+    m = exosieve.species("O").mass
+    T = exosieve.jeans_parameter(1.0, m, M_EARTH, R_EXO) / lam_target
+    lam = mpmath.mpf(exosieve.jeans_parameter(T, m, M_EARTH, R_EXO))
+    v0 = mpmath.sqrt(2 * mpmath.mpf(K_B) * T / mpmath.mpf(m))
+    exact = 1e20 * v0 / (2 * mpmath.sqrt(mpmath.pi)) * (1 + lam) * mpmath.exp(-lam)
+    single = exosieve.jeans_flux(1e20, T, m, M_EARTH, R_EXO)
+    array = exosieve.jeans_flux(np.full(3, 1e20), T, m, M_EARTH, R_EXO)
+    assert single == pytest.approx(float(exact), rel=1e-13)
+    assert np.allclose(array, float(exact), rtol=1e-13, atol=0)
