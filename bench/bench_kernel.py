@@ -12,7 +12,7 @@ import time
 import numpy as np
 
 import exosieve
-from exosieve.constants import AMU, G, K_B, M_EARTH, R_EARTH
+from exosieve.constants import AMU, K_B, M_EARTH, R_EARTH, G
 
 
 def numpy_jeans_flux(density, temperature, mass, planet_mass, radius):
@@ -38,9 +38,13 @@ def main() -> None:
 
     rng = np.random.default_rng(0)
     n = opts.size
-    args = (rng.uniform(1e8, 1e14, n), rng.uniform(300.0, 5000.0, n),
-            rng.uniform(1.0, 44.0, n) * AMU, rng.uniform(0.1, 10.0, n) * M_EARTH,
-            rng.uniform(1.0, 2.5, n) * R_EARTH)
+    args = (
+        rng.uniform(1e8, 1e14, n),
+        rng.uniform(300.0, 5000.0, n),
+        rng.uniform(1.0, 44.0, n) * AMU,
+        rng.uniform(0.1, 10.0, n) * M_EARTH,
+        rng.uniform(1.0, 2.5, n) * R_EARTH,
+    )
 
     ours = exosieve.jeans_flux(*args)
     peer = numpy_jeans_flux(*args)
@@ -55,8 +59,10 @@ def main() -> None:
     print(f"  exosieve : {t_ours * 1e3:8.2f} ms")
     print(f"  numpy    : {t_peer * 1e3:8.2f} ms")
     print(f"  ratio numpy/exosieve: {t_peer / t_ours:.1f}x   (goal >= 3x)")
-    print(f"  largest relative difference where exp(-lambda) is a normal double: {worst:.1e}"
-          f" ({normal.mean():.0%} of elements)")
+    print(
+        f"  largest relative difference where exp(-lambda) is a normal double: {worst:.1e}"
+        f" ({normal.mean():.0%} of elements)"
+    )
 
 
 if __name__ == "__main__":

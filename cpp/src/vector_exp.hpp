@@ -49,7 +49,7 @@ inline double vector_exp(double x) {
     const std::uint64_t k_biased = t_bits - shifter_bits + 2048; // k + 2048, in [972, 3072]
     const std::uint64_t k1_biased = k_biased >> 1;               // floor(k / 2) + 1024
     const std::uint64_t k2_biased = k_biased - k1_biased;        // k - floor(k / 2) + 1024
-    const double s1 = bits_to_double((k1_biased - 1) << 52);      // 2^(k1), biased by 1023
+    const double s1 = bits_to_double((k1_biased - 1) << 52);     // 2^(k1), biased by 1023
     const double s2 = bits_to_double((k2_biased - 1) << 52);
     const double y = p * s1 * s2;
     return x != x ? x : y;

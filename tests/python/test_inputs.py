@@ -20,8 +20,13 @@ from exosieve.constants import M_EARTH, R_EARTH
     ],
 )
 def test_flux_rejects_bad_scalars(kwargs, message):
-    args = {"density": 1e10, "temperature": 1000.0, "mass": exosieve.species("H").mass,
-            "planet_mass": M_EARTH, "radius": R_EARTH}
+    args = {
+        "density": 1e10,
+        "temperature": 1000.0,
+        "mass": exosieve.species("H").mass,
+        "planet_mass": M_EARTH,
+        "radius": R_EARTH,
+    }
     args.update(kwargs)
     with pytest.raises(ValueError, match=message):
         exosieve.jeans_flux(**args)
@@ -29,7 +34,9 @@ def test_flux_rejects_bad_scalars(kwargs, message):
 
 def test_array_error_names_the_element():
     T = np.array([300.0, 400.0, -1.0])
-    with pytest.raises(ValueError, match=r"temperature must be finite and > 0, got -1 \(element 2\)"):
+    with pytest.raises(
+        ValueError, match=r"temperature must be finite and > 0, got -1 \(element 2\)"
+    ):
         exosieve.jeans_parameter(T, "H", M_EARTH, R_EARTH)
 
 

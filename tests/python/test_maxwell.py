@@ -24,8 +24,9 @@ def test_pdf_matches_scipy():
 
 def test_fraction_faster_matches_scipy_survival_function():
     v = np.linspace(0.0, 8000.0, 201)
-    assert np.allclose(exosieve.fraction_faster(v, T, M), scipy_maxwell().sf(v), rtol=1e-12,
-                       atol=1e-300)
+    assert np.allclose(
+        exosieve.fraction_faster(v, T, M), scipy_maxwell().sf(v), rtol=1e-12, atol=1e-300
+    )
 
 
 def test_mean_and_standard_deviation_match_scipy():
@@ -41,8 +42,9 @@ def test_most_probable_speed_is_the_mode():
     from scipy.optimize import minimize_scalar
 
     dist = scipy_maxwell()
-    mode = minimize_scalar(lambda v: -dist.pdf(v), bounds=(1.0, 5000.0), method="bounded",
-                           options={"xatol": 1e-6}).x
+    mode = minimize_scalar(
+        lambda v: -dist.pdf(v), bounds=(1.0, 5000.0), method="bounded", options={"xatol": 1e-6}
+    ).x
     assert exosieve.most_probable_speed(T, M) == pytest.approx(mode, rel=1e-7)
 
 
@@ -68,7 +70,8 @@ def test_astropy_quantities_are_converted():
     assert exosieve.most_probable_speed(T * u.K, M * u.kg) == exosieve.most_probable_speed(T, M)
     # Celsius through the temperature equivalency; grams to kilograms.
     assert exosieve.mean_speed((T - 273.15) * u.deg_C, M * 1e3 * u.g) == pytest.approx(
-        exosieve.mean_speed(T, M), rel=1e-14)
+        exosieve.mean_speed(T, M), rel=1e-14
+    )
     with pytest.raises(ValueError, match="temperature: cannot convert"):
         exosieve.rms_speed(3.0 * u.m, M)
 

@@ -22,8 +22,13 @@ def test_tail_fraction_in_unit_interval_and_falls_with_speed(v, temperature, mas
 
 
 @settings(max_examples=200, deadline=None)
-@given(st.floats(min_value=1e3, max_value=1e20), temperatures, temperatures, masses,
-       st.floats(min_value=1.0, max_value=3.0))
+@given(
+    st.floats(min_value=1e3, max_value=1e20),
+    temperatures,
+    temperatures,
+    masses,
+    st.floats(min_value=1.0, max_value=3.0),
+)
 def test_flux_rises_with_temperature_at_fixed_density(n, t1, t2, mass, radius_factor):
     low, high = min(t1, t2), max(t1, t2)
     radius = radius_factor * R_EARTH
@@ -34,4 +39,5 @@ def test_flux_rises_with_temperature_at_fixed_density(n, t1, t2, mass, radius_fa
     # The log form is strictly increasing even where the flux underflows.
     if high > low * (1 + 1e-9):
         assert exosieve.log_jeans_flux(n, high, mass, M_EARTH, radius) > exosieve.log_jeans_flux(
-            n, low, mass, M_EARTH, radius)
+            n, low, mass, M_EARTH, radius
+        )

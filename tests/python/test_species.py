@@ -18,8 +18,7 @@ def test_element_masses_match_periodictable(name):
 
 @pytest.mark.parametrize(
     ("name", "reference"),
-    [("D", pt.D), ("3He", pt.He[3]), ("36Ar", pt.Ar[36]), ("38Ar", pt.Ar[38]),
-     ("40Ar", pt.Ar[40])],
+    [("D", pt.D), ("3He", pt.He[3]), ("36Ar", pt.Ar[36]), ("38Ar", pt.Ar[38]), ("40Ar", pt.Ar[40])],
 )
 def test_isotope_masses_match_periodictable(name, reference):
     # Atomic mass evaluation values; periodictable's older evaluation agrees to 1e-8.
@@ -28,8 +27,16 @@ def test_isotope_masses_match_periodictable(name, reference):
 
 @pytest.mark.parametrize(
     ("name", "formula"),
-    [("H2", "H2"), ("CH4", "CH4"), ("NH3", "NH3"), ("H2O", "H2O"), ("N2", "N2"), ("O2", "O2"),
-     ("CO", "CO"), ("CO2", "CO2")],
+    [
+        ("H2", "H2"),
+        ("CH4", "CH4"),
+        ("NH3", "NH3"),
+        ("H2O", "H2O"),
+        ("N2", "N2"),
+        ("O2", "O2"),
+        ("CO", "CO"),
+        ("CO2", "CO2"),
+    ],
 )
 def test_molecular_masses_match_periodictable_formulas(name, formula):
     assert exosieve.species(name).mass_u == pytest.approx(pt.formula(formula).mass, rel=3e-4)
