@@ -55,7 +55,8 @@ void bind_kernel(py::module_& m) {
             },
             [](const py::tuple& s) {
                 auto lambdas = s[1].cast<std::vector<double>>();
-                if (lambdas.empty()) return TailDepletion(s[0].cast<double>());
+                if (lambdas.empty())
+                    return TailDepletion(s[0].cast<double>());
                 return TailDepletion(lambdas, s[2].cast<std::vector<double>>());
             }));
 

@@ -30,16 +30,18 @@ void bind_species(py::module_& m) {
         .def_readonly("mass", &Species::mass, "Particle mass [kg]")
         .def_property_readonly("mass_u", &Species::mass_u, "Particle mass [u]")
         .def_readonly("lj_diameter", &Species::lj_diameter, "Lennard-Jones diameter [m]")
-        .def_readonly("lj_well_depth", &Species::lj_well_depth, "Lennard-Jones well depth eps/k [K]")
+        .def_readonly("lj_well_depth", &Species::lj_well_depth,
+                      "Lennard-Jones well depth eps/k [K]")
         .def_readonly("cross_section", &Species::cross_section, "Collision cross-section [m^2]")
         .def_readonly("thermal_diffusion_factor", &Species::thermal_diffusion_factor,
                       "Thermal-diffusion factor alpha [1]")
         .def_readonly("mass_source", &Species::mass_source)
         .def_readonly("lj_source", &Species::lj_source)
         .def_readonly("cross_section_source", &Species::cross_section_source)
-        .def("__repr__", [](const Species& s) {
-            return "Species(name='" + s.name + "', mass=" + std::to_string(s.mass_u()) + " u)";
-        })
+        .def("__repr__",
+             [](const Species& s) {
+                 return "Species(name='" + s.name + "', mass=" + std::to_string(s.mass_u()) + " u)";
+             })
         .def(py::pickle(
             [](const Species& s) {
                 return py::make_tuple(s.name, s.mass, s.lj_diameter, s.lj_well_depth,
@@ -60,10 +62,12 @@ void bind_species(py::module_& m) {
                 return s;
             }));
 
-    m.def("species", [](const std::string& name) { return exosieve::species(name); },
-          py::arg("name"));
-    m.def("register_species", [](const Species& s) { default_registry().add(s); },
-          py::arg("species"));
+    m.def(
+        "species", [](const std::string& name) { return exosieve::species(name); },
+        py::arg("name"));
+    m.def(
+        "register_species", [](const Species& s) { default_registry().add(s); },
+        py::arg("species"));
     m.def("species_names", []() { return default_registry().names(); });
     m.def("species_table_csv", []() { return std::string(species_table_csv()); });
 }

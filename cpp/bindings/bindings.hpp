@@ -21,8 +21,7 @@ inline ArrayArg as_arg(const DoubleArray& a) {
 }
 
 //! Allocate a 1-D result of length `count` and fill it with `fill(out)` without the GIL.
-template <class Fill>
-py::array_t<double> with_output(std::size_t count, Fill fill) {
+template <class Fill> py::array_t<double> with_output(std::size_t count, Fill fill) {
     py::array_t<double> out(static_cast<py::ssize_t>(count));
     double* data = out.mutable_data();
     {

@@ -1,7 +1,8 @@
 #include "bindings.hpp"
 
 PYBIND11_MODULE(_core, m) {
-    m.doc() = "exosieve compiled core: Maxwell–Boltzmann speeds, Jeans escape and models (SI units)";
+    m.doc() =
+        "exosieve compiled core: Maxwell–Boltzmann speeds, Jeans escape and models (SI units)";
     m.attr("__version__") = EXOSIEVE_VERSION;
     namespace b = exosieve::bindings;
     b::bind_errors(m);

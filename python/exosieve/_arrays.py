@@ -2,14 +2,15 @@
 
 from __future__ import annotations
 
-from typing import Any, Callable, Union
+from collections.abc import Callable
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from . import _core
 
-FloatOrArray = Union[float, NDArray[np.float64]]
+FloatOrArray = float | NDArray[np.float64]
 
 
 def to_si(value: Any, name: str, unit: str) -> NDArray[np.float64]:
@@ -48,8 +49,9 @@ def flat_for_kernel(array: NDArray[np.float64], shape: tuple[int, ...]) -> NDArr
     return np.ascontiguousarray(array).reshape(-1)
 
 
-def apply(kernel: Callable[..., NDArray[np.float64]], args: list[tuple[str, Any, str]],
-          *extra: Any) -> FloatOrArray:
+def apply(
+    kernel: Callable[..., NDArray[np.float64]], args: list[tuple[str, Any, str]], *extra: Any
+) -> FloatOrArray:
     """Call ``kernel(count, *flat_args, *extra)`` with numpy broadcasting of ``args``.
 
     ``args`` holds ``(name, value, unit)``; returns a float for all-scalar input.
@@ -58,7 +60,7 @@ def apply(kernel: Callable[..., NDArray[np.float64]], args: list[tuple[str, Any,
     try:
         shape = np.broadcast_shapes(*(a.shape for a in arrays))
     except ValueError as err:
-        shapes = ", ".join(f"{name}{a.shape}" for (name, _, _), a in zip(args, arrays))
+        shapes = ", ".join(f"{name}{a.shape}" for (name, _, _), a in zip(args, arrays, strict=True))
         raise ValueError(f"arguments do not broadcast together: {shapes}") from err
     count = int(np.prod(shape, dtype=np.int64))
     flat = [flat_for_kernel(a, shape) for a in arrays]

@@ -32,6 +32,25 @@ M_SUN: float = _c.M_SUN  #: solar mass GM_SUN / G [kg]
 R_SUN: float = _c.R_SUN  #: nominal solar radius [m]
 L_SUN: float = _c.L_SUN  #: nominal solar luminosity [W]
 
-__all__ = ["G", "K_B", "AMU", "N_A", "AU", "YEAR", "MYR", "GYR", "GM_EARTH", "M_EARTH",
-           "R_EARTH", "R_EARTH_POLAR", "GM_JUPITER", "M_JUPITER", "R_JUPITER", "R_JUPITER_POLAR",
-           "GM_SUN", "M_SUN", "R_SUN", "L_SUN"]
+__all__ = [
+    "G",
+    "K_B",
+    "AMU",
+    "N_A",
+    "AU",
+    "YEAR",
+    "MYR",
+    "GYR",
+    "GM_EARTH",
+    "M_EARTH",
+    "R_EARTH",
+    "R_EARTH_POLAR",
+    "GM_JUPITER",
+    "M_JUPITER",
+    "R_JUPITER",
+    "R_JUPITER_POLAR",
+    "GM_SUN",
+    "M_SUN",
+    "R_SUN",
+    "L_SUN",
+]

@@ -10,13 +10,14 @@ The flux functions take an optional ``tail_depletion``: a constant factor, a
 
 from __future__ import annotations
 
-from typing import Any, Sequence, Tuple, Union
+from collections.abc import Sequence
+from typing import Any
 
 from . import _core
 from ._arrays import FloatOrArray, apply
 
 TailDepletion = _core.TailDepletion
-TailLike = Union[float, TailDepletion, Tuple[Sequence[float], Sequence[float]]]
+TailLike = float | TailDepletion | tuple[Sequence[float], Sequence[float]]
 
 
 def _tail(tail_depletion: TailLike) -> TailDepletion:
@@ -28,10 +29,16 @@ def _tail(tail_depletion: TailLike) -> TailDepletion:
     return TailDepletion(float(tail_depletion))
 
 
-def _flux_args(density: Any, temperature: Any, mass: Any, planet_mass: Any,
-               radius: Any) -> list[tuple[str, Any, str]]:
-    return [("density", density, "m-3"), ("temperature", temperature, "K"),
-            ("mass", mass, "kg"), ("planet_mass", planet_mass, "kg"), ("radius", radius, "m")]
+def _flux_args(
+    density: Any, temperature: Any, mass: Any, planet_mass: Any, radius: Any
+) -> list[tuple[str, Any, str]]:
+    return [
+        ("density", density, "m-3"),
+        ("temperature", temperature, "K"),
+        ("mass", mass, "kg"),
+        ("planet_mass", planet_mass, "kg"),
+        ("radius", radius, "m"),
+    ]
 
 
 def escape_speed(planet_mass: Any, radius: Any) -> FloatOrArray:
@@ -73,12 +80,17 @@ def jeans_parameter(temperature: Any, mass: Any, planet_mass: Any, radius: Any) 
     >>> round(jeans_parameter(1000.0, "H", c.M_EARTH, c.R_EARTH + 500e3), 2)
     7.03
     """
-    return apply(_core.jeans_parameter, _flux_args(1.0, temperature, mass, planet_mass,
-                                                   radius)[1:])
+    return apply(_core.jeans_parameter, _flux_args(1.0, temperature, mass, planet_mass, radius)[1:])
 
 
-def jeans_flux(density: Any, temperature: Any, mass: Any, planet_mass: Any, radius: Any,
-               tail_depletion: TailLike = 1.0) -> FloatOrArray:
+def jeans_flux(
+    density: Any,
+    temperature: Any,
+    mass: Any,
+    planet_mass: Any,
+    radius: Any,
+    tail_depletion: TailLike = 1.0,
+) -> FloatOrArray:
     """Jeans escape flux at the exobase [m^-2 s^-1].
 
     Parameters
@@ -96,12 +108,21 @@ def jeans_flux(density: Any, temperature: Any, mass: Any, planet_mass: Any, radi
     >>> f"{jeans_flux(1e11, 1000.0, 'H', c.M_EARTH, c.R_EARTH + 500e3):.3e}"
     '8.172e+11'
     """
-    return apply(_core.jeans_flux, _flux_args(density, temperature, mass, planet_mass, radius),
-                 _tail(tail_depletion))
+    return apply(
+        _core.jeans_flux,
+        _flux_args(density, temperature, mass, planet_mass, radius),
+        _tail(tail_depletion),
+    )
 
 
-def log_jeans_flux(density: Any, temperature: Any, mass: Any, planet_mass: Any, radius: Any,
-                   tail_depletion: TailLike = 1.0) -> FloatOrArray:
+def log_jeans_flux(
+    density: Any,
+    temperature: Any,
+    mass: Any,
+    planet_mass: Any,
+    radius: Any,
+    tail_depletion: TailLike = 1.0,
+) -> FloatOrArray:
     """Natural log of :func:`jeans_flux` (of the flux in m^-2 s^-1); finite where it underflows.
 
     Examples
@@ -110,12 +131,21 @@ def log_jeans_flux(density: Any, temperature: Any, mass: Any, planet_mass: Any, 
     >>> log_jeans_flux(1e15, 50.0, "Xe", c.M_EARTH, c.R_EARTH) < -1e4
     True
     """
-    return apply(_core.log_jeans_flux, _flux_args(density, temperature, mass, planet_mass,
-                                                  radius), _tail(tail_depletion))
+    return apply(
+        _core.log_jeans_flux,
+        _flux_args(density, temperature, mass, planet_mass, radius),
+        _tail(tail_depletion),
+    )
 
 
-def jeans_energy_flux(density: Any, temperature: Any, mass: Any, planet_mass: Any, radius: Any,
-                      tail_depletion: TailLike = 1.0) -> FloatOrArray:
+def jeans_energy_flux(
+    density: Any,
+    temperature: Any,
+    mass: Any,
+    planet_mass: Any,
+    radius: Any,
+    tail_depletion: TailLike = 1.0,
+) -> FloatOrArray:
     """Kinetic-energy flux carried away by escaping particles [W m^-2].
 
     ``Phi_J k T (lambda^2 + 2 lambda + 2) / (lambda + 1)``; arguments as :func:`jeans_flux`.
@@ -126,12 +156,21 @@ def jeans_energy_flux(density: Any, temperature: Any, mass: Any, planet_mass: An
     >>> jeans_energy_flux(1e11, 1000.0, "H", c.M_EARTH, c.R_EARTH + 500e3) > 0
     True
     """
-    return apply(_core.jeans_energy_flux, _flux_args(density, temperature, mass, planet_mass,
-                                                     radius), _tail(tail_depletion))
+    return apply(
+        _core.jeans_energy_flux,
+        _flux_args(density, temperature, mass, planet_mass, radius),
+        _tail(tail_depletion),
+    )
 
 
-def jeans_escape_rate(density: Any, temperature: Any, mass: Any, planet_mass: Any, radius: Any,
-                      tail_depletion: TailLike = 1.0) -> FloatOrArray:
+def jeans_escape_rate(
+    density: Any,
+    temperature: Any,
+    mass: Any,
+    planet_mass: Any,
+    radius: Any,
+    tail_depletion: TailLike = 1.0,
+) -> FloatOrArray:
     """Global escape rate ``4 pi r^2 Phi_J`` [s^-1]; arguments as :func:`jeans_flux`.
 
     Examples
@@ -140,12 +179,21 @@ def jeans_escape_rate(density: Any, temperature: Any, mass: Any, planet_mass: An
     >>> f"{jeans_escape_rate(1e11, 1000.0, 'H', c.M_EARTH, c.R_EARTH + 500e3):.3e}"
     '4.858e+26'
     """
-    return apply(_core.jeans_escape_rate, _flux_args(density, temperature, mass, planet_mass,
-                                                     radius), _tail(tail_depletion))
+    return apply(
+        _core.jeans_escape_rate,
+        _flux_args(density, temperature, mass, planet_mass, radius),
+        _tail(tail_depletion),
+    )
 
 
-def log_jeans_escape_rate(density: Any, temperature: Any, mass: Any, planet_mass: Any,
-                          radius: Any, tail_depletion: TailLike = 1.0) -> FloatOrArray:
+def log_jeans_escape_rate(
+    density: Any,
+    temperature: Any,
+    mass: Any,
+    planet_mass: Any,
+    radius: Any,
+    tail_depletion: TailLike = 1.0,
+) -> FloatOrArray:
     """Natural log of :func:`jeans_escape_rate` (of the rate in s^-1).
 
     Examples
@@ -154,5 +202,8 @@ def log_jeans_escape_rate(density: Any, temperature: Any, mass: Any, planet_mass
     >>> log_jeans_escape_rate(1e15, 50.0, "Xe", c.M_EARTH, c.R_EARTH) < -1e4
     True
     """
-    return apply(_core.log_jeans_escape_rate, _flux_args(density, temperature, mass, planet_mass,
-                                                         radius), _tail(tail_depletion))
+    return apply(
+        _core.log_jeans_escape_rate,
+        _flux_args(density, temperature, mass, planet_mass, radius),
+        _tail(tail_depletion),
+    )

@@ -29,8 +29,9 @@ def most_probable_speed(temperature: Any, mass: Any) -> FloatOrArray:
     >>> round(most_probable_speed(1000.0, "H"))
     4062
     """
-    return apply(_core.most_probable_speed, [("temperature", temperature, "K"),
-                                             ("mass", mass, "kg")])
+    return apply(
+        _core.most_probable_speed, [("temperature", temperature, "K"), ("mass", mass, "kg")]
+    )
 
 
 def mean_speed(temperature: Any, mass: Any) -> FloatOrArray:
@@ -74,8 +75,10 @@ def speed_pdf(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
     >>> speed_pdf(v, 300.0, "N2").shape
     (4,)
     """
-    return apply(_core.speed_pdf, [("speed", speed, "m/s"), ("temperature", temperature, "K"),
-                                   ("mass", mass, "kg")])
+    return apply(
+        _core.speed_pdf,
+        [("speed", speed, "m/s"), ("temperature", temperature, "K"), ("mass", mass, "kg")],
+    )
 
 
 def fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
@@ -88,8 +91,10 @@ def fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
     >>> fraction_faster(0.0, 300.0, "N2")
     1.0
     """
-    return apply(_core.fraction_faster, [("speed", speed, "m/s"),
-                                         ("temperature", temperature, "K"), ("mass", mass, "kg")])
+    return apply(
+        _core.fraction_faster,
+        [("speed", speed, "m/s"), ("temperature", temperature, "K"), ("mass", mass, "kg")],
+    )
 
 
 def log_fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
@@ -100,6 +105,7 @@ def log_fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray
     >>> log_fraction_faster(11_186.0, 300.0, "Xe") < -700
     True
     """
-    return apply(_core.log_fraction_faster, [("speed", speed, "m/s"),
-                                             ("temperature", temperature, "K"),
-                                             ("mass", mass, "kg")])
+    return apply(
+        _core.log_fraction_faster,
+        [("speed", speed, "m/s"), ("temperature", temperature, "K"), ("mass", mass, "kg")],
+    )

@@ -30,9 +30,15 @@ def species(name: str) -> Species:
     return _core.species(name)
 
 
-def register_species(name: str, mass: float, lj_diameter: float = 0.0, lj_well_depth: float = 0.0,
-                     cross_section: float = 0.0, thermal_diffusion_factor: float = 0.0,
-                     source: str = "user") -> Species:
+def register_species(
+    name: str,
+    mass: float,
+    lj_diameter: float = 0.0,
+    lj_well_depth: float = 0.0,
+    cross_section: float = 0.0,
+    thermal_diffusion_factor: float = 0.0,
+    source: str = "user",
+) -> Species:
     """Add (or replace) a species in the process-wide registry and return it.
 
     Parameters
@@ -56,8 +62,9 @@ def register_species(name: str, mass: float, lj_diameter: float = 0.0, lj_well_d
     >>> register_species("Xx", 7.0 * AMU).mass_u
     7.0
     """
-    s = Species(name, mass, lj_diameter, lj_well_depth, cross_section, thermal_diffusion_factor,
-                source)
+    s = Species(
+        name, mass, lj_diameter, lj_well_depth, cross_section, thermal_diffusion_factor, source
+    )
     _core.register_species(s)
     return s
 
