@@ -1,0 +1,386 @@
+#include "bindings.hpp"
+
+#include <pybind11/functional.h>
+#include <pybind11/stl.h>
+
+#include <chrono>
+#include <cstdint>
+#include <memory>
+
+#include "exosieve/errors.hpp"
+#include "exosieve/evolution.hpp"
+#include "exosieve/exobase_model.hpp"
+#include "exosieve/hydrodynamic.hpp"
+#include "exosieve/stellar.hpp"
+
+namespace exosieve::bindings {
+
+namespace {
+
+// A Python callable kept alive by C++ objects that may be copied or destroyed without the GIL.
+struct PythonCallable {
+    py::object function;
+    explicit PythonCallable(py::object f) : function(std::move(f)) {}
+    ~PythonCallable() {
+        py::gil_scoped_acquire gil;
+        function = py::object();
+    }
+};
+
+// A 2-D (rows x cols) float64 copy of row-major data.
+py::array_t<double> matrix(const std::vector<double>& data, std::size_t rows, std::size_t cols) {
+    py::array_t<double> out({static_cast<py::ssize_t>(rows), static_cast<py::ssize_t>(cols)});
+    std::copy(data.begin(), data.end(), out.mutable_data());
+    return out;
+}
+
+py::array_t<double> vector(const std::vector<double>& data) {
+    py::array_t<double> out(static_cast<py::ssize_t>(data.size()));
+    std::copy(data.begin(), data.end(), out.mutable_data());
+    return out;
+}
+
+std::vector<double> to_vector(const DoubleArray& a) {
+    return std::vector<double>(a.data(), a.data() + a.size());
+}
+
+// Apply a scalar function elementwise (the facade broadcasts; the loop runs here, in C++).
+template <class F>
+py::array_t<double> map(const DoubleArray& in, F f) {
+    py::array_t<double> out(in.size());
+    const double* x = in.data();
+    double* y = out.mutable_data();
+    for (py::ssize_t i = 0; i < in.size(); ++i) y[i] = f(x[i]);
+    return out;
+}
+
+} // namespace
+
+void bind_evolution(py::module_& m) {
+    // --- stellar -------------------------------------------------------------------------
+    py::class_<XuvHistory>(m, "XuvHistory", "Saturated-then-decaying XUV history parameters")
+        .def(py::init([](double ratio, double time, double index) {
+                 XuvHistory h;
+                 h.saturation_ratio = ratio;
+                 h.saturation_time = time;
+                 h.decay_index = index;
+                 h.validate();
+                 return h;
+             }),
+             py::arg("saturation_ratio") = XuvHistory{}.saturation_ratio,
+             py::arg("saturation_time") = XuvHistory{}.saturation_time,
+             py::arg("decay_index") = XuvHistory{}.decay_index)
+        .def_readonly("saturation_ratio", &XuvHistory::saturation_ratio, "L_xuv / L_bol [1]")
+        .def_readonly("saturation_time", &XuvHistory::saturation_time, "[s]")
+        .def_readonly("decay_index", &XuvHistory::decay_index, "[1]");
+
+    py::class_<Star>(m, "Star", "Host star: mass, luminosity, XUV history [SI]")
+        .def(py::init<double, double, XuvHistory>(), py::arg("mass"), py::arg("luminosity"),
+             py::arg("xuv") = XuvHistory{})
+        .def_property_readonly("mass", &Star::mass)
+        .def_property_readonly("luminosity", &Star::luminosity)
+        .def_property_readonly("xuv", &Star::xuv)
+        .def("xuv_luminosity",
+             [](const Star& s, const DoubleArray& t) {
+                 return map(t, [&](double x) { return s.xuv_luminosity(x); });
+             },
+             py::arg("t"))
+        .def(py::pickle(
+            [](const Star& s) {
+                const XuvHistory& x = s.xuv();
+                return py::make_tuple(s.mass(), s.luminosity(), x.saturation_ratio,
+                                      x.saturation_time, x.decay_index);
+            },
+            [](const py::tuple& t) {
+                XuvHistory x;
+                x.saturation_ratio = t[2].cast<double>();
+                x.saturation_time = t[3].cast<double>();
+                x.decay_index = t[4].cast<double>();
+                return Star(t[0].cast<double>(), t[1].cast<double>(), x);
+            }));
+
+    py::class_<Planet>(m, "Planet", "A planet, with its orbit and star when given [SI]")
+        .def(py::init<double, double>(), py::arg("mass"), py::arg("radius"))
+        .def(py::init<double, double, double, Star>(), py::arg("mass"), py::arg("radius"),
+             py::arg("semi_major_axis"), py::arg("star"))
+        .def_property_readonly("mass", &Planet::mass)
+        .def_property_readonly("radius", &Planet::radius)
+        .def_property_readonly("has_star", &Planet::has_star)
+        .def_property_readonly("semi_major_axis", &Planet::semi_major_axis)
+        .def_property_readonly("star", &Planet::star)
+        .def_property_readonly("surface_gravity", &Planet::surface_gravity)
+        .def("xuv_flux",
+             [](const Planet& p, const DoubleArray& t) {
+                 return map(t, [&](double x) { return p.xuv_flux(x); });
+             },
+             py::arg("t"));
+
+    // --- hydrodynamic ----------------------------------------------------------------------
+    py::class_<RegimeThresholds>(m, "RegimeThresholds", "Jeans-parameter regime thresholds [1]")
+        .def(py::init([](double enhanced, double transition, double hydrodynamic) {
+                 RegimeThresholds t;
+                 t.enhanced = enhanced;
+                 t.transition = transition;
+                 t.hydrodynamic = hydrodynamic;
+                 t.validate();
+                 return t;
+             }),
+             py::arg("enhanced") = 6.0, py::arg("transition") = 3.0,
+             py::arg("hydrodynamic") = 2.1)
+        .def_readonly("enhanced", &RegimeThresholds::enhanced)
+        .def_readonly("transition", &RegimeThresholds::transition)
+        .def_readonly("hydrodynamic", &RegimeThresholds::hydrodynamic);
+
+    m.def("classify_regime",
+          [](const DoubleArray& lambda, const RegimeThresholds& t) {
+              py::array_t<std::int64_t> out(lambda.size());
+              for (py::ssize_t i = 0; i < lambda.size(); ++i)
+                  out.mutable_data()[i] = static_cast<std::int64_t>(classify_regime(lambda.data()[i], t));
+              return out;
+          },
+          py::arg("jeans_parameter"), py::arg("thresholds"));
+    m.def("regime_name", [](int code) {
+        if (code < 0 || code > 3) throw InputError("regime code must be 0..3, got " + std::to_string(code));
+        return std::string(regime_name(static_cast<Regime>(code)));
+    });
+    m.def("roche_lobe_ratio", &roche_lobe_ratio, py::arg("planet_mass"), py::arg("star_mass"),
+          py::arg("semi_major_axis"), py::arg("radius"));
+    m.def("roche_lobe_factor",
+          [](const DoubleArray& xi) { return map(xi, [](double x) { return roche_lobe_factor(x); }); },
+          py::arg("xi"));
+    m.def("energy_limited_mass_loss", &energy_limited_mass_loss, py::arg("efficiency"),
+          py::arg("planet_radius"), py::arg("xuv_radius"), py::arg("xuv_flux"),
+          py::arg("planet_mass"), py::arg("roche_factor") = 1.0);
+    m.def("crossover_mass", &crossover_mass, py::arg("light_mass"), py::arg("temperature"),
+          py::arg("light_flux"), py::arg("diffusion_parameter"), py::arg("gravity"),
+          py::arg("light_mole_fraction"));
+    m.def("dragged_flux", &dragged_flux, py::arg("mass"), py::arg("mole_fraction"),
+          py::arg("light_mass"), py::arg("light_flux"), py::arg("light_mole_fraction"),
+          py::arg("crossover_mass"));
+
+    py::enum_<HydrodynamicActivation>(m, "HydrodynamicActivation")
+        .value("hydrodynamic", HydrodynamicActivation::Hydrodynamic)
+        .value("transition", HydrodynamicActivation::Transition)
+        .value("always", HydrodynamicActivation::Always);
+
+    py::class_<DiffusionLaw>(m, "DiffusionLaw", "b(T) = A T^s [m^-1 s^-1]")
+        .def(py::init([](double a, double s) { return DiffusionLaw{a, s}; }), py::arg("coefficient"),
+             py::arg("exponent") = 0.0)
+        .def_readonly("coefficient", &DiffusionLaw::coefficient)
+        .def_readonly("exponent", &DiffusionLaw::exponent)
+        .def("__call__", &DiffusionLaw::operator(), py::arg("temperature"));
+
+    py::class_<HydrodynamicOptions>(m, "HydrodynamicOptions")
+        .def(py::init([](double efficiency, double xuv_radius, bool roche_lobe,
+                         const std::string& escaping, HydrodynamicActivation activation,
+                         std::vector<std::pair<std::string, DiffusionLaw>> diffusion) {
+                 HydrodynamicOptions h;
+                 h.efficiency = efficiency;
+                 h.xuv_radius = xuv_radius;
+                 h.roche_lobe = roche_lobe;
+                 h.escaping_species = escaping;
+                 h.activation = activation;
+                 h.diffusion = std::move(diffusion);
+                 h.validate();
+                 return h;
+             }),
+             py::arg("efficiency"), py::arg("xuv_radius"), py::arg("roche_lobe"),
+             py::arg("escaping_species"), py::arg("activation"), py::arg("diffusion"))
+        .def_readonly("efficiency", &HydrodynamicOptions::efficiency)
+        .def_readonly("xuv_radius", &HydrodynamicOptions::xuv_radius)
+        .def_readonly("roche_lobe", &HydrodynamicOptions::roche_lobe)
+        .def_readonly("escaping_species", &HydrodynamicOptions::escaping_species)
+        .def_readonly("activation", &HydrodynamicOptions::activation)
+        .def_readonly("diffusion", &HydrodynamicOptions::diffusion);
+
+    // --- exobase models and histories -----------------------------------------------------------
+    py::class_<ExobaseTemperature>(m, "ExobaseTemperature", "Exobase temperature history")
+        .def_static("constant", &ExobaseTemperature::constant, py::arg("temperature"))
+        .def_static("table",
+                    [](const DoubleArray& times, const DoubleArray& temps) {
+                        return ExobaseTemperature::table(to_vector(times), to_vector(temps));
+                    },
+                    py::arg("times"), py::arg("temperatures"))
+        .def_static("xuv_power_law", &ExobaseTemperature::xuv_power_law,
+                    py::arg("reference_temperature"), py::arg("reference_flux"),
+                    py::arg("exponent"), py::arg("minimum"), py::arg("maximum"))
+        .def_static(
+            "callable",
+            [](py::object function, const std::string& description) {
+                if (!PyCallable_Check(function.ptr()))
+                    throw InputError("exobase temperature: expected a callable, got " +
+                                     py::repr(function).cast<std::string>());
+                auto holder = std::make_shared<PythonCallable>(std::move(function));
+                return ExobaseTemperature::callable(
+                    [holder](double t) -> double {
+                        py::gil_scoped_acquire gil;
+                        py::object value = holder->function(t);
+                        try {
+                            return py::cast<double>(value);
+                        } catch (const py::cast_error&) {
+                            throw InputError("exobase temperature callable returned " +
+                                             py::repr(value).cast<std::string>() + " at t = " +
+                                             format_value(t) + " s; it must return a number [K]");
+                        }
+                    },
+                    description);
+            },
+            py::arg("function"), py::arg("description"))
+        .def("__call__", &ExobaseTemperature::operator(), py::arg("t"), py::arg("xuv_flux") = 0.0)
+        .def_property_readonly("thread_safe", &ExobaseTemperature::thread_safe)
+        .def_property_readonly("needs_xuv_flux", &ExobaseTemperature::needs_xuv_flux)
+        .def("to_json", &ExobaseTemperature::to_json);
+
+    py::class_<ExobaseModel, std::shared_ptr<ExobaseModel>>(m, "ExobaseModel")
+        .def_property_readonly("species_names", &ExobaseModel::species_names)
+        .def("to_json", &ExobaseModel::to_json);
+
+    py::enum_<DensityScaling>(m, "DensityScaling")
+        .value("inventory", DensityScaling::Inventory)
+        .value("fixed", DensityScaling::Fixed);
+
+    py::class_<PrescribedExobase, ExobaseModel, std::shared_ptr<PrescribedExobase>>(
+        m, "PrescribedExobase")
+        .def(py::init<double, std::vector<std::string>, std::vector<double>, DensityScaling>(),
+             py::arg("radius"), py::arg("species"), py::arg("densities"), py::arg("scaling"));
+
+    py::class_<SourceRate>(m, "SourceRate", "Source of one species [s^-1]")
+        .def(py::init<>())
+        .def(py::init<double>(), py::arg("rate"))
+        .def(py::init([](const DoubleArray& times, const DoubleArray& rates) {
+                 return SourceRate(to_vector(times), to_vector(rates));
+             }),
+             py::arg("times"), py::arg("rates"))
+        .def("__call__", &SourceRate::operator(), py::arg("t"))
+        .def("to_json", &SourceRate::to_json);
+
+    // --- evolution ---------------------------------------------------------------------------
+    py::class_<EvolutionConfig>(m, "EvolutionConfig", "Everything one run needs (plain data)")
+        .def(py::init<Planet>(), py::arg("planet"))
+        .def_readwrite("planet", &EvolutionConfig::planet)
+        .def_readwrite("species", &EvolutionConfig::species)
+        .def_readwrite("initial_inventory", &EvolutionConfig::initial_inventory)
+        .def_property(
+            "exobase", [](const EvolutionConfig& c) { return std::const_pointer_cast<ExobaseModel>(c.exobase); },
+            [](EvolutionConfig& c, std::shared_ptr<ExobaseModel> e) { c.exobase = std::move(e); })
+        .def_readwrite("temperature", &EvolutionConfig::temperature)
+        .def_readwrite("sources", &EvolutionConfig::sources)
+        .def_readwrite("hydrodynamic", &EvolutionConfig::hydrodynamic)
+        .def_readwrite("thresholds", &EvolutionConfig::thresholds)
+        .def_readwrite("tail", &EvolutionConfig::tail)
+        .def_readwrite("t_start", &EvolutionConfig::t_start)
+        .def_readwrite("t_end", &EvolutionConfig::t_end)
+        .def_property(
+            "t_eval", [](const EvolutionConfig& c) { return vector(c.t_eval); },
+            [](EvolutionConfig& c, const DoubleArray& t) { c.t_eval = to_vector(t); })
+        .def_readwrite("rtol", &EvolutionConfig::rtol)
+        .def_readwrite("atol", &EvolutionConfig::atol)
+        .def_readwrite("depletion_fraction", &EvolutionConfig::depletion_fraction)
+        .def_readwrite("max_steps", &EvolutionConfig::max_steps)
+        .def_readwrite("isotope_ratios", &EvolutionConfig::isotope_ratios)
+        .def_property_readonly("thread_safe",
+                               [](const EvolutionConfig& c) { return c.temperature.thread_safe(); })
+        .def("validate", &EvolutionConfig::validate)
+        .def("to_json", &EvolutionConfig::to_json);
+
+    m.def("default_isotope_ratios", &default_isotope_ratios, py::arg("species"));
+
+    py::class_<RegimeChange>(m, "RegimeChange")
+        .def_readonly("time", &RegimeChange::time)
+        .def_property_readonly("from_regime", [](const RegimeChange& c) { return static_cast<int>(c.from); })
+        .def_property_readonly("to_regime", [](const RegimeChange& c) { return static_cast<int>(c.to); });
+
+    py::class_<EvolutionResult>(m, "EvolutionResult", "Raw output of evolve() [SI]")
+        .def_readonly("species", &EvolutionResult::species)
+        .def_readonly("ratio_names", &EvolutionResult::ratio_names)
+        .def_property_readonly("time", [](const EvolutionResult& r) { return vector(r.time); })
+        .def_property_readonly("inventory", [](const EvolutionResult& r) {
+            return matrix(r.inventory, r.time_count(), r.species_count());
+        })
+        .def_property_readonly("escape_rate", [](const EvolutionResult& r) {
+            return matrix(r.escape_rate, r.time_count(), r.species_count());
+        })
+        .def_property_readonly("source_rate", [](const EvolutionResult& r) {
+            return matrix(r.source_rate, r.time_count(), r.species_count());
+        })
+        .def_property_readonly("jeans_parameter", [](const EvolutionResult& r) {
+            return matrix(r.jeans_parameter, r.time_count(), r.species_count());
+        })
+        .def_property_readonly("isotope_ratio", [](const EvolutionResult& r) {
+            return matrix(r.isotope_ratio, r.time_count(), r.ratio_names.size());
+        })
+        .def_property_readonly("exobase_radius",
+                               [](const EvolutionResult& r) { return vector(r.exobase_radius); })
+        .def_property_readonly("exobase_temperature", [](const EvolutionResult& r) {
+            return vector(r.exobase_temperature);
+        })
+        .def_property_readonly("xuv_flux", [](const EvolutionResult& r) { return vector(r.xuv_flux); })
+        .def_property_readonly("regime",
+                               [](const EvolutionResult& r) {
+                                   py::array_t<std::int64_t> out(r.regime.size());
+                                   std::copy(r.regime.begin(), r.regime.end(), out.mutable_data());
+                                   return out;
+                               })
+        .def_property_readonly("energy_limited",
+                               [](const EvolutionResult& r) {
+                                   py::array_t<std::int64_t> out(r.energy_limited.size());
+                                   std::copy(r.energy_limited.begin(), r.energy_limited.end(),
+                                             out.mutable_data());
+                                   return out;
+                               })
+        .def_property_readonly("depletion_time",
+                               [](const EvolutionResult& r) { return vector(r.depletion_time); })
+        .def_readonly("regime_changes", &EvolutionResult::regime_changes)
+        .def_readonly("steps", &EvolutionResult::steps)
+        .def_readonly("rejected_steps", &EvolutionResult::rejected_steps)
+        .def_readonly("rhs_evaluations", &EvolutionResult::rhs_evaluations)
+        .def_readonly("completed", &EvolutionResult::completed)
+        .def_readonly("t_reached", &EvolutionResult::t_reached)
+        .def_readonly("config", &EvolutionResult::config);
+
+    // Runs without the GIL. Every ~50 ms it takes the GIL to check for signals (Ctrl-C stops
+    // the run and raises KeyboardInterrupt) and to call `progress(t)`, whose False stops it.
+    m.def(
+        "evolve",
+        [](EvolutionConfig& config, py::object progress) {
+            using clock = std::chrono::steady_clock;
+            auto last = clock::now();
+            bool interrupted = false;
+            std::unique_ptr<py::error_already_set> progress_error;
+            config.progress = [&](double t) {
+                const auto now = clock::now();
+                if (now - last < std::chrono::milliseconds(50)) return true;
+                last = now;
+                py::gil_scoped_acquire gil;
+                if (PyErr_CheckSignals() != 0) {
+                    interrupted = true;
+                    return false;
+                }
+                if (!progress.is_none()) {
+                    try {
+                        py::object keep = progress(t);
+                        if (!keep.is_none() && !py::cast<bool>(keep)) return false;
+                    } catch (py::error_already_set& e) {
+                        progress_error = std::make_unique<py::error_already_set>(std::move(e));
+                        return false;
+                    }
+                }
+                return true;
+            };
+            EvolutionResult result;
+            try {
+                py::gil_scoped_release release;
+                result = evolve(config);
+            } catch (...) {
+                config.progress = nullptr;
+                throw;
+            }
+            config.progress = nullptr;
+            if (interrupted) throw py::error_already_set();
+            if (progress_error) throw std::move(*progress_error);
+            return result;
+        },
+        py::arg("config"), py::arg("progress") = py::none());
+}
+
+} // namespace exosieve::bindings
