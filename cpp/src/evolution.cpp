@@ -96,9 +96,11 @@ class Model {
     explicit Model(const EvolutionConfig& c) : c_(c), n_(c.species.size()) {
         y0_.resize(n_);
         mass_.resize(n_);
+        half_log_mass_.resize(n_);
         for (std::size_t i = 0; i < n_; ++i) {
             y0_[i] = std::log(c.initial_inventory[i]);
             mass_[i] = c.species[i].mass;
+            half_log_mass_[i] = 0.5 * std::log(mass_[i]);
         }
         state_.log_density.assign(n_, 0.0);
         state_.log_escape_rate.assign(n_, 0.0);
@@ -221,6 +223,7 @@ class Model {
         const double kT = k_B * temperature_;
         const double gm_over_ktr = G * c_.planet.mass() / (kT * r);
         const double log_area = log_area_factor_ + 2.0 * std::log(r);
+        const double half_log_2kT = 0.5 * std::log(2.0 * kT);
         std::size_t densest = 0;
         for (std::size_t i = 0; i < n_; ++i) {
             const double lambda = gm_over_ktr * mass_[i];
@@ -229,7 +232,7 @@ class Model {
                 log_rate_[i] = state_.log_escape_rate[i];
             } else {
                 // ln(4 pi r^2 n v0/(2 sqrt(pi)) (1 + lambda) e^-lambda f_tail(lambda))
-                const double log_v0 = 0.5 * std::log(2.0 * kT / mass_[i]);
+                const double log_v0 = half_log_2kT - half_log_mass_[i];
                 double lr = log_area + state_.log_density[i] + log_v0 + log_inv_two_sqrt_pi +
                             std::log1p(lambda) - lambda;
                 if (!c_.tail.is_identity()) lr += std::log(c_.tail(lambda));
@@ -268,7 +271,7 @@ class Model {
 
     const EvolutionConfig& c_;
     std::size_t n_;
-    std::vector<double> y0_, mass_, log_fraction_, log_rate_, lambda_;
+    std::vector<double> y0_, mass_, half_log_mass_, log_fraction_, log_rate_, lambda_;
     ExobaseState state_;
     bool needs_flux_ = false;
     bool has_sources_ = false;

@@ -25,6 +25,25 @@ from .maxwell import (
     speed_pdf,
 )
 from .species import Species, register_species, species, species_names
+from .evolution import evolve
+from .model import (
+    REGIMES,
+    EnergyLimitedEscape,
+    Planet,
+    PrescribedExobase,
+    RegimeThresholds,
+    Star,
+    TabulatedSource,
+    TabulatedTemperature,
+    XuvTemperature,
+    classify_regime,
+    crossover_mass,
+    dragged_flux,
+    energy_limited_mass_loss,
+    roche_lobe_factor,
+    roche_lobe_ratio,
+)
+from .result import EvolutionResult, open_result
 
 __all__ = [
     "__version__",
@@ -50,4 +69,22 @@ __all__ = [
     "jeans_energy_flux",
     "jeans_escape_rate",
     "log_jeans_escape_rate",
+    "Star",
+    "Planet",
+    "TabulatedTemperature",
+    "XuvTemperature",
+    "PrescribedExobase",
+    "TabulatedSource",
+    "EnergyLimitedEscape",
+    "RegimeThresholds",
+    "REGIMES",
+    "classify_regime",
+    "roche_lobe_ratio",
+    "roche_lobe_factor",
+    "energy_limited_mass_loss",
+    "crossover_mass",
+    "dragged_flux",
+    "evolve",
+    "EvolutionResult",
+    "open_result",
 ]
