@@ -461,8 +461,8 @@ Exobase Thermosphere::find_exobase() const {
             why << "no exobase below the outer radius " << format_km(outer_radius_ - planet_radius_)
                 << " altitude (" << outer_radius_ / planet_radius_
                 << " planet radii): the mean free path there is still only " << std::exp(f_hi)
-                << " scale heights; an atmosphere this extended is likely escaping "
-                   "hydrodynamically";
+                << " scale heights; the hydrostatic picture does not close, and an atmosphere "
+                   "this extended is probably escaping hydrodynamically";
             return none(ExobaseStatus::none_below_outer_radius, why.str());
         }
         r_lo = r_hi;
