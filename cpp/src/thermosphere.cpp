@@ -321,22 +321,28 @@ double Thermosphere::temperature(double r) const {
     return profile_(r);
 }
 
-double Thermosphere::log_density(std::size_t i, double r) const {
+double Thermosphere::decay_exponent(std::size_t i, double r) const {
     if (i >= species_.size())
         throw InputError("species index " + std::to_string(i) + " out of range (" +
                          std::to_string(species_.size()) + " species)");
     require_in_range("radius", r);
     const Species& s = species_[i];
-    return log_x_[i] - s.mass / amu * column(r) -
+    return -s.mass / amu * column(r) -
            (1.0 + s.thermal_diffusion_factor) * std::log(profile_(r) / homopause_temperature_);
 }
 
+double Thermosphere::log_density(std::size_t i, double r) const {
+    const double exponent = decay_exponent(i, r);
+    return log_x_[i] + exponent;
+}
+
 double Thermosphere::density(std::size_t i, double r) const {
-    if (i < species_.size() && fractions_[i] == 0.0) {
-        require_in_range("radius", r);
-        return 0.0;
-    }
-    return std::exp(log_density(i, r));
+    const double exponent = decay_exponent(i, r);
+    if (fractions_[i] == 0.0) return 0.0;
+    // x n_h times the decay factor (exact at the homopause); the log form only where the
+    // factor alone would underflow.
+    if (exponent > -700.0) return fractions_[i] * homopause_density_ * std::exp(exponent);
+    return std::exp(log_x_[i] + exponent);
 }
 
 void Thermosphere::densities(double r, double* out) const {

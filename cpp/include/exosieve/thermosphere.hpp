@@ -178,6 +178,8 @@ class Thermosphere {
     };
     Local local_mixture(double r, std::vector<double>& weights) const;
     void require_in_range(const char* what, double r) const;
+    // ln(n_i(r) / n_i(r_h)) after checking i and r.
+    double decay_exponent(std::size_t i, double r) const;
     double column(double r) const; // J(r) in units of 1/amu (dimensionless per atomic mass unit)
     const Column& column_cache() const;
     Exobase find_exobase() const;
