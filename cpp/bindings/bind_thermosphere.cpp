@@ -17,8 +17,10 @@ namespace exosieve::bindings {
 namespace {
 
 DiffusionMethod method_from(const std::string& name) {
-    if (name == "measured") return DiffusionMethod::measured_first;
-    if (name == "chapman_enskog") return DiffusionMethod::chapman_enskog;
+    if (name == "measured")
+        return DiffusionMethod::measured_first;
+    if (name == "chapman_enskog")
+        return DiffusionMethod::chapman_enskog;
     throw InputError("method must be 'measured' or 'chapman_enskog', got '" + name + "'");
 }
 
@@ -68,8 +70,8 @@ void bind_thermosphere(py::module_& m) {
             });
         },
         py::arg("count"), py::arg("species"), py::arg("background"), py::arg("fractions"),
-        py::arg("mixing_ratio"), py::arg("temperature"), py::arg("planet_mass"),
-        py::arg("radius"), py::arg("method"));
+        py::arg("mixing_ratio"), py::arg("temperature"), py::arg("planet_mass"), py::arg("radius"),
+        py::arg("method"));
     m.def(
         "coupled_escape_flux",
         [](std::size_t count, const DoubleArray& jeans_flux_eq, const DoubleArray& b,
@@ -86,8 +88,8 @@ void bind_thermosphere(py::module_& m) {
     m.def("diffusion_pairs", []() {
         py::list out;
         for (const DiffusionPair& p : default_diffusion_pairs().pairs())
-            out.append(py::make_tuple(p.species_a, p.species_b, p.coefficient, p.exponent,
-                                      p.source));
+            out.append(
+                py::make_tuple(p.species_a, p.species_b, p.coefficient, p.exponent, p.source));
         return out;
     });
     m.def("diffusion_pairs_csv", []() { return std::string(diffusion_pairs_csv()); });
@@ -97,8 +99,7 @@ void bind_thermosphere(py::module_& m) {
         .def_static("isothermal", &TemperatureProfile::isothermal, py::arg("temperature"))
         .def_static("bates", &TemperatureProfile::bates, py::arg("exobase_temperature"),
                     py::arg("base_temperature"), py::arg("shape"), py::arg("base_radius"))
-        .def_static("table", &TemperatureProfile::table, py::arg("radius"),
-                    py::arg("temperature"))
+        .def_static("table", &TemperatureProfile::table, py::arg("radius"), py::arg("temperature"))
         .def_property_readonly("kind",
                                [](const TemperatureProfile& p) {
                                    switch (p.kind()) {
@@ -148,8 +149,7 @@ void bind_thermosphere(py::module_& m) {
             "density",
             [](const Thermosphere& t, std::size_t i, const DoubleArray& r) {
                 const std::size_t count = static_cast<std::size_t>(r.size());
-                return with_output(count,
-                                   [&](double* out) { t.density(i, r.data(), out, count); });
+                return with_output(count, [&](double* out) { t.density(i, r.data(), out, count); });
             },
             py::arg("index"), py::arg("radius"))
         .def("mean_free_path", &Thermosphere::mean_free_path, py::arg("radius"),
@@ -158,12 +158,11 @@ void bind_thermosphere(py::module_& m) {
              py::call_guard<py::gil_scoped_release>())
         .def("exobase_criterion", &Thermosphere::exobase_criterion, py::arg("radius"),
              py::call_guard<py::gil_scoped_release>())
-        .def(
-            "exobase",
-            [](const Thermosphere& t) {
-                py::gil_scoped_release release;
-                return t.exobase(); // a copy: the Python object owns its data
-            })
+        .def("exobase",
+             [](const Thermosphere& t) {
+                 py::gil_scoped_release release;
+                 return t.exobase(); // a copy: the Python object owns its data
+             })
         .def("escape_flux", &Thermosphere::escape_flux, py::arg("index"),
              py::arg("limit_by_diffusion"), py::call_guard<py::gil_scoped_release>())
         .def("diffusion_limited_flux", &Thermosphere::diffusion_limited_flux, py::arg("index"),

@@ -48,7 +48,8 @@ double parse_number(const std::string& text, const std::string& where) {
     try {
         std::size_t used = 0;
         const double v = std::stod(text, &used);
-        if (used != text.size()) throw std::invalid_argument(text);
+        if (used != text.size())
+            throw std::invalid_argument(text);
         return v;
     } catch (const std::exception&) {
         throw InputError(where + ": '" + text + "' is not a number");
@@ -70,8 +71,7 @@ double chapman_enskog_unchecked(const Species& a, const Species& b, double tempe
 
 void require_lj(const Species& s) {
     if (!(s.lj_diameter > 0.0) || !(s.lj_well_depth > 0.0))
-        throw InputError("species '" + s.name +
-                         "' has no Lennard-Jones parameters (lj_diameter " +
+        throw InputError("species '" + s.name + "' has no Lennard-Jones parameters (lj_diameter " +
                          format_value(s.lj_diameter) + " m, lj_well_depth " +
                          format_value(s.lj_well_depth) + " K); add a measured diffusion pair");
 }
@@ -104,8 +104,7 @@ void check_background(const Species& s, const std::vector<Species>& background,
     validate_composition("background", background, fractions);
     for (const Species& other : background)
         if (other.name == s.name)
-            throw InputError("background must not contain the diffusing species '" + s.name +
-                             "'");
+            throw InputError("background must not contain the diffusing species '" + s.name + "'");
 }
 
 } // namespace
@@ -163,7 +162,8 @@ DiffusionPairTable DiffusionPairTable::from_csv(const std::string& csv_text,
             throw InputError(where + ": " + e.what());
         }
     }
-    if (header.empty()) throw InputError(origin + ": no header line");
+    if (header.empty())
+        throw InputError(origin + ": no header line");
     return table;
 }
 
@@ -184,7 +184,8 @@ void DiffusionPairTable::add(const DiffusionPair& pair) {
 std::vector<DiffusionPair> DiffusionPairTable::pairs() const {
     std::vector<DiffusionPair> out;
     out.reserve(by_pair_.size());
-    for (const auto& entry : by_pair_) out.push_back(entry.second);
+    for (const auto& entry : by_pair_)
+        out.push_back(entry.second);
     return out;
 }
 
@@ -194,8 +195,7 @@ DiffusionPairTable& default_diffusion_pairs() {
     return table;
 }
 
-double chapman_enskog_diffusion_parameter(const Species& a, const Species& b,
-                                          double temperature) {
+double chapman_enskog_diffusion_parameter(const Species& a, const Species& b, double temperature) {
     require_positive("temperature", temperature);
     require_lj(a);
     require_lj(b);
@@ -211,7 +211,8 @@ double binary_diffusion_parameter(const Species& a, const Species& b, double tem
 void validate_composition(const char* what, const std::vector<Species>& background,
                           const std::vector<double>& fractions) {
     const std::string name(what);
-    if (background.empty()) throw InputError(name + " must name at least one species");
+    if (background.empty())
+        throw InputError(name + " must name at least one species");
     if (background.size() != fractions.size())
         throw InputError(name + ": " + std::to_string(background.size()) + " species but " +
                          std::to_string(fractions.size()) + " mole fractions");
@@ -233,7 +234,8 @@ void validate_composition(const char* what, const std::vector<Species>& backgrou
 
 double mean_mass(const std::vector<Species>& background, const std::vector<double>& fractions) {
     double m = 0.0;
-    for (std::size_t j = 0; j < background.size(); ++j) m += fractions[j] * background[j].mass;
+    for (std::size_t j = 0; j < background.size(); ++j)
+        m += fractions[j] * background[j].mass;
     return m;
 }
 
@@ -274,7 +276,8 @@ void binary_diffusion_parameter(const Species& a, const Species& b, ArrayArg tem
     require_positive("temperature", temperature);
     const PairEstimate estimate = pair_estimate(a, b, method);
     parallel_for(count, [&](std::size_t begin, std::size_t end) {
-        for (std::size_t i = begin; i < end; ++i) out[i] = estimate(temperature[i]);
+        for (std::size_t i = begin; i < end; ++i)
+            out[i] = estimate(temperature[i]);
     });
 }
 
@@ -304,7 +307,8 @@ void diffusion_limited_flux(const Species& s, const std::vector<Species>& backgr
         for (std::size_t i = begin; i < end; ++i) {
             const double T = temperature[i];
             double inverse = 0.0;
-            for (std::size_t j = 0; j < estimates.size(); ++j) inverse += weights[j] / estimates[j](T);
+            for (std::size_t j = 0; j < estimates.size(); ++j)
+                inverse += weights[j] / estimates[j](T);
             const double g = G * planet_mass[i] / (radius[i] * radius[i]);
             // 1/H_a - 1/H_i = (m_a - m_i) g / (k T)
             out[i] = mixing_ratio[i] / inverse * (m_a - s.mass) * g / (k_B * T);
@@ -312,13 +316,14 @@ void diffusion_limited_flux(const Species& s, const std::vector<Species>& backgr
     });
 }
 
-void coupled_escape_flux(ArrayArg jeans_flux_eq, ArrayArg b, ArrayArg mixing_ratio,
-                         ArrayArg beta, ArrayArg thickness, double* out, std::size_t count) {
+void coupled_escape_flux(ArrayArg jeans_flux_eq, ArrayArg b, ArrayArg mixing_ratio, ArrayArg beta,
+                         ArrayArg thickness, double* out, std::size_t count) {
     check_lengths(count, {jeans_flux_eq, b, mixing_ratio, beta, thickness});
     require_non_negative("jeans_flux_eq", jeans_flux_eq);
     require_positive("b", b);
     require_non_negative("mixing_ratio", mixing_ratio);
-    for (std::size_t i = 0; i < beta.size; ++i) require_finite("beta", beta.data[i]);
+    for (std::size_t i = 0; i < beta.size; ++i)
+        require_finite("beta", beta.data[i]);
     require_non_negative("thickness", thickness);
     for (std::size_t i = 0; i < count; ++i) {
         const double phi_j = jeans_flux_eq[i];

@@ -94,10 +94,13 @@ double TemperatureProfile::operator()(double r) const {
     case Kind::isothermal:
         return asymptotic_;
     case Kind::bates:
-        return asymptotic_ - (asymptotic_ - base_temperature_) * std::exp(-shape_ * (r - base_radius_));
+        return asymptotic_ -
+               (asymptotic_ - base_temperature_) * std::exp(-shape_ * (r - base_radius_));
     case Kind::table: {
-        if (r <= radius_.front()) return temperature_.front();
-        if (r >= radius_.back()) return temperature_.back();
+        if (r <= radius_.front())
+            return temperature_.front();
+        if (r >= radius_.back())
+            return temperature_.back();
         const auto hi = static_cast<std::size_t>(
             std::upper_bound(radius_.begin(), radius_.end(), r) - radius_.begin());
         const std::size_t lo = hi - 1;
@@ -115,7 +118,8 @@ double TemperatureProfile::slope(double r) const {
     case Kind::bates:
         return shape_ * (asymptotic_ - base_temperature_) * std::exp(-shape_ * (r - base_radius_));
     case Kind::table: {
-        if (r < radius_.front() || r >= radius_.back()) return 0.0;
+        if (r < radius_.front() || r >= radius_.back())
+            return 0.0;
         const auto hi = static_cast<std::size_t>(
             std::upper_bound(radius_.begin(), radius_.end(), r) - radius_.begin());
         const std::size_t lo = hi - 1;
@@ -125,7 +129,9 @@ double TemperatureProfile::slope(double r) const {
     return nan;
 }
 
-double TemperatureProfile::asymptotic_temperature() const { return asymptotic_; }
+double TemperatureProfile::asymptotic_temperature() const {
+    return asymptotic_;
+}
 
 double TemperatureProfile::flat_above() const {
     switch (kind_) {
@@ -133,7 +139,8 @@ double TemperatureProfile::flat_above() const {
         return 0.0;
     case Kind::bates: {
         const double spread = std::fabs(asymptotic_ - base_temperature_) / asymptotic_;
-        if (spread == 0.0) return base_radius_;
+        if (spread == 0.0)
+            return base_radius_;
         return base_radius_ + std::max(0.0, std::log(spread / flat_tolerance)) / shape_;
     }
     case Kind::table:
@@ -148,8 +155,8 @@ double TemperatureProfile::flat_above() const {
 // t = (r - r_k) / (r_{k+1} - r_k) between accepted integration steps, and the closed form
 // u_end + c / T_end (1/r_end - 1/r) above r_end where the temperature is constant.
 struct Thermosphere::Column {
-    std::vector<double> nodes;                 // r_0 = r_h < r_1 < ... < r_end
-    std::vector<std::array<double, 6>> coeff;  // polynomial coefficients per interval
+    std::vector<double> nodes;                // r_0 = r_h < r_1 < ... < r_end
+    std::vector<std::array<double, 6>> coeff; // polynomial coefficients per interval
     double r_end = 0.0;
     double u_end = 0.0;
     double c_over_T_end = 0.0; // amu G M / (k T_end)
@@ -167,13 +174,15 @@ Thermosphere::Column build_column(const TemperatureProfile& profile, double plan
     const double r_end = std::max(r_h, profile.flat_above());
     col.r_end = r_h;
     col.u_end = 0.0;
-    if (!(r_end > r_h)) return col;
+    if (!(r_end > r_h))
+        return col;
 
     // Segments between kinks of the profile, so that each step sees a smooth integrand.
     std::vector<double> breaks{r_h};
     if (profile.kind() == TemperatureProfile::Kind::table)
         for (double r : profile.table_radius())
-            if (r > r_h && r < r_end) breaks.push_back(r);
+            if (r > r_h && r < r_end)
+                breaks.push_back(r);
     breaks.push_back(r_end);
 
     namespace ode = boost::numeric::odeint;
@@ -192,14 +201,14 @@ Thermosphere::Column build_column(const TemperatureProfile& profile, double plan
         // Start with a step of a fraction of the local temperature scale length.
         const double slope = std::fabs(profile.slope(0.5 * (a + b)));
         double dr = (b - a) / 16.0;
-        if (slope > 0.0) dr = std::min(dr, 0.05 * profile(a) / slope);
-        ode::integrate_adaptive(stepper, rhs, u, a, b, dr,
-                                [&](const ColumnState& state, double r) {
-                                    if (r > r_steps.back()) {
-                                        r_steps.push_back(r);
-                                        u_steps.push_back(state[0]);
-                                    }
-                                });
+        if (slope > 0.0)
+            dr = std::min(dr, 0.05 * profile(a) / slope);
+        ode::integrate_adaptive(stepper, rhs, u, a, b, dr, [&](const ColumnState& state, double r) {
+            if (r > r_steps.back()) {
+                r_steps.push_back(r);
+                u_steps.push_back(state[0]);
+            }
+        });
         r_steps.back() = b; // the last observed step ends exactly at the break
         u_steps.back() = u[0];
     }
@@ -243,10 +252,10 @@ Thermosphere::Thermosphere(double planet_mass, double planet_radius, double homo
                            double homopause_density, std::vector<Species> species,
                            std::vector<double> mole_fractions, TemperatureProfile profile,
                            double outer_radius)
-    : planet_mass_(planet_mass), planet_radius_(planet_radius),
-      homopause_radius_(homopause_radius), homopause_density_(homopause_density),
-      outer_radius_(outer_radius), species_(std::move(species)),
-      fractions_(std::move(mole_fractions)), profile_(std::move(profile)) {
+    : planet_mass_(planet_mass), planet_radius_(planet_radius), homopause_radius_(homopause_radius),
+      homopause_density_(homopause_density), outer_radius_(outer_radius),
+      species_(std::move(species)), fractions_(std::move(mole_fractions)),
+      profile_(std::move(profile)) {
     require_positive("planet_mass", planet_mass_);
     require_positive("planet_radius", planet_radius_);
     require_positive("homopause_radius", homopause_radius_);
@@ -256,8 +265,10 @@ Thermosphere::Thermosphere(double planet_mass, double planet_radius, double homo
                          format_value(planet_radius_) + " m)");
     require_positive("homopause_density", homopause_density_);
     validate_composition("composition", species_, fractions_);
-    for (const Species& s : species_) validate(s);
-    if (outer_radius_ == 0.0) outer_radius_ = default_outer_factor * homopause_radius_;
+    for (const Species& s : species_)
+        validate(s);
+    if (outer_radius_ == 0.0)
+        outer_radius_ = default_outer_factor * homopause_radius_;
     require_positive("outer_radius", outer_radius_);
     if (!(outer_radius_ > homopause_radius_))
         throw InputError("outer_radius " + format_value(outer_radius_) +
@@ -278,24 +289,25 @@ Thermosphere::Thermosphere(double planet_mass, double planet_radius, double homo
 
 std::size_t Thermosphere::index(const std::string& name) const {
     for (std::size_t i = 0; i < species_.size(); ++i)
-        if (species_[i].name == name) return i;
+        if (species_[i].name == name)
+            return i;
     std::string known;
-    for (const Species& s : species_) known += (known.empty() ? "" : ", ") + s.name;
+    for (const Species& s : species_)
+        known += (known.empty() ? "" : ", ") + s.name;
     throw InputError("species '" + name + "' is not in this thermosphere (it has " + known + ")");
 }
 
 void Thermosphere::require_in_range(const char* what, double r) const {
     if (!std::isfinite(r) || r < homopause_radius_ * (1.0 - 1e-15))
-        throw InputError(std::string(what) + " " + format_value(r) +
-                         " m is below the homopause (" + format_value(homopause_radius_) +
-                         " m) or not finite");
+        throw InputError(std::string(what) + " " + format_value(r) + " m is below the homopause (" +
+                         format_value(homopause_radius_) + " m) or not finite");
 }
 
 const Thermosphere::Column& Thermosphere::column_cache() const {
     std::shared_ptr<const Column> col = std::atomic_load(&column_);
     if (!col) {
-        col = std::make_shared<const Column>(
-            build_column(profile_, planet_mass_, homopause_radius_));
+        col =
+            std::make_shared<const Column>(build_column(profile_, planet_mass_, homopause_radius_));
         std::atomic_store(&column_, col);
     }
     return *col;
@@ -306,8 +318,10 @@ double Thermosphere::column(double r) const {
         return amu * G * planet_mass_ / (k_B * profile_.asymptotic_temperature()) *
                (1.0 / homopause_radius_ - 1.0 / r);
     const Column& col = column_cache();
-    if (r >= col.r_end) return col.u_end + col.c_over_T_end * (1.0 / col.r_end - 1.0 / r);
-    if (r <= col.nodes.front()) return 0.0;
+    if (r >= col.r_end)
+        return col.u_end + col.c_over_T_end * (1.0 / col.r_end - 1.0 / r);
+    if (r <= col.nodes.front())
+        return 0.0;
     const auto hi = static_cast<std::size_t>(
         std::upper_bound(col.nodes.begin(), col.nodes.end(), r) - col.nodes.begin());
     const std::size_t k = hi - 1;
@@ -338,28 +352,35 @@ double Thermosphere::log_density(std::size_t i, double r) const {
 
 double Thermosphere::density(std::size_t i, double r) const {
     const double exponent = decay_exponent(i, r);
-    if (fractions_[i] == 0.0) return 0.0;
+    if (fractions_[i] == 0.0)
+        return 0.0;
     // x n_h times the decay factor (exact at the homopause); the log form only where the
     // factor alone would underflow.
-    if (exponent > -700.0) return fractions_[i] * homopause_density_ * std::exp(exponent);
+    if (exponent > -700.0)
+        return fractions_[i] * homopause_density_ * std::exp(exponent);
     return std::exp(log_x_[i] + exponent);
 }
 
 void Thermosphere::densities(double r, double* out) const {
-    for (std::size_t i = 0; i < species_.size(); ++i) out[i] = density(i, r);
+    for (std::size_t i = 0; i < species_.size(); ++i)
+        out[i] = density(i, r);
 }
 
 void Thermosphere::density(std::size_t i, const double* r, double* out, std::size_t count) const {
     if (i >= species_.size())
         throw InputError("species index " + std::to_string(i) + " out of range (" +
                          std::to_string(species_.size()) + " species)");
-    for (std::size_t k = 0; k < count; ++k) require_in_range("radius", r[k]);
-    for (std::size_t k = 0; k < count; ++k) out[k] = density(i, r[k]);
+    for (std::size_t k = 0; k < count; ++k)
+        require_in_range("radius", r[k]);
+    for (std::size_t k = 0; k < count; ++k)
+        out[k] = density(i, r[k]);
 }
 
 void Thermosphere::temperature(const double* r, double* out, std::size_t count) const {
-    for (std::size_t k = 0; k < count; ++k) require_in_range("radius", r[k]);
-    for (std::size_t k = 0; k < count; ++k) out[k] = profile_(r[k]);
+    for (std::size_t k = 0; k < count; ++k)
+        require_in_range("radius", r[k]);
+    for (std::size_t k = 0; k < count; ++k)
+        out[k] = profile_(r[k]);
 }
 
 Thermosphere::Local Thermosphere::local_mixture(double r, std::vector<double>& weights) const {
@@ -371,10 +392,9 @@ Thermosphere::Local Thermosphere::local_mixture(double r, std::vector<double>& w
     double top = -std::numeric_limits<double>::infinity();
     for (std::size_t j = 0; j < count; ++j) {
         const Species& s = species_[j];
-        weights[j] = fractions_[j] > 0.0
-                         ? log_x_[j] - s.mass / amu * u -
-                               (1.0 + s.thermal_diffusion_factor) * log_T_ratio
-                         : -std::numeric_limits<double>::infinity();
+        weights[j] = fractions_[j] > 0.0 ? log_x_[j] - s.mass / amu * u -
+                                               (1.0 + s.thermal_diffusion_factor) * log_T_ratio
+                                         : -std::numeric_limits<double>::infinity();
         top = std::max(top, weights[j]);
     }
     double n = 0.0, nm = 0.0, ns = 0.0;
@@ -422,7 +442,8 @@ Exobase Thermosphere::find_exobase() const {
     // Criterion ln(mfp / H) at r, and the mass setting the local collision scale height.
     auto evaluate = [&](double r, double* heaviest) {
         const Local local = local_mixture(r, weights);
-        if (heaviest) *heaviest = local.heaviest_colliding;
+        if (heaviest)
+            *heaviest = local.heaviest_colliding;
         return -local.log_collision_rate - local.log_scale_height;
     };
 
@@ -457,10 +478,12 @@ Exobase Thermosphere::find_exobase() const {
         const double h = k_B * T * r_lo * r_lo / (G * planet_mass_ * heaviest);
         double step = std::min(0.5 * h, 0.1 * r_lo);
         const double dT = std::fabs(profile_.slope(r_lo));
-        if (dT > 0.0) step = std::min(step, 0.5 * T / dT);
+        if (dT > 0.0)
+            step = std::min(step, 0.5 * T / dT);
         r_hi = std::min(r_lo + step, outer_radius_);
         f_hi = evaluate(r_hi, &heaviest);
-        if (f_hi >= 0.0) break;
+        if (f_hi >= 0.0)
+            break;
         if (r_hi >= outer_radius_) {
             std::ostringstream why;
             why.precision(4);
@@ -491,7 +514,8 @@ Exobase Thermosphere::find_exobase() const {
     e.radius = r_e;
     e.temperature = profile_(r_e);
     e.densities.resize(count);
-    for (std::size_t j = 0; j < count; ++j) e.densities[j] = density(j, r_e);
+    for (std::size_t j = 0; j < count; ++j)
+        e.densities[j] = density(j, r_e);
     std::ostringstream what;
     what.precision(6);
     what << "exobase at " << format_km(r_e - planet_radius_) << " altitude, " << e.temperature
@@ -509,7 +533,9 @@ const Exobase& Thermosphere::exobase() const {
     return *e;
 }
 
-double Thermosphere::jeans_flux(std::size_t i) const { return escape_flux(i, false); }
+double Thermosphere::jeans_flux(std::size_t i) const {
+    return escape_flux(i, false);
+}
 
 double Thermosphere::diffusion_limited_flux(std::size_t i) const {
     if (i >= species_.size())
@@ -523,13 +549,16 @@ double Thermosphere::diffusion_limited_flux(std::size_t i) const {
             others.push_back(species_[j]);
             y.push_back(fractions_[j]);
         }
-    if (others.empty() || !(rest > 0.0)) return nan;
+    if (others.empty() || !(rest > 0.0))
+        return nan;
     double sum = 0.0;
-    for (double v : y) sum += v;
-    for (double& v : y) v /= sum; // the background's own composition
+    for (double v : y)
+        sum += v;
+    for (double& v : y)
+        v /= sum; // the background's own composition
     return exosieve::diffusion_limited_flux(species_[i], others, y, fractions_[i],
-                                            homopause_temperature_, planet_mass_,
-                                            homopause_radius_, method_);
+                                            homopause_temperature_, planet_mass_, homopause_radius_,
+                                            method_);
 }
 
 double Thermosphere::escape_flux_at(const Exobase& e, std::size_t i,
@@ -539,24 +568,26 @@ double Thermosphere::escape_flux_at(const Exobase& e, std::size_t i,
     const double lambda = G * planet_mass_ * s.mass / (k_B * T * r);
     const double v0 = std::sqrt(2.0 * k_B * T / s.mass);
     const double phi_j = jeans_flux_unchecked(e.densities[i], v0, lambda, tail_);
-    if (!limit_by_diffusion || phi_j == 0.0) return phi_j;
+    if (!limit_by_diffusion || phi_j == 0.0)
+        return phi_j;
 
     // Background: the other species, with their share of the homopause mixture.
     double rest = 0.0, m_a = 0.0, inverse_b = 0.0;
     for (std::size_t j = 0; j < species_.size(); ++j)
-        if (j != i && fractions_[j] > 0.0) rest += fractions_[j];
-    if (!(rest > 0.0)) return phi_j; // a pure gas is not limited by diffusion through itself
+        if (j != i && fractions_[j] > 0.0)
+            rest += fractions_[j];
+    if (!(rest > 0.0))
+        return phi_j; // a pure gas is not limited by diffusion through itself
     for (std::size_t j = 0; j < species_.size(); ++j)
         if (j != i && fractions_[j] > 0.0) {
             const double y = fractions_[j] / rest;
             m_a += y * species_[j].mass;
-            inverse_b += y / binary_diffusion_parameter(s, species_[j], homopause_temperature_,
-                                                        method_);
+            inverse_b +=
+                y / binary_diffusion_parameter(s, species_[j], homopause_temperature_, method_);
         }
     const double g = G * planet_mass_ / (homopause_radius_ * homopause_radius_);
     const double beta = (m_a - s.mass) * g / (k_B * homopause_temperature_);
-    return coupled_escape_flux(phi_j, 1.0 / inverse_b, fractions_[i], beta,
-                               r - homopause_radius_);
+    return coupled_escape_flux(phi_j, 1.0 / inverse_b, fractions_[i], beta, r - homopause_radius_);
 }
 
 double Thermosphere::escape_flux(std::size_t i, bool limit_by_diffusion) const {
@@ -564,7 +595,8 @@ double Thermosphere::escape_flux(std::size_t i, bool limit_by_diffusion) const {
         throw InputError("species index " + std::to_string(i) + " out of range (" +
                          std::to_string(species_.size()) + " species)");
     const Exobase& e = exobase();
-    if (!e.found()) throw NumericalError("escape flux of " + species_[i].name + ": " + e.message);
+    if (!e.found())
+        throw NumericalError("escape flux of " + species_[i].name + ": " + e.message);
     return escape_flux_at(e, i, limit_by_diffusion);
 }
 
@@ -579,12 +611,15 @@ void solve_thermospheres(const std::vector<Species>& species, std::size_t count,
                          "profile) or both left out (isothermal)");
     check_lengths(count, {cases.planet_mass, cases.planet_radius, cases.homopause_radius,
                           cases.homopause_density, cases.exobase_temperature});
-    if (bates) check_lengths(count, {cases.homopause_temperature, cases.shape});
-    if (cases.outer_radius.size > 0) check_lengths(count, {cases.outer_radius});
+    if (bates)
+        check_lengths(count, {cases.homopause_temperature, cases.shape});
+    if (cases.outer_radius.size > 0)
+        check_lengths(count, {cases.outer_radius});
     if (cases.fraction_rows != 1 && cases.fraction_rows != count)
         throw InputError("mole_fractions has " + std::to_string(cases.fraction_rows) +
                          " rows, expected 1 or " + std::to_string(count));
-    if (!cases.mole_fractions) throw InputError("mole_fractions missing");
+    if (!cases.mole_fractions)
+        throw InputError("mole_fractions missing");
     if (!results.exobase_radius || !results.exobase_temperature || !results.status ||
         !results.escape_flux)
         throw InputError("solve_thermospheres: a result array is missing");
@@ -597,8 +632,8 @@ void solve_thermospheres(const std::vector<Species>& species, std::size_t count,
                                               cases.homopause_temperature[i], cases.shape[i],
                                               cases.homopause_radius[i])
                   : TemperatureProfile::isothermal(cases.exobase_temperature[i]);
-        return Thermosphere(cases.planet_mass[i], cases.planet_radius[i],
-                            cases.homopause_radius[i], cases.homopause_density[i], species,
+        return Thermosphere(cases.planet_mass[i], cases.planet_radius[i], cases.homopause_radius[i],
+                            cases.homopause_density[i], species,
                             std::vector<double>(x, x + n_species), profile,
                             cases.outer_radius.size > 0 ? cases.outer_radius[i] : 0.0);
     };
@@ -644,9 +679,11 @@ void solve_thermospheres(const std::vector<Species>& species, std::size_t count,
             }
         });
     }
-    for (auto& th : pool) th.join();
+    for (auto& th : pool)
+        th.join();
     for (auto& err : errors)
-        if (err) std::rethrow_exception(err);
+        if (err)
+            std::rethrow_exception(err);
 }
 
 } // namespace exosieve

@@ -280,7 +280,8 @@ class Thermosphere:
         name = species.name if isinstance(species, _core.Species) else species
         if not isinstance(name, str):
             raise ValueError(f"species must be a name or a Species, got {species!r}")
-        as_species(name, "species")  # unknown names: the registry's message with suggestions
+        if name not in self._names:
+            as_species(name, "species")  # unknown names: the registry's message, suggestions
         return int(self._core.index(name))
 
     def _radii(self, radius: Any) -> tuple[NDArray[np.float64], tuple[int, ...]]:

@@ -28,7 +28,7 @@ TEST_CASE("Neufeld fit reproduces the tabulated collision integral") {
     // Hirschfelder, Curtiss & Bird (1954) table of Omega^(1,1)* (from memory). Mid-range the
     // fit matches to about 0.1 %; at the ends of the fit range (T* = 0.3 and 100) the recalled
     // values differ by up to 0.7 %, so those get a 1 % tolerance.
-    const double table[][3] = {{0.3, 2.662, 1e-2},   {0.5, 2.066, 2e-3}, {1.0, 1.439, 2e-3},
+    const double table[][3] = {{0.3, 2.662, 1e-2},   {0.5, 2.066, 2e-3},  {1.0, 1.439, 2e-3},
                                {2.0, 1.075, 2e-3},   {5.0, 0.8422, 2e-3}, {10.0, 0.7424, 2e-3},
                                {100.0, 0.5130, 1e-2}};
     for (const auto& row : table) {
@@ -48,9 +48,11 @@ TEST_CASE("Chapman–Enskog b agrees with the textbook D formula") {
     const Species& b = species("N2");
     const double T = 350.0;
     const double sigma = 0.5 * (a.lj_diameter + b.lj_diameter) * 1e10;
-    const double omega = neufeld_collision_integral(T / std::sqrt(a.lj_well_depth * b.lj_well_depth));
+    const double omega =
+        neufeld_collision_integral(T / std::sqrt(a.lj_well_depth * b.lj_well_depth));
     const double m_ab = 2.0 / (1.0 / a.mass_u() + 1.0 / b.mass_u());
-    const double d_cm2 = 0.00266 * std::pow(T, 1.5) / (1.01325 * std::sqrt(m_ab) * sigma * sigma * omega);
+    const double d_cm2 =
+        0.00266 * std::pow(T, 1.5) / (1.01325 * std::sqrt(m_ab) * sigma * sigma * omega);
     const double d = coefficient_at(chapman_enskog_diffusion_parameter(a, b, T), T, atm);
     CHECK(d * 1e4 == doctest::Approx(d_cm2).epsilon(5e-3));
 }
@@ -93,8 +95,8 @@ TEST_CASE("measured pairs override Chapman–Enskog, in either order") {
         for (double t : {300.0, 1000.0}) {
             CAPTURE(p.species_a);
             CAPTURE(p.species_b);
-            const double ratio =
-                p(t) / chapman_enskog_diffusion_parameter(species(p.species_a), species(p.species_b), t);
+            const double ratio = p(t) / chapman_enskog_diffusion_parameter(species(p.species_a),
+                                                                           species(p.species_b), t);
             CHECK(ratio > 0.77);
             CHECK(ratio < 1.3);
         }
@@ -209,20 +211,23 @@ TEST_CASE("diffusion: bad input names the argument and the value") {
         }
         return "no exception";
     };
-    CHECK(message([] { binary_diffusion_parameter(species("H"), species("N2"), -5.0); })
-              .find("temperature must be finite and > 0, got -5") != std::string::npos);
-    CHECK(message([] { binary_diffusion_parameter(species("H"), species("N2"), 0.0); })
-              .find("temperature") != std::string::npos);
     CHECK(message([] {
-              mixture_diffusion_parameter(species("H"), {species("N2"), species("O2")},
-                                          {0.7, 0.2}, 300.0);
+              binary_diffusion_parameter(species("H"), species("N2"), -5.0);
+          }).find("temperature must be finite and > 0, got -5") != std::string::npos);
+    CHECK(message([] {
+              binary_diffusion_parameter(species("H"), species("N2"), 0.0);
+          }).find("temperature") != std::string::npos);
+    CHECK(message([] {
+              mixture_diffusion_parameter(species("H"), {species("N2"), species("O2")}, {0.7, 0.2},
+                                          300.0);
           }).find("sum to one") != std::string::npos);
     CHECK(message([] {
-              mixture_diffusion_parameter(species("H"), {species("N2"), species("O2")},
-                                          {1.2, -0.2}, 300.0);
+              mixture_diffusion_parameter(species("H"), {species("N2"), species("O2")}, {1.2, -0.2},
+                                          300.0);
           }).find("'O2' must be finite and >= 0, got -0.2") != std::string::npos);
-    CHECK(message([] { mixture_diffusion_parameter(species("H"), {species("H")}, {1.0}, 300.0); })
-              .find("must not contain") != std::string::npos);
+    CHECK(message([] {
+              mixture_diffusion_parameter(species("H"), {species("H")}, {1.0}, 300.0);
+          }).find("must not contain") != std::string::npos);
     CHECK(message([] {
               diffusion_limited_flux(species("H"), {species("N2")}, {1.0}, 1.5, 300.0,
                                      constants::M_earth, constants::R_earth);
@@ -230,8 +235,9 @@ TEST_CASE("diffusion: bad input names the argument and the value") {
     Species bare;
     bare.name = "X";
     bare.mass = 10 * amu;
-    CHECK(message([&] { chapman_enskog_diffusion_parameter(bare, species("N2"), 300.0); })
-              .find("no Lennard-Jones parameters") != std::string::npos);
+    CHECK(message([&] {
+              chapman_enskog_diffusion_parameter(bare, species("N2"), 300.0);
+          }).find("no Lennard-Jones parameters") != std::string::npos);
     CHECK_THROWS_AS(DiffusionPairTable::from_csv("species_a,species_b,A_per_m_per_s,s,source\n"
                                                  "H,N2,-1,0.7,x\n",
                                                  "test"),

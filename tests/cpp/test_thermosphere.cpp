@@ -24,7 +24,8 @@ const double R_planet = constants::R_earth;
 
 std::vector<Species> named(std::initializer_list<const char*> names) {
     std::vector<Species> out;
-    for (const char* n : names) out.push_back(species(n));
+    for (const char* n : names)
+        out.push_back(species(n));
     return out;
 }
 
@@ -32,7 +33,8 @@ std::vector<Species> named(std::initializer_list<const char*> names) {
 // atmospheres): homopause at 120 km with 5e17 m^-3, N2/O2/O = 0.75/0.10/0.15, 360 K there,
 // Bates profile to 1000 K with shape 1/(50 km).
 Thermosphere earth_like() {
-    return Thermosphere(M_planet, R_planet, R_planet + 120e3, 5e17, named({"N2", "O2", "O"}), {0.75, 0.10, 0.15},
+    return Thermosphere(M_planet, R_planet, R_planet + 120e3, 5e17, named({"N2", "O2", "O"}),
+                        {0.75, 0.10, 0.15},
                         TemperatureProfile::bates(1000.0, 360.0, 1.0 / 50e3, R_planet + 120e3));
 }
 
@@ -40,7 +42,8 @@ Thermosphere earth_like() {
 template <class F> double simpson(F f, double a, double b, int n) {
     const double h = (b - a) / n;
     double sum = f(a) + f(b);
-    for (int i = 1; i < n; ++i) sum += (i % 2 ? 4.0 : 2.0) * f(a + i * h);
+    for (int i = 1; i < n; ++i)
+        sum += (i % 2 ? 4.0 : 2.0) * f(a + i * h);
     return sum * h / 3.0;
 }
 
@@ -49,8 +52,8 @@ double density_by_quadrature(const Thermosphere& t, std::size_t i, double r, int
     const Species& s = t.species()[i];
     const double M = t.planet_mass(), r_h = t.homopause_radius();
     const auto& T = t.profile();
-    const double integral = simpson(
-        [&](double x) { return G * M * s.mass / (k_B * x * x * T(x)); }, r_h, r, intervals);
+    const double integral =
+        simpson([&](double x) { return G * M * s.mass / (k_B * x * x * T(x)); }, r_h, r, intervals);
     return t.mole_fractions()[i] * t.homopause_density() *
            std::pow(T(r_h) / T(r), 1.0 + s.thermal_diffusion_factor) * std::exp(-integral);
 }
@@ -83,8 +86,8 @@ TEST_CASE("temperature profiles") {
 TEST_CASE("isothermal densities equal the closed form") {
     // Worked solution (DESIGN 3.3): n_i(r) = x_i n_h exp(-lambda_i(r_h) (1 - r_h / r)).
     const double r_h = R_planet + 100e3, n_h = 1e19, T = 700.0;
-    Thermosphere t(M_planet, R_planet, r_h, n_h, named({"N2", "O", "He", "H"}), {0.6, 0.35, 0.04, 0.01},
-                   TemperatureProfile::isothermal(T));
+    Thermosphere t(M_planet, R_planet, r_h, n_h, named({"N2", "O", "He", "H"}),
+                   {0.6, 0.35, 0.04, 0.01}, TemperatureProfile::isothermal(T));
     for (std::size_t i = 0; i < 4; ++i) {
         const double lambda_h = jeans_parameter(T, t.species()[i].mass, M_planet, r_h);
         for (double z : {0.0, 10e3, 250e3, 1e6, 2e7}) {
@@ -150,13 +153,15 @@ TEST_CASE("tabulated profile: densities equal a quadrature over the same piecewi
             const double r = r_h + z;
             std::vector<double> cuts{r_h};
             for (double node : radius)
-                if (node > r_h && node < r) cuts.push_back(node);
+                if (node > r_h && node < r)
+                    cuts.push_back(node);
             cuts.push_back(r);
             double integral = 0.0;
             for (std::size_t c = 0; c + 1 < cuts.size(); ++c)
                 integral += simpson(
                     [&](double x) {
-                        return G * M_planet * t.species()[i].mass / (k_B * x * x * t.temperature(x));
+                        return G * M_planet * t.species()[i].mass /
+                               (k_B * x * x * t.temperature(x));
                     },
                     cuts[c], cuts[c + 1], 4000);
             const double expected = t.mole_fractions()[i] * 1e18 *
@@ -198,7 +203,8 @@ TEST_CASE("the exobase criterion holds at the radius found and fails everywhere 
         const double h = k_B * e.temperature * e.radius * e.radius / (G * t.planet_mass() * nm / n);
         CHECK(1.0 / collisions == doctest::Approx(h).epsilon(1e-10));
         CHECK(std::fabs(t.exobase_criterion(e.radius)) < 1e-10);
-        CHECK(t.mean_free_path(e.radius) == doctest::Approx(t.scale_height(e.radius)).epsilon(1e-10));
+        CHECK(t.mean_free_path(e.radius) ==
+              doctest::Approx(t.scale_height(e.radius)).epsilon(1e-10));
         for (int k = 0; k < 2000; ++k) {
             const double r = t.homopause_radius() + (e.radius - t.homopause_radius()) * k / 2000.0;
             CHECK(t.exobase_criterion(r) < 0.0);
@@ -285,7 +291,7 @@ TEST_CASE("escape fluxes: Jeans at the exobase, and the coupled diffusion-Jeans 
     // Jeans flux from the exobase density (DESIGN 3.2).
     CHECK(t.escape_flux(h, false) ==
           doctest::Approx(exosieve::jeans_flux(e.densities[h], e.temperature, t.species()[h].mass,
-                                              M_planet, e.radius))
+                                               M_planet, e.radius))
               .epsilon(1e-13));
     CHECK(t.jeans_flux(h) == doctest::Approx(e.densities[h] * v0 / (2 * std::sqrt(constants::pi)) *
                                              (1 + lambda) * std::exp(-lambda)));
@@ -296,7 +302,8 @@ TEST_CASE("escape fluxes: Jeans at the exobase, and the coupled diffusion-Jeans 
     CHECK(coupled < phi_j);
     CHECK(coupled < phi_dl);
     double rest = 0.0, m_a = 0.0, inverse_b = 0.0;
-    for (std::size_t j = 0; j < 4; ++j) rest += t.mole_fractions()[j];
+    for (std::size_t j = 0; j < 4; ++j)
+        rest += t.mole_fractions()[j];
     for (std::size_t j = 0; j < 4; ++j) {
         m_a += t.mole_fractions()[j] / rest * t.species()[j].mass;
         inverse_b += t.mole_fractions()[j] / rest /
@@ -324,8 +331,10 @@ TEST_CASE("copies share the cache; concurrent first use is safe") {
     std::vector<std::thread> pool;
     for (std::size_t k = 0; k < radii.size(); ++k)
         pool.emplace_back([&, k] { radii[k] = t.exobase().radius; });
-    for (auto& th : pool) th.join();
-    for (double r : radii) CHECK(r == radii[0]);
+    for (auto& th : pool)
+        th.join();
+    for (double r : radii)
+        CHECK(r == radii[0]);
     const Thermosphere copy = t;
     CHECK(&copy.exobase() == &t.exobase());
 }
@@ -360,7 +369,8 @@ TEST_CASE("many thermospheres at once equal one by one") {
     solve_thermospheres(list, count, cases, true, results);
     std::size_t missing = 0;
     for (std::size_t i = 0; i < count; ++i) {
-        Thermosphere t(M, R, r_h, n_h[i], list, {x[4 * i], x[4 * i + 1], x[4 * i + 2], x[4 * i + 3]},
+        Thermosphere t(M, R, r_h, n_h[i], list,
+                       {x[4 * i], x[4 * i + 1], x[4 * i + 2], x[4 * i + 3]},
                        TemperatureProfile::bates(t_exo[i], t_h, s, r_h));
         const Exobase& e = t.exobase();
         CHECK(status[i] == static_cast<int>(e.status));
@@ -372,24 +382,27 @@ TEST_CASE("many thermospheres at once equal one by one") {
         }
         CHECK(radius[i] == e.radius);
         CHECK(temp[i] == e.temperature);
-        for (std::size_t j = 0; j < 4; ++j) CHECK(flux[4 * i + j] == t.escape_flux(j, true));
+        for (std::size_t j = 0; j < 4; ++j)
+            CHECK(flux[4 * i + j] == t.escape_flux(j, true));
     }
     CHECK(missing == 7); // the cases with n_h = 1e9 (i = 0, 97, ..., 582)
     // Single-threaded gives the same numbers.
     std::vector<double> radius1(count), temp1(count), flux1(count * 4);
     std::vector<int> status1(count);
-    solve_thermospheres(list, count, cases, true,
-                        ThermosphereResults{radius1.data(), temp1.data(), status1.data(), flux1.data()},
-                        1);
+    solve_thermospheres(
+        list, count, cases, true,
+        ThermosphereResults{radius1.data(), temp1.data(), status1.data(), flux1.data()}, 1);
     for (std::size_t i = 0; i < count; ++i)
-        if (status1[i] == 0) CHECK(radius1[i] == radius[i]);
+        if (status1[i] == 0)
+            CHECK(radius1[i] == radius[i]);
     // Bad input is reported with its case number before any work.
     n_h[123] = -1.0;
     try {
         solve_thermospheres(list, count, cases, true, results);
         FAIL("expected InputError");
     } catch (const InputError& err) {
-        CHECK(std::string(err.what()).find("case 123: homopause_density must be finite and > 0, got -1") !=
+        CHECK(std::string(err.what())
+                  .find("case 123: homopause_density must be finite and > 0, got -1") !=
               std::string::npos);
     }
 }
@@ -405,30 +418,42 @@ TEST_CASE("thermosphere: bad input names the argument and the value") {
     };
     const auto iso = TemperatureProfile::isothermal(800.0);
     const auto list = named({"N2", "O"});
-    CHECK(message([&] { Thermosphere(M_planet, R_planet, R_planet - 1e3, 1e18, list, {0.5, 0.5}, iso); })
-              .find("below the planet's surface") != std::string::npos);
-    CHECK(message([&] { Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.6, 0.5}, iso); })
-              .find("mole fractions must sum to one (within 1e-6), got 1.1") != std::string::npos);
-    CHECK(message([&] { Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {1.5, -0.5}, iso); })
-              .find("mole fraction of 'O' must be finite and >= 0, got -0.5") != std::string::npos);
-    CHECK(message([&] { Thermosphere(M_planet, R_planet, R_planet + 1e5, 0.0, list, {0.5, 0.5}, iso); })
-              .find("homopause_density must be finite and > 0, got 0") != std::string::npos);
-    CHECK(message([&] { Thermosphere(-M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.5, 0.5}, iso); })
-              .find("planet_mass") != std::string::npos);
-    CHECK(message([&] { Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.5}, iso); })
-              .find("2 species but 1 mole fractions") != std::string::npos);
-    CHECK(message([&] { Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, named({"O", "O"}), {0.5, 0.5}, iso); })
-              .find("twice") != std::string::npos);
+    CHECK(message([&] {
+              Thermosphere(M_planet, R_planet, R_planet - 1e3, 1e18, list, {0.5, 0.5}, iso);
+          }).find("below the planet's surface") != std::string::npos);
+    CHECK(message([&] {
+              Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.6, 0.5}, iso);
+          }).find("mole fractions must sum to one (within 1e-6), got 1.1") != std::string::npos);
+    CHECK(message([&] {
+              Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {1.5, -0.5}, iso);
+          }).find("mole fraction of 'O' must be finite and >= 0, got -0.5") != std::string::npos);
+    CHECK(message([&] {
+              Thermosphere(M_planet, R_planet, R_planet + 1e5, 0.0, list, {0.5, 0.5}, iso);
+          }).find("homopause_density must be finite and > 0, got 0") != std::string::npos);
+    CHECK(message([&] {
+              Thermosphere(-M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.5, 0.5}, iso);
+          }).find("planet_mass") != std::string::npos);
+    CHECK(message([&] {
+              Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.5}, iso);
+          }).find("2 species but 1 mole fractions") != std::string::npos);
+    CHECK(message([&] {
+              Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, named({"O", "O"}), {0.5, 0.5},
+                           iso);
+          }).find("twice") != std::string::npos);
     CHECK(message([&] {
               Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.5, 0.5},
                            TemperatureProfile::bates(1000, 200, 1e-5, R_planet + 2e5));
           }).find("base radius") != std::string::npos);
-    CHECK(message([&] { Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.5, 0.5}, iso, R_planet); })
-              .find("outer_radius") != std::string::npos);
-    CHECK(message([] { TemperatureProfile::isothermal(-3.0); })
-              .find("temperature must be finite and > 0, got -3") != std::string::npos);
+    CHECK(
+        message([&] {
+            Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.5, 0.5}, iso, R_planet);
+        }).find("outer_radius") != std::string::npos);
+    CHECK(message([] {
+              TemperatureProfile::isothermal(-3.0);
+          }).find("temperature must be finite and > 0, got -3") != std::string::npos);
     Thermosphere t(M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.5, 0.5}, iso);
-    CHECK(message([&] { t.density(0, R_planet); }).find("below the homopause") != std::string::npos);
+    CHECK(message([&] { t.density(0, R_planet); }).find("below the homopause") !=
+          std::string::npos);
     CHECK(message([&] { t.density(5, R_planet + 2e5); }).find("out of range") != std::string::npos);
     CHECK(message([&] { t.index("He"); }).find("it has N2, O") != std::string::npos);
     CHECK(message([] { species("Oxygen"); }).find("unknown species") != std::string::npos);

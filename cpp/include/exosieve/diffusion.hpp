@@ -38,11 +38,11 @@ enum class DiffusionMethod {
 
 //! A measured fit b = A T^s for one unordered species pair.
 struct DiffusionPair {
-    std::string species_a;   //!< first species name
-    std::string species_b;   //!< second species name
-    double coefficient = 0;  //!< A [m^-1 s^-1 K^-s]
-    double exponent = 0;     //!< s [1]
-    std::string source;      //!< where the fit comes from
+    std::string species_a;  //!< first species name
+    std::string species_b;  //!< second species name
+    double coefficient = 0; //!< A [m^-1 s^-1 K^-s]
+    double exponent = 0;    //!< s [1]
+    std::string source;     //!< where the fit comes from
 
     //! b at `temperature` [K] in m^-1 s^-1.
     double operator()(double temperature) const;
@@ -116,7 +116,7 @@ void diffusion_limited_flux(const Species& s, const std::vector<Species>& backgr
                             ArrayArg temperature, ArrayArg planet_mass, ArrayArg radius,
                             double* out, std::size_t count,
                             DiffusionMethod method = DiffusionMethod::measured_first);
-void coupled_escape_flux(ArrayArg jeans_flux_eq, ArrayArg b, ArrayArg mixing_ratio,
-                         ArrayArg beta, ArrayArg thickness, double* out, std::size_t count);
+void coupled_escape_flux(ArrayArg jeans_flux_eq, ArrayArg b, ArrayArg mixing_ratio, ArrayArg beta,
+                         ArrayArg thickness, double* out, std::size_t count);
 
 } // namespace exosieve

@@ -84,10 +84,10 @@ enum class ExobaseStatus {
 //! The exobase of a thermosphere, or the reason there is none.
 struct Exobase {
     ExobaseStatus status = ExobaseStatus::found; //!< found, or why not
-    std::string message;            //!< human-readable status with the numbers behind it
-    double radius = 0.0;            //!< exobase radius [m] (NaN when not found)
-    double temperature = 0.0;       //!< temperature there [K] (NaN when not found)
-    std::vector<double> densities;  //!< number density of each species there [m^-3] (empty if none)
+    std::string message;           //!< human-readable status with the numbers behind it
+    double radius = 0.0;           //!< exobase radius [m] (NaN when not found)
+    double temperature = 0.0;      //!< temperature there [K] (NaN when not found)
+    std::vector<double> densities; //!< number density of each species there [m^-3] (empty if none)
     //! True when status is found.
     bool found() const { return status == ExobaseStatus::found; }
 };
@@ -201,16 +201,16 @@ class Thermosphere {
 //! (shared) or the case count; homopause_temperature and shape empty (size 0) means
 //! isothermal at exobase_temperature; outer_radius empty means the default.
 struct ThermosphereCases {
-    ArrayArg planet_mass{nullptr, 0};         //!< [kg]
-    ArrayArg planet_radius{nullptr, 0};       //!< [m]
-    ArrayArg homopause_radius{nullptr, 0};    //!< [m]
-    ArrayArg homopause_density{nullptr, 0};   //!< [m^-3]
-    const double* mole_fractions = nullptr;   //!< rows of species.size() fractions, row-major
-    std::size_t fraction_rows = 0;            //!< 1 (shared) or the case count
-    ArrayArg exobase_temperature{nullptr, 0}; //!< Bates T_inf or the isothermal T [K]
+    ArrayArg planet_mass{nullptr, 0};           //!< [kg]
+    ArrayArg planet_radius{nullptr, 0};         //!< [m]
+    ArrayArg homopause_radius{nullptr, 0};      //!< [m]
+    ArrayArg homopause_density{nullptr, 0};     //!< [m^-3]
+    const double* mole_fractions = nullptr;     //!< rows of species.size() fractions, row-major
+    std::size_t fraction_rows = 0;              //!< 1 (shared) or the case count
+    ArrayArg exobase_temperature{nullptr, 0};   //!< Bates T_inf or the isothermal T [K]
     ArrayArg homopause_temperature{nullptr, 0}; //!< Bates base temperature [K], or empty
-    ArrayArg shape{nullptr, 0};               //!< Bates shape [m^-1], or empty
-    ArrayArg outer_radius{nullptr, 0};        //!< outer bound of the exobase search [m], or empty
+    ArrayArg shape{nullptr, 0};                 //!< Bates shape [m^-1], or empty
+    ArrayArg outer_radius{nullptr, 0};          //!< outer bound of the exobase search [m], or empty
 };
 
 //! Where the results of solve_thermospheres go (caller-allocated).
