@@ -213,7 +213,8 @@ def main() -> None:
         f"  exosieve, all threads: {timings[0] * 1e3:9.1f} ms  ({per_ours_all * 1e6:7.1f} us/case)"
     )
     print(
-        f"  scipy peer, {peer_count} cases : {t_peer * 1e3:9.1f} ms  ({per_peer * 1e6:7.1f} us/case)"
+        f"  scipy peer, {peer_count} cases : {t_peer * 1e3:9.1f} ms  "
+        f"({per_peer * 1e6:7.1f} us/case)"
     )
     print(
         f"  ratio per case, peer/exosieve: {per_peer / per_ours_1:.0f}x on 1 thread, "
