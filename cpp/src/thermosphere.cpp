@@ -265,8 +265,12 @@ Thermosphere::Thermosphere(double planet_mass, double planet_radius, double homo
                          format_value(planet_radius_) + " m)");
     require_positive("homopause_density", homopause_density_);
     validate_composition("composition", species_, fractions_);
-    for (const Species& s : species_)
-        validate(s);
+    for (std::size_t j = 0; j < species_.size(); ++j) {
+        validate(species_[j]);
+        if (fractions_[j] > 0.0 && !(species_[j].cross_section > 0.0))
+            throw InputError("species '" + species_[j].name +
+                             "' has no collision cross-section (needed for the mean free path)");
+    }
     if (outer_radius_ == 0.0)
         outer_radius_ = default_outer_factor * homopause_radius_;
     require_positive("outer_radius", outer_radius_);

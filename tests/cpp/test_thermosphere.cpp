@@ -448,6 +448,11 @@ TEST_CASE("thermosphere: bad input names the argument and the value") {
         message([&] {
             Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, list, {0.5, 0.5}, iso, R_planet);
         }).find("outer_radius") != std::string::npos);
+    std::vector<Species> bare = list;
+    bare[1].cross_section = 0.0;
+    CHECK(message([&] {
+              Thermosphere(M_planet, R_planet, R_planet + 1e5, 1e18, bare, {0.5, 0.5}, iso);
+          }).find("'O' has no collision cross-section") != std::string::npos);
     CHECK(message([] {
               TemperatureProfile::isothermal(-3.0);
           }).find("temperature must be finite and > 0, got -3") != std::string::npos);
