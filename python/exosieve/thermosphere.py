@@ -177,7 +177,7 @@ class Thermosphere:
             (mass, radius),
             r_h,
             n_h,
-            dict(self._fractions),
+            dict(zip(members, fractions, strict=True)),  # Species keys: unregistered ones too
             exobase_temperature,
             homopause_temperature,
             shape,

@@ -352,6 +352,14 @@ def test_pickle_round_trip():
     u = pickle.loads(pickle.dumps(t))
     assert u.exobase().radius == t.exobase().radius
     assert u.species == t.species
+    # an unregistered species travels with the thermosphere
+    o = exosieve.species("O")
+    heavy_o = exosieve.Species(
+        "Oheavy", 1.1 * o.mass, o.lj_diameter, o.lj_well_depth, o.cross_section
+    )
+    t = exosieve.Thermosphere(EARTH, R_EARTH + 1e5, 1e18, {"N2": 0.8, heavy_o: 0.2}, 900.0)
+    u = pickle.loads(pickle.dumps(t))
+    assert u.density("Oheavy", R_EARTH + 3e5) == t.density("Oheavy", R_EARTH + 3e5)
 
 
 def test_planet_duck_typing_and_quantities():
