@@ -6,6 +6,13 @@ Astropy quantities are accepted where astropy is installed.
 
 from . import constants
 from ._core import ExosieveError, InputError, NumericalError, __version__
+from .diffusion import (
+    DiffusionPair,
+    binary_diffusion_parameter,
+    coupled_escape_flux,
+    diffusion_limited_flux,
+    diffusion_pairs,
+)
 from .jeans import (
     TailDepletion,
     escape_speed,
@@ -25,6 +32,13 @@ from .maxwell import (
     speed_pdf,
 )
 from .species import Species, register_species, species, species_names
+from .thermosphere import (
+    Exobase,
+    ExobaseStatus,
+    Thermosphere,
+    ThermosphereSolutions,
+    solve_thermospheres,
+)
 
 __all__ = [
     "__version__",
@@ -50,4 +64,14 @@ __all__ = [
     "jeans_energy_flux",
     "jeans_escape_rate",
     "log_jeans_escape_rate",
+    "binary_diffusion_parameter",
+    "diffusion_limited_flux",
+    "coupled_escape_flux",
+    "diffusion_pairs",
+    "DiffusionPair",
+    "Thermosphere",
+    "Exobase",
+    "ExobaseStatus",
+    "ThermosphereSolutions",
+    "solve_thermospheres",
 ]
