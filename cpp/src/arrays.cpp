@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <string>
 #include <thread>
 #include <vector>
@@ -21,11 +22,20 @@ void check_lengths(std::size_t count, std::initializer_list<ArrayArg> args) {
 }
 
 namespace {
-template <class Ok>
-void require_each(const char* what, ArrayArg values, Ok ok, const char* rule) {
+// Branch-free scan (vectorises); the element-by-element search runs only on failure.
+template <class Ok> bool all_of(ArrayArg values, Ok ok) {
+    double bad = 0.0;
+    for (std::size_t i = 0; i < values.size; ++i)
+        bad += ok(values.data[i]) ? 0.0 : 1.0;
+    return bad == 0.0;
+}
+
+template <class Ok> void require_each(const char* what, ArrayArg values, Ok ok, const char* rule) {
+    if (all_of(values, ok))
+        return;
     for (std::size_t i = 0; i < values.size; ++i) {
         const double v = values.data[i];
-        if (!std::isfinite(v) || !ok(v)) {
+        if (!ok(v)) {
             std::string where = values.size == 1 ? "" : " (element " + std::to_string(i) + ")";
             throw InputError(std::string(what) + " must be finite and " + rule + ", got " +
                              format_value(v) + where);
@@ -35,11 +45,15 @@ void require_each(const char* what, ArrayArg values, Ok ok, const char* rule) {
 } // namespace
 
 void require_positive(const char* what, ArrayArg values) {
-    require_each(what, values, [](double v) { return v > 0.0; }, "> 0");
+    constexpr double big = std::numeric_limits<double>::max();
+    require_each(
+        what, values, [](double v) { return (v > 0.0) & (v <= big); }, "> 0");
 }
 
 void require_non_negative(const char* what, ArrayArg values) {
-    require_each(what, values, [](double v) { return v >= 0.0; }, ">= 0");
+    constexpr double big = std::numeric_limits<double>::max();
+    require_each(
+        what, values, [](double v) { return (v >= 0.0) & (v <= big); }, ">= 0");
 }
 
 void parallel_for(std::size_t count, const std::function<void(std::size_t, std::size_t)>& body) {
@@ -55,10 +69,12 @@ void parallel_for(std::size_t count, const std::function<void(std::size_t, std::
     const std::size_t chunk = (count + threads - 1) / threads;
     for (std::size_t t = 1; t < threads; ++t) {
         const std::size_t begin = t * chunk, end = std::min(count, begin + chunk);
-        if (begin < end) pool.emplace_back(body, begin, end);
+        if (begin < end)
+            pool.emplace_back(body, begin, end);
     }
     body(0, std::min(count, chunk));
-    for (auto& th : pool) th.join();
+    for (auto& th : pool)
+        th.join();
 }
 
 } // namespace exosieve

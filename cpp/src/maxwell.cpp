@@ -33,22 +33,24 @@ double scaled_erfc_asymptotic(double x) {
     return sum / (x * sqrt_pi);
 }
 
-template <class F>
-void fill(std::size_t count, double* out, F f) {
+template <class F> void fill(std::size_t count, double* out, F f) {
     parallel_for(count, [&](std::size_t begin, std::size_t end) {
-        for (std::size_t i = begin; i < end; ++i) out[i] = f(i);
+        for (std::size_t i = begin; i < end; ++i)
+            out[i] = f(i);
     });
 }
 
 } // namespace
 
 double tail_fraction(double x) {
-    if (x <= 0.0) return 1.0;
+    if (x <= 0.0)
+        return 1.0;
     return std::erfc(x) + two_over_sqrt_pi * x * std::exp(-x * x);
 }
 
 double log_tail_fraction(double x) {
-    if (x < 25.0) return std::log(tail_fraction(x));
+    if (x < 25.0)
+        return std::log(tail_fraction(x));
     return -x * x + std::log(scaled_erfc_asymptotic(x) + two_over_sqrt_pi * x);
 }
 
@@ -91,12 +93,14 @@ void most_probable_speed(ArrayArg temperature, ArrayArg mass, double* out, std::
 
 void mean_speed(ArrayArg temperature, ArrayArg mass, double* out, std::size_t count) {
     most_probable_speed(temperature, mass, out, count);
-    for (std::size_t i = 0; i < count; ++i) out[i] *= two_over_sqrt_pi;
+    for (std::size_t i = 0; i < count; ++i)
+        out[i] *= two_over_sqrt_pi;
 }
 
 void rms_speed(ArrayArg temperature, ArrayArg mass, double* out, std::size_t count) {
     most_probable_speed(temperature, mass, out, count);
-    for (std::size_t i = 0; i < count; ++i) out[i] *= std::sqrt(1.5);
+    for (std::size_t i = 0; i < count; ++i)
+        out[i] *= std::sqrt(1.5);
 }
 
 namespace {

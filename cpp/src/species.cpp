@@ -10,10 +10,13 @@
 
 namespace exosieve {
 
-double Species::mass_u() const { return mass / constants::amu; }
+double Species::mass_u() const {
+    return mass / constants::amu;
+}
 
 void validate(const Species& s) {
-    if (s.name.empty()) throw InputError("species name must not be empty");
+    if (s.name.empty())
+        throw InputError("species name must not be empty");
     const std::string prefix = "species '" + s.name + "': ";
     require_positive((prefix + "mass").c_str(), s.mass);
     require_non_negative((prefix + "lj_diameter").c_str(), s.lj_diameter);
@@ -57,7 +60,8 @@ double parse_number(const std::string& text, const std::string& where) {
     try {
         std::size_t used = 0;
         const double v = std::stod(text, &used);
-        if (used != text.size()) throw std::invalid_argument(text);
+        if (used != text.size())
+            throw std::invalid_argument(text);
         return v;
     } catch (const std::exception&) {
         throw InputError(where + ": '" + text + "' is not a number");
@@ -66,7 +70,8 @@ double parse_number(const std::string& text, const std::string& where) {
 
 std::size_t edit_distance(const std::string& a, const std::string& b) {
     std::vector<std::size_t> row(b.size() + 1);
-    for (std::size_t j = 0; j <= b.size(); ++j) row[j] = j;
+    for (std::size_t j = 0; j <= b.size(); ++j)
+        row[j] = j;
     for (std::size_t i = 1; i <= a.size(); ++i) {
         std::size_t diagonal = row[0];
         row[0] = i;
@@ -84,10 +89,15 @@ std::size_t edit_distance(const std::string& a, const std::string& b) {
 } // namespace
 
 SpeciesRegistry SpeciesRegistry::from_csv(const std::string& csv_text, const std::string& origin) {
-    static const std::vector<std::string> required = {
-        "name",      "mass_u",           "mass_source",          "lj_diameter_angstrom",
-        "lj_well_depth_K", "lj_source", "cross_section_m2", "cross_section_source",
-        "thermal_diffusion_factor"};
+    static const std::vector<std::string> required = {"name",
+                                                      "mass_u",
+                                                      "mass_source",
+                                                      "lj_diameter_angstrom",
+                                                      "lj_well_depth_K",
+                                                      "lj_source",
+                                                      "cross_section_m2",
+                                                      "cross_section_source",
+                                                      "thermal_diffusion_factor"};
     SpeciesRegistry registry;
     std::istringstream in(csv_text);
     std::string line;
@@ -132,23 +142,28 @@ SpeciesRegistry SpeciesRegistry::from_csv(const std::string& csv_text, const std
             throw InputError(where + ": " + e.what());
         }
     }
-    if (header.empty()) throw InputError(origin + ": no header line");
+    if (header.empty())
+        throw InputError(origin + ": no header line");
     return registry;
 }
 
 const Species& SpeciesRegistry::get(const std::string& name) const {
     const auto it = by_name_.find(name);
-    if (it != by_name_.end()) return it->second;
+    if (it != by_name_.end())
+        return it->second;
     std::string message = "unknown species '" + name + "'";
     const auto near = closest(name);
     if (!near.empty()) {
         message += "; closest names: ";
-        for (std::size_t i = 0; i < near.size(); ++i) message += (i ? ", " : "") + near[i];
+        for (std::size_t i = 0; i < near.size(); ++i)
+            message += (i ? ", " : "") + near[i];
     }
     throw InputError(message);
 }
 
-bool SpeciesRegistry::contains(const std::string& name) const { return by_name_.count(name) > 0; }
+bool SpeciesRegistry::contains(const std::string& name) const {
+    return by_name_.count(name) > 0;
+}
 
 void SpeciesRegistry::add(const Species& s) {
     validate(s);
@@ -158,18 +173,21 @@ void SpeciesRegistry::add(const Species& s) {
 std::vector<std::string> SpeciesRegistry::names() const {
     std::vector<std::string> out;
     out.reserve(by_name_.size());
-    for (const auto& entry : by_name_) out.push_back(entry.first);
+    for (const auto& entry : by_name_)
+        out.push_back(entry.first);
     return out;
 }
 
 std::vector<std::string> SpeciesRegistry::closest(const std::string& name,
                                                   std::size_t count) const {
     std::vector<std::pair<std::size_t, std::string>> scored;
-    for (const auto& entry : by_name_) scored.emplace_back(edit_distance(name, entry.first), entry.first);
+    for (const auto& entry : by_name_)
+        scored.emplace_back(edit_distance(name, entry.first), entry.first);
     std::stable_sort(scored.begin(), scored.end(),
                      [](const auto& a, const auto& b) { return a.first < b.first; });
     std::vector<std::string> out;
-    for (std::size_t i = 0; i < scored.size() && i < count; ++i) out.push_back(scored[i].second);
+    for (std::size_t i = 0; i < scored.size() && i < count; ++i)
+        out.push_back(scored[i].second);
     return out;
 }
 
@@ -179,6 +197,8 @@ SpeciesRegistry& default_registry() {
     return registry;
 }
 
-const Species& species(const std::string& name) { return default_registry().get(name); }
+const Species& species(const std::string& name) {
+    return default_registry().get(name);
+}
 
 } // namespace exosieve

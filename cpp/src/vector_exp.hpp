@@ -20,7 +20,11 @@ inline double vector_exp(double x) {
     constexpr double ln2_lo = 1.90821492927058770002e-10;
     // Clamp so that 2^k stays representable as a product of two normal scale factors.
     const double xc = x < -746.0 ? -746.0 : (x > 710.0 ? 710.0 : x);
-    const double kf = __builtin_floor(xc * log2e + 0.5);
+    // Round x / ln2 to the nearest integer k with the 1.5 * 2^52 shifter: k sits in the low
+    // bits of t, so no float-to-int conversion (which SSE2 cannot vectorise) is needed.
+    constexpr double shifter = 6755399441055744.0; // 1.5 * 2^52
+    const double t = xc * log2e + shifter;
+    const double kf = t - shifter;
     const double r = (xc - kf * ln2_hi) - kf * ln2_lo; // |r| <= ln2/2
     // Taylor series to r^13 / 13!: truncation error < 1e-17 relative on |r| <= 0.347.
     double p = 1.0 / 6227020800.0;
@@ -38,10 +42,15 @@ inline double vector_exp(double x) {
     p = p * r + 1.0;
     p = p * r + 1.0;
     // 2^k as 2^k1 * 2^k2 with both halves normal, so subnormal results come out right.
-    const auto k = static_cast<std::int64_t>(kf);
-    const std::int64_t k1 = k / 2, k2 = k - k1;
-    const double s1 = bits_to_double(static_cast<std::uint64_t>(k1 + 1023) << 52);
-    const double s2 = bits_to_double(static_cast<std::uint64_t>(k2 + 1023) << 52);
+    std::uint64_t t_bits;
+    std::memcpy(&t_bits, &t, sizeof t);
+    std::uint64_t shifter_bits;
+    std::memcpy(&shifter_bits, &shifter, sizeof shifter);
+    const std::uint64_t k_biased = t_bits - shifter_bits + 2048; // k + 2048, in [972, 3072]
+    const std::uint64_t k1_biased = k_biased >> 1;               // floor(k / 2) + 1024
+    const std::uint64_t k2_biased = k_biased - k1_biased;        // k - floor(k / 2) + 1024
+    const double s1 = bits_to_double((k1_biased - 1) << 52);     // 2^(k1), biased by 1023
+    const double s2 = bits_to_double((k2_biased - 1) << 52);
     const double y = p * s1 * s2;
     return x != x ? x : y;
 }

@@ -13,10 +13,10 @@ TEST_CASE("derived masses follow from the IAU 2015 B3 nominal GM and CODATA 2018
 }
 
 TEST_CASE("exact defined constants") {
-    CHECK(k_B == 1.380649e-23);     // SI 2019 definition
-    CHECK(N_A == 6.02214076e23);    // SI 2019 definition
-    CHECK(au == 149597870700.0);    // IAU 2012 B2
-    CHECK(year == 31557600.0);      // Julian year, 365.25 d
+    CHECK(k_B == 1.380649e-23);  // SI 2019 definition
+    CHECK(N_A == 6.02214076e23); // SI 2019 definition
+    CHECK(au == 149597870700.0); // IAU 2012 B2
+    CHECK(year == 31557600.0);   // Julian year, 365.25 d
     // R = N_A k_B = 8.314462618 J/mol/K (CODATA 2018).
     CHECK(N_A * k_B == doctest::Approx(8.314462618).epsilon(1e-10));
 }

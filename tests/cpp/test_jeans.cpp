@@ -36,7 +36,8 @@ TEST_CASE("flux equals the closed form and the upward Maxwellian flux above v_es
     const double n = 1e11, T = 1000.0;
     const double v0 = most_probable_speed(T, m_H);
     const double lambda = jeans_parameter(T, m_H, M_planet, r_exo);
-    const double closed = n * v0 / (2 * std::sqrt(constants::pi)) * (1 + lambda) * std::exp(-lambda);
+    const double closed =
+        n * v0 / (2 * std::sqrt(constants::pi)) * (1 + lambda) * std::exp(-lambda);
     CHECK(jeans_flux(n, T, m_H, M_planet, r_exo) == doctest::Approx(closed).epsilon(1e-14));
     // Kinetic theory: the upward flux of particles faster than v_esc through a surface is
     // (n / 4) * integral_{v_esc}^inf v f(v) dv. Simpson's rule up to v_esc + 40 v0.
@@ -73,7 +74,8 @@ TEST_CASE("monotonic: flux rises with temperature and falls with mass") {
         CHECK(f > previous);
         previous = f;
     }
-    CHECK(jeans_flux(1e12, 1000, 2 * amu, M_planet, r_exo) > jeans_flux(1e12, 1000, 4 * amu, M_planet, r_exo));
+    CHECK(jeans_flux(1e12, 1000, 2 * amu, M_planet, r_exo) >
+          jeans_flux(1e12, 1000, 4 * amu, M_planet, r_exo));
 }
 
 TEST_CASE("deep tail: flux underflows to 0, the log form stays finite") {
@@ -96,7 +98,8 @@ TEST_CASE("deep tail: flux underflows to 0, the log form stays finite") {
 TEST_CASE("tail depletion: constant and tabulated factors") {
     const double n = 1e11, T = 1000.0;
     const double plain = jeans_flux(n, T, m_H, M_planet, r_exo);
-    CHECK(jeans_flux(n, T, m_H, M_planet, r_exo, TailDepletion(0.7)) == doctest::Approx(0.7 * plain));
+    CHECK(jeans_flux(n, T, m_H, M_planet, r_exo, TailDepletion(0.7)) ==
+          doctest::Approx(0.7 * plain));
     TailDepletion table({2.0, 10.0}, {0.5, 0.9});
     CHECK(table(0.0) == 0.5);
     CHECK(table(6.0) == doctest::Approx(0.7));
@@ -110,7 +113,8 @@ TEST_CASE("tail depletion: constant and tabulated factors") {
 TEST_CASE("array kernels: equal to scalar forms, broadcast, threaded for long arrays") {
     const std::size_t count = 300000; // long enough for the threaded path
     std::vector<double> T(count), out(count), log_out(count);
-    for (std::size_t i = 0; i < count; ++i) T[i] = 200.0 + 5000.0 * i / count;
+    for (std::size_t i = 0; i < count; ++i)
+        T[i] = 200.0 + 5000.0 * i / count;
     const double n = 1e12, m = 4.002602 * amu;
     jeans_flux(ArrayArg{&n, 1}, ArrayArg{T.data(), count}, ArrayArg{&m, 1}, ArrayArg{&M_planet, 1},
                ArrayArg{&r_exo, 1}, out.data(), count);

@@ -3,10 +3,10 @@
 #include <cmath>
 #include <vector>
 
+#include "../../cpp/src/vector_exp.hpp"
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/maxwell.hpp"
-#include "../../cpp/src/vector_exp.hpp"
 
 using namespace exosieve;
 using constants::k_B;
@@ -54,17 +54,19 @@ TEST_CASE("tail fraction: limits, monotonicity and deep tail") {
     // (1 + 1/(2x^2) + ...): at x = 100 the relative correction is 5e-5.
     const double x = 100.0;
     const double leading = std::log(2.0 * x / std::sqrt(constants::pi)) - x * x;
-    CHECK(log_tail_fraction(x) == doctest::Approx(leading + std::log1p(0.5 / (x * x))).epsilon(1e-12));
+    CHECK(log_tail_fraction(x) ==
+          doctest::Approx(leading + std::log1p(0.5 / (x * x))).epsilon(1e-12));
     // Both branches of the log form meet at x = 25 (slope -50 there, so a step of 1e-10
     // moves the value by 5e-9 of 625).
-    CHECK(log_tail_fraction(25.0 - 1e-10) == doctest::Approx(log_tail_fraction(25.0)).epsilon(1e-10));
+    CHECK(log_tail_fraction(25.0 - 1e-10) ==
+          doctest::Approx(log_tail_fraction(25.0)).epsilon(1e-10));
 }
 
 TEST_CASE("bad input names the argument and the value") {
     CHECK_THROWS_WITH_AS(most_probable_speed(-5.0, m_N2),
                          "temperature must be finite and > 0, got -5", InputError);
-    CHECK_THROWS_WITH_AS(most_probable_speed(300.0, NAN),
-                         "mass must be finite and > 0, got nan", InputError);
+    CHECK_THROWS_WITH_AS(most_probable_speed(300.0, NAN), "mass must be finite and > 0, got nan",
+                         InputError);
     CHECK_THROWS_AS(fraction_faster(-1.0, 300.0, m_N2), InputError);
     std::vector<double> T = {300.0, 0.0};
     std::vector<double> out(2);

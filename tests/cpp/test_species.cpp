@@ -9,9 +9,9 @@
 using namespace exosieve;
 
 TEST_CASE("the compiled table holds every species the design asks for") {
-    for (const char* name : {"H", "D", "He", "3He", "H2", "HD", "C", "N", "O", "CH4", "NH3", "H2O",
-                             "N2", "O2", "CO", "CO2", "Ne", "36Ar", "38Ar", "40Ar", "Ar", "Kr",
-                             "Xe"}) {
+    for (const char* name :
+         {"H",  "D",  "He", "3He", "H2", "HD",   "C",    "N",    "O",  "CH4", "NH3", "H2O",
+          "N2", "O2", "CO", "CO2", "Ne", "36Ar", "38Ar", "40Ar", "Ar", "Kr",  "Xe"}) {
         CAPTURE(name);
         const Species& s = species(name);
         CHECK(s.mass > 0.0);
@@ -55,9 +55,10 @@ TEST_CASE("user species are validated and registered") {
 }
 
 TEST_CASE("malformed tables are refused with the line named") {
-    const std::string bad = "name,mass_u,mass_source,lj_diameter_angstrom,lj_well_depth_K,lj_source,"
-                            "cross_section_m2,cross_section_source,thermal_diffusion_factor\n"
-                            "A,abc,s,1,1,s,1e-19,s,0\n";
+    const std::string bad =
+        "name,mass_u,mass_source,lj_diameter_angstrom,lj_well_depth_K,lj_source,"
+        "cross_section_m2,cross_section_source,thermal_diffusion_factor\n"
+        "A,abc,s,1,1,s,1e-19,s,0\n";
     CHECK_THROWS_WITH_AS(SpeciesRegistry::from_csv(bad, "bad.csv"),
                          doctest::Contains("bad.csv line 2 column mass_u"), InputError);
     CHECK_THROWS_AS(SpeciesRegistry::from_csv("name,mass_u\nA,1\n", "short.csv"), InputError);

@@ -57,11 +57,11 @@ double jeans_energy_flux(double density, double temperature, double mass, double
 double jeans_escape_rate(double density, double temperature, double mass, double planet_mass,
                          double radius, const TailDepletion& tail = {});
 //! Natural log of jeans_escape_rate (ln of s^-1).
-double log_jeans_escape_rate(double density, double temperature, double mass,
-                             double planet_mass, double radius, const TailDepletion& tail = {});
+double log_jeans_escape_rate(double density, double temperature, double mass, double planet_mass,
+                             double radius, const TailDepletion& tail = {});
 //! Effusion velocity Phi_J / n [m s^-1].
-double jeans_effusion_velocity(double temperature, double mass, double planet_mass,
-                               double radius, const TailDepletion& tail = {});
+double jeans_effusion_velocity(double temperature, double mass, double planet_mass, double radius,
+                               const TailDepletion& tail = {});
 
 //! Jeans flux from an already validated Jeans parameter and most probable speed (no checks):
 //! the inner kernel for models that loop over many evaluations.
@@ -76,11 +76,11 @@ void jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg 
 void log_jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
                     ArrayArg radius, double* out, std::size_t count,
                     const TailDepletion& tail = {});
-void jeans_energy_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass,
-                       ArrayArg planet_mass, ArrayArg radius, double* out, std::size_t count,
+void jeans_energy_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
+                       ArrayArg radius, double* out, std::size_t count,
                        const TailDepletion& tail = {});
-void jeans_escape_rate(ArrayArg density, ArrayArg temperature, ArrayArg mass,
-                       ArrayArg planet_mass, ArrayArg radius, double* out, std::size_t count,
+void jeans_escape_rate(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
+                       ArrayArg radius, double* out, std::size_t count,
                        const TailDepletion& tail = {});
 void log_jeans_escape_rate(ArrayArg density, ArrayArg temperature, ArrayArg mass,
                            ArrayArg planet_mass, ArrayArg radius, double* out, std::size_t count,

@@ -31,8 +31,7 @@ double log_tail_fraction(double x);
 void most_probable_speed(ArrayArg temperature, ArrayArg mass, double* out, std::size_t count);
 void mean_speed(ArrayArg temperature, ArrayArg mass, double* out, std::size_t count);
 void rms_speed(ArrayArg temperature, ArrayArg mass, double* out, std::size_t count);
-void speed_pdf(ArrayArg speed, ArrayArg temperature, ArrayArg mass, double* out,
-               std::size_t count);
+void speed_pdf(ArrayArg speed, ArrayArg temperature, ArrayArg mass, double* out, std::size_t count);
 void fraction_faster(ArrayArg speed, ArrayArg temperature, ArrayArg mass, double* out,
                      std::size_t count);
 void log_fraction_faster(ArrayArg speed, ArrayArg temperature, ArrayArg mass, double* out,

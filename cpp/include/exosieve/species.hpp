@@ -10,15 +10,15 @@ namespace exosieve {
 
 //! Properties of one gas species (isotopes and isotopologues are species of their own).
 struct Species {
-    std::string name;           //!< registry key, e.g. "H2", "36Ar"
-    double mass = 0.0;          //!< particle mass [kg]
-    double lj_diameter = 0.0;   //!< Lennard-Jones collision diameter sigma [m]
-    double lj_well_depth = 0.0; //!< Lennard-Jones well depth eps/k_B [K]
-    double cross_section = 0.0; //!< collision cross-section for the mean free path [m^2]
+    std::string name;                      //!< registry key, e.g. "H2", "36Ar"
+    double mass = 0.0;                     //!< particle mass [kg]
+    double lj_diameter = 0.0;              //!< Lennard-Jones collision diameter sigma [m]
+    double lj_well_depth = 0.0;            //!< Lennard-Jones well depth eps/k_B [K]
+    double cross_section = 0.0;            //!< collision cross-section for the mean free path [m^2]
     double thermal_diffusion_factor = 0.0; //!< alpha in the diffusive-equilibrium equation [1]
-    std::string mass_source;          //!< where the mass comes from
-    std::string lj_source;            //!< where the Lennard-Jones parameters come from
-    std::string cross_section_source; //!< where the cross-section comes from
+    std::string mass_source;               //!< where the mass comes from
+    std::string lj_source;                 //!< where the Lennard-Jones parameters come from
+    std::string cross_section_source;      //!< where the cross-section comes from
 
     //! Mass in unified atomic mass units [u].
     double mass_u() const;

@@ -1,0 +1,78 @@
+#include "bindings.hpp"
+
+#include <pybind11/stl.h>
+
+#include "exosieve/jeans.hpp"
+#include "exosieve/maxwell.hpp"
+
+namespace exosieve::bindings {
+
+namespace {
+
+using A = const DoubleArray&;
+
+// Bind kernel(arg..., out, count) as f(count, arg...) -> 1-D array; the Python facade
+// broadcasts and flattens, so every argument arrives with length 1 or `count`.
+template <class... Args>
+void def_plain(py::module_& m, const char* name,
+               void (*kernel)(typename std::conditional<true, ArrayArg, Args>::type..., double*,
+                              std::size_t)) {
+    m.def(name, [kernel](std::size_t count, typename std::conditional<true, A, Args>::type... a) {
+        return with_output(count, [&](double* out) { kernel(as_arg(a)..., out, count); });
+    });
+}
+
+template <class... Args>
+void def_tail(py::module_& m, const char* name,
+              void (*kernel)(typename std::conditional<true, ArrayArg, Args>::type..., double*,
+                             std::size_t, const TailDepletion&)) {
+    m.def(name, [kernel](std::size_t count, typename std::conditional<true, A, Args>::type... a,
+                         const TailDepletion& tail) {
+        return with_output(count, [&](double* out) { kernel(as_arg(a)..., out, count, tail); });
+    });
+}
+
+struct X {}; // placeholder type: one per array argument
+
+} // namespace
+
+void bind_kernel(py::module_& m) {
+    py::class_<TailDepletion>(m, "TailDepletion",
+                              "Multiplier on the Jeans flux: constant, or a table against the "
+                              "Jeans parameter (linear, held at the ends)")
+        .def(py::init<>())
+        .def(py::init<double>(), py::arg("factor"))
+        .def(py::init<std::vector<double>, std::vector<double>>(), py::arg("jeans_parameter"),
+             py::arg("factor"))
+        .def("__call__", &TailDepletion::operator(), py::arg("jeans_parameter"))
+        .def_property_readonly("is_identity", &TailDepletion::is_identity)
+        .def_property_readonly("constant", &TailDepletion::constant)
+        .def_property_readonly("table_jeans_parameter", &TailDepletion::table_jeans_parameter)
+        .def_property_readonly("table_factor", &TailDepletion::table_factor)
+        .def(py::pickle(
+            [](const TailDepletion& t) {
+                return py::make_tuple(t.constant(), t.table_jeans_parameter(), t.table_factor());
+            },
+            [](const py::tuple& s) {
+                auto lambdas = s[1].cast<std::vector<double>>();
+                if (lambdas.empty())
+                    return TailDepletion(s[0].cast<double>());
+                return TailDepletion(lambdas, s[2].cast<std::vector<double>>());
+            }));
+
+    def_plain<X, X>(m, "most_probable_speed", &exosieve::most_probable_speed);
+    def_plain<X, X>(m, "mean_speed", &exosieve::mean_speed);
+    def_plain<X, X>(m, "rms_speed", &exosieve::rms_speed);
+    def_plain<X, X, X>(m, "speed_pdf", &exosieve::speed_pdf);
+    def_plain<X, X, X>(m, "fraction_faster", &exosieve::fraction_faster);
+    def_plain<X, X, X>(m, "log_fraction_faster", &exosieve::log_fraction_faster);
+    def_plain<X, X>(m, "escape_speed", &exosieve::escape_speed);
+    def_plain<X, X, X, X>(m, "jeans_parameter", &exosieve::jeans_parameter);
+    def_tail<X, X, X, X, X>(m, "jeans_flux", &exosieve::jeans_flux);
+    def_tail<X, X, X, X, X>(m, "log_jeans_flux", &exosieve::log_jeans_flux);
+    def_tail<X, X, X, X, X>(m, "jeans_energy_flux", &exosieve::jeans_energy_flux);
+    def_tail<X, X, X, X, X>(m, "jeans_escape_rate", &exosieve::jeans_escape_rate);
+    def_tail<X, X, X, X, X>(m, "log_jeans_escape_rate", &exosieve::log_jeans_escape_rate);
+}
+
+} // namespace exosieve::bindings

@@ -1,0 +1,39 @@
+#pragma once
+// One bind_<area> function per binding file; module.cpp only calls them.
+
+#include <pybind11/numpy.h>
+#include <pybind11/pybind11.h>
+
+#include <cstddef>
+
+#include "exosieve/arrays.hpp"
+
+namespace exosieve::bindings {
+
+namespace py = pybind11;
+
+//! A C-contiguous float64 array; other dtypes and layouts are converted on the way in.
+using DoubleArray = py::array_t<double, py::array::c_style | py::array::forcecast>;
+
+//! View a contiguous array as a kernel argument (length 1 broadcasts).
+inline ArrayArg as_arg(const DoubleArray& a) {
+    return ArrayArg{a.data(), static_cast<std::size_t>(a.size())};
+}
+
+//! Allocate a 1-D result of length `count` and fill it with `fill(out)` without the GIL.
+template <class Fill> py::array_t<double> with_output(std::size_t count, Fill fill) {
+    py::array_t<double> out(static_cast<py::ssize_t>(count));
+    double* data = out.mutable_data();
+    {
+        py::gil_scoped_release release;
+        fill(data);
+    }
+    return out;
+}
+
+void bind_errors(py::module_& m);
+void bind_constants(py::module_& m);
+void bind_species(py::module_& m);
+void bind_kernel(py::module_& m);
+
+} // namespace exosieve::bindings

@@ -1,0 +1,12 @@
+#include "bindings.hpp"
+
+PYBIND11_MODULE(_core, m) {
+    m.doc() =
+        "exosieve compiled core: Maxwell–Boltzmann speeds, Jeans escape and models (SI units)";
+    m.attr("__version__") = EXOSIEVE_VERSION;
+    namespace b = exosieve::bindings;
+    b::bind_errors(m);
+    b::bind_constants(m);
+    b::bind_species(m);
+    b::bind_kernel(m);
+}

@@ -1,0 +1,53 @@
+"""exosieve: thermal (Jeans) escape of planetary atmospheres over geological time.
+
+SI units throughout: temperatures [K], masses [kg], lengths [m], densities [m^-3], times [s].
+Astropy quantities are accepted where astropy is installed.
+"""
+
+from . import constants
+from ._core import ExosieveError, InputError, NumericalError, __version__
+from .jeans import (
+    TailDepletion,
+    escape_speed,
+    jeans_energy_flux,
+    jeans_escape_rate,
+    jeans_flux,
+    jeans_parameter,
+    log_jeans_escape_rate,
+    log_jeans_flux,
+)
+from .maxwell import (
+    fraction_faster,
+    log_fraction_faster,
+    mean_speed,
+    most_probable_speed,
+    rms_speed,
+    speed_pdf,
+)
+from .species import Species, register_species, species, species_names
+
+__all__ = [
+    "__version__",
+    "constants",
+    "ExosieveError",
+    "InputError",
+    "NumericalError",
+    "Species",
+    "species",
+    "species_names",
+    "register_species",
+    "TailDepletion",
+    "most_probable_speed",
+    "mean_speed",
+    "rms_speed",
+    "speed_pdf",
+    "fraction_faster",
+    "log_fraction_faster",
+    "escape_speed",
+    "jeans_parameter",
+    "jeans_flux",
+    "log_jeans_flux",
+    "jeans_energy_flux",
+    "jeans_escape_rate",
+    "log_jeans_escape_rate",
+]

@@ -1,0 +1,111 @@
+"""Plots for exosieve results (matplotlib, an optional dependency).
+
+Every function draws on a given or new matplotlib ``Axes`` and returns it; every axis is
+labelled with its unit.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+import numpy as np
+
+from .jeans import escape_speed, jeans_flux, jeans_parameter
+from .maxwell import fraction_faster, speed_pdf
+
+
+def _axes(ax: Any) -> Any:
+    if ax is not None:
+        return ax
+    import matplotlib.pyplot as plt
+
+    return plt.subplots(figsize=(6.4, 4.0), layout="constrained")[1]
+
+
+def speed_distributions(
+    temperature: float,
+    gases: Sequence[str],
+    planet_mass: float | None = None,
+    radius: float | None = None,
+    ax: Any = None,
+) -> Any:
+    """Maxwell–Boltzmann speed pdfs of several gases at one temperature.
+
+    With ``planet_mass`` [kg] and ``radius`` [m] a vertical line marks the escape speed and the
+    legend gives each gas's fraction faster than it.
+
+    Parameters
+    ----------
+    temperature : float
+        Gas temperature [K].
+    gases : sequence of str
+        Species names.
+    planet_mass, radius : float, optional
+        Planet mass [kg] and radius of the exobase [m] for the escape-speed marker.
+    ax : matplotlib Axes, optional
+        Where to draw.
+    """
+    ax = _axes(ax)
+    v_esc = None
+    if planet_mass is not None and radius is not None:
+        v_esc = float(escape_speed(planet_mass, radius))
+    top = 0.0
+    for gas in gases:
+        v = np.linspace(0.0, 4.0 * np.sqrt(2 * 1.380649e-23 * temperature / _mass(gas)), 600)
+        top = max(top, v[-1])
+        label = gas
+        if v_esc is not None:
+            label += f" (above v_esc: {fraction_faster(v_esc, temperature, gas):.1e})"
+        ax.plot(v / 1e3, speed_pdf(v, temperature, gas) * 1e3, label=label)
+    if v_esc is not None:
+        ax.axvline(v_esc / 1e3, color="0.3", linestyle="--", linewidth=1)
+        ax.annotate(
+            "escape speed",
+            (v_esc / 1e3, ax.get_ylim()[1] * 0.9),
+            rotation=90,
+            ha="right",
+            va="top",
+            fontsize="small",
+            color="0.3",
+        )
+    ax.set_xlim(0.0, max(top, 1.2 * (v_esc or 0.0)) / 1e3)
+    ax.set_xlabel("speed [km s$^{-1}$]")
+    ax.set_ylabel("probability density [s km$^{-1}$]")
+    ax.set_title(f"Speed distributions at {temperature:.0f} K")
+    ax.legend(fontsize="small")
+    return ax
+
+
+def jeans_flux_vs_temperature(
+    temperatures: Any,
+    gases: Sequence[str],
+    density: float,
+    planet_mass: float,
+    radius: float,
+    ax: Any = None,
+) -> Any:
+    """Jeans flux [m^-2 s^-1] of several gases against exobase temperature [K], log scale.
+
+    The Jeans parameter at the lowest and highest temperature is given in the legend.
+    """
+    ax = _axes(ax)
+    t = np.asarray(temperatures, dtype=float)
+    for gas in gases:
+        lam = jeans_parameter(t, gas, planet_mass, radius)
+        ax.semilogy(
+            t,
+            jeans_flux(density, t, gas, planet_mass, radius),
+            label=f"{gas} (lambda {lam[0]:.0f} to {lam[-1]:.1f})",
+        )
+    ax.set_xlabel("exobase temperature [K]")
+    ax.set_ylabel("Jeans flux [m$^{-2}$ s$^{-1}$]")
+    ax.set_title(f"Jeans flux at n = {density:.0e} m$^{{-3}}$")
+    ax.legend(fontsize="small")
+    return ax
+
+
+def _mass(gas: str) -> float:
+    from .species import species
+
+    return species(gas).mass
