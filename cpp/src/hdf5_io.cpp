@@ -65,7 +65,7 @@ std::string hdf5_detail() {
 }
 
 [[noreturn]] void fail(const std::string& what) {
-    throw IOError("HDF5 could not " + what + ": " + hdf5_detail());
+    throw FileError("HDF5 could not " + what + ": " + hdf5_detail());
 }
 
 void check(herr_t status, const std::string& what) {
@@ -204,14 +204,15 @@ void sync_path(const std::string& path, bool directory) {
     if (fd < 0) {
         if (directory)
             return; // some systems do not open directories; the rename is still atomic
-        throw IOError("could not open " + in_quotes(path) + " to sync it: " + std::strerror(errno));
+        throw FileError("could not open " + in_quotes(path) +
+                        " to sync it: " + std::strerror(errno));
     }
     const int status = ::fsync(fd);
     const int error = errno;
     ::close(fd);
     // Directories on some file systems refuse fsync; file data is what must be durable.
     if (status != 0 && !directory)
-        throw IOError("could not fsync " + in_quotes(path) + ": " + std::strerror(error));
+        throw FileError("could not fsync " + in_quotes(path) + ": " + std::strerror(error));
 }
 
 std::string directory_of(const std::string& path) {
@@ -583,7 +584,7 @@ struct ResultWriter::Impl {
     void require_open() const {
         if (committed || !file.valid())
             throw InputError("the result file " + in_quotes(target) +
-                             " was already committed; nothing can be added");
+                             " was already committed or discarded; nothing can be added");
     }
 
     void require_new(const std::string& what, const std::string& name) const {
@@ -846,10 +847,24 @@ void ResultWriter::commit() {
     check(w.file.close(), "close " + w.where());
     sync_path(w.temporary, false);
     if (std::rename(w.temporary.c_str(), w.target.c_str()) != 0)
-        throw IOError("could not rename " + in_quotes(w.temporary) + " to " + in_quotes(w.target) +
-                      ": " + std::strerror(errno));
+        throw FileError("could not rename " + in_quotes(w.temporary) + " to " +
+                        in_quotes(w.target) + ": " + std::strerror(errno));
     w.committed = true;
     sync_path(directory_of(w.target), true);
+}
+
+void ResultWriter::discard() {
+    Impl& w = live();
+    QuietHdf5 quiet;
+    w.file.reset();
+    std::remove(w.temporary.c_str());
+    w.committed = true; // nothing left to do or undo
+}
+
+std::vector<std::size_t> ResultWriter::shape_of(const std::string& variable,
+                                                const std::vector<std::string>& dims) const {
+    const std::vector<hsize_t> shape = live().shape_of(variable, dims, false);
+    return {shape.begin(), shape.end()};
 }
 
 const std::string& ResultWriter::path() const {
@@ -922,7 +937,7 @@ struct ResultAppender::Impl {
     void durable_flush() {
         check(H5Fflush(file.get(), H5F_SCOPE_GLOBAL), "flush " + in_quotes(path));
         if (::fsync(fd) != 0)
-            throw IOError("could not fsync " + in_quotes(path) + ": " + std::strerror(errno));
+            throw FileError("could not fsync " + in_quotes(path) + ": " + std::strerror(errno));
     }
 
     const Variable& variable(const std::string& name) const {
@@ -943,7 +958,8 @@ struct ResultAppender::Impl {
                                                "'completed' attribute or the 'case' coordinate)");
         const std::int64_t done = read_int_attribute_of(file.get(), path, "/", completed_attr);
         if (done < 0)
-            throw IOError(in_quotes(path) + " is damaged: 'completed' is " + std::to_string(done));
+            throw FileError(in_quotes(path) + " is damaged: 'completed' is " +
+                            std::to_string(done));
         completed = static_cast<std::size_t>(done);
         find_variables();
         cut_back();
@@ -1002,9 +1018,9 @@ struct ResultAppender::Impl {
             v.row_size = product(v.trailing);
             variables[name] = v;
             if (shape[0] < completed)
-                throw IOError(in_quotes(path) + " is damaged: case variable " + in_quotes(name) +
-                              " has " + std::to_string(shape[0]) + " rows but 'completed' is " +
-                              std::to_string(completed));
+                throw FileError(in_quotes(path) + " is damaged: case variable " + in_quotes(name) +
+                                " has " + std::to_string(shape[0]) + " rows but 'completed' is " +
+                                std::to_string(completed));
             discarded = std::max<std::size_t>(discarded, shape[0] - completed);
         }
         if (variables.count(case_dim) == 0 || variables[case_dim].type != ValueType::int64)

@@ -240,6 +240,18 @@ TEST_CASE("hdf5_io: an abandoned writer leaves the good file in place and no tem
     CHECK(read_attribute(path, "/", "config") == R"({"model": "small", "scale": 1.000000})");
     CHECK(dir.entries() == std::vector<std::string>{"result.h5"});
 
+    // discard() gives up explicitly.
+    {
+        ResultWriter w(path, "{}");
+        w.add_coordinate("time", std::vector<double>{1.0, 2.0}, "s", "time");
+        CHECK(w.shape_of("x", {"time"}) == std::vector<std::size_t>{2});
+        CHECK_THROWS_AS(w.shape_of("x", {"tim"}), InputError);
+        w.discard();
+        CHECK_THROWS_AS(w.commit(), InputError);
+        CHECK(dir.entries() == std::vector<std::string>{"result.h5"});
+    }
+    CHECK(read_doubles(path, "flux") == good);
+
     // commit() replaces it.
     write_small(path, 7.0);
     CHECK(read_doubles(path, "flux")[0] == 7.0);
@@ -300,13 +312,13 @@ TEST_CASE("hdf5_io: bad arguments are refused with the name and the numbers") {
     CHECK_THROWS_AS(read_attribute(path, "time", "absent"), InputError);
     CHECK_THROWS_AS(read_int_attribute(path, "/", "config"), InputError);
 
-    // An HDF5 failure is an IOError that names the file.
+    // An HDF5 failure is an FileError that names the file.
     const std::string not_hdf5 = dir.file("plain.txt");
     std::ofstream(not_hdf5) << "not an HDF5 file\n";
     m = message_of([&] { read_doubles(not_hdf5, "x"); });
     CHECK(contains(m, not_hdf5));
-    CHECK_THROWS_AS(read_doubles(not_hdf5, "x"), IOError);
-    CHECK_THROWS_AS(ResultAppender{not_hdf5}, IOError);
+    CHECK_THROWS_AS(read_doubles(not_hdf5, "x"), FileError);
+    CHECK_THROWS_AS(ResultAppender{not_hdf5}, FileError);
     CHECK_THROWS_AS(ResultAppender{path}, InputError); // HDF5, but not appendable
 }
 

@@ -26,7 +26,7 @@ class NumericalError : public Error {
 };
 
 //! A file could not be created, written or read (HDF5 or file-system failure); names the path.
-class IOError : public Error {
+class FileError : public Error {
   public:
     using Error::Error;
 };

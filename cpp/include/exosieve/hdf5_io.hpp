@@ -28,6 +28,9 @@
 //! the file with ResultAppender(path) cuts every case variable back to `completed` rows, so the
 //! interrupted block is written again. Readers of a file that is still being written, or that
 //! was never resumed, should use only the first `completed` rows.
+//! While an appender has the file open, HDF5's file lock keeps other processes from opening it
+//! (readers may set HDF5_USE_FILE_LOCKING=FALSE, at their own risk: HDF5 outside SWMR mode does
+//! not promise a consistent view during writes).
 //! HDF5 1.10 has no crash-consistent metadata updates outside SWMR mode: a kill in the middle
 //! of a flush can in principle damage the file's metadata; a flush per block keeps that window
 //! short.
@@ -114,8 +117,14 @@ class ResultWriter {
     void set_attribute(const std::string& dataset, const std::string& name,
                        const std::string& value);
 
+    //! Shape of a variable over `dims` (InputError naming `variable` for unknown dims).
+    std::vector<std::size_t> shape_of(const std::string& variable,
+                                      const std::vector<std::string>& dims) const;
+
     //! Close, fsync and atomically rename the file over the target; nothing may follow.
     void commit();
+    //! Give up: close and remove the temporary file; the target is left as it was.
+    void discard();
     //! The target path.
     const std::string& path() const;
 
