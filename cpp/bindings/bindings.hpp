@@ -35,5 +35,6 @@ void bind_errors(py::module_& m);
 void bind_constants(py::module_& m);
 void bind_species(py::module_& m);
 void bind_kernel(py::module_& m);
+void bind_hdf5_io(py::module_& m);
 
 } // namespace exosieve::bindings

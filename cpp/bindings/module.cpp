@@ -9,4 +9,5 @@ PYBIND11_MODULE(_core, m) {
     b::bind_constants(m);
     b::bind_species(m);
     b::bind_kernel(m);
+    b::bind_hdf5_io(m);
 }

@@ -867,6 +867,10 @@ std::vector<std::size_t> ResultWriter::shape_of(const std::string& variable,
     return {shape.begin(), shape.end()};
 }
 
+bool ResultWriter::is_open() const {
+    return impl_ && !impl_->committed && impl_->file.valid();
+}
+
 const std::string& ResultWriter::path() const {
     if (!impl_)
         throw InputError("this ResultWriter was moved from");

@@ -246,7 +246,9 @@ TEST_CASE("hdf5_io: an abandoned writer leaves the good file in place and no tem
         w.add_coordinate("time", std::vector<double>{1.0, 2.0}, "s", "time");
         CHECK(w.shape_of("x", {"time"}) == std::vector<std::size_t>{2});
         CHECK_THROWS_AS(w.shape_of("x", {"tim"}), InputError);
+        CHECK(w.is_open());
         w.discard();
+        CHECK_FALSE(w.is_open());
         CHECK_THROWS_AS(w.commit(), InputError);
         CHECK(dir.entries() == std::vector<std::string>{"result.h5"});
     }

@@ -125,6 +125,8 @@ class ResultWriter {
     void commit();
     //! Give up: close and remove the temporary file; the target is left as it was.
     void discard();
+    //! True until commit() or discard() (false after a move).
+    bool is_open() const;
     //! The target path.
     const std::string& path() const;
 
