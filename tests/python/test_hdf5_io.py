@@ -276,3 +276,26 @@ def test_writers_in_two_threads(tmp_path):
     for name in sorted(os.listdir(tmp_path)):
         assert read_doubles(tmp_path / name, "flux").tobytes() == FLUX.tobytes()
     assert len(os.listdir(tmp_path)) == 10
+
+
+def test_a_new_sweep_with_no_rows_opens_in_xarray(tmp_path):
+    path = tmp_path / "sweep.h5"
+    make_schema(path).commit()
+    with xr.open_dataset(path, engine="h5netcdf") as ds:
+        assert ds.sizes["case"] == 0
+        assert ds.flux.dims == ("case", "species")
+    with ResultAppender(path) as sweep:
+        assert sweep.completed == 0
+        sweep.append(rows(0, 2))
+    assert read_int_attribute(path, "/", "completed") == 2
+
+
+def test_readers_accept_fixed_length_strings_from_other_writers(tmp_path):
+    path = tmp_path / "other.h5"
+    with h5py.File(path, "w") as f:
+        f["names"] = np.array([b"He", b"Ar-36", b""], dtype="S5")
+        f.attrs["title"] = np.bytes_(b"fixed")
+        assert not f["names"].id.get_type().is_variable_str()
+        assert not f.attrs.get_id("title").get_type().is_variable_str()
+    assert list(read_strings(path, "names")) == ["He", "Ar-36", ""]
+    assert read_attribute(path, "/", "title") == "fixed"
