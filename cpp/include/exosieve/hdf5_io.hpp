@@ -28,6 +28,7 @@
 //! the file with ResultAppender(path) cuts every case variable back to `completed` rows, so the
 //! interrupted block is written again. Readers of a file that is still being written, or that
 //! was never resumed, should use only the first `completed` rows.
+//! Each append costs two fsyncs, so append blocks of many rows rather than single rows.
 //! While an appender has the file open, HDF5's file lock keeps other processes from opening it
 //! (readers may set HDF5_USE_FILE_LOCKING=FALSE, at their own risk: HDF5 outside SWMR mode does
 //! not promise a consistent view during writes).
