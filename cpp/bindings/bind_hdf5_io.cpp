@@ -333,6 +333,9 @@ void bind_hdf5_io(py::module_& m) {
                                "Rows that are complete on disk [cases]")
         .def_property_readonly("discarded_rows", &ResultAppender::discarded_rows,
                                "Rows of an interrupted block cut off on reopening [cases]")
+        .def_property_readonly("repaired", &ResultAppender::repaired,
+                               "True if reopening had to extend the file's end of allocation "
+                               "(left by a kill during a flush)")
         .def_property_readonly("case_variables", &ResultAppender::case_variables,
                                "Names of the case variables ('case' included)")
         .def(

@@ -936,6 +936,7 @@ struct ResultAppender::Impl {
     int fd = -1;
     std::size_t completed = 0;
     std::size_t discarded = 0;
+    bool repaired = false; // the end of allocation was moved on reopening
     std::map<std::string, Variable> variables;
 
     void durable_flush() {
@@ -955,6 +956,7 @@ struct ResultAppender::Impl {
         path = file_path;
         QuietHdf5 quiet;
         file = open_file(path, H5F_ACC_RDWR);
+        repair_end_of_allocation();
         const htri_t has = H5Aexists(file.get(), completed_attr);
         check(has, "read " + in_quotes(path));
         if (has == 0 || !link_exists(file.get(), case_dim))
@@ -973,8 +975,26 @@ struct ResultAppender::Impl {
         check(H5Fget_vfd_handle(file.get(), fapl.get(), &handle),
               "get the file descriptor of " + in_quotes(path));
         fd = *static_cast<int*>(handle);
-        if (discarded > 0)
+        if (discarded > 0 || repaired)
             durable_flush();
+    }
+
+    // A kill during a flush can leave metadata on disk that lies past the end of allocation
+    // recorded in the superblock (e.g. a global heap of strings that grew at the end of the
+    // file, written before the superblock). HDF5 then refuses to read it ("len exceeds EOA")
+    // and would cut it off at close. A cleanly closed file ends exactly at its end of
+    // allocation, so a longer file is such a case: move the end of allocation to the end of
+    // the file, which keeps every byte that was written.
+    void repair_end_of_allocation() {
+        haddr_t eoa = 0;
+        check(H5Fget_eoa(file.get(), &eoa), "read the end of allocation of " + in_quotes(path));
+        std::error_code ec;
+        const std::uintmax_t eof = fs::file_size(path, ec);
+        if (!ec && eof > eoa) {
+            check(H5Fincrement_filesize(file.get(), 0),
+                  "extend the end of allocation of " + in_quotes(path));
+            repaired = true;
+        }
     }
 
     void find_variables() {
@@ -1141,6 +1161,10 @@ std::size_t ResultAppender::completed() const {
 
 std::size_t ResultAppender::discarded_rows() const {
     return any().discarded;
+}
+
+bool ResultAppender::repaired() const {
+    return any().repaired;
 }
 
 std::vector<std::size_t> ResultAppender::row_shape(const std::string& name) const {

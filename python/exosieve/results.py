@@ -15,8 +15,9 @@ Long sweeps declare variables with ``add_case_variable``: they grow along the un
 dimension ``case``. :class:`ResultAppender` appends blocks of rows; each block is written and
 fsynced before the global attribute ``completed`` is raised, and reopening a file with
 ``ResultAppender(path)`` cuts off rows past ``completed`` (a block interrupted by a kill), so the
-sweep resumes at row ``completed``. HDF5 failures raise :class:`FileError` (an ``OSError``);
-bad arguments raise ``ValueError``.
+sweep resumes at row ``completed``; it also repairs the file's end of allocation when a kill
+during a flush left it short. Reopen a killed file with an appender before reading it.
+HDF5 failures raise :class:`FileError` (an ``OSError``); bad arguments raise ``ValueError``.
 
 Examples
 --------

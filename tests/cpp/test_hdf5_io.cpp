@@ -82,6 +82,8 @@ void write_small(const std::string& path, double scale) {
 }
 
 const std::vector<std::string> species_names{"H", "He", "O", "Ar-36"};
+// A wide variable: 16 KiB rows make 4-row chunks, so appends keep growing the chunk index.
+const std::size_t levels = 2048;
 
 // Schema for the appending tests: per case a flux per species, a regime code and a label.
 ResultWriter append_schema(const std::string& path) {
@@ -90,6 +92,11 @@ ResultWriter append_schema(const std::string& path) {
     w.add_case_variable("flux", ValueType::float64, {"species"}, "m-2 s-1", "Jeans flux");
     w.add_case_variable("regime", ValueType::int64, {}, "1", "escape regime code");
     w.add_case_variable("label", ValueType::string, {}, "1", "case label");
+    std::vector<double> level(levels);
+    for (std::size_t j = 0; j < levels; ++j)
+        level[j] = static_cast<double>(j);
+    w.add_coordinate("level", level, "1", "level number");
+    w.add_case_variable("profile", ValueType::float64, {"level"}, "m-3", "density profile");
     return w;
 }
 
@@ -99,15 +106,19 @@ RowBlock rows_from(std::size_t first, std::size_t count) {
     std::vector<double> flux;
     std::vector<std::int64_t> regime;
     std::vector<std::string> label;
+    std::vector<double> profile;
     for (std::size_t r = first; r < first + count; ++r) {
         for (std::size_t s = 0; s < species_names.size(); ++s)
             flux.push_back(1e10 * static_cast<double>(r) + static_cast<double>(s) / 3.0);
+        for (std::size_t j = 0; j < levels; ++j)
+            profile.push_back(4096.0 * static_cast<double>(r) + static_cast<double>(j));
         regime.push_back(static_cast<std::int64_t>(r % 4));
         label.push_back("case-" + std::to_string(r));
     }
     block.set("flux", flux);
     block.set("regime", regime);
     block.set("label", label);
+    block.set("profile", std::move(profile));
     return block;
 }
 
@@ -119,6 +130,8 @@ void check_rows(const std::string& path, std::size_t n) {
     const std::vector<std::int64_t> regime = read_int64s(path, "regime");
     const std::vector<std::string> label = read_strings(path, "label");
     const std::vector<std::int64_t> cases = read_int64s(path, "case");
+    const std::vector<double> profile = read_doubles(path, "profile");
+    REQUIRE(profile.size() == n * levels);
     REQUIRE(regime.size() == n);
     REQUIRE(label.size() == n);
     REQUIRE(cases.size() == n);
@@ -130,6 +143,9 @@ void check_rows(const std::string& path, std::size_t n) {
         bad += regime[r] != static_cast<std::int64_t>(r % 4);
         bad += label[r] != "case-" + std::to_string(r);
         bad += cases[r] != static_cast<std::int64_t>(r);
+        for (std::size_t j = 0; j < levels; ++j)
+            bad +=
+                profile[r * levels + j] != 4096.0 * static_cast<double>(r) + static_cast<double>(j);
     }
     CHECK(bad == 0);
 }
@@ -331,7 +347,8 @@ TEST_CASE("hdf5_io: append blocks, reopen, continue") {
         ResultAppender a(append_schema(path));
         CHECK(a.completed() == 0);
         CHECK(a.discarded_rows() == 0);
-        CHECK(a.case_variables() == std::vector<std::string>{"case", "flux", "label", "regime"});
+        CHECK(a.case_variables() ==
+              std::vector<std::string>{"case", "flux", "label", "profile", "regime"});
         CHECK(a.row_shape("flux") == std::vector<std::size_t>{species_names.size()});
         CHECK(a.type_of("label") == ValueType::string);
         a.append(rows_from(0, 5));
@@ -352,6 +369,7 @@ TEST_CASE("hdf5_io: append blocks, reopen, continue") {
         ResultAppender a(path);
         CHECK(a.completed() == 6);
         CHECK(a.discarded_rows() == 0);
+        CHECK_FALSE(a.repaired());
         a.append(rows_from(6, 300)); // spans several chunks
     }
     check_rows(path, 306);
@@ -423,10 +441,11 @@ TEST_CASE("hdf5_io: reopening cuts off a torn block, which is then written again
     {
         hid_t file = H5Fopen(path.c_str(), H5F_ACC_RDWR, H5P_DEFAULT);
         REQUIRE(file >= 0);
-        for (const char* name : {"case", "flux", "regime", "label"}) {
+        for (const char* name : {"case", "flux", "regime", "label", "profile"}) {
             hid_t dataset = H5Dopen2(file, name, H5P_DEFAULT);
             REQUIRE(dataset >= 0);
-            hsize_t extent[2] = {17, species_names.size()};
+            hsize_t extent[2] = {17,
+                                 std::string(name) == "profile" ? levels : species_names.size()};
             CHECK(H5Dset_extent(dataset, extent) >= 0);
             H5Dclose(dataset);
         }
@@ -492,7 +511,7 @@ TEST_CASE("hdf5_io: a process killed while appending leaves every completed row 
     std::mt19937 random(20240611);
     std::uniform_int_distribution<int> delay_us(0, 40000);
     const int trials = 30;
-    int torn = 0, opened = 0;
+    int torn = 0, repaired = 0, opened = 0;
     std::size_t most_rows = 0;
     for (int trial = 0; trial < trials; ++trial) {
         const std::string path = dir.file("killed-" + std::to_string(trial) + ".h5");
@@ -534,6 +553,7 @@ TEST_CASE("hdf5_io: a process killed while appending leaves every completed row 
         ++opened;
         CHECK(a.completed() >= reported);
         torn += a.discarded_rows() > 0;
+        repaired += a.repaired();
         most_rows = std::max(most_rows, a.completed());
         const std::size_t n = a.completed();
         a.close();
@@ -541,6 +561,6 @@ TEST_CASE("hdf5_io: a process killed while appending leaves every completed row 
     }
     CHECK(opened == trials);
     MESSAGE("killed " << trials << " appending processes; " << torn
-                      << " left a torn block that reopening cut off; up to " << most_rows
-                      << " rows");
+                      << " left a torn block that reopening cut off, " << repaired
+                      << " needed the end-of-allocation repair; up to " << most_rows << " rows");
 }

@@ -190,6 +190,7 @@ def test_append_resume_and_read_with_xarray(tmp_path):
     with ResultAppender(path) as sweep:
         assert sweep.completed == 5
         assert sweep.discarded_rows == 0
+        assert not sweep.repaired
         sweep.append(rows(5, 4))
     expected = rows(0, 9)
     with h5py.File(path, "r") as f:

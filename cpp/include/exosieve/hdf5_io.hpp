@@ -26,8 +26,10 @@
 //! raises `completed` (flushed and fsynced again). Rows at index >= `completed` are therefore
 //! never trusted: a block cut short by a kill leaves `completed` at its old value, and reopening
 //! the file with ResultAppender(path) cuts every case variable back to `completed` rows, so the
-//! interrupted block is written again. Readers of a file that is still being written, or that
-//! was never resumed, should use only the first `completed` rows.
+//! interrupted block is written again. Reopening also repairs the one metadata inconsistency a
+//! kill during a flush was seen to leave (objects written past the end of allocation recorded
+//! in the superblock). Readers of a file that is still being written, or that was killed and
+//! not yet reopened by an appender, should use only the first `completed` rows and may fail.
 //! Each append costs two fsyncs, so append blocks of many rows rather than single rows.
 //! While an appender has the file open, HDF5's file lock keeps other processes from opening it
 //! (readers may set HDF5_USE_FILE_LOCKING=FALSE, at their own risk: HDF5 outside SWMR mode does
@@ -190,6 +192,9 @@ class ResultAppender {
     std::size_t completed() const;
     //! Rows of an interrupted block that reopening cut off (0 for a new file) [cases].
     std::size_t discarded_rows() const;
+    //! True if reopening found the file longer than its recorded end of allocation (left by a
+    //! kill during a flush) and extended the allocation to keep what was written.
+    bool repaired() const;
     //! Trailing shape (without `case`) of a case variable; InputError if unknown.
     std::vector<std::size_t> row_shape(const std::string& name) const;
     //! Element type of a case variable; InputError if unknown.
