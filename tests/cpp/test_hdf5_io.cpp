@@ -536,12 +536,22 @@ TEST_CASE("hdf5_io: a process killed while appending leaves every completed row 
             }
         }
         ::close(progress[1]);
+        struct Reaper { // never leave the child running if a check below throws
+            pid_t pid;
+            ~Reaper() {
+                if (pid > 0) {
+                    ::kill(pid, SIGKILL);
+                    ::waitpid(pid, nullptr, 0);
+                }
+            }
+        } reaper{child};
         std::uint64_t reported = 0, value = 0;
         REQUIRE(::read(progress[0], &reported, sizeof reported) == sizeof reported);
         ::usleep(static_cast<useconds_t>(delay_us(random)));
         ::kill(child, SIGKILL);
         int status = 0;
         ::waitpid(child, &status, 0);
+        reaper.pid = -1;
         CHECK(WIFSIGNALED(status));
         while (::read(progress[0], &value, sizeof value) == sizeof value)
             reported = value;
