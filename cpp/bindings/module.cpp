@@ -10,4 +10,5 @@ PYBIND11_MODULE(_core, m) {
     b::bind_species(m);
     b::bind_kernel(m);
     b::bind_thermosphere(m);
+    b::bind_hdf5_io(m);
 }

@@ -4,8 +4,8 @@ SI units throughout: temperatures [K], masses [kg], lengths [m], densities [m^-3
 Astropy quantities are accepted where astropy is installed.
 """
 
-from . import constants
-from ._core import ExosieveError, InputError, NumericalError, __version__
+from . import constants, results
+from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
 from .diffusion import (
     DiffusionPair,
     binary_diffusion_parameter,
@@ -46,6 +46,8 @@ __all__ = [
     "ExosieveError",
     "InputError",
     "NumericalError",
+    "FileError",
+    "results",
     "Species",
     "species",
     "species_names",
