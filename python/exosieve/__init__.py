@@ -4,8 +4,15 @@ SI units throughout: temperatures [K], masses [kg], lengths [m], densities [m^-3
 Astropy quantities are accepted where astropy is installed.
 """
 
-from . import constants
-from ._core import ExosieveError, InputError, NumericalError, __version__
+from . import constants, results
+from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
+from .diffusion import (
+    DiffusionPair,
+    binary_diffusion_parameter,
+    coupled_escape_flux,
+    diffusion_limited_flux,
+    diffusion_pairs,
+)
 from .jeans import (
     TailDepletion,
     escape_speed,
@@ -44,6 +51,13 @@ from .model import (
     roche_lobe_ratio,
 )
 from .result import EvolutionResult, open_result
+from .thermosphere import (
+    Exobase,
+    ExobaseStatus,
+    Thermosphere,
+    ThermosphereSolutions,
+    solve_thermospheres,
+)
 
 __all__ = [
     "__version__",
@@ -51,6 +65,8 @@ __all__ = [
     "ExosieveError",
     "InputError",
     "NumericalError",
+    "FileError",
+    "results",
     "Species",
     "species",
     "species_names",
@@ -87,4 +103,14 @@ __all__ = [
     "evolve",
     "EvolutionResult",
     "open_result",
+    "binary_diffusion_parameter",
+    "diffusion_limited_flux",
+    "coupled_escape_flux",
+    "diffusion_pairs",
+    "DiffusionPair",
+    "Thermosphere",
+    "Exobase",
+    "ExobaseStatus",
+    "ThermosphereSolutions",
+    "solve_thermospheres",
 ]
