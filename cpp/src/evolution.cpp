@@ -13,6 +13,7 @@
 
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
+#include "exosieve/hdf5_io.hpp"
 #include "json_text.hpp"
 
 namespace exosieve {
@@ -580,6 +581,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         r.ratio_names.push_back(a + "/" + b);
     }
     r.depletion_time.assign(n, nan);
+    r.initial_inventory = c.initial_inventory;
+    for (const Species& s : c.species) r.species_mass.push_back(s.mass);
     r.config = c.to_json();
     Recorder recorder(r, n, ratios);
 
@@ -781,6 +784,77 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     r.completed = true;
     r.rhs_evaluations = model.evaluations();
     return r;
+}
+
+void write_result(const EvolutionResult& r, const std::string& path) {
+    const std::size_t nt = r.time_count(), ns = r.species_count(), nr = r.ratio_names.size();
+    auto need = [&](const char* what, std::size_t have, std::size_t want) {
+        if (have != want)
+            throw InputError(std::string("result ") + what + " has " + std::to_string(have) +
+                             " values, expected " + std::to_string(want));
+    };
+    need("inventory", r.inventory.size(), nt * ns);
+    need("escape_rate", r.escape_rate.size(), nt * ns);
+    need("source_rate", r.source_rate.size(), nt * ns);
+    need("jeans_parameter", r.jeans_parameter.size(), nt * ns);
+    need("isotope_ratio", r.isotope_ratio.size(), nt * nr);
+    for (const auto* v : {&r.exobase_radius, &r.exobase_temperature, &r.xuv_flux})
+        need("time series", v->size(), nt);
+    need("regime", r.regime.size(), nt);
+    need("energy_limited", r.energy_limited.size(), nt);
+    need("depletion_time", r.depletion_time.size(), ns);
+    need("initial_inventory", r.initial_inventory.size(), ns);
+    need("species_mass", r.species_mass.size(), ns);
+
+    ResultWriter w(path, r.config);
+    w.add_coordinate("time", r.time, "s", "time (stellar age)");
+    w.add_coordinate("species", r.species, "species");
+    if (nr > 0) w.add_coordinate("ratio", r.ratio_names, "isotope ratio");
+    const std::vector<std::string> ts = {"time", "species"}, t = {"time"}, s = {"species"};
+    w.add_variable("inventory", ts, r.inventory, "1", "number of particles in the inventory");
+    w.add_variable("escape_rate", ts, r.escape_rate, "s-1", "global escape rate");
+    w.add_variable("source_rate", ts, r.source_rate, "s-1", "source rate");
+    w.add_variable("jeans_parameter", ts, r.jeans_parameter, "1",
+                   "Jeans parameter at the exobase");
+    w.add_variable("exobase_radius", t, r.exobase_radius, "m",
+                   "exobase radius from the planet's centre");
+    w.add_variable("exobase_temperature", t, r.exobase_temperature, "K", "exobase temperature");
+    w.add_variable("xuv_flux", t, r.xuv_flux, "W m-2", "XUV flux at the planet");
+    const std::vector<std::int64_t> regime(r.regime.begin(), r.regime.end());
+    w.add_variable("regime", t, regime, "1", "escape regime of the bulk gas at the exobase");
+    w.set_attribute("regime", "flag_values", "0 1 2 3");
+    w.set_attribute("regime", "flag_meanings", "jeans enhanced_jeans transition hydrodynamic");
+    const std::vector<std::int64_t> limited(r.energy_limited.begin(), r.energy_limited.end());
+    w.add_variable("energy_limited", t, limited, "1",
+                   "1 where energy-limited hydrodynamic loss acted");
+    if (nr > 0)
+        w.add_variable("isotope_ratio", {"time", "ratio"}, r.isotope_ratio, "1", "isotope ratio");
+    w.add_variable("depletion_time", s, r.depletion_time, "s",
+                   "time when the inventory fell below the depletion fraction");
+    w.add_variable("initial_inventory", s, r.initial_inventory, "1",
+                   "number of particles at the start");
+    w.add_variable("species_mass", s, r.species_mass, "kg", "particle mass");
+    auto count = [&](const char* name, std::size_t value, const char* long_name) {
+        w.add_variable(name, {}, std::vector<std::int64_t>{static_cast<std::int64_t>(value)}, "1",
+                       long_name);
+    };
+    count("steps", r.steps, "accepted integration steps");
+    count("rejected_steps", r.rejected_steps, "rejected integration steps");
+    count("rhs_evaluations", r.rhs_evaluations, "evaluations of the right-hand side");
+    count("completed", r.completed ? 1 : 0, "1 when the run reached the end of t_span");
+    w.add_variable("t_reached", {}, std::vector<double>{r.t_reached}, "s", "last time reached");
+    std::string changes = "[";
+    for (std::size_t k = 0; k < r.regime_changes.size(); ++k) {
+        const RegimeChange& c = r.regime_changes[k];
+        changes += (k ? ", " : "") + JsonObject()
+                                         .number("time_s", c.time)
+                                         .string("from", regime_name(c.from))
+                                         .string("to", regime_name(c.to))
+                                         .str();
+    }
+    w.set_attribute("regime_changes", changes + "]");
+    w.set_attribute("title", "exosieve evolution result");
+    w.commit();
 }
 
 } // namespace exosieve

@@ -212,8 +212,9 @@ class EvolutionResult:
         The layout is described in the module docstring; read it back with
         :func:`open_result` or ``xarray.open_dataset(path, engine="h5netcdf")``.
         """
-        f = self._fields()
-        _core.write_result(os.fspath(path), f)
+        fields = self._fields()
+        fields["regime_changes"] = list(self.regime_changes)
+        _core.write_result(os.fspath(path), fields)
 
     def to_xarray(self) -> Any:
         """The result as an ``xarray.Dataset`` with the file's dimensions, units and names."""
