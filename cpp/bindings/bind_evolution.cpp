@@ -244,6 +244,32 @@ void bind_evolution(py::module_& m) {
         .def(py::init<double, std::vector<std::string>, std::vector<double>, DensityScaling>(),
              py::arg("radius"), py::arg("species"), py::arg("densities"), py::arg("scaling"));
 
+    py::class_<ThermosphereExobase, ExobaseModel, std::shared_ptr<ThermosphereExobase>>(
+        m, "ThermosphereExobase",
+        "A Thermosphere whose composition follows the inventories and whose exobase "
+        "temperature follows the history")
+        .def(py::init([](const Thermosphere& t, const std::vector<std::string>& species,
+                         bool limit_by_diffusion, const std::string& method,
+                         const TailDepletion& tail) {
+                 if (method != "measured" && method != "chapman_enskog")
+                     throw InputError("diffusion method must be 'measured' or 'chapman_enskog', "
+                                      "got '" + method + "'");
+                 return std::make_shared<ThermosphereExobase>(
+                     t, species, limit_by_diffusion,
+                     method == "measured" ? DiffusionMethod::measured_first
+                                          : DiffusionMethod::chapman_enskog,
+                     tail);
+             }),
+             py::arg("thermosphere"), py::arg("species"), py::arg("limit_by_diffusion"),
+             py::arg("method"), py::arg("tail"))
+        .def("at",
+             [](const ThermosphereExobase& e, double temperature, const DoubleArray& log_fraction) {
+                 if (static_cast<std::size_t>(log_fraction.size()) != e.species_names().size())
+                     throw InputError("log_fraction: need one value per species");
+                 return e.at(temperature, log_fraction.data());
+             },
+             py::arg("temperature"), py::arg("log_fraction"));
+
     py::class_<SourceRate>(m, "SourceRate", "Source of one species [s^-1]")
         .def(py::init<>())
         .def(py::init<double>(), py::arg("rate"))

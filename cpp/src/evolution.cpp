@@ -12,6 +12,7 @@
 #include <map>
 
 #include "exosieve/constants.hpp"
+#include "exosieve/diffusion.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/hdf5_io.hpp"
 #include "json_text.hpp"
@@ -146,7 +147,7 @@ class Model {
     // All the diagnostics at (t, y) under `mode`.
     void snapshot(double t, const State& y, const Mode& mode, Snapshot& s) {
         evaluate(t, y, mode);
-        s.temperature = temperature_;
+        s.temperature = exobase_temperature_;
         s.flux = flux_;
         s.radius = state_.radius;
         s.regime = bulk_regime_;
@@ -174,8 +175,9 @@ class Model {
     // True when species i's loss vanishes with its inventory under `mode`; otherwise its
     // inventory would reach zero in finite time, where ln N is singular, so it is held at
     // depletion.
-    bool loss_follows_inventory(std::size_t i, const Mode& mode) const {
-        if (!c_.exobase->loss_follows_inventory()) return false;
+    bool loss_follows_inventory(std::size_t i, const State& y, const Mode& mode) {
+        for (std::size_t j = 0; j < n_; ++j) log_fraction_[j] = y[j] - y0_[j];
+        if (!c_.exobase->loss_follows_inventory(i, log_fraction_.data())) return false;
         return !(mode.energy_limited && i == escaping_);
     }
 
@@ -185,7 +187,7 @@ class Model {
         return "species " + c_.species[i].name + ": ln N = " + format_value(y[i]) +
                ", ln Q = " + format_value(log_rate_[i]) +
                ", Jeans parameter = " + format_value(lambda_[i]) +
-               ", exobase temperature = " + format_value(temperature_) +
+               ", exobase temperature = " + format_value(exobase_temperature_) +
                " K, exobase radius = " + format_value(state_.radius) + " m";
     }
 
@@ -206,9 +208,13 @@ class Model {
                 if (c_.species[i].name == h.escaping_species) escaping_ = i;
         }
         laws_.assign(n_, DiffusionLaw{});
+        listed_.assign(n_, 0);
         for (const auto& [name, law] : h.diffusion)
             for (std::size_t i = 0; i < n_; ++i)
-                if (c_.species[i].name == name) laws_[i] = law;
+                if (c_.species[i].name == name) {
+                    laws_[i] = law;
+                    listed_[i] = 1;
+                }
         mole_fraction_.resize(n_);
         diffusion_.resize(n_);
         partition_.resize(n_);
@@ -221,7 +227,8 @@ class Model {
         for (std::size_t i = 0; i < n_; ++i) log_fraction_[i] = y[i] - y0_[i];
         c_.exobase->evaluate(t, log_fraction_.data(), temperature_, state_);
         const double r = state_.radius;
-        const double kT = k_B * temperature_;
+        exobase_temperature_ = state_.temperature;
+        const double kT = k_B * exobase_temperature_;
         const double gm_over_ktr = G * c_.planet.mass() / (kT * r);
         const double log_area = log_area_factor_ + 2.0 * std::log(r);
         const double half_log_2kT = 0.5 * std::log(2.0 * kT);
@@ -258,9 +265,15 @@ class Model {
         for (std::size_t i = 0; i < n_; ++i) sum += std::exp(y[i] - y_max);
         for (std::size_t i = 0; i < n_; ++i) {
             mole_fraction_[i] = std::exp(y[i] - y_max) / sum;
-            diffusion_[i] = laws_[i](temperature_);
+            if (listed_[i])
+                diffusion_[i] = laws_[i](exobase_temperature_);
+            else if (h.drag && i != escaping_ && mass_[i] >= mass_[escaping_])
+                diffusion_[i] = binary_diffusion_parameter(c_.species[i], c_.species[escaping_],
+                                                           exobase_temperature_);
+            else
+                diffusion_[i] = 0.0;
         }
-        partition_mass_loss(mass_loss, temperature_, c_.planet.mass(), escaping_, mass_.data(),
+        partition_mass_loss(mass_loss, exobase_temperature_, c_.planet.mass(), escaping_, mass_.data(),
                             mole_fraction_.data(), diffusion_.data(), n_, partition_.data());
         for (std::size_t i = 0; i < n_; ++i) {
             const double lp = partition_[i] > 0.0 ? std::log(partition_[i]) : -inf;
@@ -277,7 +290,7 @@ class Model {
     bool needs_flux_ = false;
     bool has_sources_ = false;
     double log_area_factor_ = 0.0;
-    double flux_ = nan, temperature_ = 0.0;
+    double flux_ = nan, temperature_ = 0.0, exobase_temperature_ = 0.0;
     Regime bulk_regime_ = Regime::Jeans;
     Mode mode_;
     std::size_t evaluations_ = 0;
@@ -285,6 +298,7 @@ class Model {
     double xuv_radius_ = 0.0, roche_ = 1.0;
     std::size_t escaping_ = 0;
     std::vector<DiffusionLaw> laws_;
+    std::vector<char> listed_;
     std::vector<double> mole_fraction_, diffusion_, partition_;
 
   public:
@@ -519,6 +533,7 @@ std::string EvolutionConfig::to_json() const {
                                   .number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius
                                                                               : planet.radius())
                                   .add("roche_lobe", h.roche_lobe ? "true" : "false")
+                                  .add("drag", h.drag ? "true" : "false")
                                   .string("escaping_species", h.escaping_species)
                                   .string("activation", act)
                                   .add("diffusion", diff.str())
@@ -707,16 +722,19 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         double t_cut = t_new;
         Mode next_mode = mode;
         std::vector<double> depleted_at(n, nan);
+        std::vector<char> freeze(n, 0);
         for (std::size_t i = 0; i < n; ++i) {
             if (!std::isnan(r.depletion_time[i]) || !(y_new[i] < log_depleted[i])) continue;
             depleted_at[i] = locate(t, t_new, [&](double tq) {
                 dense(tq, y_probe);
                 return y_probe[i] < log_depleted[i];
             });
-        }
-        for (std::size_t i = 0; i < n; ++i)
-            if (!std::isnan(depleted_at[i]) && !model.loss_follows_inventory(i, mode))
+            dense(depleted_at[i], y_probe);
+            if (!model.loss_follows_inventory(i, y_probe, mode)) {
+                freeze[i] = 1;
                 t_cut = std::min(t_cut, depleted_at[i]);
+            }
+        }
         const Regime regime_new = model.regime(t_new, y_new);
         double regime_time = nan;
         Regime regime_after = regime_new;
@@ -735,7 +753,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         for (std::size_t i = 0; i < n; ++i)
             if (!std::isnan(depleted_at[i]) && depleted_at[i] <= t_cut) {
                 r.depletion_time[i] = depleted_at[i];
-                if (!model.loss_follows_inventory(i, mode)) next_mode.frozen[i] = 1;
+                if (freeze[i]) next_mode.frozen[i] = 1;
             }
         if (!std::isnan(regime_time) && regime_time <= t_cut) {
             r.regime_changes.push_back({regime_time, regime, regime_after});

@@ -15,10 +15,12 @@ from . import _core
 from .model import (
     EnergyLimitedEscape,
     Planet,
+    PrescribedExobase,
     _name,
     _scalar,
     _vector,
     source_rate,
+    temperature_history,
 )
 from .result import EvolutionResult
 
@@ -43,6 +45,8 @@ def evolve(
     isotope_ratios: Optional[Sequence[tuple[str, str]]] = None,
     max_steps: int = 100_000,
     progress: Optional[Callable[[float], Optional[bool]]] = None,
+    exobase_temperature: Any = None,
+    limit_by_diffusion: bool = True,
 ) -> EvolutionResult:
     """Integrate the loss of each species' inventory over ``t_span``.
 
@@ -51,7 +55,10 @@ def evolve(
     planet : Planet
         The planet (with its star and orbit for anything XUV-driven).
     exobase : PrescribedExobase or Thermosphere
-        Exobase radius, densities and temperature history.
+        Exobase radius, densities and temperature history. A :class:`Thermosphere` (isothermal
+        or Bates profile) is re-solved at every instant: its homopause mole fractions follow
+        the inventories, ``x_i ∝ x_i0 N_i/N_i0`` (homopause radius and density held), and its
+        exobase temperature follows ``exobase_temperature``.
     inventory : mapping of str to float
         Initial number of particles of each species [1] (> 0). Its order sets the species order
         of the result.
@@ -85,6 +92,12 @@ def evolve(
     progress : callable, optional
         Called as ``progress(t)`` about every 50 ms; returning False stops the run early (the
         result then has ``completed`` False). Ctrl-C stops a run with KeyboardInterrupt.
+    exobase_temperature : float, TabulatedTemperature, XuvTemperature or callable, optional
+        For a Thermosphere: the exobase temperature history [K] (default: its own exobase
+        temperature, held). A PrescribedExobase carries its own.
+    limit_by_diffusion : bool, optional
+        For a Thermosphere: couple Jeans escape to diffusion through the heterosphere
+        (default True).
 
     Returns
     -------
@@ -121,8 +134,8 @@ def evolve(
     config = _core.EvolutionConfig(planet._core)
     config.species = species_objects
     config.initial_inventory = initial
-    config.exobase = exobase._core_model(names)
-    config.temperature = _history_of(exobase)
+    config.exobase, config.temperature = _exobase_model(exobase, names, exobase_temperature,
+                                                       limit_by_diffusion)
     span = _vector(t_span, "t_span", "s")
     if span.shape != (2,):
         raise ValueError(f"t_span must be (start, end) [s], got {t_span!r}")
@@ -169,8 +182,27 @@ def evolve(
     return EvolutionResult._from_core(raw, [s.mass for s in species_objects], initial)
 
 
-def _history_of(exobase: Any) -> Any:
-    history = getattr(exobase, "_history", None)
-    if history is None:
-        raise ValueError(f"exobase must be an exosieve exobase model, got {exobase!r}")
-    return history
+def _exobase_model(exobase: Any, names: list[str], temperature: Any,
+                   limit_by_diffusion: bool) -> tuple[Any, Any]:
+    """The core exobase model and temperature history for ``exobase``."""
+    from .jeans import _tail
+    from .thermosphere import Thermosphere
+
+    if isinstance(exobase, PrescribedExobase):
+        if temperature is not None:
+            raise ValueError("exobase_temperature is for a Thermosphere; a PrescribedExobase "
+                             "carries its own temperature")
+        return exobase._core_model(names), exobase._history
+    if isinstance(exobase, Thermosphere):
+        kwargs = exobase._kwargs
+        model = _core.ThermosphereExobase(exobase._core, names, bool(limit_by_diffusion),
+                                          kwargs["diffusion_method"],
+                                          _tail(kwargs["tail_depletion"]))
+        if temperature is None:
+            temperature = exobase._args[4]
+            if temperature is None:
+                raise ValueError("exobase_temperature is required for a thermosphere given "
+                                 "by a temperature table")
+        return model, temperature_history(temperature)
+    raise ValueError(f"exobase must be an exosieve.PrescribedExobase or exosieve.Thermosphere, "
+                     f"got {exobase!r}")
