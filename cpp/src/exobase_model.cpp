@@ -231,17 +231,37 @@ ThermosphereExobase::ThermosphereExobase(const Thermosphere& initial,
     }
 }
 
-Thermosphere ThermosphereExobase::at(double temperature, const double* log_fraction) const {
-    const std::size_t n = species_.size();
-    std::vector<double> x(n);
+namespace {
+
+// Smallest mole fraction given to the thermosphere: a trace's density and flux are linear in its
+// mole fraction, so rarer traces are solved at this fraction and scaled back in logs (their
+// effect on the exobase, <= 1e-30, is below double precision). This keeps ln Q_i exact where
+// the fluxes themselves would underflow.
+constexpr double smallest_fraction = 1e-30;
+
+// ln x_i from ln x_i0 + ln(N_i/N_i0), normalised.
+void log_mole_fractions(const std::vector<double>& log_x0, const double* log_fraction,
+                        std::vector<double>& out) {
+    const std::size_t n = log_x0.size();
+    out.resize(n);
     double top = -std::numeric_limits<double>::infinity();
-    for (std::size_t i = 0; i < n; ++i) {
-        x[i] = log_x0_[i] + log_fraction[i];
-        top = std::max(top, x[i]);
-    }
+    for (std::size_t i = 0; i < n; ++i) top = std::max(top, out[i] = log_x0[i] + log_fraction[i]);
     double sum = 0.0;
-    for (std::size_t i = 0; i < n; ++i) sum += (x[i] = std::exp(x[i] - top));
-    for (std::size_t i = 0; i < n; ++i) x[i] /= sum;
+    for (std::size_t i = 0; i < n; ++i) sum += std::exp(out[i] - top);
+    const double log_sum = top + std::log(sum);
+    for (std::size_t i = 0; i < n; ++i) out[i] -= log_sum;
+}
+
+} // namespace
+
+Thermosphere ThermosphereExobase::at(double temperature, const double* log_fraction) const {
+    std::vector<double> lx;
+    log_mole_fractions(log_x0_, log_fraction, lx);
+    std::vector<double> x(lx.size());
+    double sum = 0.0;
+    for (std::size_t i = 0; i < lx.size(); ++i)
+        sum += (x[i] = std::isinf(lx[i]) ? 0.0 : std::max(std::exp(lx[i]), smallest_fraction));
+    for (double& v : x) v /= sum;
     TemperatureProfile profile =
         kind_ == TemperatureProfile::Kind::bates
             ? TemperatureProfile::bates(temperature, base_temperature_, shape_, base_radius_)
@@ -258,6 +278,14 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
     const Thermosphere th = at(temperature, log_fraction);
     const Exobase& e = th.exobase();
     const std::size_t n = species_.size();
+    // ln(x_i / x_i used): 0 except for traces solved at smallest_fraction.
+    std::vector<double> lx;
+    log_mole_fractions(log_x0_, log_fraction, lx);
+    std::vector<double> shift(n, 0.0);
+    for (std::size_t i = 0; i < n; ++i) {
+        const double used = th.mole_fractions()[i];
+        if (used > 0.0) shift[i] = lx[i] - std::log(used);
+    }
     if (e.status == ExobaseStatus::none_below_outer_radius)
         throw NumericalError("no exobase at t = " + format_value(t) + " s: " + e.message +
                              " (a sign of hydrodynamic outflow: consider the energy-limited "
@@ -267,7 +295,8 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
         out.radius = homopause_radius_;
         out.temperature = th.temperature(homopause_radius_);
         out.has_escape_rates = false;
-        for (std::size_t i = 0; i < n; ++i) out.log_density[i] = th.log_density(i, out.radius);
+        for (std::size_t i = 0; i < n; ++i)
+            out.log_density[i] = th.log_density(i, out.radius) + shift[i];
         return;
     }
     out.radius = e.radius;
@@ -275,10 +304,10 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
     out.has_escape_rates = true;
     const double log_area = std::log(4.0 * 3.141592653589793 * e.radius * e.radius);
     for (std::size_t i = 0; i < n; ++i) {
-        out.log_density[i] = th.log_density(i, e.radius);
+        out.log_density[i] = th.log_density(i, e.radius) + shift[i];
         const double flux = th.escape_flux(i, limit_by_diffusion_);
-        out.log_escape_rate[i] =
-            flux > 0.0 ? log_area + std::log(flux) : -std::numeric_limits<double>::infinity();
+        out.log_escape_rate[i] = flux > 0.0 ? log_area + std::log(flux) + shift[i]
+                                            : -std::numeric_limits<double>::infinity();
     }
 }
 

@@ -7,6 +7,7 @@ Arguments accept astropy quantities where astropy is installed.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from typing import Any, Callable, Optional, Sequence, Tuple, Union
 
@@ -384,7 +385,10 @@ def source_rate(value: Any, name: str) -> Any:
         return value._core
     if isinstance(value, tuple) and len(value) == 2:
         return TabulatedSource(*value)._core
-    return _core.SourceRate(_scalar(value, f"source of {name}", "s-1"))
+    rate = _scalar(value, f"source of {name}", "s-1")
+    if not (math.isfinite(rate) and rate >= 0.0):
+        raise ValueError(f"source of {name} must be finite and >= 0 [s^-1], got {rate!r}")
+    return _core.SourceRate(rate)
 
 
 DiffusionLike = Union[float, Tuple[float, float]]
