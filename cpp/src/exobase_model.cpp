@@ -34,8 +34,10 @@ TimeTable::TimeTable(std::vector<double> times, std::vector<double> values, cons
 }
 
 double TimeTable::operator()(double t) const {
-    if (t <= times_.front()) return values_.front();
-    if (t >= times_.back()) return values_.back();
+    if (t <= times_.front())
+        return values_.front();
+    if (t >= times_.back())
+        return values_.back();
     const std::size_t hi = std::upper_bound(times_.begin(), times_.end(), t) - times_.begin();
     const std::size_t lo = hi - 1;
     const double w = (t - times_[lo]) / (times_[hi] - times_[lo]);
@@ -85,7 +87,8 @@ ExobaseTemperature ExobaseTemperature::xuv_power_law(double reference_temperatur
 
 ExobaseTemperature ExobaseTemperature::callable(std::function<double(double)> function,
                                                 std::string description) {
-    if (!function) throw InputError("exobase temperature callable is empty");
+    if (!function)
+        throw InputError("exobase temperature callable is empty");
     ExobaseTemperature h;
     h.kind_ = Kind::Callable;
     h.function_ = std::move(function);
@@ -95,8 +98,10 @@ ExobaseTemperature ExobaseTemperature::callable(std::function<double(double)> fu
 
 double ExobaseTemperature::operator()(double t, double xuv_flux) const {
     switch (kind_) {
-    case Kind::Constant: return constant_;
-    case Kind::Table: return table_(t);
+    case Kind::Constant:
+        return constant_;
+    case Kind::Table:
+        return table_(t);
     case Kind::XuvPowerLaw: {
         const double T = t_ref_ * std::pow(xuv_flux / f_ref_, gamma_);
         return std::min(t_max_, std::max(t_min_, T));
@@ -105,7 +110,8 @@ double ExobaseTemperature::operator()(double t, double xuv_flux) const {
         const double T = function_(t);
         if (!std::isfinite(T) || !(T > 0.0))
             throw InputError("exobase temperature callable returned " + format_value(T) +
-                             " at t = " + format_value(t) + " s; it must return a finite "
+                             " at t = " + format_value(t) +
+                             " s; it must return a finite "
                              "temperature > 0 [K]");
         return T;
     }
@@ -118,16 +124,19 @@ std::vector<double> ExobaseTemperature::breakpoints(const Planet& planet, double
     std::vector<double> out;
     if (kind_ == Kind::Table) {
         for (double t : table_.times())
-            if (t > t0 && t < t1) out.push_back(t);
+            if (t > t0 && t < t1)
+                out.push_back(t);
     } else if (kind_ == Kind::XuvPowerLaw && planet.has_star() && gamma_ != 0.0) {
         // The flux falls monotonically after saturation, so each clamp switches at most once.
         const double distance = planet.semi_major_axis();
         const double area = 4.0 * 3.141592653589793 * distance * distance;
         for (double T : {t_min_, t_max_}) {
             const double flux = f_ref_ * std::pow(T / t_ref_, 1.0 / gamma_);
-            if (!(flux > 0.0) || !std::isfinite(flux)) continue;
+            if (!(flux > 0.0) || !std::isfinite(flux))
+                continue;
             const double t = planet.star().age_at_xuv_luminosity(flux * area);
-            if (t > t0 && t < t1 && t > planet.star().xuv().saturation_time) out.push_back(t);
+            if (t > t0 && t < t1 && t > planet.star().xuv().saturation_time)
+                out.push_back(t);
         }
     }
     std::sort(out.begin(), out.end());
@@ -137,7 +146,9 @@ std::vector<double> ExobaseTemperature::breakpoints(const Planet& planet, double
 std::string ExobaseTemperature::to_json() const {
     JsonObject o;
     switch (kind_) {
-    case Kind::Constant: o.string("kind", "constant").number("temperature_K", constant_); break;
+    case Kind::Constant:
+        o.string("kind", "constant").number("temperature_K", constant_);
+        break;
     case Kind::Table:
         o.string("kind", "table")
             .add("times_s", json_array(table_.times()))
@@ -151,7 +162,9 @@ std::string ExobaseTemperature::to_json() const {
             .number("minimum_K", t_min_)
             .number("maximum_K", t_max_);
         break;
-    case Kind::Callable: o.string("kind", "callable").string("description", description_); break;
+    case Kind::Callable:
+        o.string("kind", "callable").string("description", description_);
+        break;
     }
     return o.str();
 }
@@ -180,9 +193,11 @@ void PrescribedExobase::evaluate(double, const double* log_fraction, double temp
     out.has_escape_rates = false;
     const std::size_t n = log_densities_.size();
     if (scaling_ == DensityScaling::Inventory)
-        for (std::size_t i = 0; i < n; ++i) out.log_density[i] = log_densities_[i] + log_fraction[i];
+        for (std::size_t i = 0; i < n; ++i)
+            out.log_density[i] = log_densities_[i] + log_fraction[i];
     else
-        for (std::size_t i = 0; i < n; ++i) out.log_density[i] = log_densities_[i];
+        for (std::size_t i = 0; i < n; ++i)
+            out.log_density[i] = log_densities_[i];
 }
 
 void PrescribedExobase::check(const Planet& planet) const {
@@ -245,11 +260,14 @@ void log_mole_fractions(const std::vector<double>& log_x0, const double* log_fra
     const std::size_t n = log_x0.size();
     out.resize(n);
     double top = -std::numeric_limits<double>::infinity();
-    for (std::size_t i = 0; i < n; ++i) top = std::max(top, out[i] = log_x0[i] + log_fraction[i]);
+    for (std::size_t i = 0; i < n; ++i)
+        top = std::max(top, out[i] = log_x0[i] + log_fraction[i]);
     double sum = 0.0;
-    for (std::size_t i = 0; i < n; ++i) sum += std::exp(out[i] - top);
+    for (std::size_t i = 0; i < n; ++i)
+        sum += std::exp(out[i] - top);
     const double log_sum = top + std::log(sum);
-    for (std::size_t i = 0; i < n; ++i) out[i] -= log_sum;
+    for (std::size_t i = 0; i < n; ++i)
+        out[i] -= log_sum;
 }
 
 } // namespace
@@ -261,7 +279,8 @@ Thermosphere ThermosphereExobase::at(double temperature, const double* log_fract
     double sum = 0.0;
     for (std::size_t i = 0; i < lx.size(); ++i)
         sum += (x[i] = std::isinf(lx[i]) ? 0.0 : std::max(std::exp(lx[i]), smallest_fraction));
-    for (double& v : x) v /= sum;
+    for (double& v : x)
+        v /= sum;
     TemperatureProfile profile =
         kind_ == TemperatureProfile::Kind::bates
             ? TemperatureProfile::bates(temperature, base_temperature_, shape_, base_radius_)
@@ -284,7 +303,8 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
     std::vector<double> shift(n, 0.0);
     for (std::size_t i = 0; i < n; ++i) {
         const double used = th.mole_fractions()[i];
-        if (used > 0.0) shift[i] = lx[i] - std::log(used);
+        if (used > 0.0)
+            shift[i] = lx[i] - std::log(used);
     }
     if (e.status == ExobaseStatus::none_below_outer_radius)
         throw NumericalError("no exobase at t = " + format_value(t) + " s: " + e.message +
@@ -313,9 +333,11 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
 
 bool ThermosphereExobase::loss_follows_inventory(std::size_t i, const double* log_fraction) const {
     double top = -std::numeric_limits<double>::infinity();
-    for (std::size_t j = 0; j < log_x0_.size(); ++j) top = std::max(top, log_x0_[j] + log_fraction[j]);
+    for (std::size_t j = 0; j < log_x0_.size(); ++j)
+        top = std::max(top, log_x0_[j] + log_fraction[j]);
     double sum = 0.0;
-    for (std::size_t j = 0; j < log_x0_.size(); ++j) sum += std::exp(log_x0_[j] + log_fraction[j] - top);
+    for (std::size_t j = 0; j < log_x0_.size(); ++j)
+        sum += std::exp(log_x0_[j] + log_fraction[j] - top);
     return std::exp(log_x0_[i] + log_fraction[i] - top) / sum < 0.5;
 }
 
@@ -330,7 +352,8 @@ void ThermosphereExobase::check(const Planet& planet) const {
 
 std::string ThermosphereExobase::to_json() const {
     std::vector<double> x0;
-    for (double lx : log_x0_) x0.push_back(std::exp(lx));
+    for (double lx : log_x0_)
+        x0.push_back(std::exp(lx));
     JsonObject o;
     o.string("kind", "thermosphere")
         .number("homopause_radius_m", homopause_radius_)
@@ -346,7 +369,8 @@ std::string ThermosphereExobase::to_json() const {
     o.add("limit_by_diffusion", limit_by_diffusion_ ? "true" : "false")
         .string("diffusion_method",
                 method_ == DiffusionMethod::measured_first ? "measured" : "chapman_enskog");
-    if (!tail_.is_identity()) o.string("tail_depletion", "set");
+    if (!tail_.is_identity())
+        o.string("tail_depletion", "set");
     return o.str();
 }
 

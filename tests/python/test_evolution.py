@@ -50,8 +50,9 @@ def test_linear_loss_and_depletion_time_when_densities_are_fixed():
     N0 = 2 * Q0 * c.GYR
     exo = exosieve.PrescribedExobase(R_EXO, T, {"H": n0}, scaling="fixed")
     t_eval = np.linspace(0, 3 * c.GYR, 31)
-    r = exosieve.evolve(earth(), exo, {"H": N0}, (0.0, 3 * c.GYR), t_eval=t_eval, rtol=1e-10,
-                        depletion_fraction=f)
+    r = exosieve.evolve(
+        earth(), exo, {"H": N0}, (0.0, 3 * c.GYR), t_eval=t_eval, rtol=1e-10, depletion_fraction=f
+    )
     t_dep = (1 - f) * N0 / Q0
     assert r.depletion_time["H"] == pytest.approx(t_dep, rel=1e-9)
     before = t_eval < t_dep
@@ -80,8 +81,15 @@ def test_piecewise_behaviour_under_a_temperature_table():
         return np.interp(t, [1 * c.GYR, 2 * c.GYR], [T1, T2])
 
     def exact(t):
-        return -integrate.quad(lambda s: k(T_of(s)), 0.0, t, points=[1 * c.GYR, 2 * c.GYR],
-                               epsabs=0, epsrel=1e-13, limit=200)[0]
+        return -integrate.quad(
+            lambda s: k(T_of(s)),
+            0.0,
+            t,
+            points=[1 * c.GYR, 2 * c.GYR],
+            epsabs=0,
+            epsrel=1e-13,
+            limit=200,
+        )[0]
 
     expected = np.array([exact(t) for t in t_eval])
     np.testing.assert_allclose(np.log(r.inventory["H"] / N0), expected, rtol=0, atol=1e-9)
@@ -100,13 +108,14 @@ def test_rayleigh_law_for_d_against_h():
     N0 = {"H": N_H0, "D": 1e-4 * N_H0}
     exo = exosieve.PrescribedExobase(R_EXO, T, n0)
     r = exosieve.evolve(earth(), exo, N0, (0.0, 4 * c.GYR), rtol=1e-10)
-    k = {s: jeans_rate(n0[s], T, exosieve.species(s).mass, c.M_EARTH, R_EXO) / N0[s]
-         for s in ("H", "D")}
+    k = {
+        s: jeans_rate(n0[s], T, exosieve.species(s).mass, c.M_EARTH, R_EXO) / N0[s]
+        for s in ("H", "D")
+    }
     alpha = k["D"] / k["H"]
     f = r.inventory["H"] / N0["H"]
     np.testing.assert_allclose(r.isotope_ratio["D/H"] / 1e-4, f ** (alpha - 1), rtol=1e-8)
-    assert r.isotope_ratio["D/H"][-1] / 1e-4 == pytest.approx(math.exp(4 * (1 - alpha)),
-                                                             rel=1e-8)
+    assert r.isotope_ratio["D/H"][-1] / 1e-4 == pytest.approx(math.exp(4 * (1 - alpha)), rel=1e-8)
 
 
 # --- XUV-driven four-species case against solve_ivp ------------------------------------------
@@ -152,8 +161,9 @@ def test_xuv_driven_case_agrees_with_solve_ivp_to_the_tolerance_asked():
     y0 = np.log(list(N0.values()))
     for rtol in (1e-6, 1e-8, 1e-10):
         r = exosieve.evolve(planet, exo, N0, span, rtol=rtol)
-        ref = integrate.solve_ivp(rhs, span, y0, method="DOP853", rtol=1e-13, atol=1e-13,
-                                  t_eval=r.time)
+        ref = integrate.solve_ivp(
+            rhs, span, y0, method="DOP853", rtol=1e-13, atol=1e-13, t_eval=r.time
+        )
         y = np.log(np.maximum(r.inventory.values, 1e-300))
         kept = ref.y.T - y0 > math.log(1e-6)  # where N > 1e-6 N0 (below, atol governs)
         error = np.max(np.abs(y - ref.y.T)[kept])
@@ -162,8 +172,9 @@ def test_xuv_driven_case_agrees_with_solve_ivp_to_the_tolerance_asked():
         for i, name in enumerate(N0):
             event = lambda t, yy, i=i: yy[i] - y0[i] - math.log(1e-3)  # noqa: E731
             event.terminal = False
-            ev = integrate.solve_ivp(rhs, span, y0, method="DOP853", rtol=1e-13, atol=1e-13,
-                                     events=event)
+            ev = integrate.solve_ivp(
+                rhs, span, y0, method="DOP853", rtol=1e-13, atol=1e-13, events=event
+            )
             found = ev.t_events[0]
             if r.depletion_time[name] is None:
                 assert len(found) == 0
@@ -223,12 +234,18 @@ def numpy_thermosphere_model(star, planet, x0, N0, r_h, n_h):
         lx = lx0 + y - ly0
         lx -= np.log(np.sum(np.exp(lx - lx.max()))) + lx.max()
         j = int(np.argmax(criterion(grid, lx, T) > 0))
-        r_exo = optimize.brentq(lambda r: float(criterion(r, lx, T)), grid[j - 1], grid[j],
-                                xtol=1e-9, rtol=1e-15)
+        r_exo = optimize.brentq(
+            lambda r: float(criterion(r, lx, T)), grid[j - 1], grid[j], xtol=1e-9, rtol=1e-15
+        )
         # ln Q_i - ln N_i in logs: H falls far below 1e-308 of its start.
         lam = G * M * m / (K * T * r_exo)
-        log_q = (np.log(4 * np.pi * r_exo**2) + log_n(r_exo, lx, T)
-                 + np.log(np.sqrt(2 * K * T / m) / (2 * np.sqrt(np.pi))) + np.log1p(lam) - lam)
+        log_q = (
+            np.log(4 * np.pi * r_exo**2)
+            + log_n(r_exo, lx, T)
+            + np.log(np.sqrt(2 * K * T / m) / (2 * np.sqrt(np.pi)))
+            + np.log1p(lam)
+            - lam
+        )
         return -np.exp(log_q - y)
 
     return rhs
@@ -241,13 +258,21 @@ def test_xuv_driven_thermosphere_agrees_with_solve_ivp():
     span = (10 * c.MYR, 3 * c.GYR)
     t_eval = np.array([10.5, 30, 100, 300, 1000, 3000]) * c.MYR
     rtol = 1e-8
-    r = exosieve.evolve(planet, thermo, N0, span, t_eval=t_eval, rtol=rtol,
-                        exobase_temperature=temperature, limit_by_diffusion=False)
-    rhs = numpy_thermosphere_model(star, planet, x0, N0, thermo.homopause_radius,
-                                   thermo.homopause_density)
+    r = exosieve.evolve(
+        planet,
+        thermo,
+        N0,
+        span,
+        t_eval=t_eval,
+        rtol=rtol,
+        exobase_temperature=temperature,
+        limit_by_diffusion=False,
+    )
+    rhs = numpy_thermosphere_model(
+        star, planet, x0, N0, thermo.homopause_radius, thermo.homopause_density
+    )
     y0 = np.log(list(N0.values()))
-    ref = integrate.solve_ivp(rhs, span, y0, method="DOP853", rtol=1e-11, atol=1e-11,
-                              t_eval=t_eval)
+    ref = integrate.solve_ivp(rhs, span, y0, method="DOP853", rtol=1e-11, atol=1e-11, t_eval=t_eval)
     assert ref.success
     y = np.log(np.maximum(r.inventory.values, 1e-300))
     kept = ref.y.T - y0 > math.log(1e-6)
@@ -267,8 +292,9 @@ def test_roche_factor_limits():
     assert exosieve.roche_lobe_factor(1e6) == pytest.approx(1.0, abs=2e-6)
     assert exosieve.roche_lobe_factor(2.0) == 0.3125
     xi = np.array([1e3, 1e4])
-    np.testing.assert_allclose(1 - exosieve.roche_lobe_factor(xi), 1.5 / xi - 0.5 / xi**3,
-                               rtol=1e-9)
+    np.testing.assert_allclose(
+        1 - exosieve.roche_lobe_factor(xi), 1.5 / xi - 0.5 / xi**3, rtol=1e-9
+    )
     with pytest.raises(ValueError, match="xi must be > 1"):
         exosieve.roche_lobe_factor(0.5)
 
@@ -280,8 +306,9 @@ def test_energy_limited_worked_example():
     Rp = 2 * c.R_EARTH
     mdot = exosieve.energy_limited_mass_loss(0.15, Rp, Rp, 10.0, 5 * c.M_EARTH)
     assert mdot == pytest.approx(4.907919e6, rel=1e-6)
-    assert exosieve.energy_limited_mass_loss(0.15, Rp, Rp, 10.0, 5 * c.M_EARTH,
-                                             roche_factor=0.3125) == pytest.approx(mdot / 0.3125)
+    assert exosieve.energy_limited_mass_loss(
+        0.15, Rp, Rp, 10.0, 5 * c.M_EARTH, roche_factor=0.3125
+    ) == pytest.approx(mdot / 0.3125)
 
 
 def test_energy_limited_evolution_is_linear_during_saturation():
@@ -290,15 +317,28 @@ def test_energy_limited_evolution_is_linear_during_saturation():
     star = exosieve.Star(c.M_SUN, c.L_SUN)
     planet = exosieve.Planet(c.M_EARTH, c.R_EARTH, c.AU, star)
     exo = exosieve.PrescribedExobase(R_EXO, 800.0, {"H": 1e10, "CO2": 1e13})
-    hydro = exosieve.EnergyLimitedEscape(efficiency=0.2, activation="always",
-                                         diffusion={"CO2": 0.0})
+    hydro = exosieve.EnergyLimitedEscape(
+        efficiency=0.2, activation="always", diffusion={"CO2": 0.0}
+    )
     t_eval = np.array([10, 50, 90]) * c.MYR
-    r = exosieve.evolve(planet, exo, {"H": 1e48, "CO2": 1e46}, (10 * c.MYR, 90 * c.MYR),
-                        t_eval=t_eval, hydrodynamic=hydro, rtol=1e-10)
+    r = exosieve.evolve(
+        planet,
+        exo,
+        {"H": 1e48, "CO2": 1e46},
+        (10 * c.MYR, 90 * c.MYR),
+        t_eval=t_eval,
+        hydrodynamic=hydro,
+        rtol=1e-10,
+    )
     xi = exosieve.roche_lobe_ratio(planet.mass, star.mass, c.AU, planet.radius)
-    mdot = exosieve.energy_limited_mass_loss(0.2, planet.radius, planet.radius,
-                                             planet.xuv_flux(50 * c.MYR), planet.mass,
-                                             exosieve.roche_lobe_factor(xi))
+    mdot = exosieve.energy_limited_mass_loss(
+        0.2,
+        planet.radius,
+        planet.radius,
+        planet.xuv_flux(50 * c.MYR),
+        planet.mass,
+        exosieve.roche_lobe_factor(xi),
+    )
     q = mdot / exosieve.species("H").mass
     np.testing.assert_allclose(r.inventory["H"], 1e48 - q * (t_eval - t_eval[0]), rtol=1e-9)
     assert np.all(r.energy_limited == 1)
@@ -309,8 +349,14 @@ def test_regime_classification_at_published_thresholds():
     lam = np.array([6.000001, 6.0, 3.000001, 3.0, 2.100001, 2.1, 0.5])
     codes = exosieve.classify_regime(lam)
     assert [exosieve.REGIMES[k] for k in codes] == [
-        "jeans", "enhanced_jeans", "enhanced_jeans", "transition", "transition",
-        "hydrodynamic", "hydrodynamic"]
+        "jeans",
+        "enhanced_jeans",
+        "enhanced_jeans",
+        "transition",
+        "transition",
+        "hydrodynamic",
+        "hydrodynamic",
+    ]
     custom = exosieve.RegimeThresholds(enhanced=10.0, transition=5.0, hydrodynamic=1.0)
     assert exosieve.classify_regime(8.0, custom) == 1
 
@@ -335,10 +381,16 @@ def test_callable_temperature_matches_the_table_it_computes():
     table = exosieve.TabulatedTemperature([0.0, c.GYR], [900.0, 1300.0])
     n0, N0 = {"H": 1e11}, {"H": 1e38}
     t_eval = np.linspace(0, c.GYR, 5)
-    a = exosieve.evolve(earth(), exosieve.PrescribedExobase(R_EXO, table, n0), N0, (0, c.GYR),
-                        t_eval=t_eval)
-    b = exosieve.evolve(earth(), exosieve.PrescribedExobase(R_EXO, lambda t: table(t), n0), N0,
-                        (0, c.GYR), t_eval=t_eval)
+    a = exosieve.evolve(
+        earth(), exosieve.PrescribedExobase(R_EXO, table, n0), N0, (0, c.GYR), t_eval=t_eval
+    )
+    b = exosieve.evolve(
+        earth(),
+        exosieve.PrescribedExobase(R_EXO, lambda t: table(t), n0),
+        N0,
+        (0, c.GYR),
+        t_eval=t_eval,
+    )
     np.testing.assert_allclose(b.inventory["H"], a.inventory["H"], rtol=1e-12)
     assert b.config["exobase_temperature"]["kind"] == "callable"
 
@@ -351,23 +403,28 @@ def test_sources_balance_proportional_loss():
     k, S = Q0 / N0, 0.3 * Q0
     t_eval = np.array([1.0, 2.0, 5.0]) * c.GYR
     exo = exosieve.PrescribedExobase(R_EXO, T, {"H": n0})
-    r = exosieve.evolve(earth(), exo, {"H": N0}, (0.0, 5 * c.GYR), t_eval=t_eval, rtol=1e-10,
-                        sources={"H": S})
-    np.testing.assert_allclose(r.inventory["H"], S / k + (N0 - S / k) * np.exp(-k * t_eval),
-                               rtol=1e-9)
+    r = exosieve.evolve(
+        earth(), exo, {"H": N0}, (0.0, 5 * c.GYR), t_eval=t_eval, rtol=1e-10, sources={"H": S}
+    )
+    np.testing.assert_allclose(
+        r.inventory["H"], S / k + (N0 - S / k) * np.exp(-k * t_eval), rtol=1e-9
+    )
     tab = exosieve.TabulatedSource([0.0, 5 * c.GYR], [S, S])
-    r2 = exosieve.evolve(earth(), exo, {"H": N0}, (0.0, 5 * c.GYR), t_eval=t_eval, rtol=1e-10,
-                         sources={"H": tab})
+    r2 = exosieve.evolve(
+        earth(), exo, {"H": N0}, (0.0, 5 * c.GYR), t_eval=t_eval, rtol=1e-10, sources={"H": tab}
+    )
     np.testing.assert_allclose(r2.inventory["H"], r.inventory["H"], rtol=1e-12)
 
 
 def test_progress_false_stops_the_run_and_keeps_results():
-    table = exosieve.TabulatedTemperature(np.linspace(0, c.GYR, 200001),
-                                          900 + 100 * np.sin(np.arange(200001)))
+    table = exosieve.TabulatedTemperature(
+        np.linspace(0, c.GYR, 200001), 900 + 100 * np.sin(np.arange(200001))
+    )
     exo = exosieve.PrescribedExobase(R_EXO, table, {"H": 1e11})
     seen = []
-    r = exosieve.evolve(earth(), exo, {"H": 1e38}, (0.0, c.GYR),
-                        progress=lambda t: seen.append(t) or len(seen) < 2)
+    r = exosieve.evolve(
+        earth(), exo, {"H": 1e38}, (0.0, c.GYR), progress=lambda t: seen.append(t) or len(seen) < 2
+    )
     assert not r.completed and r.t_reached < c.GYR and r.time[-1] == r.t_reached
 
 
@@ -379,7 +436,9 @@ def test_ctrl_c_stops_a_long_run_with_keyboard_interrupt():
 
     # 2e6 table knots: every knot is a step boundary, so the run takes seconds.
     n = 2_000_001
-    table = exosieve.TabulatedTemperature(np.linspace(0, c.GYR, n), 900 + 100 * np.sin(np.arange(n)))
+    table = exosieve.TabulatedTemperature(
+        np.linspace(0, c.GYR, n), 900 + 100 * np.sin(np.arange(n))
+    )
     exo = exosieve.PrescribedExobase(R_EXO, table, {"H": 1e11})
     timer = threading.Timer(0.3, lambda: os.kill(os.getpid(), signal.SIGINT))
     start = time.perf_counter()
@@ -399,8 +458,9 @@ def result():
     planet = exosieve.Planet(c.M_EARTH, c.R_EARTH, c.AU, star)
     temperature = exosieve.XuvTemperature(1000.0, F_REF, 0.5, 200.0, 3000.0)
     exo = exosieve.PrescribedExobase(R_EXO, temperature, {"H": 1e11, "D": 1e7, "O": 1e13})
-    return exosieve.evolve(planet, exo, {"H": 1e40, "D": 1e36, "O": 1e42},
-                           (10 * c.MYR, 4.5 * c.GYR))
+    return exosieve.evolve(
+        planet, exo, {"H": 1e40, "D": 1e36, "O": 1e42}, (10 * c.MYR, 4.5 * c.GYR)
+    )
 
 
 def test_hdf5_round_trip_is_exact(result, tmp_path):
@@ -410,12 +470,21 @@ def test_hdf5_round_trip_is_exact(result, tmp_path):
     assert back.species == result.species and back.ratio_names == ["D/H"]
     for name in ("inventory", "escape_rate", "source_rate", "jeans_parameter", "isotope_ratio"):
         np.testing.assert_array_equal(getattr(back, name).values, getattr(result, name).values)
-    for name in ("time", "exobase_radius", "exobase_temperature", "xuv_flux", "regime",
-                 "energy_limited"):
+    for name in (
+        "time",
+        "exobase_radius",
+        "exobase_temperature",
+        "xuv_flux",
+        "regime",
+        "energy_limited",
+    ):
         np.testing.assert_array_equal(getattr(back, name), getattr(result, name))
     assert back.depletion_time == result.depletion_time
     assert (back.steps, back.rejected_steps, back.completed) == (
-        result.steps, result.rejected_steps, True)
+        result.steps,
+        result.rejected_steps,
+        True,
+    )
     assert back.config == result.config
     # Reopened results write again, identically.
     back.to_hdf5(tmp_path / "again.h5")
@@ -476,8 +545,9 @@ def test_pandas_frame(result):
     df = result.to_pandas()
     assert df.index.name == "time" and len(df) == len(result.time)
     np.testing.assert_array_equal(df[("inventory", "H")].to_numpy(), result.inventory["H"])
-    np.testing.assert_array_equal(df[("exobase_temperature", "")].to_numpy(),
-                                  result.exobase_temperature)
+    np.testing.assert_array_equal(
+        df[("exobase_temperature", "")].to_numpy(), result.exobase_temperature
+    )
 
 
 # --- bad input ------------------------------------------------------------------------------------
@@ -525,8 +595,9 @@ def test_a_callable_returning_nan_is_a_clear_error():
 
 
 def test_xuv_inputs_need_a_star():
-    exo = exosieve.PrescribedExobase(R_EXO, exosieve.XuvTemperature(1000, 1, 0.5, 300, 3000),
-                                     {"H": 1e11})
+    exo = exosieve.PrescribedExobase(
+        R_EXO, exosieve.XuvTemperature(1000, 1, 0.5, 300, 3000), {"H": 1e11}
+    )
     with pytest.raises(ValueError, match="semi_major_axis and star"):
         basic(exobase=exo)
 
