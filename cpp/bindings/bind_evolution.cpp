@@ -128,6 +128,18 @@ void bind_evolution(py::module_& m) {
                  return t;
              }),
              py::arg("enhanced") = 6.0, py::arg("transition") = 3.0, py::arg("hydrodynamic") = 2.1)
+        .def(py::pickle(
+            [](const RegimeThresholds& t) {
+                return py::make_tuple(t.enhanced, t.transition, t.hydrodynamic);
+            },
+            [](const py::tuple& s) {
+                RegimeThresholds t;
+                t.enhanced = s[0].cast<double>();
+                t.transition = s[1].cast<double>();
+                t.hydrodynamic = s[2].cast<double>();
+                t.validate();
+                return t;
+            }))
         .def_readonly("enhanced", &RegimeThresholds::enhanced)
         .def_readonly("transition", &RegimeThresholds::transition)
         .def_readonly("hydrodynamic", &RegimeThresholds::hydrodynamic);

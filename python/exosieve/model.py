@@ -263,6 +263,9 @@ class TabulatedTemperature:
     def __repr__(self) -> str:
         return f"TabulatedTemperature(times={self.times!r}, temperatures={self.temperatures!r})"
 
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (TabulatedTemperature, (self.times, self.temperatures))
+
 
 class XuvTemperature:
     """Exobase temperature driven by the planet's XUV flux:
@@ -304,6 +307,18 @@ class XuvTemperature:
             self.exponent,
             self.minimum,
             self.maximum,
+        )
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (
+            XuvTemperature,
+            (
+                self.reference_temperature,
+                self.reference_flux,
+                self.exponent,
+                self.minimum,
+                self.maximum,
+            ),
         )
 
     def temperature(self, xuv_flux: float) -> float:
@@ -377,6 +392,9 @@ class PrescribedExobase:
         self.scaling = scaling
         self._history = temperature_history(temperature)
 
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (PrescribedExobase, (self.radius, self.temperature, self.densities, self.scaling))
+
     def _core_model(self, species: Sequence[str]) -> Any:
         missing = [s for s in species if s not in self.densities]
         if missing:
@@ -425,6 +443,9 @@ class TabulatedSource:
 
     def __repr__(self) -> str:
         return f"TabulatedSource(times={self.times!r}, rates={self.rates!r})"
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (TabulatedSource, (self.times, self.rates))
 
 
 def source_rate(value: Any, name: str) -> Any:
@@ -512,6 +533,19 @@ class EnergyLimitedEscape:
             escaping_species or "",
             getattr(_core.HydrodynamicActivation, activation),
             [(k, _core.DiffusionLaw(a, s)) for k, (a, s) in self.diffusion.items()],
+        )
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (
+            EnergyLimitedEscape,
+            (
+                self.efficiency,
+                self.xuv_radius,
+                self.roche_lobe,
+                self.escaping_species,
+                self.activation,
+                self.diffusion,
+            ),
         )
 
     def __repr__(self) -> str:

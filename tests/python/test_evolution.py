@@ -607,3 +607,22 @@ def test_a_stalled_run_says_where_and_why():
     exo = exosieve.PrescribedExobase(R_EXO, table, {"H": 1e11})
     with pytest.raises(exosieve.NumericalError, match="max_steps = 3.*t = .*Myr.*species H"):
         basic(exobase=exo, max_steps=3)
+
+
+def test_model_objects_pickle_and_give_the_same_run():
+    import pickle
+
+    star, planet, temperature, n0, N0 = xuv_case()
+    exo = exosieve.PrescribedExobase(R_EXO, temperature, n0)
+    hydro = exosieve.EnergyLimitedEscape(efficiency=0.1, diffusion={"O": (4.8e19, 0.75)})
+    thresholds = exosieve.RegimeThresholds(enhanced=7.0)
+    args = (planet, exo, N0, (10 * c.MYR, c.GYR))
+    kwargs = {
+        "hydrodynamic": hydro,
+        "thresholds": thresholds,
+        "sources": {"O": exosieve.TabulatedSource([0.0, c.GYR], [1e25, 0.0])},
+    }
+    a = exosieve.evolve(*args, **kwargs)
+    b = exosieve.evolve(*pickle.loads(pickle.dumps(args)), **pickle.loads(pickle.dumps(kwargs)))
+    np.testing.assert_array_equal(a.inventory.values, b.inventory.values)
+    assert a.config == b.config
