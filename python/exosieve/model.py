@@ -51,6 +51,8 @@ def _scalar(value: Any, name: str, unit: str) -> float:
 
 
 def _vector(value: Any, name: str, unit: str) -> NDArray[np.float64]:
+    if isinstance(value, (list, tuple)) and any(hasattr(v, "unit") for v in value):
+        value = [to_si(v, name, unit) for v in value]  # e.g. (10 * u.Myr, 1 * u.Gyr)
     array = np.atleast_1d(to_si(value, name, unit))
     if array.ndim != 1:
         raise ValueError(f"{name} must be one-dimensional, got shape {array.shape}")

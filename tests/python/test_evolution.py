@@ -626,3 +626,25 @@ def test_model_objects_pickle_and_give_the_same_run():
     b = exosieve.evolve(*pickle.loads(pickle.dumps(args)), **pickle.loads(pickle.dumps(kwargs)))
     np.testing.assert_array_equal(a.inventory.values, b.inventory.values)
     assert a.config == b.config
+
+
+def test_astropy_quantities_are_converted():
+    u = pytest.importorskip("astropy.units")
+    star = exosieve.Star(c.M_SUN, c.L_SUN)
+    si = exosieve.evolve(
+        exosieve.Planet(c.M_EARTH, c.R_EARTH, c.AU, star),
+        exosieve.PrescribedExobase(R_EXO, 1000.0, {"H": 1e11}),
+        {"H": 1e38},
+        (10 * c.MYR, c.GYR),
+        t_eval=[100 * c.MYR, 500 * c.MYR],
+    )
+    q = exosieve.evolve(
+        exosieve.Planet(c.M_EARTH * u.kg, (c.R_EARTH / 1e3) * u.km, 1 * u.AU, star),
+        exosieve.PrescribedExobase((R_EXO / 1e3) * u.km, 1000 * u.K, {"H": 1e5 / u.cm**3}),
+        {"H": 1e38},
+        (10 * u.Myr, 1 * u.Gyr),
+        t_eval=[100, 500] * u.Myr,
+    )
+    # astropy's Myr is the Julian one, as exosieve's (IAU: 1 a = 365.25 d).
+    np.testing.assert_allclose(q.time, si.time, rtol=1e-15)
+    np.testing.assert_allclose(q.inventory["H"], si.inventory["H"], rtol=1e-12)
