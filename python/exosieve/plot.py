@@ -120,6 +120,8 @@ def histories(
     gases: Sequence[str] | None = None,
     relative: bool = True,
     ax: Any = None,
+    linestyle: str = "-",
+    label: str = "",
 ) -> Any:
     """Inventory or escape-rate histories of an evolution result on log axes.
 
@@ -135,6 +137,10 @@ def histories(
         Inventories as the fraction of the initial inventory [1] (default) or in particles.
     ax : matplotlib Axes, optional
         Where to draw.
+    linestyle : str, optional
+        Line style, to tell several runs apart on one Axes; each species keeps its colour.
+    label : str, optional
+        Text appended to each species name in the legend (e.g. ", run A").
     """
     if quantity not in ("inventory", "escape_rate"):
         raise ValueError(f"quantity must be 'inventory' or 'escape_rate', got {quantity!r}")
@@ -145,10 +151,17 @@ def histories(
         values = np.asarray(table[gas], dtype=float)
         if quantity == "inventory" and relative:
             values = values / result.initial_inventory[result.species.index(gas)]
-        line = ax.loglog(t, np.where(values > 0, values, np.nan), label=gas)[0]
+        color = f"C{result.species.index(gas) % 10}"
+        ax.loglog(
+            t,
+            np.where(values > 0, values, np.nan),
+            color=color,
+            linestyle=linestyle,
+            label=gas + label,
+        )
         depleted = result.depletion_time.get(gas)
         if quantity == "inventory" and depleted is not None:
-            ax.axvline(depleted / _GYR, color=line.get_color(), linestyle=":", linewidth=1)
+            ax.axvline(depleted / _GYR, color=color, linestyle=":", linewidth=1)
     ax.set_xlabel("time [Gyr]")
     if quantity == "inventory":
         ax.set_ylabel("retained fraction [1]" if relative else "inventory [particles]")
@@ -159,12 +172,18 @@ def histories(
 
 
 def isotope_ratios(
-    result: Any, ratios: Sequence[str] | None = None, normalise: bool = True, ax: Any = None
+    result: Any,
+    ratios: Sequence[str] | None = None,
+    normalise: bool = True,
+    ax: Any = None,
+    linestyle: str = "-",
+    label: str = "",
 ) -> Any:
     """Isotope-ratio histories (e.g. D/H) of an evolution result.
 
     With ``normalise`` each ratio is divided by its initial value, so the curve shows the
-    enrichment [1] that escape leaves behind.
+    enrichment [1] that escape leaves behind. ``linestyle`` and ``label`` (appended to each
+    ratio's name in the legend) tell several runs apart on one Axes.
     """
     ax = _axes(ax)
     t = np.asarray(result.time) / _GYR
@@ -172,7 +191,7 @@ def isotope_ratios(
         values = np.asarray(result.isotope_ratio[name], dtype=float)
         if normalise:
             values = values / values[0]
-        ax.semilogx(t, values, label=name)
+        ax.semilogx(t, values, linestyle=linestyle, label=name + label)
     ax.set_xlabel("time [Gyr]")
     ax.set_ylabel("ratio / initial ratio [1]" if normalise else "isotope ratio [1]")
     ax.legend(fontsize="small")
