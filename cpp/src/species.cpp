@@ -5,6 +5,7 @@
 #include <cmath>
 #include <sstream>
 
+#include "csv_text.hpp"
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 
@@ -27,46 +28,8 @@ void validate(const Species& s) {
 
 namespace {
 
-// Split one CSV line, honouring double-quoted fields (no embedded newlines).
-std::vector<std::string> split_csv_line(const std::string& line) {
-    std::vector<std::string> fields;
-    std::string field;
-    bool quoted = false;
-    for (std::size_t i = 0; i < line.size(); ++i) {
-        const char c = line[i];
-        if (quoted) {
-            if (c == '"' && i + 1 < line.size() && line[i + 1] == '"') {
-                field += '"';
-                ++i;
-            } else if (c == '"') {
-                quoted = false;
-            } else {
-                field += c;
-            }
-        } else if (c == '"') {
-            quoted = true;
-        } else if (c == ',') {
-            fields.push_back(field);
-            field.clear();
-        } else if (c != '\r') {
-            field += c;
-        }
-    }
-    fields.push_back(field);
-    return fields;
-}
-
-double parse_number(const std::string& text, const std::string& where) {
-    try {
-        std::size_t used = 0;
-        const double v = std::stod(text, &used);
-        if (used != text.size())
-            throw std::invalid_argument(text);
-        return v;
-    } catch (const std::exception&) {
-        throw InputError(where + ": '" + text + "' is not a number");
-    }
-}
+using detail::parse_number;
+using detail::split_csv_line;
 
 std::size_t edit_distance(const std::string& a, const std::string& b) {
     std::vector<std::size_t> row(b.size() + 1);
