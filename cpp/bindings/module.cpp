@@ -10,4 +10,6 @@ PYBIND11_MODULE(_core, m) {
     b::bind_species(m);
     b::bind_kernel(m);
     b::bind_evolution(m);
+    b::bind_thermosphere(m);
+    b::bind_hdf5_io(m);
 }

@@ -2,6 +2,8 @@
 
 #include <cmath>
 
+#include <boost/math/special_functions/gamma.hpp>
+
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 

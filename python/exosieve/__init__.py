@@ -4,8 +4,15 @@ SI units throughout: temperatures [K], masses [kg], lengths [m], densities [m^-3
 Astropy quantities are accepted where astropy is installed.
 """
 
-from . import constants
-from ._core import ExosieveError, InputError, NumericalError, __version__
+from . import constants, results
+from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
+from .diffusion import (
+    DiffusionPair,
+    binary_diffusion_parameter,
+    coupled_escape_flux,
+    diffusion_limited_flux,
+    diffusion_pairs,
+)
 from .jeans import (
     TailDepletion,
     escape_speed,
@@ -25,6 +32,13 @@ from .maxwell import (
     speed_pdf,
 )
 from .species import Species, register_species, species, species_names
+from .thermosphere import (
+    Exobase,
+    ExobaseStatus,
+    Thermosphere,
+    ThermosphereSolutions,
+    solve_thermospheres,
+)
 
 __all__ = [
     "__version__",
@@ -32,6 +46,8 @@ __all__ = [
     "ExosieveError",
     "InputError",
     "NumericalError",
+    "FileError",
+    "results",
     "Species",
     "species",
     "species_names",
@@ -50,4 +66,14 @@ __all__ = [
     "jeans_energy_flux",
     "jeans_escape_rate",
     "log_jeans_escape_rate",
+    "binary_diffusion_parameter",
+    "diffusion_limited_flux",
+    "coupled_escape_flux",
+    "diffusion_pairs",
+    "DiffusionPair",
+    "Thermosphere",
+    "Exobase",
+    "ExobaseStatus",
+    "ThermosphereSolutions",
+    "solve_thermospheres",
 ]

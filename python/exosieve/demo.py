@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -84,32 +83,47 @@ def format_snapshot(result: SnapshotTable) -> str:
 
 
 def write_snapshot(result: SnapshotTable, path: str | Path) -> Path:
-    """Write ``result`` to an HDF5 file (dimensions ``case`` and ``species``)."""
-    from ._core import ResultWriter  # the C++ writer: atomic, dimension scales, units
+    """Write ``result`` to HDF5: dimensions ``case`` (appendable, as in sweep files) and
+    ``species``; the case labels are the variable ``case_name``."""
+    from .results import ResultAppender, ResultWriter  # C++ writer: atomic, scales, units
 
     path = Path(path)
-    writer = ResultWriter(str(path))
-    writer.add_coordinate("case", result.cases, "planet case")
-    writer.add_coordinate("species", result.species, "species")
-    two = ["case", "species"]
-    writer.add_variable(
-        "exobase_radius",
-        ["case"],
-        result.exobase_radius,
-        "m",
-        "exobase radius from the planet's centre",
-    )
-    writer.add_variable(
-        "exobase_temperature", ["case"], result.exobase_temperature, "K", "exobase temperature"
-    )
-    writer.add_variable("density", two, result.density, "m-3", "number density at the exobase")
-    writer.add_variable(
-        "jeans_parameter", two, result.jeans_parameter, "1", "Jeans parameter at the exobase"
-    )
-    writer.add_variable("jeans_flux", two, result.jeans_flux, "m-2 s-1", "Jeans escape flux")
-    writer.add_variable("escape_rate", two, result.escape_rate, "s-1", "global Jeans escape rate")
-    writer.set_attribute("config", json.dumps({"kind": "snapshot", "catalogue": result.source}))
-    writer.commit()
+    schema = ResultWriter(path, {"kind": "snapshot", "catalogue": result.source})
+    schema.add_coordinate("species", result.species, long_name="species")
+    variables = [
+        ("case_name", str, [], "1", "planet case", np.array(result.cases, dtype=object)),
+        (
+            "exobase_radius",
+            float,
+            [],
+            "m",
+            "exobase radius from the planet's centre",
+            result.exobase_radius,
+        ),
+        ("exobase_temperature", float, [], "K", "exobase temperature", result.exobase_temperature),
+        (
+            "density",
+            float,
+            ["species"],
+            "m-3",
+            "number density at the exobase (NaN: species absent)",
+            result.density,
+        ),
+        (
+            "jeans_parameter",
+            float,
+            ["species"],
+            "1",
+            "Jeans parameter at the exobase",
+            result.jeans_parameter,
+        ),
+        ("jeans_flux", float, ["species"], "m-2 s-1", "Jeans escape flux", result.jeans_flux),
+        ("escape_rate", float, ["species"], "s-1", "global Jeans escape rate", result.escape_rate),
+    ]
+    for name, dtype, dims, units, long_name, _ in variables:
+        schema.add_case_variable(name, dtype, dims, units=units, long_name=long_name)
+    with ResultAppender(schema) as out:
+        out.append({name: values for name, *_, values in variables})
     return path
 
 

@@ -18,7 +18,9 @@ def test_tail_fraction_in_unit_interval_and_falls_with_speed(v, temperature, mas
     v = np.sort(np.array(v))
     f = exosieve.fraction_faster(v, temperature, mass)
     assert np.all((f >= 0.0) & (f <= 1.0))
-    assert np.all(np.diff(f) <= 0.0)
+    # Falls with speed, to rounding: near v = 0 the fraction is 1 - O(x^3) and neighbouring
+    # values may differ by one unit in the last place either way.
+    assert np.all(np.diff(f) <= np.spacing(f[:-1]))
 
 
 @settings(max_examples=200, deadline=None)

@@ -1,6 +1,6 @@
 #pragma once
 //! \file errors.hpp
-//! One exception hierarchy: bad input versus numerical failure.
+//! One exception hierarchy: bad input, numerical failure, file failure.
 
 #include <stdexcept>
 #include <string>
@@ -21,6 +21,12 @@ class InputError : public Error {
 
 //! A computation that could not complete (no progress, no root, overflow).
 class NumericalError : public Error {
+  public:
+    using Error::Error;
+};
+
+//! A file could not be created, written or read (HDF5 or file-system failure); names the path.
+class FileError : public Error {
   public:
     using Error::Error;
 };

@@ -1,0 +1,1282 @@
+#include "exosieve/hdf5_io.hpp"
+
+#include <hdf5.h>
+#include <hdf5_hl.h>
+
+#include <algorithm>
+#include <atomic>
+#include <cerrno>
+#include <cstdio>
+#include <cstring>
+#include <ctime>
+#include <filesystem>
+#include <limits>
+#include <random>
+#include <set>
+#include <sstream>
+
+#include <fcntl.h>
+#include <unistd.h>
+
+#include "exosieve/errors.hpp"
+
+#ifndef EXOSIEVE_VERSION
+#define EXOSIEVE_VERSION "unknown"
+#endif
+
+namespace exosieve {
+namespace {
+
+namespace fs = std::filesystem;
+
+const char* const case_dim = "case";
+const char* const completed_attr = "completed";
+
+// ---------------------------------------------------------------- HDF5 errors and handles
+
+// Silences HDF5's own error printing on this thread (the library is thread-safe, so the
+// setting is per thread) and restores the caller's setting on exit.
+class QuietHdf5 {
+  public:
+    QuietHdf5() {
+        H5Eget_auto2(H5E_DEFAULT, &func_, &data_);
+        H5Eset_auto2(H5E_DEFAULT, nullptr, nullptr);
+    }
+    ~QuietHdf5() { H5Eset_auto2(H5E_DEFAULT, func_, data_); }
+    QuietHdf5(const QuietHdf5&) = delete;
+    QuietHdf5& operator=(const QuietHdf5&) = delete;
+
+  private:
+    H5E_auto2_t func_ = nullptr;
+    void* data_ = nullptr;
+};
+
+herr_t keep_innermost(unsigned n, const H5E_error2_t* error, void* out) {
+    if (n == 0 && error->desc != nullptr)
+        *static_cast<std::string*>(out) = error->desc;
+    return 0;
+}
+
+// The most specific message on this thread's HDF5 error stack.
+std::string hdf5_detail() {
+    std::string detail;
+    H5Ewalk2(H5E_DEFAULT, H5E_WALK_UPWARD, keep_innermost, &detail);
+    return detail.empty() ? std::string("no detail from HDF5") : detail;
+}
+
+[[noreturn]] void fail(const std::string& what) {
+    throw FileError("HDF5 could not " + what + ": " + hdf5_detail());
+}
+
+void check(herr_t status, const std::string& what) {
+    if (status < 0)
+        fail(what);
+}
+
+// Owns one HDF5 identifier.
+class Handle {
+  public:
+    using Closer = herr_t (*)(hid_t);
+    Handle() = default;
+    Handle(hid_t id, Closer closer) : id_(id), closer_(closer) {}
+    ~Handle() { reset(); }
+    Handle(Handle&& other) noexcept : id_(other.id_), closer_(other.closer_) {
+        other.id_ = H5I_INVALID_HID;
+    }
+    Handle& operator=(Handle&& other) noexcept {
+        if (this != &other) {
+            reset();
+            id_ = other.id_;
+            closer_ = other.closer_;
+            other.id_ = H5I_INVALID_HID;
+        }
+        return *this;
+    }
+    Handle(const Handle&) = delete;
+    Handle& operator=(const Handle&) = delete;
+
+    hid_t get() const { return id_; }
+    bool valid() const { return id_ >= 0; }
+    void reset() { static_cast<void>(close()); }
+    //! Close now and report HDF5's status (negative on failure).
+    herr_t close() {
+        herr_t status = 0;
+        if (id_ >= 0 && closer_ != nullptr)
+            status = closer_(id_);
+        id_ = H5I_INVALID_HID;
+        return status;
+    }
+
+  private:
+    hid_t id_ = H5I_INVALID_HID;
+    Closer closer_ = nullptr;
+};
+
+Handle checked(hid_t id, Handle::Closer closer, const std::string& what) {
+    if (id < 0)
+        fail(what);
+    return Handle(id, closer);
+}
+
+Handle utf8_string_type() {
+    Handle type = checked(H5Tcopy(H5T_C_S1), H5Tclose, "copy the C string type");
+    check(H5Tset_size(type.get(), H5T_VARIABLE), "make a variable-length string type");
+    check(H5Tset_cset(type.get(), H5T_CSET_UTF8), "set the UTF-8 character set");
+    return type;
+}
+
+Handle file_access() {
+    Handle fapl = checked(H5Pcreate(H5P_FILE_ACCESS), H5Pclose, "create a file-access list");
+#if H5_VERSION_GE(1, 10, 7)
+    // Lock when the file system can; carry on where it cannot (some cluster file systems).
+    check(H5Pset_file_locking(fapl.get(), true, true), "configure file locking");
+#endif
+    return fapl;
+}
+
+std::string in_quotes(const std::string& s) {
+    return "'" + s + "'";
+}
+
+// ---------------------------------------------------------------- argument checks
+
+void check_text(const std::string& what, const std::string& value) {
+    if (value.find('\0') != std::string::npos)
+        throw InputError(what + " contains a NUL character");
+}
+
+void check_object_name(const std::string& what, const std::string& name) {
+    if (name.empty())
+        throw InputError(what + " name is empty");
+    if (name.find('/') != std::string::npos || name == "." || name == "..")
+        throw InputError(what + " name " + in_quotes(name) +
+                         " must not contain '/' or be '.'/'..'");
+    check_text(what + " name " + in_quotes(name), name);
+}
+
+// Units and long_name are required; refuse unit words that xarray decodes to time types.
+void check_description(const std::string& name, const std::string& units,
+                       const std::string& long_name) {
+    if (units.empty())
+        throw InputError("variable " + in_quotes(name) +
+                         ": units are empty (use \"1\" for "
+                         "dimensionless values)");
+    if (long_name.empty())
+        throw InputError("variable " + in_quotes(name) + ": long_name is empty");
+    check_text("units of " + in_quotes(name), units);
+    check_text("long_name of " + in_quotes(name), long_name);
+    static const std::set<std::string> timedelta_words = {
+        "days", "hours", "minutes", "seconds", "milliseconds", "microseconds", "nanoseconds"};
+    if (timedelta_words.count(units) != 0)
+        throw InputError("variable " + in_quotes(name) + ": units " + in_quotes(units) +
+                         " make xarray decode the values to timedelta64, which overflows past "
+                         "292 years; use \"s\"");
+    if (units.find(" since ") != std::string::npos)
+        throw InputError("variable " + in_quotes(name) + ": units " + in_quotes(units) +
+                         " make xarray decode the values to datetimes; use \"s\"");
+}
+
+void check_strings(const std::string& name, const std::vector<std::string>& values) {
+    for (std::size_t i = 0; i < values.size(); ++i)
+        if (values[i].find('\0') != std::string::npos)
+            throw InputError("variable " + in_quotes(name) + ": string " + std::to_string(i) +
+                             " contains a NUL character");
+}
+
+std::string shape_text(const std::vector<std::string>& dims, const std::vector<hsize_t>& shape) {
+    std::string text = "(";
+    for (std::size_t i = 0; i < dims.size(); ++i)
+        text += (i ? ", " : "") + dims[i] + "=" + std::to_string(shape[i]);
+    return text + ")";
+}
+
+std::size_t product(const std::vector<hsize_t>& shape) {
+    std::size_t n = 1;
+    for (hsize_t s : shape)
+        n *= static_cast<std::size_t>(s);
+    return n;
+}
+
+// ---------------------------------------------------------------- file-system helpers
+
+void sync_path(const std::string& path, bool directory) {
+    const int fd = ::open(path.c_str(), O_RDONLY | (directory ? O_DIRECTORY : 0));
+    if (fd < 0) {
+        if (directory)
+            return; // some systems do not open directories; the rename is still atomic
+        throw FileError("could not open " + in_quotes(path) +
+                        " to sync it: " + std::strerror(errno));
+    }
+    const int status = ::fsync(fd);
+    const int error = errno;
+    ::close(fd);
+    // Directories on some file systems refuse fsync; file data is what must be durable.
+    if (status != 0 && !directory)
+        throw FileError("could not fsync " + in_quotes(path) + ": " + std::strerror(error));
+}
+
+std::string directory_of(const std::string& path) {
+    const fs::path parent = fs::path(path).parent_path();
+    return parent.empty() ? std::string(".") : parent.string();
+}
+
+// Checks the target before any work: a file name in an existing directory.
+void check_target(const std::string& path) {
+    if (path.empty())
+        throw InputError("path is empty");
+    check_text("path", path);
+    const fs::path p(path);
+    if (!p.has_filename())
+        throw InputError("path " + in_quotes(path) + " names no file");
+    std::error_code ec;
+    if (!fs::is_directory(directory_of(path), ec))
+        throw InputError("path " + in_quotes(path) + ": directory " +
+                         in_quotes(directory_of(path)) + " does not exist");
+    if (fs::is_directory(p, ec))
+        throw InputError("path " + in_quotes(path) + " is a directory");
+}
+
+std::string temporary_beside(const std::string& target) {
+    static std::atomic<unsigned> counter{0};
+    std::random_device random;
+    std::ostringstream name;
+    name << '.' << fs::path(target).filename().string() << ".tmp-" << ::getpid() << '-' << counter++
+         << '-' << std::hex << random();
+    return (fs::path(target).parent_path() / name.str()).string();
+}
+
+std::string utc_now() {
+    const std::time_t now = std::time(nullptr);
+    std::tm utc{};
+    gmtime_r(&now, &utc);
+    char text[32];
+    std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &utc);
+    return text;
+}
+
+// ---------------------------------------------------------------- attributes
+
+void write_string_attribute(hid_t object, const std::string& name, const std::string& value,
+                            const std::string& where) {
+    const std::string what = "write attribute " + in_quotes(name) + " of " + where;
+    const htri_t exists = H5Aexists(object, name.c_str());
+    check(exists, what);
+    if (exists > 0)
+        check(H5Adelete(object, name.c_str()), what);
+    Handle type = utf8_string_type();
+    Handle space = checked(H5Screate(H5S_SCALAR), H5Sclose, what);
+    Handle attribute =
+        checked(H5Acreate2(object, name.c_str(), type.get(), space.get(), H5P_DEFAULT, H5P_DEFAULT),
+                H5Aclose, what);
+    const char* text = value.c_str();
+    check(H5Awrite(attribute.get(), type.get(), &text), what);
+}
+
+// Writes in place when the attribute exists, so an update touches a single object header.
+void write_int_attribute(hid_t object, const std::string& name, std::int64_t value,
+                         const std::string& where) {
+    const std::string what = "write attribute " + in_quotes(name) + " of " + where;
+    const htri_t exists = H5Aexists(object, name.c_str());
+    check(exists, what);
+    Handle attribute;
+    if (exists > 0) {
+        attribute = checked(H5Aopen(object, name.c_str(), H5P_DEFAULT), H5Aclose, what);
+    } else {
+        Handle space = checked(H5Screate(H5S_SCALAR), H5Sclose, what);
+        attribute = checked(
+            H5Acreate2(object, name.c_str(), H5T_STD_I64LE, space.get(), H5P_DEFAULT, H5P_DEFAULT),
+            H5Aclose, what);
+    }
+    check(H5Awrite(attribute.get(), H5T_NATIVE_INT64, &value), what);
+}
+
+void describe(hid_t dataset, const std::string& name, const std::string& units,
+              const std::string& long_name) {
+    write_string_attribute(dataset, "units", units, "dataset " + in_quotes(name));
+    write_string_attribute(dataset, "long_name", long_name, "dataset " + in_quotes(name));
+}
+
+// ---------------------------------------------------------------- datasets
+
+hid_t file_type_of(ValueType type, const Handle& string_type) {
+    switch (type) {
+    case ValueType::float64:
+        return H5T_IEEE_F64LE;
+    case ValueType::int64:
+        return H5T_STD_I64LE;
+    case ValueType::string:
+        return string_type.get();
+    }
+    return H5T_IEEE_F64LE;
+}
+
+hid_t memory_type_of(ValueType type, const Handle& string_type) {
+    switch (type) {
+    case ValueType::float64:
+        return H5T_NATIVE_DOUBLE;
+    case ValueType::int64:
+        return H5T_NATIVE_INT64;
+    case ValueType::string:
+        return string_type.get();
+    }
+    return H5T_NATIVE_DOUBLE;
+}
+
+const char* type_name(ValueType type) {
+    switch (type) {
+    case ValueType::float64:
+        return "float64";
+    case ValueType::int64:
+        return "int64";
+    case ValueType::string:
+        return "string";
+    }
+    return "?";
+}
+
+// Raw pointer to write: numbers as they are, strings as an array of C strings.
+struct Payload {
+    ValueType type;
+    const void* data;
+    std::vector<const char*> text; // backs `data` for strings
+
+    static Payload of(const double* p) { return {ValueType::float64, p, {}}; }
+    static Payload of(const std::int64_t* p) { return {ValueType::int64, p, {}}; }
+    static Payload of(const std::vector<std::string>& values) {
+        Payload payload{ValueType::string, nullptr, {}};
+        payload.text.reserve(values.size());
+        for (const std::string& s : values)
+            payload.text.push_back(s.c_str());
+        payload.data = payload.text.data();
+        return payload;
+    }
+};
+
+Handle create_dataset(hid_t file, const std::string& name, ValueType type,
+                      const std::vector<hsize_t>& shape, bool appendable,
+                      const std::string& where) {
+    const std::string what = "create dataset " + in_quotes(name) + " in " + where;
+    Handle string_type = utf8_string_type();
+    Handle dcpl = checked(H5Pcreate(H5P_DATASET_CREATE), H5Pclose, what);
+    std::vector<hsize_t> maximum = shape;
+    if (appendable) {
+        maximum[0] = H5S_UNLIMITED;
+        // Chunks of about 64 KiB; no compression, so rewriting a partly filled chunk puts
+        // back the committed rows byte for byte and cannot relocate them.
+        std::size_t row_bytes = type == ValueType::string ? 16 : 8;
+        for (std::size_t i = 1; i < shape.size(); ++i)
+            row_bytes *= static_cast<std::size_t>(shape[i]);
+        std::vector<hsize_t> chunk = shape;
+        chunk[0] = static_cast<hsize_t>(std::clamp<std::size_t>(65536 / row_bytes, 1, 65536));
+        check(H5Pset_chunk(dcpl.get(), static_cast<int>(chunk.size()), chunk.data()), what);
+        if (type == ValueType::float64) {
+            // Rows past `completed` read as NaN, not as plausible zeros.
+            const double nan = std::numeric_limits<double>::quiet_NaN();
+            check(H5Pset_fill_value(dcpl.get(), H5T_NATIVE_DOUBLE, &nan), what);
+        }
+    }
+    Handle space = checked(shape.empty() ? H5Screate(H5S_SCALAR)
+                                         : H5Screate_simple(static_cast<int>(shape.size()),
+                                                            shape.data(), maximum.data()),
+                           H5Sclose, what);
+    return checked(H5Dcreate2(file, name.c_str(), file_type_of(type, string_type), space.get(),
+                              H5P_DEFAULT, dcpl.get(), H5P_DEFAULT),
+                   H5Dclose, what);
+}
+
+void write_whole(hid_t dataset, const Payload& payload, const std::string& what) {
+    Handle string_type = utf8_string_type();
+    check(H5Dwrite(dataset, memory_type_of(payload.type, string_type), H5S_ALL, H5S_ALL,
+                   H5P_DEFAULT, payload.data),
+          what);
+}
+
+// Makes the dataset `rows` + `start` long along `case` and writes `payload` into rows
+// [start, start + rows).
+void write_rows(hid_t file, const std::string& name, const std::vector<hsize_t>& trailing,
+                std::size_t start, std::size_t rows, const Payload& payload,
+                const std::string& where) {
+    const std::string what = "append to dataset " + in_quotes(name) + " in " + where;
+    Handle dataset = checked(H5Dopen2(file, name.c_str(), H5P_DEFAULT), H5Dclose, what);
+    std::vector<hsize_t> extent{static_cast<hsize_t>(start + rows)};
+    extent.insert(extent.end(), trailing.begin(), trailing.end());
+    check(H5Dset_extent(dataset.get(), extent.data()), what);
+    Handle file_space = checked(H5Dget_space(dataset.get()), H5Sclose, what);
+    std::vector<hsize_t> offset(extent.size(), 0), count = extent;
+    offset[0] = start;
+    count[0] = rows;
+    check(H5Sselect_hyperslab(file_space.get(), H5S_SELECT_SET, offset.data(), nullptr,
+                              count.data(), nullptr),
+          what);
+    Handle memory_space = checked(
+        H5Screate_simple(static_cast<int>(count.size()), count.data(), nullptr), H5Sclose, what);
+    Handle string_type = utf8_string_type();
+    check(H5Dwrite(dataset.get(), memory_type_of(payload.type, string_type), memory_space.get(),
+                   file_space.get(), H5P_DEFAULT, payload.data),
+          what);
+}
+
+// ---------------------------------------------------------------- reading
+
+struct OpenRead {
+    Handle file;
+    Handle dataset;
+    std::vector<hsize_t> shape;
+};
+
+Handle open_file(const std::string& path, unsigned flags) {
+    if (path.empty())
+        throw InputError("path is empty");
+    std::error_code ec;
+    if (!fs::is_regular_file(path, ec))
+        throw InputError("file " + in_quotes(path) + " does not exist");
+    Handle fapl = file_access();
+    return checked(H5Fopen(path.c_str(), flags, fapl.get()), H5Fclose, "open " + in_quotes(path));
+}
+
+bool link_exists(hid_t file, const std::string& name) {
+    if (name.empty() || name.find('/') != std::string::npos)
+        return false;
+    return H5Lexists(file, name.c_str(), H5P_DEFAULT) > 0;
+}
+
+OpenRead open_dataset(const std::string& path, const std::string& name) {
+    OpenRead r;
+    r.file = open_file(path, H5F_ACC_RDONLY);
+    if (!link_exists(r.file.get(), name))
+        throw InputError("no dataset " + in_quotes(name) + " in " + in_quotes(path));
+    const std::string what = "read dataset " + in_quotes(name) + " of " + in_quotes(path);
+    r.dataset = checked(H5Dopen2(r.file.get(), name.c_str(), H5P_DEFAULT), H5Dclose, what);
+    Handle space = checked(H5Dget_space(r.dataset.get()), H5Sclose, what);
+    const int rank = H5Sget_simple_extent_ndims(space.get());
+    if (rank < 0)
+        fail(what);
+    r.shape.resize(static_cast<std::size_t>(rank));
+    if (rank > 0)
+        check(H5Sget_simple_extent_dims(space.get(), r.shape.data(), nullptr), what);
+    return r;
+}
+
+H5T_class_t class_of(hid_t dataset, const std::string& what) {
+    Handle type = checked(H5Dget_type(dataset), H5Tclose, what);
+    const H5T_class_t c = H5Tget_class(type.get());
+    if (c == H5T_NO_CLASS)
+        fail(what);
+    return c;
+}
+
+void store_shape(const std::vector<hsize_t>& shape, std::vector<std::size_t>* out) {
+    if (out != nullptr)
+        out->assign(shape.begin(), shape.end());
+}
+
+template <class T>
+std::vector<T> read_numbers(const std::string& path, const std::string& name, H5T_class_t want,
+                            hid_t memory_type, std::vector<std::size_t>* shape) {
+    QuietHdf5 quiet;
+    OpenRead r = open_dataset(path, name);
+    const std::string what = "read dataset " + in_quotes(name) + " of " + in_quotes(path);
+    if (class_of(r.dataset.get(), what) != want)
+        throw InputError("dataset " + in_quotes(name) + " in " + in_quotes(path) + " is not " +
+                         (want == H5T_FLOAT ? "floating point" : "integer"));
+    std::vector<T> values(product(r.shape));
+    if (!values.empty())
+        check(H5Dread(r.dataset.get(), memory_type, H5S_ALL, H5S_ALL, H5P_DEFAULT, values.data()),
+              what);
+    store_shape(r.shape, shape);
+    return values;
+}
+
+// Reads `count` strings of `type` (variable- or fixed-length) through `read`.
+template <class Read>
+std::vector<std::string> read_text(hid_t file_type, std::size_t count, Read read,
+                                   const std::string& what) {
+    std::vector<std::string> out(count);
+    const htri_t variable = H5Tis_variable_str(file_type);
+    check(variable, what);
+    if (variable > 0) {
+        Handle memory = utf8_string_type();
+        std::vector<char*> pointers(count, nullptr);
+        check(read(memory.get(), static_cast<void*>(pointers.data())), what);
+        for (std::size_t i = 0; i < count; ++i) {
+            if (pointers[i] != nullptr) {
+                out[i] = pointers[i];
+                H5free_memory(pointers[i]);
+            }
+        }
+    } else {
+        const std::size_t size = H5Tget_size(file_type);
+        if (size == 0)
+            fail(what);
+        Handle memory = checked(H5Tcopy(file_type), H5Tclose, what);
+        std::vector<char> buffer(size * count);
+        check(read(memory.get(), static_cast<void*>(buffer.data())), what);
+        for (std::size_t i = 0; i < count; ++i) {
+            const char* begin = buffer.data() + i * size;
+            std::size_t length = 0;
+            while (length < size && begin[length] != '\0')
+                ++length;
+            while (length > 0 && begin[length - 1] == ' ') // space-padded strings
+                --length;
+            out[i].assign(begin, length);
+        }
+    }
+    return out;
+}
+
+Handle open_attribute(hid_t file, const std::string& path, const std::string& object,
+                      const std::string& name) {
+    const std::string owner = object.empty() || object == "/" ? std::string("/") : object;
+    if (owner != "/" && !link_exists(file, owner))
+        throw InputError("no dataset " + in_quotes(owner) + " in " + in_quotes(path));
+    const htri_t exists = H5Aexists_by_name(file, owner.c_str(), name.c_str(), H5P_DEFAULT);
+    check(exists, "look up attribute " + in_quotes(name) + " in " + in_quotes(path));
+    if (exists == 0)
+        throw InputError("no attribute " + in_quotes(name) + " on " + in_quotes(owner) + " in " +
+                         in_quotes(path));
+    return checked(H5Aopen_by_name(file, owner.c_str(), name.c_str(), H5P_DEFAULT, H5P_DEFAULT),
+                   H5Aclose, "open attribute " + in_quotes(name) + " in " + in_quotes(path));
+}
+
+std::int64_t read_int_attribute_of(hid_t file, const std::string& path, const std::string& object,
+                                   const std::string& name) {
+    Handle attribute = open_attribute(file, path, object, name);
+    const std::string what = "read attribute " + in_quotes(name) + " of " + in_quotes(path);
+    Handle type = checked(H5Aget_type(attribute.get()), H5Tclose, what);
+    if (H5Tget_class(type.get()) != H5T_INTEGER)
+        throw InputError("attribute " + in_quotes(name) + " in " + in_quotes(path) +
+                         " is not an integer");
+    Handle space = checked(H5Aget_space(attribute.get()), H5Sclose, what);
+    if (H5Sget_simple_extent_npoints(space.get()) != 1)
+        throw InputError("attribute " + in_quotes(name) + " in " + in_quotes(path) +
+                         " is not a single value");
+    std::int64_t value = 0;
+    check(H5Aread(attribute.get(), H5T_NATIVE_INT64, &value), what);
+    return value;
+}
+
+herr_t keep_scale_name(hid_t, unsigned, hid_t scale, void* out) {
+    char buffer[1024];
+    const ssize_t n = H5Iget_name(scale, buffer, sizeof buffer);
+    if (n < 0)
+        return -1;
+    std::string name(buffer, static_cast<std::size_t>(std::min<ssize_t>(n, sizeof buffer - 1)));
+    const std::size_t slash = name.rfind('/');
+    *static_cast<std::string*>(out) = slash == std::string::npos ? name : name.substr(slash + 1);
+    return 1; // the first attached scale names the dimension
+}
+
+} // namespace
+
+// ================================================================ ResultWriter
+
+struct ResultWriter::Impl {
+    std::string target;
+    std::string temporary;
+    Handle file;
+    std::map<std::string, hsize_t> dims; // coordinate name -> length (case: appendable)
+    std::set<std::string> datasets;
+    bool has_case = false;
+    bool committed = false;
+
+    std::string where() const { return in_quotes(temporary) + " (for " + in_quotes(target) + ")"; }
+
+    void require_open() const {
+        if (committed || !file.valid())
+            throw InputError("the result file " + in_quotes(target) +
+                             " was already committed or discarded; nothing can be added");
+    }
+
+    void require_new(const std::string& what, const std::string& name) const {
+        check_object_name(what, name);
+        if (datasets.count(name) != 0)
+            throw InputError(what + " " + in_quotes(name) + " already exists in " +
+                             in_quotes(target));
+    }
+
+    std::string known_dims() const {
+        std::string list;
+        for (const auto& d : dims)
+            list += (list.empty() ? "" : ", ") + d.first;
+        return list.empty() ? std::string("none") : list;
+    }
+
+    std::vector<hsize_t> shape_of(const std::string& name, const std::vector<std::string>& names,
+                                  bool allow_case) const {
+        std::vector<hsize_t> shape;
+        std::set<std::string> seen;
+        for (const std::string& d : names) {
+            const auto found = dims.find(d);
+            if (found == dims.end())
+                throw InputError("variable " + in_quotes(name) + ": unknown dimension " +
+                                 in_quotes(d) + " (known: " + known_dims() + ")");
+            if (d == case_dim && !allow_case)
+                throw InputError("variable " + in_quotes(name) +
+                                 ": dimension 'case' is appendable; declare the variable with "
+                                 "add_case_variable");
+            if (!seen.insert(d).second)
+                throw InputError("variable " + in_quotes(name) + ": dimension " + in_quotes(d) +
+                                 " is repeated");
+            shape.push_back(found->second);
+        }
+        return shape;
+    }
+
+    void add(const std::string& name, const std::vector<std::string>& dim_names,
+             const std::vector<hsize_t>& shape, const Payload& payload, const std::string& units,
+             const std::string& long_name, bool scale) {
+        QuietHdf5 quiet;
+        Handle dataset = create_dataset(file.get(), name, payload.type, shape, false, where());
+        if (product(shape) > 0)
+            write_whole(dataset.get(), payload,
+                        "write dataset " + in_quotes(name) + " in " + where());
+        if (scale)
+            check(H5DSset_scale(dataset.get(), name.c_str()),
+                  "make " + in_quotes(name) + " a dimension scale in " + where());
+        else
+            attach(dataset.get(), name, dim_names);
+        describe(dataset.get(), name, units, long_name);
+        datasets.insert(name);
+        if (scale)
+            dims[name] = shape[0];
+    }
+
+    void attach(hid_t dataset, const std::string& name, const std::vector<std::string>& dim_names) {
+        for (std::size_t i = 0; i < dim_names.size(); ++i) {
+            const std::string what = "attach dimension " + in_quotes(dim_names[i]) + " to " +
+                                     in_quotes(name) + " in " + where();
+            Handle scale =
+                checked(H5Dopen2(file.get(), dim_names[i].c_str(), H5P_DEFAULT), H5Dclose, what);
+            check(H5DSattach_scale(dataset, scale.get(), static_cast<unsigned>(i)), what);
+        }
+    }
+
+    void ensure_case() {
+        if (has_case)
+            return;
+        if (datasets.count(case_dim) != 0)
+            throw InputError("a dataset named 'case' already exists in " + in_quotes(target) +
+                             "; that name is reserved for the appendable dimension");
+        QuietHdf5 quiet;
+        Handle dataset = create_dataset(file.get(), case_dim, ValueType::int64, {0}, true, where());
+        check(H5DSset_scale(dataset.get(), case_dim),
+              "make 'case' a dimension scale in " + where());
+        describe(dataset.get(), case_dim, "1", "case number");
+        write_int_attribute(file.get(), completed_attr, 0, where());
+        datasets.insert(case_dim);
+        dims[case_dim] = 0;
+        has_case = true;
+    }
+};
+
+ResultWriter::ResultWriter(const std::string& path, const std::string& config_json)
+    : impl_(std::make_unique<Impl>()) {
+    check_target(path);
+    check_text("config", config_json);
+    impl_->target = path;
+    impl_->temporary = temporary_beside(path);
+    QuietHdf5 quiet;
+    Handle fapl = file_access();
+    impl_->file =
+        checked(H5Fcreate(impl_->temporary.c_str(), H5F_ACC_EXCL, H5P_DEFAULT, fapl.get()),
+                H5Fclose, "create " + impl_->where());
+    try {
+        write_string_attribute(impl_->file.get(), "exosieve_version", EXOSIEVE_VERSION,
+                               impl_->where());
+        write_string_attribute(impl_->file.get(), "config", config_json, impl_->where());
+        write_string_attribute(impl_->file.get(), "created", utc_now(), impl_->where());
+    } catch (...) {
+        impl_->file.reset();
+        std::remove(impl_->temporary.c_str());
+        throw;
+    }
+}
+
+ResultWriter::~ResultWriter() {
+    if (impl_ && !impl_->committed) {
+        QuietHdf5 quiet;
+        impl_->file.reset();
+        std::remove(impl_->temporary.c_str());
+    }
+}
+
+ResultWriter::ResultWriter(ResultWriter&&) noexcept = default;
+ResultWriter& ResultWriter::operator=(ResultWriter&& other) noexcept {
+    if (this != &other) {
+        ResultWriter discard(std::move(*this)); // removes our temporary if uncommitted
+        impl_ = std::move(other.impl_);
+    }
+    return *this;
+}
+
+ResultWriter::Impl& ResultWriter::live() const {
+    if (!impl_)
+        throw InputError("this ResultWriter was moved from");
+    impl_->require_open();
+    return *impl_;
+}
+
+void ResultWriter::add_coordinate(const std::string& name, const double* values, std::size_t count,
+                                  const std::string& units, const std::string& long_name) {
+    Impl& w = live();
+    w.require_new("coordinate", name);
+    check_description(name, units, long_name);
+    if (count == 0)
+        throw InputError("coordinate " + in_quotes(name) + " is empty");
+    w.add(name, {name}, {count}, Payload::of(values), units, long_name, true);
+}
+
+void ResultWriter::add_coordinate(const std::string& name, const std::int64_t* values,
+                                  std::size_t count, const std::string& units,
+                                  const std::string& long_name) {
+    Impl& w = live();
+    w.require_new("coordinate", name);
+    check_description(name, units, long_name);
+    if (count == 0)
+        throw InputError("coordinate " + in_quotes(name) + " is empty");
+    w.add(name, {name}, {count}, Payload::of(values), units, long_name, true);
+}
+
+void ResultWriter::add_coordinate(const std::string& name, const std::vector<std::string>& values,
+                                  const std::string& long_name) {
+    Impl& w = live();
+    w.require_new("coordinate", name);
+    check_description(name, "1", long_name);
+    check_strings(name, values);
+    if (values.empty())
+        throw InputError("coordinate " + in_quotes(name) + " is empty");
+    w.add(name, {name}, {values.size()}, Payload::of(values), "1", long_name, true);
+}
+
+namespace {
+void check_count(const std::string& name, const std::vector<std::string>& dims,
+                 const std::vector<hsize_t>& shape, std::size_t count) {
+    if (count != product(shape))
+        throw InputError("variable " + in_quotes(name) + ": data has " + std::to_string(count) +
+                         " values but dimensions " + shape_text(dims, shape) + " need " +
+                         std::to_string(product(shape)));
+}
+} // namespace
+
+void ResultWriter::add_variable(const std::string& name, const std::vector<std::string>& dims,
+                                const double* data, std::size_t count, const std::string& units,
+                                const std::string& long_name) {
+    Impl& w = live();
+    w.require_new("variable", name);
+    const std::vector<hsize_t> shape = w.shape_of(name, dims, false);
+    check_count(name, dims, shape, count);
+    check_description(name, units, long_name);
+    w.add(name, dims, shape, Payload::of(data), units, long_name, false);
+}
+
+void ResultWriter::add_variable(const std::string& name, const std::vector<std::string>& dims,
+                                const std::int64_t* data, std::size_t count,
+                                const std::string& units, const std::string& long_name) {
+    Impl& w = live();
+    w.require_new("variable", name);
+    const std::vector<hsize_t> shape = w.shape_of(name, dims, false);
+    check_count(name, dims, shape, count);
+    check_description(name, units, long_name);
+    w.add(name, dims, shape, Payload::of(data), units, long_name, false);
+}
+
+void ResultWriter::add_variable(const std::string& name, const std::vector<std::string>& dims,
+                                const std::vector<std::string>& data, const std::string& units,
+                                const std::string& long_name) {
+    Impl& w = live();
+    w.require_new("variable", name);
+    const std::vector<hsize_t> shape = w.shape_of(name, dims, false);
+    check_count(name, dims, shape, data.size());
+    check_description(name, units, long_name);
+    check_strings(name, data);
+    w.add(name, dims, shape, Payload::of(data), units, long_name, false);
+}
+
+void ResultWriter::add_case_variable(const std::string& name, ValueType type,
+                                     const std::vector<std::string>& trailing_dims,
+                                     const std::string& units, const std::string& long_name) {
+    Impl& w = live();
+    if (name == case_dim)
+        throw InputError("'case' is the appendable coordinate itself; it is created "
+                         "automatically");
+    w.require_new("variable", name);
+    std::vector<hsize_t> shape{0};
+    const std::vector<hsize_t> trailing = w.shape_of(name, trailing_dims, false);
+    shape.insert(shape.end(), trailing.begin(), trailing.end());
+    check_description(name, units, long_name);
+    w.ensure_case();
+    QuietHdf5 quiet;
+    Handle dataset = create_dataset(w.file.get(), name, type, shape, true, w.where());
+    std::vector<std::string> dim_names{case_dim};
+    dim_names.insert(dim_names.end(), trailing_dims.begin(), trailing_dims.end());
+    w.attach(dataset.get(), name, dim_names);
+    describe(dataset.get(), name, units, long_name);
+    w.datasets.insert(name);
+}
+
+void ResultWriter::set_attribute(const std::string& name, const std::string& value) {
+    set_attribute("/", name, value);
+}
+
+void ResultWriter::set_attribute(const std::string& dataset, const std::string& name,
+                                 const std::string& value) {
+    Impl& w = live();
+    check_object_name("attribute", name);
+    check_text("attribute " + in_quotes(name), value);
+    const bool root = dataset.empty() || dataset == "/";
+    static const std::set<std::string> reserved = {"CLASS", "NAME", "REFERENCE_LIST",
+                                                   "DIMENSION_LIST"};
+    if (reserved.count(name) != 0 || (root && name == completed_attr))
+        throw InputError("attribute name " + in_quotes(name) + " is reserved for the file layout");
+    if (!root && w.datasets.count(dataset) == 0)
+        throw InputError("cannot set attribute " + in_quotes(name) + ": no dataset " +
+                         in_quotes(dataset) + " in " + in_quotes(w.target));
+    QuietHdf5 quiet;
+    if (root) {
+        write_string_attribute(w.file.get(), name, value, w.where());
+    } else {
+        Handle object = checked(H5Dopen2(w.file.get(), dataset.c_str(), H5P_DEFAULT), H5Dclose,
+                                "open dataset " + in_quotes(dataset) + " in " + w.where());
+        write_string_attribute(object.get(), name, value, "dataset " + in_quotes(dataset));
+    }
+}
+
+void ResultWriter::commit() {
+    Impl& w = live();
+    QuietHdf5 quiet;
+    check(w.file.close(), "close " + w.where());
+    sync_path(w.temporary, false);
+    if (std::rename(w.temporary.c_str(), w.target.c_str()) != 0)
+        throw FileError("could not rename " + in_quotes(w.temporary) + " to " +
+                        in_quotes(w.target) + ": " + std::strerror(errno));
+    w.committed = true;
+    sync_path(directory_of(w.target), true);
+}
+
+void ResultWriter::discard() {
+    Impl& w = live();
+    QuietHdf5 quiet;
+    w.file.reset();
+    std::remove(w.temporary.c_str());
+    w.committed = true; // nothing left to do or undo
+}
+
+std::vector<std::size_t> ResultWriter::shape_of(const std::string& variable,
+                                                const std::vector<std::string>& dims) const {
+    const std::vector<hsize_t> shape = live().shape_of(variable, dims, false);
+    return {shape.begin(), shape.end()};
+}
+
+bool ResultWriter::is_open() const {
+    return impl_ && !impl_->committed && impl_->file.valid();
+}
+
+const std::string& ResultWriter::path() const {
+    if (!impl_)
+        throw InputError("this ResultWriter was moved from");
+    return impl_->target;
+}
+
+// ================================================================ RowBlock
+
+RowBlock::RowBlock(std::size_t rows) : rows_(rows) {}
+
+std::size_t RowBlock::Column::count() const {
+    switch (type) {
+    case ValueType::float64:
+        return f.size();
+    case ValueType::int64:
+        return i.size();
+    case ValueType::string:
+        return s.size();
+    }
+    return 0;
+}
+
+void RowBlock::set(const std::string& name, const double* data, std::size_t count) {
+    set(name, std::vector<double>(data, data + count));
+}
+
+void RowBlock::set(const std::string& name, const std::int64_t* data, std::size_t count) {
+    set(name, std::vector<std::int64_t>(data, data + count));
+}
+
+void RowBlock::set(const std::string& name, std::vector<double> data) {
+    Column column;
+    column.type = ValueType::float64;
+    column.f = std::move(data);
+    columns_[name] = std::move(column);
+}
+
+void RowBlock::set(const std::string& name, std::vector<std::int64_t> data) {
+    Column column;
+    column.type = ValueType::int64;
+    column.i = std::move(data);
+    columns_[name] = std::move(column);
+}
+
+void RowBlock::set(const std::string& name, std::vector<std::string> data) {
+    check_strings(name, data);
+    Column column;
+    column.type = ValueType::string;
+    column.s = std::move(data);
+    columns_[name] = std::move(column);
+}
+
+// ================================================================ ResultAppender
+
+struct ResultAppender::Impl {
+    struct Variable {
+        ValueType type;
+        std::vector<hsize_t> trailing;
+        std::size_t row_size;
+    };
+    std::string path;
+    Handle file;
+    int fd = -1;
+    std::size_t completed = 0;
+    std::size_t discarded = 0;
+    bool repaired = false; // the end of allocation was moved on reopening
+    std::map<std::string, Variable> variables;
+
+    void durable_flush() {
+        check(H5Fflush(file.get(), H5F_SCOPE_GLOBAL), "flush " + in_quotes(path));
+        if (::fsync(fd) != 0)
+            throw FileError("could not fsync " + in_quotes(path) + ": " + std::strerror(errno));
+    }
+
+    const Variable& variable(const std::string& name) const {
+        const auto found = variables.find(name);
+        if (found == variables.end())
+            throw InputError("no case variable " + in_quotes(name) + " in " + in_quotes(path));
+        return found->second;
+    }
+
+    void open(const std::string& file_path) {
+        path = file_path;
+        QuietHdf5 quiet;
+        file = open_file(path, H5F_ACC_RDWR);
+        repair_end_of_allocation();
+        const htri_t has = H5Aexists(file.get(), completed_attr);
+        check(has, "read " + in_quotes(path));
+        if (has == 0 || !link_exists(file.get(), case_dim))
+            throw InputError(in_quotes(path) + " is not an appendable result file (it lacks the "
+                                               "'completed' attribute or the 'case' coordinate)");
+        const std::int64_t done = read_int_attribute_of(file.get(), path, "/", completed_attr);
+        if (done < 0)
+            throw FileError(in_quotes(path) + " is damaged: 'completed' is " +
+                            std::to_string(done));
+        completed = static_cast<std::size_t>(done);
+        find_variables();
+        cut_back();
+        void* handle = nullptr;
+        Handle fapl =
+            checked(H5Fget_access_plist(file.get()), H5Pclose, "inspect " + in_quotes(path));
+        check(H5Fget_vfd_handle(file.get(), fapl.get(), &handle),
+              "get the file descriptor of " + in_quotes(path));
+        fd = *static_cast<int*>(handle);
+        if (discarded > 0 || repaired)
+            durable_flush();
+    }
+
+    // A kill during a flush can leave metadata on disk that lies past the end of allocation
+    // recorded in the superblock (e.g. a global heap of strings that grew at the end of the
+    // file, written before the superblock). HDF5 then refuses to read it ("len exceeds EOA")
+    // and would cut it off at close. A cleanly closed file ends exactly at its end of
+    // allocation, so a longer file is such a case: move the end of allocation to the end of
+    // the file, which keeps every byte that was written.
+    void repair_end_of_allocation() {
+        haddr_t eoa = 0;
+        check(H5Fget_eoa(file.get(), &eoa), "read the end of allocation of " + in_quotes(path));
+        std::error_code ec;
+        const std::uintmax_t eof = fs::file_size(path, ec);
+        if (!ec && eof > eoa) {
+            check(H5Fincrement_filesize(file.get(), 0),
+                  "extend the end of allocation of " + in_quotes(path));
+            repaired = true;
+        }
+    }
+
+    void find_variables() {
+        const std::string what = "list the datasets of " + in_quotes(path);
+        H5G_info_t info;
+        check(H5Gget_info(file.get(), &info), what);
+        for (hsize_t k = 0; k < info.nlinks; ++k) {
+            char name[1024];
+            const ssize_t n = H5Lget_name_by_idx(file.get(), "/", H5_INDEX_NAME, H5_ITER_INC, k,
+                                                 name, sizeof name, H5P_DEFAULT);
+            if (n < 0)
+                fail(what);
+            Handle object = checked(H5Oopen(file.get(), name, H5P_DEFAULT), H5Oclose, what);
+            if (H5Iget_type(object.get()) != H5I_DATASET)
+                continue;
+            Handle space = checked(H5Dget_space(object.get()), H5Sclose, what);
+            const int rank = H5Sget_simple_extent_ndims(space.get());
+            if (rank < 1)
+                continue;
+            std::vector<hsize_t> shape(static_cast<std::size_t>(rank)), maximum(shape.size());
+            check(H5Sget_simple_extent_dims(space.get(), shape.data(), maximum.data()), what);
+            if (maximum[0] != H5S_UNLIMITED)
+                continue;
+            Handle type = checked(H5Dget_type(object.get()), H5Tclose, what);
+            Variable v;
+            switch (H5Tget_class(type.get())) {
+            case H5T_FLOAT:
+                v.type = ValueType::float64;
+                break;
+            case H5T_INTEGER:
+                v.type = ValueType::int64;
+                break;
+            case H5T_STRING:
+                if (H5Tis_variable_str(type.get()) <= 0)
+                    throw InputError("case variable " + in_quotes(name) + " in " + in_quotes(path) +
+                                     " holds fixed-length strings; only variable-length "
+                                     "strings can be appended");
+                v.type = ValueType::string;
+                break;
+            default:
+                throw InputError("case variable " + in_quotes(name) + " in " + in_quotes(path) +
+                                 " has an unsupported element type");
+            }
+            v.trailing.assign(shape.begin() + 1, shape.end());
+            v.row_size = product(v.trailing);
+            variables[name] = v;
+            if (shape[0] < completed)
+                throw FileError(in_quotes(path) + " is damaged: case variable " + in_quotes(name) +
+                                " has " + std::to_string(shape[0]) + " rows but 'completed' is " +
+                                std::to_string(completed));
+            discarded = std::max<std::size_t>(discarded, shape[0] - completed);
+        }
+        if (variables.count(case_dim) == 0 || variables[case_dim].type != ValueType::int64)
+            throw InputError(in_quotes(path) + " is not an appendable result file ('case' is not "
+                                               "an appendable int64 coordinate)");
+    }
+
+    // Recovery rule: rows past `completed` belong to an interrupted block; drop them.
+    void cut_back() {
+        if (discarded == 0)
+            return;
+        for (const auto& [name, v] : variables) {
+            const std::string what =
+                "cut back dataset " + in_quotes(name) + " in " + in_quotes(path);
+            Handle dataset =
+                checked(H5Dopen2(file.get(), name.c_str(), H5P_DEFAULT), H5Dclose, what);
+            std::vector<hsize_t> extent{static_cast<hsize_t>(completed)};
+            extent.insert(extent.end(), v.trailing.begin(), v.trailing.end());
+            check(H5Dset_extent(dataset.get(), extent.data()), what);
+        }
+    }
+};
+
+ResultAppender::ResultAppender(ResultWriter&& schema) : impl_(std::make_unique<Impl>()) {
+    ResultWriter writer(std::move(schema));
+    ResultWriter::Impl& w = writer.live();
+    if (!w.has_case)
+        throw InputError("the result file " + in_quotes(w.target) +
+                         " declares no case variable; nothing could be appended");
+    writer.commit();
+    impl_->open(writer.path());
+}
+
+ResultAppender::ResultAppender(const std::string& path) : impl_(std::make_unique<Impl>()) {
+    impl_->open(path);
+}
+
+ResultAppender::~ResultAppender() {
+    if (impl_) {
+        QuietHdf5 quiet;
+        impl_->file.reset();
+    }
+}
+
+ResultAppender::ResultAppender(ResultAppender&&) noexcept = default;
+ResultAppender& ResultAppender::operator=(ResultAppender&&) noexcept = default;
+
+ResultAppender::Impl& ResultAppender::any() const {
+    if (!impl_)
+        throw InputError("this ResultAppender was moved from");
+    return *impl_;
+}
+
+ResultAppender::Impl& ResultAppender::live() const {
+    Impl& a = any();
+    if (!a.file.valid())
+        throw InputError("the result file " + in_quotes(a.path) + " was closed");
+    return a;
+}
+
+void ResultAppender::append(const RowBlock& block) {
+    Impl& a = live();
+    const std::size_t rows = block.rows();
+    // Check the whole block before anything is written.
+    for (const auto& [name, column] : block.columns_) {
+        const auto found = a.variables.find(name);
+        if (found == a.variables.end())
+            throw InputError("row block: " + in_quotes(name) + " is not a case variable of " +
+                             in_quotes(a.path));
+        const Impl::Variable& v = found->second;
+        if (column.type != v.type)
+            throw InputError("row block: " + in_quotes(name) + " holds " + type_name(column.type) +
+                             " values, the file stores " + type_name(v.type));
+        if (column.count() != rows * v.row_size)
+            throw InputError("row block: " + in_quotes(name) + " has " +
+                             std::to_string(column.count()) + " values, " + std::to_string(rows) +
+                             " rows of " + std::to_string(v.row_size) + " need " +
+                             std::to_string(rows * v.row_size));
+    }
+    for (const auto& entry : a.variables)
+        if (entry.first != case_dim && block.columns_.count(entry.first) == 0)
+            throw InputError("row block lacks case variable " + in_quotes(entry.first));
+    if (rows == 0)
+        return;
+
+    std::vector<std::int64_t> numbers;
+    if (block.columns_.count(case_dim) == 0) {
+        numbers.resize(rows);
+        for (std::size_t i = 0; i < rows; ++i)
+            numbers[i] = static_cast<std::int64_t>(a.completed + i);
+    }
+    QuietHdf5 quiet;
+    for (const auto& [name, v] : a.variables) {
+        const auto column = block.columns_.find(name);
+        Payload payload = Payload::of(numbers.data());
+        if (column != block.columns_.end()) {
+            const RowBlock::Column& c = column->second;
+            payload = c.type == ValueType::float64 ? Payload::of(c.f.data())
+                      : c.type == ValueType::int64 ? Payload::of(c.i.data())
+                                                   : Payload::of(c.s);
+        }
+        write_rows(a.file.get(), name, v.trailing, a.completed, rows, payload, in_quotes(a.path));
+    }
+    a.durable_flush(); // the rows are on disk ...
+    write_int_attribute(a.file.get(), completed_attr, static_cast<std::int64_t>(a.completed + rows),
+                        in_quotes(a.path));
+    a.durable_flush(); // ... before the counter that vouches for them
+    a.completed += rows;
+}
+
+std::size_t ResultAppender::completed() const {
+    return any().completed;
+}
+
+std::size_t ResultAppender::discarded_rows() const {
+    return any().discarded;
+}
+
+bool ResultAppender::repaired() const {
+    return any().repaired;
+}
+
+std::vector<std::size_t> ResultAppender::row_shape(const std::string& name) const {
+    const auto& t = any().variable(name).trailing;
+    return {t.begin(), t.end()};
+}
+
+ValueType ResultAppender::type_of(const std::string& name) const {
+    return any().variable(name).type;
+}
+
+std::vector<std::string> ResultAppender::case_variables() const {
+    std::vector<std::string> names;
+    for (const auto& entry : any().variables)
+        names.push_back(entry.first);
+    return names;
+}
+
+void ResultAppender::close() {
+    if (!impl_ || !impl_->file.valid())
+        return;
+    QuietHdf5 quiet;
+    check(impl_->file.close(), "close " + in_quotes(impl_->path));
+    impl_->fd = -1;
+}
+
+const std::string& ResultAppender::path() const {
+    return any().path;
+}
+
+// ================================================================ readers
+
+std::vector<double> read_doubles(const std::string& path, const std::string& dataset,
+                                 std::vector<std::size_t>* shape) {
+    return read_numbers<double>(path, dataset, H5T_FLOAT, H5T_NATIVE_DOUBLE, shape);
+}
+
+std::vector<std::int64_t> read_int64s(const std::string& path, const std::string& dataset,
+                                      std::vector<std::size_t>* shape) {
+    return read_numbers<std::int64_t>(path, dataset, H5T_INTEGER, H5T_NATIVE_INT64, shape);
+}
+
+std::vector<std::string> read_strings(const std::string& path, const std::string& dataset,
+                                      std::vector<std::size_t>* shape) {
+    QuietHdf5 quiet;
+    OpenRead r = open_dataset(path, dataset);
+    const std::string what = "read dataset " + in_quotes(dataset) + " of " + in_quotes(path);
+    Handle type = checked(H5Dget_type(r.dataset.get()), H5Tclose, what);
+    if (H5Tget_class(type.get()) != H5T_STRING)
+        throw InputError("dataset " + in_quotes(dataset) + " in " + in_quotes(path) +
+                         " does not hold strings");
+    const hid_t d = r.dataset.get();
+    std::vector<std::string> values = read_text(
+        type.get(), product(r.shape),
+        [d](hid_t memory, void* buffer) {
+            return H5Dread(d, memory, H5S_ALL, H5S_ALL, H5P_DEFAULT, buffer);
+        },
+        what);
+    store_shape(r.shape, shape);
+    return values;
+}
+
+std::string read_attribute(const std::string& path, const std::string& object,
+                           const std::string& name) {
+    QuietHdf5 quiet;
+    Handle file = open_file(path, H5F_ACC_RDONLY);
+    Handle attribute = open_attribute(file.get(), path, object, name);
+    const std::string what = "read attribute " + in_quotes(name) + " of " + in_quotes(path);
+    Handle type = checked(H5Aget_type(attribute.get()), H5Tclose, what);
+    if (H5Tget_class(type.get()) != H5T_STRING)
+        throw InputError("attribute " + in_quotes(name) + " in " + in_quotes(path) +
+                         " is not a string");
+    Handle space = checked(H5Aget_space(attribute.get()), H5Sclose, what);
+    if (H5Sget_simple_extent_npoints(space.get()) != 1)
+        throw InputError("attribute " + in_quotes(name) + " in " + in_quotes(path) +
+                         " is not a single string");
+    const hid_t a = attribute.get();
+    return read_text(
+        type.get(), 1, [a](hid_t memory, void* buffer) { return H5Aread(a, memory, buffer); },
+        what)[0];
+}
+
+std::int64_t read_int_attribute(const std::string& path, const std::string& object,
+                                const std::string& name) {
+    QuietHdf5 quiet;
+    Handle file = open_file(path, H5F_ACC_RDONLY);
+    return read_int_attribute_of(file.get(), path, object, name);
+}
+
+std::vector<std::string> read_dimensions(const std::string& path, const std::string& dataset) {
+    QuietHdf5 quiet;
+    OpenRead r = open_dataset(path, dataset);
+    const std::string what =
+        "read the dimensions of " + in_quotes(dataset) + " in " + in_quotes(path);
+    std::vector<std::string> names(r.shape.size());
+    const htri_t is_scale = H5DSis_scale(r.dataset.get());
+    check(is_scale, what);
+    if (is_scale > 0) { // a coordinate is its own dimension
+        std::fill(names.begin(), names.end(), dataset);
+        return names;
+    }
+    for (std::size_t i = 0; i < names.size(); ++i) {
+        const int count = H5DSget_num_scales(r.dataset.get(), static_cast<unsigned>(i));
+        if (count < 0)
+            fail(what);
+        if (count == 0)
+            continue;
+        if (H5DSiterate_scales(r.dataset.get(), static_cast<unsigned>(i), nullptr, keep_scale_name,
+                               &names[i]) < 0)
+            fail(what);
+    }
+    return names;
+}
+
+} // namespace exosieve
