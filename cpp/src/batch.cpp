@@ -630,12 +630,14 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
     name.assign(cases, std::string());
     error.assign(cases, std::string());
     steps.assign(cases, 0);
-    for (auto* v : {&planet_mass, &planet_radius, &exobase_radius, &escape_speed, &t_start, &t_end})
+    for (auto* v : {&planet_mass, &planet_radius, &exobase_radius, &escape_speed, &t_start, &t_end,
+                    &temperature_start})
         v->assign(cases, nan);
     exobase_temperature.assign(cases * time_count, nan);
     retained.assign(cts, nan);
     jeans_parameter.assign(cts, nan);
-    for (auto* v : {&final_retained, &depletion_time, &efolding_time, &jeans_start, &jeans_end})
+    for (auto* v : {&mole_fraction, &final_retained, &depletion_time, &efolding_time, &jeans_start,
+                    &jeans_end})
         v->assign(cs, nan);
     regime_start.assign(cs, -1);
     sample_retained.assign(css, nan);
@@ -678,6 +680,7 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
     out.escape_speed[c] = std::sqrt(2.0 * constants::G * p.mass() / r_exo);
     out.t_start[c] = config.t_start;
     out.t_end[c] = config.t_end;
+    out.temperature_start[c] = r.exobase_temperature[0];
     // Rows of r at the batch's output times (r holds t_start, the inner times, t_end).
     std::size_t k = 0;
     for (std::size_t j = 0; j < T; ++j) {
@@ -783,6 +786,10 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
                 continue;
             }
             s.specs[j] = case_from_table(table, row);
+            for (std::size_t i = 0; i < S; ++i) {
+                const auto x = s.specs[j].values.find("x_" + o.species[i]);
+                s.out.mole_fraction[j * S + i] = x == s.specs[j].values.end() ? 0.0 : x->second;
+            }
             for (const Species& sp : s.specs[j].species)
                 s.columns[j].push_back(static_cast<std::size_t>(
                     std::find(o.species.begin(), o.species.end(), sp.name) - o.species.begin()));

@@ -317,6 +317,8 @@ TEST_CASE("batch: exponential loss as in the analytic solution, outputs per case
               doctest::Approx(1.0).epsilon(1e-13)); // exp(ln N) / N
         CHECK(c.retained[(k * 4 + 3) * 3 + 1] == c.final_retained[k * 3 + 1]);
         CHECK(c.exobase_temperature[k * 4 + 2] == T);
+        CHECK(c.temperature_start[k] == T);
+        CHECK(c.mole_fraction[k * 3 + 1] == 0.25);
     }
 }
 
