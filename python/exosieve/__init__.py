@@ -5,6 +5,7 @@ Astropy quantities are accepted where astropy is installed.
 """
 
 from . import constants, results
+from .batch import Comparison, Interrupted, compare, open_comparison
 from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
 from .diffusion import (
     DiffusionPair,
@@ -48,6 +49,10 @@ __all__ = [
     "NumericalError",
     "FileError",
     "results",
+    "compare",
+    "Comparison",
+    "Interrupted",
+    "open_comparison",
     "Species",
     "species",
     "species_names",
