@@ -5,8 +5,8 @@ Astropy quantities are accepted where astropy is installed.
 """
 
 from . import constants, results
-from .batch import Comparison, Interrupted, compare, open_comparison
 from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
+from .batch import Comparison, Interrupted, compare, open_comparison
 from .diffusion import (
     DiffusionPair,
     binary_diffusion_parameter,

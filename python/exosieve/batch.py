@@ -35,7 +35,7 @@ Examples
 >>> table = result.summary.set_index(["case", "species"])
 >>> bool(table.loc[("warm", "He"), "retained"]), bool(table.loc[("hot", "He"), "retained"])
 (True, False)
->>> float(table.loc[("hot", "N2"), "final_retained_fraction"])
+>>> round(float(table.loc[("hot", "N2"), "final_retained_fraction"]), 12)
 1.0
 """
 
@@ -395,8 +395,7 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
     Only the rows recorded as complete are read (a sweep still running, or interrupted, has
     fewer rows than its table). Arrays are read when first used.
     """
-    from .results import read_attribute, read_doubles, read_int64s, read_int_attribute
-    from .results import read_strings
+    from .results import read_attribute, read_doubles, read_int64s, read_int_attribute, read_strings
 
     path = Path(path)
     try:
@@ -434,7 +433,9 @@ def _create_file(
 
     schema = ResultWriter(path, config)
     schema.add_coordinate("species", list(species), long_name="species")
-    schema.add_coordinate("time", np.asarray(times, dtype=float), units="s", long_name="stellar age")
+    schema.add_coordinate(
+        "time", np.asarray(times, dtype=float), units="s", long_name="stellar age"
+    )
     variables = list(_VARIABLES)
     if samples:
         schema.add_coordinate(
@@ -507,7 +508,11 @@ class _Progress:
 def _clock(seconds: float) -> str:
     seconds = int(round(seconds))
     hours, rest = divmod(seconds, 3600)
-    return f"{hours}:{rest // 60:02d}:{rest % 60:02d}" if hours else f"{rest // 60:02d}:{rest % 60:02d}"
+    return (
+        f"{hours}:{rest // 60:02d}:{rest % 60:02d}"
+        if hours
+        else f"{rest // 60:02d}:{rest % 60:02d}"
+    )
 
 
 # --- running ----------------------------------------------------------------------------------
@@ -565,7 +570,9 @@ class _MemorySink:
     def close(self) -> None:
         pass
 
-    def result(self, species: list[str], times: Any, samples: int, config: dict[str, Any]) -> Comparison:
+    def result(
+        self, species: list[str], times: Any, samples: int, config: dict[str, Any]
+    ) -> Comparison:
         names = ["case"] + [v[0] for v in _VARIABLES + (_SAMPLE_VARIABLES if samples else [])]
         data: dict[str, Any] = {}
         for name in names:
@@ -590,7 +597,12 @@ def _empty(name: str, s: int, t: int, n: int) -> NDArray[Any]:
 
 class _FileSink:
     def __init__(
-        self, path: Path, config: dict[str, Any], species: list[str], times: Any, samples: int,
+        self,
+        path: Path,
+        config: dict[str, Any],
+        species: list[str],
+        times: Any,
+        samples: int,
         overwrite: bool,
     ) -> None:
         from .results import ResultAppender, read_attribute
@@ -627,7 +639,9 @@ class _FileSink:
     def close(self) -> None:
         self.appender.close()
 
-    def result(self, species: list[str], times: Any, samples: int, config: dict[str, Any]) -> Comparison:
+    def result(
+        self, species: list[str], times: Any, samples: int, config: dict[str, Any]
+    ) -> Comparison:
         return open_comparison(self.path)
 
 
@@ -799,7 +813,9 @@ def compare(
                 def on_progress(done: int, total: int) -> None:
                     bar.update(begin + done // runs_per_case)
 
-                _core.run_batch(core_table, begin, len(table), core_options, sink.append, on_progress)
+                _core.run_batch(
+                    core_table, begin, len(table), core_options, sink.append, on_progress
+                )
             else:
                 _run_distributed(client, table, begin, options, chunk, threads, sink, bar)
         bar.update(sink.completed)
@@ -828,7 +844,9 @@ def _raise_for_rows(errors: list[str], table: CaseTable, bad_rows: str) -> None:
         return
     listed = "".join(f"\n  {e}" for e in bad[:10])
     more = "\n  ..." if len(bad) > 10 else ""
-    raise ValueError(f"case table: {len(bad)} invalid row{'s' if len(bad) > 1 else ''}{listed}{more}")
+    raise ValueError(
+        f"case table: {len(bad)} invalid row{'s' if len(bad) > 1 else ''}{listed}{more}"
+    )
 
 
 # --- Dask -------------------------------------------------------------------------------------

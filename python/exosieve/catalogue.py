@@ -249,7 +249,9 @@ class _Reader:
         table = self.table
         error = ""
         if len(values) != len(self.parsed):
-            error = f"{self.source} {label}: {len(values)} fields, the header has {len(self.parsed)}"
+            error = (
+                f"{self.source} {label}: {len(values)} fields, the header has {len(self.parsed)}"
+            )
             values = (list(values) + [""] * len(self.parsed))[: len(self.parsed)]
         for (name, unit), value in zip(self.parsed, values, strict=True):
             if name in table.text_columns:
@@ -338,8 +340,9 @@ def case_table_from_frame(
     Examples
     --------
     >>> import pandas as pd
+    >>> from exosieve.constants import M_EARTH
     >>> frame = pd.DataFrame({"case": ["A"], "planet_mass [M_earth]": [2.0], "x_N2": [1.0]})
-    >>> case_table_from_frame(frame).column("planet_mass")[0] / 5.9722e24
+    >>> case_table_from_frame(frame).column("planet_mass")[0] / M_EARTH
     2.0
     """
     _check_errors(errors)

@@ -21,7 +21,9 @@ def _floats(text: str) -> list[float]:
     try:
         return [float(part) for part in text.split(",") if part.strip()]
     except ValueError:
-        raise argparse.ArgumentTypeError(f"expected numbers separated by commas, got '{text}'")
+        raise argparse.ArgumentTypeError(
+            f"expected numbers separated by commas, got '{text}'"
+        ) from None
 
 
 def _names(text: str) -> list[str]:
@@ -123,16 +125,22 @@ def _summary(args: argparse.Namespace) -> int:
             "samples_ok": "samples",
         }
     )
-    shown = shown.rename(columns=lambda n: n.replace("retained_fraction_p", "p") + " [1]"
-                         if n.startswith("retained_fraction_p") else n)
+    shown = shown.rename(
+        columns=lambda n: (
+            n.replace("retained_fraction_p", "p") + " [1]"
+            if n.startswith("retained_fraction_p")
+            else n
+        )
+    )
     print(
         f"{result.path}: {len(result)} of {result.total_cases} cases; kept = more than "
         f"{frame.attrs['retain']:g} of the inventory left at the end"
     )
     import pandas as pd
 
-    with pd.option_context("display.max_rows", None, "display.width", 250,
-                           "display.max_columns", None):
+    with pd.option_context(
+        "display.max_rows", None, "display.width", 250, "display.max_columns", None
+    ):
         print(shown.to_string(index=False, float_format=lambda x: f"{x:.3g}"))
     errors = result.errors
     for _, row in errors.iterrows():
@@ -163,16 +171,21 @@ def _chart(args: argparse.Namespace) -> int:
 def _columns(args: argparse.Namespace) -> int:
     from .catalogue import UNITS, case_columns, case_table_template_path
 
-    print("Case-table columns (header 'quantity [unit]'; SI unit given, any unit measuring it "
-          "is accepted):")
+    print(
+        "Case-table columns (header 'quantity [unit]'; SI unit given, any unit measuring it "
+        "is accepted):"
+    )
     for name, unit, meaning, required, uncertain in case_columns():
-        flags = ("required" if required else "optional") + (", may have _sigma/_lnsigma"
-                                                             if uncertain else "")
+        flags = ("required" if required else "optional") + (
+            ", may have _sigma/_lnsigma" if uncertain else ""
+        )
         print(f"  {name:28s} [{unit}]  {meaning} ({flags})")
     print("  x_<species>                  [1]  mole fraction at the exobase (0: absent)")
     print("  inventory_<species>          [particles]  initial inventory of that species")
-    print("  case, star, density_scaling, comment: text (case first; density_scaling is "
-          "'inventory' or 'fixed')")
+    print(
+        "  case, star, density_scaling, comment: text (case first; density_scaling is "
+        "'inventory' or 'fixed')"
+    )
     by_unit: dict[str, list[str]] = {}
     for word, (_, si) in UNITS.items():
         by_unit.setdefault(si, []).append(word)
@@ -200,45 +213,106 @@ def build_parser() -> argparse.ArgumentParser:
         "them.",
     )
     sweep.add_argument("table", help="case table (CSV file)")
-    sweep.add_argument("-o", "--output", required=True,
-                       help="HDF5 result file to write, or to resume if it holds this sweep")
-    sweep.add_argument("--samples", type=int, default=0, metavar="N",
-                       help="Monte Carlo samples per case [1] (default: %(default)s)")
-    sweep.add_argument("--seed", type=int, default=0,
-                       help="seed of the Monte Carlo draws (default: %(default)s)")
-    sweep.add_argument("--start", type=float, default=10.0, metavar="MYR",
-                       help="stellar age at the start [Myr] for rows without age_start "
-                       "(default: %(default)s)")
-    sweep.add_argument("--end", type=float, default=4.5, metavar="GYR",
-                       help="stellar age at the end [Gyr] for rows without age_end or "
-                       "star_age (default: %(default)s)")
-    sweep.add_argument("--times", type=int, default=16, metavar="N",
-                       help="number of output ages [1], log-spaced from the earliest start to "
-                       "the latest end (default: %(default)s)")
-    sweep.add_argument("--retain", type=float, default=0.5, metavar="FRACTION",
-                       help="summary threshold: kept = more than this fraction of the inventory "
-                       "left at the end [1] (default: %(default)s)")
-    sweep.add_argument("--depletion", type=float, default=1e-3, metavar="FRACTION",
-                       help="depleted = less than this fraction of the inventory left [1] "
-                       "(default: %(default)s)")
-    sweep.add_argument("--rtol", type=float, default=1e-6,
-                       help="relative tolerance of each run [1] (default: %(default)s)")
-    sweep.add_argument("--max-steps", type=int, default=100_000, metavar="N",
-                       help="integration step budget of each run [1] (default: %(default)s)")
-    sweep.add_argument("--bad-rows", choices=("raise", "report"), default="raise",
-                       help="'raise': stop before any run at a malformed row, naming row and "
-                       "column; 'report': record its error and run the others "
-                       "(default: %(default)s)")
-    sweep.add_argument("--threads", type=int, default=None, metavar="N",
-                       help="threads [1] (default: all cores; with --scheduler: per task, 1)")
-    sweep.add_argument("--chunk", type=int, default=None, metavar="CASES",
-                       help="cases per chunk written at once (and per task on a cluster) [1] "
-                       "(default: 8 to 512, fewer with more samples)")
-    sweep.add_argument("--scheduler", default=None, metavar="ADDRESS",
-                       help="address of a dask.distributed scheduler, e.g. tcp://host:8786: "
-                       "run the chunks on its workers (needs exosieve[distributed])")
-    sweep.add_argument("--overwrite", action="store_true",
-                       help="replace OUTPUT instead of resuming it")
+    sweep.add_argument(
+        "-o",
+        "--output",
+        required=True,
+        help="HDF5 result file to write, or to resume if it holds this sweep",
+    )
+    sweep.add_argument(
+        "--samples",
+        type=int,
+        default=0,
+        metavar="N",
+        help="Monte Carlo samples per case [1] (default: %(default)s)",
+    )
+    sweep.add_argument(
+        "--seed", type=int, default=0, help="seed of the Monte Carlo draws (default: %(default)s)"
+    )
+    sweep.add_argument(
+        "--start",
+        type=float,
+        default=10.0,
+        metavar="MYR",
+        help="stellar age at the start [Myr] for rows without age_start (default: %(default)s)",
+    )
+    sweep.add_argument(
+        "--end",
+        type=float,
+        default=4.5,
+        metavar="GYR",
+        help="stellar age at the end [Gyr] for rows without age_end or "
+        "star_age (default: %(default)s)",
+    )
+    sweep.add_argument(
+        "--times",
+        type=int,
+        default=16,
+        metavar="N",
+        help="number of output ages [1], log-spaced from the earliest start to "
+        "the latest end (default: %(default)s)",
+    )
+    sweep.add_argument(
+        "--retain",
+        type=float,
+        default=0.5,
+        metavar="FRACTION",
+        help="summary threshold: kept = more than this fraction of the inventory "
+        "left at the end [1] (default: %(default)s)",
+    )
+    sweep.add_argument(
+        "--depletion",
+        type=float,
+        default=1e-3,
+        metavar="FRACTION",
+        help="depleted = less than this fraction of the inventory left [1] (default: %(default)s)",
+    )
+    sweep.add_argument(
+        "--rtol",
+        type=float,
+        default=1e-6,
+        help="relative tolerance of each run [1] (default: %(default)s)",
+    )
+    sweep.add_argument(
+        "--max-steps",
+        type=int,
+        default=100_000,
+        metavar="N",
+        help="integration step budget of each run [1] (default: %(default)s)",
+    )
+    sweep.add_argument(
+        "--bad-rows",
+        choices=("raise", "report"),
+        default="raise",
+        help="'raise': stop before any run at a malformed row, naming row and "
+        "column; 'report': record its error and run the others "
+        "(default: %(default)s)",
+    )
+    sweep.add_argument(
+        "--threads",
+        type=int,
+        default=None,
+        metavar="N",
+        help="threads [1] (default: all cores; with --scheduler: per task, 1)",
+    )
+    sweep.add_argument(
+        "--chunk",
+        type=int,
+        default=None,
+        metavar="CASES",
+        help="cases per chunk written at once (and per task on a cluster) [1] "
+        "(default: 8 to 512, fewer with more samples)",
+    )
+    sweep.add_argument(
+        "--scheduler",
+        default=None,
+        metavar="ADDRESS",
+        help="address of a dask.distributed scheduler, e.g. tcp://host:8786: "
+        "run the chunks on its workers (needs exosieve[distributed])",
+    )
+    sweep.add_argument(
+        "--overwrite", action="store_true", help="replace OUTPUT instead of resuming it"
+    )
     sweep.add_argument("--quiet", "-q", action="store_true", help="no progress bar")
     sweep.set_defaults(run=_sweep)
 
@@ -252,15 +326,29 @@ def build_parser() -> argparse.ArgumentParser:
         "fraction.",
     )
     summary.add_argument("result", help="HDF5 file written by 'exosieve sweep'")
-    summary.add_argument("--retain", type=float, default=None, metavar="FRACTION",
-                         help="kept = more than this fraction left [1] (default: the sweep's)")
-    summary.add_argument("--percentiles", type=_floats, default=None, metavar="Q,Q,...",
-                         help="percentiles of the sampled left fraction [%%] (default: the "
-                         "sweep's, 5,50,95)")
-    summary.add_argument("--species", type=_names, default=None, metavar="A,B,...",
-                         help="only these species")
-    summary.add_argument("--csv", default=None, metavar="FILE",
-                         help="also write the summary in SI units to this CSV file")
+    summary.add_argument(
+        "--retain",
+        type=float,
+        default=None,
+        metavar="FRACTION",
+        help="kept = more than this fraction left [1] (default: the sweep's)",
+    )
+    summary.add_argument(
+        "--percentiles",
+        type=_floats,
+        default=None,
+        metavar="Q,Q,...",
+        help="percentiles of the sampled left fraction [%%] (default: the sweep's, 5,50,95)",
+    )
+    summary.add_argument(
+        "--species", type=_names, default=None, metavar="A,B,...", help="only these species"
+    )
+    summary.add_argument(
+        "--csv",
+        default=None,
+        metavar="FILE",
+        help="also write the summary in SI units to this CSV file",
+    )
     summary.set_defaults(run=_summary)
 
     chart = commands.add_parser(
@@ -272,14 +360,29 @@ def build_parser() -> argparse.ArgumentParser:
         "(coloured by probability with samples).",
     )
     chart.add_argument("result", help="HDF5 file written by 'exosieve sweep'")
-    chart.add_argument("-o", "--output", default="exosieve-retention.png",
-                       help="PNG file to write (default: %(default)s)")
-    chart.add_argument("--species", type=_names, default=None, metavar="A,B,...",
-                       help="only these species (default: every species present)")
-    chart.add_argument("--retain", type=float, default=None, metavar="FRACTION",
-                       help="kept = more than this fraction left [1] (default: the sweep's)")
-    chart.add_argument("--dpi", type=int, default=120,
-                       help="resolution [dots per inch] (default: %(default)s)")
+    chart.add_argument(
+        "-o",
+        "--output",
+        default="exosieve-retention.png",
+        help="PNG file to write (default: %(default)s)",
+    )
+    chart.add_argument(
+        "--species",
+        type=_names,
+        default=None,
+        metavar="A,B,...",
+        help="only these species (default: every species present)",
+    )
+    chart.add_argument(
+        "--retain",
+        type=float,
+        default=None,
+        metavar="FRACTION",
+        help="kept = more than this fraction left [1] (default: the sweep's)",
+    )
+    chart.add_argument(
+        "--dpi", type=int, default=120, help="resolution [dots per inch] (default: %(default)s)"
+    )
     chart.set_defaults(run=_chart)
 
     columns = commands.add_parser(

@@ -153,7 +153,9 @@ def retention_chart(
     retain = float(summary.attrs["retain"])
     present = comparison["mole_fraction"] > 0.0
     names = list(comparison.species)
-    chosen = [s for s in names if present[:, names.index(s)].any()] if species is None else list(species)
+    chosen = (
+        [s for s in names if present[:, names.index(s)].any()] if species is None else list(species)
+    )
     for name in chosen:
         if name not in names:
             raise ValueError(f"species '{name}' is not in the comparison (have {names})")
@@ -199,15 +201,36 @@ def retention_chart(
             colour = np.array([[0.1, 0.5, 0.2, 1.0] if k else [0.75, 0.15, 0.1, 1.0] for k in kept])
         x, y = speed[here], temperature[here]
         if kept.any():
-            ax.scatter(x[kept], y[kept], c=colour[kept], marker="o", s=36, edgecolors="k",
-                       linewidths=0.5, zorder=3)
+            ax.scatter(
+                x[kept],
+                y[kept],
+                c=colour[kept],
+                marker="o",
+                s=36,
+                edgecolors="k",
+                linewidths=0.5,
+                zorder=3,
+            )
         if (~kept).any():
-            ax.scatter(x[~kept], y[~kept], c=colour[~kept], marker="X", s=44, edgecolors="k",
-                       linewidths=0.4, zorder=3)
+            ax.scatter(
+                x[~kept],
+                y[~kept],
+                c=colour[~kept],
+                marker="X",
+                s=44,
+                edgecolors="k",
+                linewidths=0.4,
+                zorder=3,
+            )
         if here.sum() <= 20:
             for label, xi, yi in zip(np.asarray(comparison["case_name"])[here], x, y, strict=True):
-                ax.annotate(str(label), (xi, yi), xytext=(3, 3), textcoords="offset points",
-                            fontsize="x-small")
+                ax.annotate(
+                    str(label),
+                    (xi, yi),
+                    xytext=(3, 3),
+                    textcoords="offset points",
+                    fontsize="x-small",
+                )
         ax.set_xscale("log")
         ax.set_yscale("log")
         for axis in (ax.xaxis, ax.yaxis):
@@ -219,15 +242,22 @@ def retention_chart(
         ax.set_ylabel("exobase temperature at the start [K]")
         title = name + (f" ({failed} failed)" if failed else "")
         ax.set_title(title)
-    for ax in axes[len(chosen):]:
+    for ax in axes[len(chosen) :]:
         ax.set_visible(False)
     handles = [
         Line2D([], [], color="0.35", ls=style, label=f"$\\lambda$ = {value:g}")
         for value, style in levels
     ]
     handles += [
-        Line2D([], [], marker="o", ls="", color="0.5", markeredgecolor="k",
-               label=f"keeps > {retain:g} of its inventory"),
+        Line2D(
+            [],
+            [],
+            marker="o",
+            ls="",
+            color="0.5",
+            markeredgecolor="k",
+            label=f"keeps > {retain:g} of its inventory",
+        ),
         Line2D([], [], marker="X", ls="", color="0.5", markeredgecolor="k", label="loses more"),
     ]
     fig.legend(handles=handles, loc="outside lower center", ncols=5, fontsize="small")
@@ -265,4 +295,8 @@ def _span_text(comparison: Any) -> str:
     if end.size == 0:
         return "the run"
     lo, hi = float(end.min()) / GYR, float(end.max()) / GYR
-    return f"evolution to {hi:.3g} Gyr" if np.isclose(lo, hi) else f"evolution to {lo:.3g}-{hi:.3g} Gyr"
+    return (
+        f"evolution to {hi:.3g} Gyr"
+        if np.isclose(lo, hi)
+        else f"evolution to {lo:.3g}-{hi:.3g} Gyr"
+    )
