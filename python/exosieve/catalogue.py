@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import csv
 import hashlib
-import math
 import re
 from dataclasses import dataclass, field
 from importlib import resources
@@ -20,6 +19,7 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
+from numpy.typing import NDArray
 
 from . import _core
 from . import constants as c
@@ -99,7 +99,7 @@ class CaseTable:
     ----------
     names : list of str
         Case labels (the ``case`` column).
-    columns : dict of str to list of float
+    columns : dict of str to ndarray
         SI values per quantity (``planet_mass`` [kg], ``exobase_altitude`` [m], ...); NaN where
         a row gives no value.
     text_columns : dict of str to list of str
@@ -116,7 +116,7 @@ class CaseTable:
     """
 
     names: list[str]
-    columns: dict[str, list[float]] = field(default_factory=dict)
+    columns: dict[str, NDArray[np.float64]] = field(default_factory=dict)
     text_columns: dict[str, list[str]] = field(default_factory=dict)
     species: list[str] = field(default_factory=list)
     source: str = ""
@@ -126,7 +126,7 @@ class CaseTable:
     def __len__(self) -> int:
         return len(self.names)
 
-    def column(self, name: str) -> list[float]:
+    def column(self, name: str) -> NDArray[np.float64]:
         """SI values of quantity ``name``; ValueError naming the table when it is missing."""
         if name not in self.columns:
             raise ValueError(f"{self.source}: no column '{name}' (have {sorted(self.columns)})")
@@ -162,7 +162,7 @@ class CaseTable:
         table.row_errors = self.row_errors[rows] if any(self.row_errors) else []
         table.first_key = first_key
         for name, values in self.columns.items():
-            table.add_column(name, np.asarray(values, dtype=float)[rows])
+            table.add_column(name, np.ascontiguousarray(values[rows], dtype=float))
         for name, values in self.text_columns.items():
             if name != "case":
                 table.add_text(name, values[rows])
@@ -245,41 +245,71 @@ class _Reader:
                 f"{name} (which is in {expected})"
             )
 
-    def add_row(self, label: str, values: list[Any]) -> None:
+    def read(self, labels: list[str], cells: list[Any], widths: list[int] | None = None) -> None:
+        """Convert whole columns at once: `cells[k]` holds column k's raw values, one per row;
+        `widths` (CSV) the number of fields each row had."""
         table = self.table
-        error = ""
-        if len(values) != len(self.parsed):
-            error = (
-                f"{self.source} {label}: {len(values)} fields, the header has {len(self.parsed)}"
-            )
-            values = (list(values) + [""] * len(self.parsed))[: len(self.parsed)]
-        for (name, unit), value in zip(self.parsed, values, strict=True):
-            if name in table.text_columns:
-                table.text_columns[name].append("" if _is_missing(value) else str(value).strip())
-                continue
-            number = math.nan
-            if not _is_missing(value):
-                try:
-                    number = float(value)
-                except (TypeError, ValueError):
-                    error = error or (
-                        f"{self.source} {label} column '{name}': '{value}' is not a number"
+        n = len(labels)
+        errors: dict[int, str] = {}
+        if widths is not None:
+            for i, width in enumerate(widths):
+                if width != len(self.parsed):
+                    errors[i] = (
+                        f"{self.source} {labels[i]}: {width} fields, the header has "
+                        f"{len(self.parsed)}"
                     )
-                else:
-                    if not math.isfinite(number):
-                        error = error or (
-                            f"{self.source} {label} column '{name}': value {value} is not finite"
-                        )
-                        number = math.nan
-            table.columns[name].append(number * UNITS[unit or "1"][0])
-        if error and not self.collect:
-            raise ValueError(error)
-        table.row_labels.append(label)
-        table.row_errors.append(error)
+        for (name, unit), column in zip(self.parsed, cells, strict=True):
+            raw = np.asarray(column, dtype=object) if not _is_float_array(column) else column
+            if name in table.text_columns:
+                table.text_columns[name] = [
+                    "" if _is_missing(value) else str(value).strip() for value in raw
+                ]
+                continue
+            values, bad = _numbers(raw)
+            for i, value in bad.items():
+                if i not in errors:
+                    what = "is not finite" if isinstance(value, float) else "is not a number"
+                    shown = f"value {value}" if isinstance(value, float) else f"'{value}'"
+                    errors[i] = f"{self.source} {labels[i]} column '{name}': {shown} {what}"
+            table.columns[name] = values * UNITS[unit or "1"][0]
+        table.row_labels = list(labels)
+        table.row_errors = [errors.get(i, "") for i in range(n)]
+        if errors and not self.collect:
+            raise ValueError(errors[min(errors)])
 
     def finish(self) -> CaseTable:
         self.table.names = self.table.text_columns["case"]
         return self.table
+
+
+def _is_float_array(column: Any) -> bool:
+    return isinstance(column, np.ndarray) and column.dtype.kind in "fiu"
+
+
+def _numbers(raw: Any) -> tuple[NDArray[np.float64], dict[int, Any]]:
+    """Float64 values of a column (NaN where empty) and the rows that are not finite numbers."""
+    if _is_float_array(raw):
+        values = raw.astype(float)
+    else:
+        text = np.array(["nan" if _is_missing(v) else v for v in raw], dtype=object)
+        try:
+            values = text.astype(float)
+        except (TypeError, ValueError):
+            values = np.full(len(text), np.nan)
+            bad: dict[int, Any] = {}
+            for i, value in enumerate(text):
+                try:
+                    values[i] = float(value)
+                except (TypeError, ValueError):
+                    bad[i] = value
+            for i in np.nonzero(np.isinf(values))[0]:
+                bad[int(i)] = float(values[i])
+                values[i] = np.nan
+            return values, bad
+    infinite = np.nonzero(np.isinf(values))[0]
+    bad = {int(i): float(values[i]) for i in infinite}
+    values[infinite] = np.nan
+    return values, bad
 
 
 def _is_missing(value: Any) -> bool:
@@ -325,8 +355,11 @@ def read_case_table(path: str | Path, errors: str = "raise") -> CaseTable:
         raise ValueError(f"{source}: no header line")
     header_line, header = rows[0]
     reader = _Reader(source, header, f"line {header_line}", errors == "collect")
-    for line, row in rows[1:]:
-        reader.add_row(f"line {line}", row)
+    width = len(header)
+    body = rows[1:]
+    padded = [(list(row) + [""] * width)[:width] for _, row in body]
+    cells = [list(column) for column in zip(*padded, strict=True)] if padded else [[]] * width
+    reader.read([f"line {line}" for line, _ in body], cells, [len(row) for _, row in body])
     return reader.finish()
 
 
@@ -347,9 +380,10 @@ def case_table_from_frame(
     """
     _check_errors(errors)
     reader = _Reader(source, [str(name) for name in frame.columns], "header", errors == "collect")
-    columns = [frame[name].to_numpy() for name in frame.columns]
-    for i, label in enumerate(frame.index):
-        reader.add_row(f"row {label}", [column[i] for column in columns])
+    reader.read(
+        [f"row {label}" for label in frame.index],
+        [frame[name].to_numpy() for name in frame.columns],
+    )
     return reader.finish()
 
 

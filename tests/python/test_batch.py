@@ -14,6 +14,7 @@ from exosieve import _core
 from exosieve import constants as c
 from exosieve.batch import Interrupted, compare, open_comparison
 from exosieve.catalogue import case_table_from_frame, case_table_template_path, read_case_table
+from exosieve.cli import main
 
 pd = pytest.importorskip("pandas")
 
@@ -274,5 +275,10 @@ def test_dask_cluster_gives_the_local_results(tmp_path):
             chunk_size=2,
             output=tmp_path / "remote.h5",
         )
+        # The command line, given the scheduler's address.
+        out = tmp_path / "cli.h5"
+        argv = ["sweep", str(path), "-o", str(out), "--samples", "6", "--seed", "7", "--quiet"]
+        assert main([*argv, "--scheduler", cluster.scheduler_address, "--chunk", "3"]) == 0
     assert remote.path is not None
     same_results(local, remote)
+    same_results(local, open_comparison(out))
