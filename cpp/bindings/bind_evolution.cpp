@@ -244,6 +244,32 @@ void bind_evolution(py::module_& m) {
         .def(py::init<double, std::vector<std::string>, std::vector<double>, DensityScaling>(),
              py::arg("radius"), py::arg("species"), py::arg("densities"), py::arg("scaling"));
 
+    py::class_<ThermosphereExobase, ExobaseModel, std::shared_ptr<ThermosphereExobase>>(
+        m, "ThermosphereExobase",
+        "A Thermosphere whose composition follows the inventories and whose exobase "
+        "temperature follows the history")
+        .def(py::init([](const Thermosphere& t, const std::vector<std::string>& species,
+                         bool limit_by_diffusion, const std::string& method,
+                         const TailDepletion& tail) {
+                 if (method != "measured" && method != "chapman_enskog")
+                     throw InputError("diffusion method must be 'measured' or 'chapman_enskog', "
+                                      "got '" + method + "'");
+                 return std::make_shared<ThermosphereExobase>(
+                     t, species, limit_by_diffusion,
+                     method == "measured" ? DiffusionMethod::measured_first
+                                          : DiffusionMethod::chapman_enskog,
+                     tail);
+             }),
+             py::arg("thermosphere"), py::arg("species"), py::arg("limit_by_diffusion"),
+             py::arg("method"), py::arg("tail"))
+        .def("at",
+             [](const ThermosphereExobase& e, double temperature, const DoubleArray& log_fraction) {
+                 if (static_cast<std::size_t>(log_fraction.size()) != e.species_names().size())
+                     throw InputError("log_fraction: need one value per species");
+                 return e.at(temperature, log_fraction.data());
+             },
+             py::arg("temperature"), py::arg("log_fraction"));
+
     py::class_<SourceRate>(m, "SourceRate", "Source of one species [s^-1]")
         .def(py::init<>())
         .def(py::init<double>(), py::arg("rate"))
@@ -336,7 +362,62 @@ void bind_evolution(py::module_& m) {
         .def_readonly("rhs_evaluations", &EvolutionResult::rhs_evaluations)
         .def_readonly("completed", &EvolutionResult::completed)
         .def_readonly("t_reached", &EvolutionResult::t_reached)
-        .def_readonly("config", &EvolutionResult::config);
+        .def_readonly("config", &EvolutionResult::config)
+        .def_property_readonly("initial_inventory",
+                               [](const EvolutionResult& r) { return vector(r.initial_inventory); })
+        .def_property_readonly("species_mass",
+                               [](const EvolutionResult& r) { return vector(r.species_mass); })
+        .def("write", &write_result, py::arg("path"), py::call_guard<py::gil_scoped_release>());
+
+    // Write a result given as a mapping of its fields (from a fresh run or a reopened file).
+    m.def(
+        "write_result",
+        [](const std::string& path, const py::dict& f) {
+            auto doubles = [&](const char* key) {
+                return to_vector(f[key].cast<DoubleArray>());
+            };
+            auto ints = [&](const char* key) {
+                auto a = f[key].cast<py::array_t<std::int64_t, py::array::c_style |
+                                                              py::array::forcecast>>();
+                return std::vector<int>(a.data(), a.data() + a.size());
+            };
+            EvolutionResult r;
+            r.species = f["species"].cast<std::vector<std::string>>();
+            r.ratio_names = f["ratio_names"].cast<std::vector<std::string>>();
+            r.time = doubles("time");
+            r.inventory = doubles("inventory");
+            r.escape_rate = doubles("escape_rate");
+            r.source_rate = doubles("source_rate");
+            r.jeans_parameter = doubles("jeans_parameter");
+            r.isotope_ratio = doubles("isotope_ratio");
+            r.exobase_radius = doubles("exobase_radius");
+            r.exobase_temperature = doubles("exobase_temperature");
+            r.xuv_flux = doubles("xuv_flux");
+            r.regime = ints("regime");
+            r.energy_limited = ints("energy_limited");
+            r.depletion_time = doubles("depletion_time");
+            r.initial_inventory = doubles("initial_inventory");
+            r.species_mass = doubles("species_mass");
+            r.steps = f["steps"].cast<std::size_t>();
+            r.rejected_steps = f["rejected_steps"].cast<std::size_t>();
+            r.rhs_evaluations = f["rhs_evaluations"].cast<std::size_t>();
+            r.completed = f["completed"].cast<bool>();
+            r.t_reached = f["t_reached"].cast<double>();
+            r.config = f["config"].cast<std::string>();
+            for (const auto& c : f["regime_changes"].cast<py::list>()) {
+                const auto t = c.cast<py::tuple>();
+                auto code = [](const std::string& name) {
+                    for (int k = 0; k < 4; ++k)
+                        if (name == regime_name(static_cast<Regime>(k))) return static_cast<Regime>(k);
+                    throw InputError("unknown regime name '" + name + "'");
+                };
+                r.regime_changes.push_back({t[0].cast<double>(), code(t[1].cast<std::string>()),
+                                            code(t[2].cast<std::string>())});
+            }
+            py::gil_scoped_release release;
+            write_result(r, path);
+        },
+        py::arg("path"), py::arg("fields"));
 
     // Runs without the GIL. Every ~50 ms it takes the GIL to check for signals (Ctrl-C stops
     // the run and raises KeyboardInterrupt) and to call `progress(t)`, whose False stops it.

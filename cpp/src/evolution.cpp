@@ -12,7 +12,9 @@
 #include <map>
 
 #include "exosieve/constants.hpp"
+#include "exosieve/diffusion.hpp"
 #include "exosieve/errors.hpp"
+#include "exosieve/hdf5_io.hpp"
 #include "json_text.hpp"
 
 namespace exosieve {
@@ -96,9 +98,11 @@ class Model {
     explicit Model(const EvolutionConfig& c) : c_(c), n_(c.species.size()) {
         y0_.resize(n_);
         mass_.resize(n_);
+        half_log_mass_.resize(n_);
         for (std::size_t i = 0; i < n_; ++i) {
             y0_[i] = std::log(c.initial_inventory[i]);
             mass_[i] = c.species[i].mass;
+            half_log_mass_[i] = 0.5 * std::log(mass_[i]);
         }
         state_.log_density.assign(n_, 0.0);
         state_.log_escape_rate.assign(n_, 0.0);
@@ -143,7 +147,7 @@ class Model {
     // All the diagnostics at (t, y) under `mode`.
     void snapshot(double t, const State& y, const Mode& mode, Snapshot& s) {
         evaluate(t, y, mode);
-        s.temperature = temperature_;
+        s.temperature = exobase_temperature_;
         s.flux = flux_;
         s.radius = state_.radius;
         s.regime = bulk_regime_;
@@ -171,8 +175,9 @@ class Model {
     // True when species i's loss vanishes with its inventory under `mode`; otherwise its
     // inventory would reach zero in finite time, where ln N is singular, so it is held at
     // depletion.
-    bool loss_follows_inventory(std::size_t i, const Mode& mode) const {
-        if (!c_.exobase->loss_follows_inventory()) return false;
+    bool loss_follows_inventory(std::size_t i, const State& y, const Mode& mode) {
+        for (std::size_t j = 0; j < n_; ++j) log_fraction_[j] = y[j] - y0_[j];
+        if (!c_.exobase->loss_follows_inventory(i, log_fraction_.data())) return false;
         return !(mode.energy_limited && i == escaping_);
     }
 
@@ -182,7 +187,7 @@ class Model {
         return "species " + c_.species[i].name + ": ln N = " + format_value(y[i]) +
                ", ln Q = " + format_value(log_rate_[i]) +
                ", Jeans parameter = " + format_value(lambda_[i]) +
-               ", exobase temperature = " + format_value(temperature_) +
+               ", exobase temperature = " + format_value(exobase_temperature_) +
                " K, exobase radius = " + format_value(state_.radius) + " m";
     }
 
@@ -203,9 +208,13 @@ class Model {
                 if (c_.species[i].name == h.escaping_species) escaping_ = i;
         }
         laws_.assign(n_, DiffusionLaw{});
+        listed_.assign(n_, 0);
         for (const auto& [name, law] : h.diffusion)
             for (std::size_t i = 0; i < n_; ++i)
-                if (c_.species[i].name == name) laws_[i] = law;
+                if (c_.species[i].name == name) {
+                    laws_[i] = law;
+                    listed_[i] = 1;
+                }
         mole_fraction_.resize(n_);
         diffusion_.resize(n_);
         partition_.resize(n_);
@@ -218,9 +227,11 @@ class Model {
         for (std::size_t i = 0; i < n_; ++i) log_fraction_[i] = y[i] - y0_[i];
         c_.exobase->evaluate(t, log_fraction_.data(), temperature_, state_);
         const double r = state_.radius;
-        const double kT = k_B * temperature_;
+        exobase_temperature_ = state_.temperature;
+        const double kT = k_B * exobase_temperature_;
         const double gm_over_ktr = G * c_.planet.mass() / (kT * r);
         const double log_area = log_area_factor_ + 2.0 * std::log(r);
+        const double half_log_2kT = 0.5 * std::log(2.0 * kT);
         std::size_t densest = 0;
         for (std::size_t i = 0; i < n_; ++i) {
             const double lambda = gm_over_ktr * mass_[i];
@@ -229,7 +240,7 @@ class Model {
                 log_rate_[i] = state_.log_escape_rate[i];
             } else {
                 // ln(4 pi r^2 n v0/(2 sqrt(pi)) (1 + lambda) e^-lambda f_tail(lambda))
-                const double log_v0 = 0.5 * std::log(2.0 * kT / mass_[i]);
+                const double log_v0 = half_log_2kT - half_log_mass_[i];
                 double lr = log_area + state_.log_density[i] + log_v0 + log_inv_two_sqrt_pi +
                             std::log1p(lambda) - lambda;
                 if (!c_.tail.is_identity()) lr += std::log(c_.tail(lambda));
@@ -254,9 +265,15 @@ class Model {
         for (std::size_t i = 0; i < n_; ++i) sum += std::exp(y[i] - y_max);
         for (std::size_t i = 0; i < n_; ++i) {
             mole_fraction_[i] = std::exp(y[i] - y_max) / sum;
-            diffusion_[i] = laws_[i](temperature_);
+            if (listed_[i])
+                diffusion_[i] = laws_[i](exobase_temperature_);
+            else if (h.drag && i != escaping_ && mass_[i] >= mass_[escaping_])
+                diffusion_[i] = binary_diffusion_parameter(c_.species[i], c_.species[escaping_],
+                                                           exobase_temperature_);
+            else
+                diffusion_[i] = 0.0;
         }
-        partition_mass_loss(mass_loss, temperature_, c_.planet.mass(), escaping_, mass_.data(),
+        partition_mass_loss(mass_loss, exobase_temperature_, c_.planet.mass(), escaping_, mass_.data(),
                             mole_fraction_.data(), diffusion_.data(), n_, partition_.data());
         for (std::size_t i = 0; i < n_; ++i) {
             const double lp = partition_[i] > 0.0 ? std::log(partition_[i]) : -inf;
@@ -268,12 +285,12 @@ class Model {
 
     const EvolutionConfig& c_;
     std::size_t n_;
-    std::vector<double> y0_, mass_, log_fraction_, log_rate_, lambda_;
+    std::vector<double> y0_, mass_, half_log_mass_, log_fraction_, log_rate_, lambda_;
     ExobaseState state_;
     bool needs_flux_ = false;
     bool has_sources_ = false;
     double log_area_factor_ = 0.0;
-    double flux_ = nan, temperature_ = 0.0;
+    double flux_ = nan, temperature_ = 0.0, exobase_temperature_ = 0.0;
     Regime bulk_regime_ = Regime::Jeans;
     Mode mode_;
     std::size_t evaluations_ = 0;
@@ -281,6 +298,7 @@ class Model {
     double xuv_radius_ = 0.0, roche_ = 1.0;
     std::size_t escaping_ = 0;
     std::vector<DiffusionLaw> laws_;
+    std::vector<char> listed_;
     std::vector<double> mole_fraction_, diffusion_, partition_;
 
   public:
@@ -515,6 +533,7 @@ std::string EvolutionConfig::to_json() const {
                                   .number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius
                                                                               : planet.radius())
                                   .add("roche_lobe", h.roche_lobe ? "true" : "false")
+                                  .add("drag", h.drag ? "true" : "false")
                                   .string("escaping_species", h.escaping_species)
                                   .string("activation", act)
                                   .add("diffusion", diff.str())
@@ -577,6 +596,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         r.ratio_names.push_back(a + "/" + b);
     }
     r.depletion_time.assign(n, nan);
+    r.initial_inventory = c.initial_inventory;
+    for (const Species& s : c.species) r.species_mass.push_back(s.mass);
     r.config = c.to_json();
     Recorder recorder(r, n, ratios);
 
@@ -701,16 +722,19 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         double t_cut = t_new;
         Mode next_mode = mode;
         std::vector<double> depleted_at(n, nan);
+        std::vector<char> freeze(n, 0);
         for (std::size_t i = 0; i < n; ++i) {
             if (!std::isnan(r.depletion_time[i]) || !(y_new[i] < log_depleted[i])) continue;
             depleted_at[i] = locate(t, t_new, [&](double tq) {
                 dense(tq, y_probe);
                 return y_probe[i] < log_depleted[i];
             });
-        }
-        for (std::size_t i = 0; i < n; ++i)
-            if (!std::isnan(depleted_at[i]) && !model.loss_follows_inventory(i, mode))
+            dense(depleted_at[i], y_probe);
+            if (!model.loss_follows_inventory(i, y_probe, mode)) {
+                freeze[i] = 1;
                 t_cut = std::min(t_cut, depleted_at[i]);
+            }
+        }
         const Regime regime_new = model.regime(t_new, y_new);
         double regime_time = nan;
         Regime regime_after = regime_new;
@@ -729,7 +753,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         for (std::size_t i = 0; i < n; ++i)
             if (!std::isnan(depleted_at[i]) && depleted_at[i] <= t_cut) {
                 r.depletion_time[i] = depleted_at[i];
-                if (!model.loss_follows_inventory(i, mode)) next_mode.frozen[i] = 1;
+                if (freeze[i]) next_mode.frozen[i] = 1;
             }
         if (!std::isnan(regime_time) && regime_time <= t_cut) {
             r.regime_changes.push_back({regime_time, regime, regime_after});
@@ -778,6 +802,77 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     r.completed = true;
     r.rhs_evaluations = model.evaluations();
     return r;
+}
+
+void write_result(const EvolutionResult& r, const std::string& path) {
+    const std::size_t nt = r.time_count(), ns = r.species_count(), nr = r.ratio_names.size();
+    auto need = [&](const char* what, std::size_t have, std::size_t want) {
+        if (have != want)
+            throw InputError(std::string("result ") + what + " has " + std::to_string(have) +
+                             " values, expected " + std::to_string(want));
+    };
+    need("inventory", r.inventory.size(), nt * ns);
+    need("escape_rate", r.escape_rate.size(), nt * ns);
+    need("source_rate", r.source_rate.size(), nt * ns);
+    need("jeans_parameter", r.jeans_parameter.size(), nt * ns);
+    need("isotope_ratio", r.isotope_ratio.size(), nt * nr);
+    for (const auto* v : {&r.exobase_radius, &r.exobase_temperature, &r.xuv_flux})
+        need("time series", v->size(), nt);
+    need("regime", r.regime.size(), nt);
+    need("energy_limited", r.energy_limited.size(), nt);
+    need("depletion_time", r.depletion_time.size(), ns);
+    need("initial_inventory", r.initial_inventory.size(), ns);
+    need("species_mass", r.species_mass.size(), ns);
+
+    ResultWriter w(path, r.config);
+    w.add_coordinate("time", r.time, "s", "time (stellar age)");
+    w.add_coordinate("species", r.species, "species");
+    if (nr > 0) w.add_coordinate("ratio", r.ratio_names, "isotope ratio");
+    const std::vector<std::string> ts = {"time", "species"}, t = {"time"}, s = {"species"};
+    w.add_variable("inventory", ts, r.inventory, "1", "number of particles in the inventory");
+    w.add_variable("escape_rate", ts, r.escape_rate, "s-1", "global escape rate");
+    w.add_variable("source_rate", ts, r.source_rate, "s-1", "source rate");
+    w.add_variable("jeans_parameter", ts, r.jeans_parameter, "1",
+                   "Jeans parameter at the exobase");
+    w.add_variable("exobase_radius", t, r.exobase_radius, "m",
+                   "exobase radius from the planet's centre");
+    w.add_variable("exobase_temperature", t, r.exobase_temperature, "K", "exobase temperature");
+    w.add_variable("xuv_flux", t, r.xuv_flux, "W m-2", "XUV flux at the planet");
+    const std::vector<std::int64_t> regime(r.regime.begin(), r.regime.end());
+    w.add_variable("regime", t, regime, "1", "escape regime of the bulk gas at the exobase");
+    w.set_attribute("regime", "flag_values", "0 1 2 3");
+    w.set_attribute("regime", "flag_meanings", "jeans enhanced_jeans transition hydrodynamic");
+    const std::vector<std::int64_t> limited(r.energy_limited.begin(), r.energy_limited.end());
+    w.add_variable("energy_limited", t, limited, "1",
+                   "1 where energy-limited hydrodynamic loss acted");
+    if (nr > 0)
+        w.add_variable("isotope_ratio", {"time", "ratio"}, r.isotope_ratio, "1", "isotope ratio");
+    w.add_variable("depletion_time", s, r.depletion_time, "s",
+                   "time when the inventory fell below the depletion fraction");
+    w.add_variable("initial_inventory", s, r.initial_inventory, "1",
+                   "number of particles at the start");
+    w.add_variable("species_mass", s, r.species_mass, "kg", "particle mass");
+    auto count = [&](const char* name, std::size_t value, const char* long_name) {
+        w.add_variable(name, {}, std::vector<std::int64_t>{static_cast<std::int64_t>(value)}, "1",
+                       long_name);
+    };
+    count("steps", r.steps, "accepted integration steps");
+    count("rejected_steps", r.rejected_steps, "rejected integration steps");
+    count("rhs_evaluations", r.rhs_evaluations, "evaluations of the right-hand side");
+    count("completed", r.completed ? 1 : 0, "1 when the run reached the end of t_span");
+    w.add_variable("t_reached", {}, std::vector<double>{r.t_reached}, "s", "last time reached");
+    std::string changes = "[";
+    for (std::size_t k = 0; k < r.regime_changes.size(); ++k) {
+        const RegimeChange& c = r.regime_changes[k];
+        changes += (k ? ", " : "") + JsonObject()
+                                         .number("time_s", c.time)
+                                         .string("from", regime_name(c.from))
+                                         .string("to", regime_name(c.to))
+                                         .str();
+    }
+    w.set_attribute("regime_changes", changes + "]");
+    w.set_attribute("title", "exosieve evolution result");
+    w.commit();
 }
 
 } // namespace exosieve

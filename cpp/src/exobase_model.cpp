@@ -173,9 +173,10 @@ PrescribedExobase::PrescribedExobase(double radius, std::vector<std::string> spe
     }
 }
 
-void PrescribedExobase::evaluate(double, const double* log_fraction, double,
+void PrescribedExobase::evaluate(double, const double* log_fraction, double temperature,
                                  ExobaseState& out) const {
     out.radius = radius_;
+    out.temperature = temperature;
     out.has_escape_rates = false;
     const std::size_t n = log_densities_.size();
     if (scaling_ == DensityScaling::Inventory)
@@ -199,6 +200,125 @@ std::string PrescribedExobase::to_json() const {
         .add("densities_m3", json_array(densities_))
         .string("scaling", scaling_ == DensityScaling::Inventory ? "inventory" : "fixed")
         .str();
+}
+
+ThermosphereExobase::ThermosphereExobase(const Thermosphere& initial,
+                                         const std::vector<std::string>& species,
+                                         bool limit_by_diffusion, DiffusionMethod method,
+                                         TailDepletion tail)
+    : planet_mass_(initial.planet_mass()), planet_radius_(initial.planet_radius()),
+      homopause_radius_(initial.homopause_radius()),
+      homopause_density_(initial.homopause_density()), outer_radius_(initial.outer_radius()),
+      names_(species), kind_(initial.profile().kind()), limit_by_diffusion_(limit_by_diffusion),
+      method_(method), tail_(std::move(tail)) {
+    if (species.size() != initial.species().size())
+        throw InputError("the thermosphere has " + std::to_string(initial.species().size()) +
+                         " species but the inventory has " + std::to_string(species.size()));
+    for (const std::string& name : species) {
+        const std::size_t i = initial.index(name); // InputError listing the species if absent
+        species_.push_back(initial.species()[i]);
+        const double x = initial.mole_fractions()[i];
+        log_x0_.push_back(x > 0.0 ? std::log(x) : -std::numeric_limits<double>::infinity());
+    }
+    const TemperatureProfile& p = initial.profile();
+    if (kind_ == TemperatureProfile::Kind::table)
+        throw InputError("an evolving thermosphere needs an isothermal or Bates temperature "
+                         "profile (its exobase temperature follows the history); got a table");
+    if (kind_ == TemperatureProfile::Kind::bates) {
+        base_temperature_ = p.base_temperature();
+        shape_ = p.shape();
+        base_radius_ = p.base_radius();
+    }
+}
+
+Thermosphere ThermosphereExobase::at(double temperature, const double* log_fraction) const {
+    const std::size_t n = species_.size();
+    std::vector<double> x(n);
+    double top = -std::numeric_limits<double>::infinity();
+    for (std::size_t i = 0; i < n; ++i) {
+        x[i] = log_x0_[i] + log_fraction[i];
+        top = std::max(top, x[i]);
+    }
+    double sum = 0.0;
+    for (std::size_t i = 0; i < n; ++i) sum += (x[i] = std::exp(x[i] - top));
+    for (std::size_t i = 0; i < n; ++i) x[i] /= sum;
+    TemperatureProfile profile =
+        kind_ == TemperatureProfile::Kind::bates
+            ? TemperatureProfile::bates(temperature, base_temperature_, shape_, base_radius_)
+            : TemperatureProfile::isothermal(temperature);
+    Thermosphere th(planet_mass_, planet_radius_, homopause_radius_, homopause_density_, species_,
+                    std::move(x), std::move(profile), outer_radius_);
+    th.set_diffusion_method(method_);
+    th.set_tail_depletion(tail_);
+    return th;
+}
+
+void ThermosphereExobase::evaluate(double t, const double* log_fraction, double temperature,
+                                   ExobaseState& out) const {
+    const Thermosphere th = at(temperature, log_fraction);
+    const Exobase& e = th.exobase();
+    const std::size_t n = species_.size();
+    if (e.status == ExobaseStatus::none_below_outer_radius)
+        throw NumericalError("no exobase at t = " + format_value(t) + " s: " + e.message +
+                             " (a sign of hydrodynamic outflow: consider the energy-limited "
+                             "option, or a larger outer_radius)");
+    if (e.status == ExobaseStatus::collisionless_at_homopause) {
+        // Collisionless down to the homopause: particles escape from there.
+        out.radius = homopause_radius_;
+        out.temperature = th.temperature(homopause_radius_);
+        out.has_escape_rates = false;
+        for (std::size_t i = 0; i < n; ++i) out.log_density[i] = th.log_density(i, out.radius);
+        return;
+    }
+    out.radius = e.radius;
+    out.temperature = e.temperature;
+    out.has_escape_rates = true;
+    const double log_area = std::log(4.0 * 3.141592653589793 * e.radius * e.radius);
+    for (std::size_t i = 0; i < n; ++i) {
+        out.log_density[i] = th.log_density(i, e.radius);
+        const double flux = th.escape_flux(i, limit_by_diffusion_);
+        out.log_escape_rate[i] =
+            flux > 0.0 ? log_area + std::log(flux) : -std::numeric_limits<double>::infinity();
+    }
+}
+
+bool ThermosphereExobase::loss_follows_inventory(std::size_t i, const double* log_fraction) const {
+    double top = -std::numeric_limits<double>::infinity();
+    for (std::size_t j = 0; j < log_x0_.size(); ++j) top = std::max(top, log_x0_[j] + log_fraction[j]);
+    double sum = 0.0;
+    for (std::size_t j = 0; j < log_x0_.size(); ++j) sum += std::exp(log_x0_[j] + log_fraction[j] - top);
+    return std::exp(log_x0_[i] + log_fraction[i] - top) / sum < 0.5;
+}
+
+void ThermosphereExobase::check(const Planet& planet) const {
+    auto differ = [](double a, double b) { return std::abs(a - b) > 1e-12 * std::abs(b); };
+    if (differ(planet_mass_, planet.mass()) || differ(planet_radius_, planet.radius()))
+        throw InputError("the thermosphere's planet (mass " + format_value(planet_mass_) +
+                         " kg, radius " + format_value(planet_radius_) +
+                         " m) is not the evolving planet (mass " + format_value(planet.mass()) +
+                         " kg, radius " + format_value(planet.radius()) + " m)");
+}
+
+std::string ThermosphereExobase::to_json() const {
+    std::vector<double> x0;
+    for (double lx : log_x0_) x0.push_back(std::exp(lx));
+    JsonObject o;
+    o.string("kind", "thermosphere")
+        .number("homopause_radius_m", homopause_radius_)
+        .number("homopause_density_m-3", homopause_density_)
+        .number("outer_radius_m", outer_radius_)
+        .add("species", json_array(names_))
+        .add("initial_mole_fractions", json_array(x0))
+        .string("profile", kind_ == TemperatureProfile::Kind::bates ? "bates" : "isothermal");
+    if (kind_ == TemperatureProfile::Kind::bates)
+        o.number("base_temperature_K", base_temperature_)
+            .number("shape_m-1", shape_)
+            .number("base_radius_m", base_radius_);
+    o.add("limit_by_diffusion", limit_by_diffusion_ ? "true" : "false")
+        .string("diffusion_method",
+                method_ == DiffusionMethod::measured_first ? "measured" : "chapman_enskog");
+    if (!tail_.is_identity()) o.string("tail_depletion", "set");
+    return o.str();
 }
 
 } // namespace exosieve

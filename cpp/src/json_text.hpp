@@ -1,8 +1,9 @@
 #pragma once
 // Internal: just enough JSON writing for model configurations (no parsing).
 
+#include <charconv>
 #include <cmath>
-#include <sstream>
+#include <cstdio>
 #include <string>
 #include <vector>
 
@@ -30,13 +31,12 @@ inline std::string json_string(const std::string& value) {
     return out + "\"";
 }
 
-// Non-finite numbers have no JSON form: null.
+// Shortest text that reads back to the same double; non-finite numbers have no JSON form: null.
 inline std::string json_number(double value) {
     if (!std::isfinite(value)) return "null";
-    std::ostringstream s;
-    s.precision(17);
-    s << value;
-    return s.str();
+    char buf[32];
+    const auto end = std::to_chars(buf, buf + sizeof buf, value).ptr;
+    return std::string(buf, end);
 }
 
 inline std::string json_array(const std::vector<double>& values) {

@@ -11,6 +11,7 @@
 #include "exosieve/errors.hpp"
 #include "exosieve/evolution.hpp"
 #include "exosieve/jeans.hpp"
+#include "exosieve/thermosphere.hpp"
 
 using namespace exosieve;
 using constants::Gyr;
@@ -256,6 +257,7 @@ TEST_CASE("energy-limited loss during saturation: linear loss of the light speci
     h.efficiency = 0.15;
     h.activation = HydrodynamicActivation::Always;
     h.roche_lobe = true;
+    h.drag = false;
     c.hydrodynamic = h;
     c.t_start = 10 * Myr;
     c.t_end = 90 * Myr;
@@ -381,4 +383,80 @@ TEST_CASE("runs in parallel threads give identical results") {
         CHECK(r.inventory == reference.inventory);
         CHECK(r.steps == reference.steps);
     }
+}
+
+TEST_CASE("a thermosphere's minor species decays exponentially when its share follows it") {
+    // Worked analytic solution: a trace of H (x = 1e-10) in an N2 thermosphere at constant
+    // temperature. Its exobase density is proportional to its mole fraction, which follows its
+    // inventory, while the N2-made exobase hardly moves: dN/dt = -k N with k the escape rate at
+    // the start over N0, so ln(N/N0) = -k t (to the ~1e-8 by which the trace moves the exobase:
+    // H's long scale height makes a 1e-7 trace shift it by 3e-5).
+    const double T = 900.0, N_H = 1e33;
+    const Planet planet(constants::M_earth, constants::R_earth);
+    const Thermosphere th(planet.mass(), planet.radius(), constants::R_earth + 100e3, 1e19,
+                          {species("N2"), species("H")}, {1.0 - 1e-10, 1e-10},
+                          TemperatureProfile::isothermal(T));
+    REQUIRE(th.exobase().found());
+    const double r = th.exobase().radius;
+    const double k = 4 * constants::pi * r * r * th.escape_flux(1, false) / N_H;
+    EvolutionConfig c(planet);
+    c.species = {species("N2"), species("H")};
+    c.initial_inventory = {1e43, N_H};
+    c.exobase = std::make_shared<ThermosphereExobase>(th, std::vector<std::string>{"N2", "H"},
+                                                      false);
+    c.temperature = ExobaseTemperature::constant(T);
+    c.t_end = 3.0 / k;
+    c.rtol = 1e-10;
+    c.t_eval = {1.0 / k, 2.0 / k, 3.0 / k};
+    const auto res = evolve(c);
+    for (std::size_t j = 0; j < 3; ++j)
+        CHECK(std::log(res.inventory[col(res, j, 1)] / N_H) == doctest::Approx(-(j + 1.0)).epsilon(1e-6));
+    CHECK(res.exobase_radius[0] == doctest::Approx(r).epsilon(1e-6));
+    CHECK(res.exobase_temperature[0] == doctest::Approx(T).epsilon(1e-12));
+    MESSAGE("thermosphere run: " << res.steps << " steps, " << res.rhs_evaluations << " evaluations");
+}
+
+TEST_CASE("a thermosphere of one species loses it at a constant rate, held at depletion") {
+    // With a single species its mole fraction stays 1, so the homopause density and the exobase
+    // are fixed and the loss is constant: N(t) = N0 - Q t (worked analytic solution), and the
+    // species is held from its depletion time (1 - f) N0 / Q on.
+    const double T = 1200.0;
+    const Planet planet(constants::M_earth, constants::R_earth);
+    const Thermosphere th(planet.mass(), planet.radius(), constants::R_earth + 100e3, 1e18,
+                          {species("O")}, {1.0}, TemperatureProfile::isothermal(T));
+    REQUIRE(th.exobase().found());
+    const double r = th.exobase().radius;
+    const double Q = 4 * constants::pi * r * r * th.escape_flux(0, true);
+    const double N0 = Q * 1 * Gyr;
+    EvolutionConfig c(planet);
+    c.species = {species("O")};
+    c.initial_inventory = {N0};
+    c.exobase = std::make_shared<ThermosphereExobase>(th, std::vector<std::string>{"O"}, true);
+    c.temperature = ExobaseTemperature::constant(T);
+    c.t_end = 2 * Gyr;
+    c.rtol = 1e-10;
+    c.t_eval = {0.5 * Gyr, 1.5 * Gyr};
+    const auto res = evolve(c);
+    CHECK(res.inventory[0] == doctest::Approx(N0 - Q * 0.5 * Gyr).epsilon(1e-8));
+    CHECK(res.depletion_time[0] == doctest::Approx((1 - 1e-3) * Gyr).epsilon(1e-8));
+    CHECK(res.inventory[1] == doctest::Approx(1e-3 * N0).epsilon(1e-8));
+}
+
+TEST_CASE("an evolving thermosphere refuses a tabulated profile and another planet") {
+    const Thermosphere table(constants::M_earth, constants::R_earth, constants::R_earth + 100e3,
+                             1e18, {species("O")}, {1.0},
+                             TemperatureProfile::table({constants::R_earth + 100e3,
+                                                        constants::R_earth + 500e3},
+                                                       {500.0, 1000.0}));
+    CHECK_THROWS_WITH_AS(ThermosphereExobase(table, {"O"}, true), doctest::Contains("table"),
+                         InputError);
+    const Thermosphere th(constants::M_earth, constants::R_earth, constants::R_earth + 100e3, 1e18,
+                          {species("O")}, {1.0}, TemperatureProfile::isothermal(1000.0));
+    CHECK_THROWS_AS(ThermosphereExobase(th, {"H"}, true), InputError);
+    EvolutionConfig c(Planet(2 * constants::M_earth, constants::R_earth));
+    c.species = {species("O")};
+    c.initial_inventory = {1e40};
+    c.exobase = std::make_shared<ThermosphereExobase>(th, std::vector<std::string>{"O"}, true);
+    c.t_end = Gyr;
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("is not the evolving planet"), InputError);
 }

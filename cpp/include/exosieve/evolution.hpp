@@ -109,6 +109,8 @@ struct EvolutionResult {
     std::vector<std::string> ratio_names;   //!< e.g. "D/H"
     std::vector<double> isotope_ratio;      //!< time x ratio [1]
     std::vector<double> depletion_time;     //!< per species [s]; NaN where not reached
+    std::vector<double> initial_inventory;  //!< per species [particles]
+    std::vector<double> species_mass;       //!< per species [kg]
     std::vector<RegimeChange> regime_changes; //!< located regime changes
     std::size_t steps = 0;                  //!< accepted steps
     std::size_t rejected_steps = 0;         //!< rejected steps
@@ -131,8 +133,13 @@ std::vector<std::pair<std::string, std::string>> default_isotope_ratios(
     const std::vector<std::string>& species);
 
 //! Write a result to an HDF5 file at `path` (atomically: temporary file, then rename).
-//! Dimensions time, species, ratio; units and long_name on every variable; global attribute
-//! `config` holds the model JSON.
+//! Dimensions `time` [s], `species` and (when there are isotope ratios) `ratio`; variables
+//! inventory, escape_rate, source_rate, jeans_parameter (time x species), exobase_radius,
+//! exobase_temperature, xuv_flux, regime (flag_values / flag_meanings), energy_limited (time),
+//! isotope_ratio (time x ratio), depletion_time (NaN where not reached), initial_inventory,
+//! species_mass (species), and the scalars steps, rejected_steps, rhs_evaluations, completed,
+//! t_reached; units and long_name on every variable; global attributes `config` (model JSON)
+//! and `regime_changes` (JSON list).
 void write_result(const EvolutionResult& result, const std::string& path);
 
 } // namespace exosieve

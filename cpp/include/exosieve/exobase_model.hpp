@@ -9,7 +9,10 @@
 #include <string>
 #include <vector>
 
+#include "exosieve/diffusion.hpp"
+#include "exosieve/jeans.hpp"
 #include "exosieve/stellar.hpp"
+#include "exosieve/thermosphere.hpp"
 
 namespace exosieve {
 
@@ -90,7 +93,8 @@ class ExobaseTemperature {
 
 //! The exobase at one instant, filled by an ExobaseModel.
 struct ExobaseState {
-    double radius = 0.0; //!< exobase radius from the planet's centre [m]
+    double radius = 0.0;      //!< exobase radius from the planet's centre [m]
+    double temperature = 0.0; //!< temperature at the exobase [K]
     //! ln of each species' number density at the exobase (ln of m^-3); -inf for none.
     std::vector<double> log_density;
     //! When true, log_escape_rate holds the model's own global escape rates (e.g. limited by
@@ -112,9 +116,10 @@ class ExobaseModel {
     //! temperature [K]; log_fraction[i] = ln(N_i / N_i(t_start)).
     virtual void evaluate(double t, const double* log_fraction, double temperature,
                           ExobaseState& out) const = 0;
-    //! True when each species' escape rate vanishes with its inventory (densities follow the
-    //! inventories); false when they are held whatever is left.
-    virtual bool loss_follows_inventory() const = 0;
+    //! True when species i's escape rate vanishes with its inventory near the state
+    //! log_fraction (so that ln N_i can follow it down); false when the rate is held whatever is
+    //! left, and the inventory would reach zero in finite time.
+    virtual bool loss_follows_inventory(std::size_t i, const double* log_fraction) const = 0;
     //! Throw InputError when the model does not fit the planet (e.g. exobase below the surface).
     virtual void check(const Planet& planet) const = 0;
     //! JSON description of the model.
@@ -137,7 +142,9 @@ class PrescribedExobase final : public ExobaseModel {
     const std::vector<std::string>& species_names() const override { return species_; }
     void evaluate(double t, const double* log_fraction, double temperature,
                   ExobaseState& out) const override;
-    bool loss_follows_inventory() const override { return scaling_ == DensityScaling::Inventory; }
+    bool loss_follows_inventory(std::size_t, const double*) const override {
+        return scaling_ == DensityScaling::Inventory;
+    }
     void check(const Planet& planet) const override;
     std::string to_json() const override;
 
@@ -151,6 +158,48 @@ class PrescribedExobase final : public ExobaseModel {
     std::vector<double> densities_;
     std::vector<double> log_densities_;
     DensityScaling scaling_;
+};
+
+//! A diffusive-equilibrium Thermosphere whose composition follows the inventories and whose
+//! exobase temperature follows the history. At each instant: homopause mole fractions
+//! x_i = x_i0 (N_i/N_i0) / sum_j x_j0 (N_j/N_j0) at the fixed homopause radius and density;
+//! an isothermal profile at the exobase temperature T(t), or a Bates (1959) profile with
+//! T_inf = T(t) and its base temperature and shape held. Escape rates are the thermosphere's
+//! (Jeans, coupled to diffusion when asked) over the exobase sphere. Where the thermosphere is
+//! collisionless down to the homopause, the exobase is the homopause; where it is collisional up
+//! to the outer radius, the run stops with NumericalError (a sign of hydrodynamic outflow).
+class ThermosphereExobase final : public ExobaseModel {
+  public:
+    //! `initial` sets the planet, homopause, species, x_i0 and the profile's form (isothermal or
+    //! Bates; a tabulated profile is refused); `species` gives the evolution's species order
+    //! (the same species as `initial`'s); diffusion method and tail depletion for the fluxes.
+    ThermosphereExobase(const Thermosphere& initial, const std::vector<std::string>& species,
+                        bool limit_by_diffusion,
+                        DiffusionMethod method = DiffusionMethod::measured_first,
+                        TailDepletion tail = {});
+
+    const std::vector<std::string>& species_names() const override { return names_; }
+    void evaluate(double t, const double* log_fraction, double temperature,
+                  ExobaseState& out) const override;
+    //! True while the species' homopause mole fraction is below 1/2: its density then falls
+    //! nearly in proportion to its inventory (d ln n_i / d ln N_i = 1 - x_i at fixed exobase).
+    bool loss_follows_inventory(std::size_t i, const double* log_fraction) const override;
+    void check(const Planet& planet) const override;
+    std::string to_json() const override;
+
+    //! The thermosphere at one instant (exobase temperature [K], ln(N_i/N_i0) per species).
+    Thermosphere at(double temperature, const double* log_fraction) const;
+
+  private:
+    double planet_mass_, planet_radius_, homopause_radius_, homopause_density_, outer_radius_;
+    std::vector<Species> species_;
+    std::vector<std::string> names_;
+    std::vector<double> log_x0_;
+    TemperatureProfile::Kind kind_;
+    double base_temperature_ = 0.0, shape_ = 0.0, base_radius_ = 0.0;
+    bool limit_by_diffusion_;
+    DiffusionMethod method_;
+    TailDepletion tail_;
 };
 
 } // namespace exosieve

@@ -96,8 +96,11 @@ struct HydrodynamicOptions {
     bool roche_lobe = true;   //!< apply the Roche-lobe factor K (needs the star and the orbit)
     std::string escaping_species; //!< the light escaping species; empty: the lightest present
     HydrodynamicActivation activation = HydrodynamicActivation::Hydrodynamic; //!< when it acts
-    //! Diffusion law of each dragged species in the light gas, by species name; species not
-    //! listed are not dragged and keep Jeans escape.
+    //! Drag heavier species: those listed in `diffusion` with their law, the others with the
+    //! library's binary diffusion parameter in the light gas (measured fit, else Chapman–Enskog).
+    bool drag = true;
+    //! Diffusion law of dragged species in the light gas, by species name; a zero coefficient
+    //! means that species is not dragged (it keeps its Jeans rate).
     std::vector<std::pair<std::string, DiffusionLaw>> diffusion;
 
     //! Throw InputError for an efficiency outside (0, 1] or a negative radius or coefficient.

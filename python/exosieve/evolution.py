@@ -1,0 +1,208 @@
+"""Loss of each species' inventory over time: :func:`evolve`.
+
+``dN_i/dt = S_i(t) - Q_i(t, N)`` with ``Q_i`` the global escape rate from the exobase model
+(Jeans escape, or energy-limited hydrodynamic loss with drag) and ``S_i`` a source. The C++
+core integrates ``ln N_i`` with Boost.Odeint's Dormand–Prince 5(4) pair under step-size
+control, with dense output at ``t_eval`` and events located by bisection on the dense output.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from typing import Any, Callable, Optional, Union
+
+from . import _core
+from .model import (
+    EnergyLimitedEscape,
+    Planet,
+    PrescribedExobase,
+    _name,
+    _scalar,
+    _vector,
+    source_rate,
+    temperature_history,
+)
+from .result import EvolutionResult
+
+__all__ = ["evolve"]
+
+ExobaseLike = Any  # PrescribedExobase or Thermosphere
+
+
+def evolve(
+    planet: Planet,
+    exobase: ExobaseLike,
+    inventory: Mapping[str, Any],
+    t_span: Sequence[Any],
+    t_eval: Optional[Any] = None,
+    rtol: float = 1e-8,
+    atol: Union[None, float, Mapping[str, float]] = None,
+    depletion_fraction: float = 1e-3,
+    sources: Optional[Mapping[str, Any]] = None,
+    hydrodynamic: Optional[EnergyLimitedEscape] = None,
+    thresholds: Any = None,
+    tail_depletion: Any = 1.0,
+    isotope_ratios: Optional[Sequence[tuple[str, str]]] = None,
+    max_steps: int = 100_000,
+    progress: Optional[Callable[[float], Optional[bool]]] = None,
+    exobase_temperature: Any = None,
+    limit_by_diffusion: bool = True,
+) -> EvolutionResult:
+    """Integrate the loss of each species' inventory over ``t_span``.
+
+    Parameters
+    ----------
+    planet : Planet
+        The planet (with its star and orbit for anything XUV-driven).
+    exobase : PrescribedExobase or Thermosphere
+        Exobase radius, densities and temperature history. A :class:`Thermosphere` (isothermal
+        or Bates profile) is re-solved at every instant: its homopause mole fractions follow
+        the inventories, ``x_i ∝ x_i0 N_i/N_i0`` (homopause radius and density held), and its
+        exobase temperature follows ``exobase_temperature``.
+    inventory : mapping of str to float
+        Initial number of particles of each species [1] (> 0). Its order sets the species order
+        of the result.
+    t_span : (float, float)
+        Start and end times [s]: stellar ages when anything is XUV-driven.
+    t_eval : array_like, optional
+        Strictly increasing output times [s] inside ``t_span``, interpolated with the
+        integrator's dense output; default: the end of every step.
+    rtol : float, optional
+        Relative tolerance on each inventory [1] (default 1e-8).
+    atol : float or mapping of str to float, optional
+        Absolute tolerance on the inventories [particles]; default
+        ``rtol * depletion_fraction * N_i(t_start)`` for each species, so that depletion times
+        are located to about ``rtol``.
+    depletion_fraction : float, optional
+        A species is depleted when its inventory falls below this share of its start
+        (default 1e-3); the time is located by bisection on the dense output.
+    sources : mapping of str to float, TabulatedSource or (times, rates), optional
+        Source of each named species [s^-1].
+    hydrodynamic : EnergyLimitedEscape, optional
+        Energy-limited hydrodynamic escape with drag of heavier species.
+    thresholds : RegimeThresholds, optional
+        Jeans-parameter thresholds between regimes (Volkov et al. 2011 defaults).
+    tail_depletion : float, tuple or TailDepletion, optional
+        Factor on every Jeans flux (default 1).
+    isotope_ratios : sequence of (str, str), optional
+        (numerator, denominator) pairs to report; default the known pairs present among the
+        species (D/H, HD/H2, 3He/He, 36Ar/38Ar, 40Ar/36Ar).
+    max_steps : int, optional
+        Steps (accepted and rejected) before the run gives up with NumericalError.
+    progress : callable, optional
+        Called as ``progress(t)`` about every 50 ms; returning False stops the run early (the
+        result then has ``completed`` False). Ctrl-C stops a run with KeyboardInterrupt.
+    exobase_temperature : float, TabulatedTemperature, XuvTemperature or callable, optional
+        For a Thermosphere: the exobase temperature history [K] (default: its own exobase
+        temperature, held). A PrescribedExobase carries its own.
+    limit_by_diffusion : bool, optional
+        For a Thermosphere: couple Jeans escape to diffusion through the heterosphere
+        (default True).
+
+    Returns
+    -------
+    EvolutionResult
+
+    Raises
+    ------
+    ValueError
+        Bad input, before any step (a negative inventory, ``t_eval`` outside ``t_span``, ...).
+    exosieve.NumericalError
+        When the run cannot make progress; the message says where and why.
+
+    Examples
+    --------
+    >>> import exosieve
+    >>> from exosieve import constants as c
+    >>> planet = exosieve.Planet(c.M_EARTH, c.R_EARTH)
+    >>> exo = exosieve.PrescribedExobase(c.R_EARTH + 500e3, 1000.0, {"H": 1e11, "D": 1e7})
+    >>> r = exosieve.evolve(planet, exo, {"H": 1e38, "D": 1e34}, (0.0, 4 * c.GYR))
+    >>> bool(r.isotope_ratio["D/H"][-1] > r.isotope_ratio["D/H"][0])
+    True
+    """
+    from .jeans import _tail
+
+    if not isinstance(planet, Planet):
+        raise ValueError(f"planet must be an exosieve.Planet, got {planet!r}")
+    if not isinstance(inventory, Mapping) or not inventory:
+        raise ValueError(f"inventory must be a non-empty mapping of species to particle "
+                         f"numbers, got {inventory!r}")
+    names = [_name(k) for k in inventory]
+    species_objects = [k if isinstance(k, _core.Species) else _core.species(k) for k in inventory]
+    initial = [_scalar(v, f"inventory of {n}", "1") for n, v in zip(names, inventory.values())]
+
+    config = _core.EvolutionConfig(planet._core)
+    config.species = species_objects
+    config.initial_inventory = initial
+    config.exobase, config.temperature = _exobase_model(exobase, names, exobase_temperature,
+                                                       limit_by_diffusion)
+    span = _vector(t_span, "t_span", "s")
+    if span.shape != (2,):
+        raise ValueError(f"t_span must be (start, end) [s], got {t_span!r}")
+    config.t_start, config.t_end = float(span[0]), float(span[1])
+    if t_eval is not None:
+        times = _vector(t_eval, "t_eval", "s")
+        if times.size == 0:
+            raise ValueError("t_eval must hold at least one time")
+        config.t_eval = times
+    config.rtol = _scalar(rtol, "rtol", "1")
+    if atol is not None:
+        if isinstance(atol, Mapping):
+            unknown = [k for k in atol if k not in names]
+            if unknown or len(atol) != len(names):
+                raise ValueError(f"atol must give one value per species ({', '.join(names)}), "
+                                 f"got {dict(atol)!r}")
+            config.atol = [_scalar(atol[n], f"atol of {n}", "1") for n in names]
+        else:
+            config.atol = [_scalar(atol, "atol", "1")] * len(names)
+    config.depletion_fraction = _scalar(depletion_fraction, "depletion_fraction", "1")
+    if int(max_steps) != max_steps or max_steps <= 0:
+        raise ValueError(f"max_steps must be a positive integer, got {max_steps!r}")
+    config.max_steps = int(max_steps)
+    if sources:
+        unknown = [_name(k) for k in sources if _name(k) not in names]
+        if unknown:
+            raise ValueError(f"sources: {', '.join(unknown)} not in the inventory")
+        by_name = {_name(k): v for k, v in sources.items()}
+        config.sources = [source_rate(by_name[n], n) if n in by_name else _core.SourceRate()
+                          for n in names]
+    if hydrodynamic is not None:
+        if not isinstance(hydrodynamic, EnergyLimitedEscape):
+            raise ValueError(f"hydrodynamic must be an exosieve.EnergyLimitedEscape, "
+                             f"got {hydrodynamic!r}")
+        config.hydrodynamic = hydrodynamic._core
+    if thresholds is not None:
+        config.thresholds = thresholds
+    config.tail = _tail(tail_depletion)
+    if isotope_ratios is None:
+        config.isotope_ratios = _core.default_isotope_ratios(names)
+    else:
+        config.isotope_ratios = [(str(a), str(b)) for a, b in isotope_ratios]
+    raw = _core.evolve(config, progress)
+    return EvolutionResult._from_core(raw, [s.mass for s in species_objects], initial)
+
+
+def _exobase_model(exobase: Any, names: list[str], temperature: Any,
+                   limit_by_diffusion: bool) -> tuple[Any, Any]:
+    """The core exobase model and temperature history for ``exobase``."""
+    from .jeans import _tail
+    from .thermosphere import Thermosphere
+
+    if isinstance(exobase, PrescribedExobase):
+        if temperature is not None:
+            raise ValueError("exobase_temperature is for a Thermosphere; a PrescribedExobase "
+                             "carries its own temperature")
+        return exobase._core_model(names), exobase._history
+    if isinstance(exobase, Thermosphere):
+        kwargs = exobase._kwargs
+        model = _core.ThermosphereExobase(exobase._core, names, bool(limit_by_diffusion),
+                                          kwargs["diffusion_method"],
+                                          _tail(kwargs["tail_depletion"]))
+        if temperature is None:
+            temperature = exobase._args[4]
+            if temperature is None:
+                raise ValueError("exobase_temperature is required for a thermosphere given "
+                                 "by a temperature table")
+        return model, temperature_history(temperature)
+    raise ValueError(f"exobase must be an exosieve.PrescribedExobase or exosieve.Thermosphere, "
+                     f"got {exobase!r}")

@@ -1,0 +1,554 @@
+"""Model objects for :func:`exosieve.evolve`: star, planet, exobase temperature, exobase models,
+sources and the energy-limited hydrodynamic option [SI units].
+
+Everything here is a thin description; the numbers are checked and used by the C++ core.
+Arguments accept astropy quantities where astropy is installed.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any, Callable, Optional, Sequence, Tuple, Union
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from . import _core
+from ._arrays import FloatOrArray, to_si
+
+__all__ = [
+    "Star",
+    "Planet",
+    "TabulatedTemperature",
+    "XuvTemperature",
+    "PrescribedExobase",
+    "TabulatedSource",
+    "EnergyLimitedEscape",
+    "RegimeThresholds",
+    "REGIMES",
+    "classify_regime",
+    "roche_lobe_ratio",
+    "roche_lobe_factor",
+    "energy_limited_mass_loss",
+    "crossover_mass",
+    "dragged_flux",
+]
+
+#: Regime codes used in results: 0 Jeans, 1 enhanced Jeans, 2 transition, 3 hydrodynamic.
+REGIMES: tuple[str, ...] = ("jeans", "enhanced_jeans", "transition", "hydrodynamic")
+
+_DEFAULT_XUV = _core.XuvHistory()
+
+
+def _scalar(value: Any, name: str, unit: str) -> float:
+    if type(value) is float or type(value) is int:  # the common case, no conversion needed
+        return float(value)
+    array = to_si(value, name, unit)
+    if array.ndim != 0 and array.size != 1:
+        raise ValueError(f"{name} must be a single number, got an array of shape {array.shape}")
+    return float(array.reshape(()))
+
+
+def _vector(value: Any, name: str, unit: str) -> NDArray[np.float64]:
+    array = np.atleast_1d(to_si(value, name, unit))
+    if array.ndim != 1:
+        raise ValueError(f"{name} must be one-dimensional, got shape {array.shape}")
+    return np.ascontiguousarray(array)
+
+
+def _map(function: Callable[[NDArray[np.float64]], NDArray[np.float64]], value: Any, name: str,
+         unit: str) -> FloatOrArray:
+    array = to_si(value, name, unit)
+    out = function(np.ascontiguousarray(array).reshape(-1)).reshape(array.shape)
+    return float(out) if array.ndim == 0 else out
+
+
+class Star:
+    """A host star and its XUV (X-ray + EUV) history.
+
+    ``L_xuv(t) = R_sat L_bol`` up to the saturation time ``t_sat``, then
+    ``R_sat L_bol (t / t_sat)^(-beta)`` (the shape of Ribas et al. 2005 and Jackson et al. 2012),
+    with ``t`` the star's age.
+
+    Parameters
+    ----------
+    mass : float
+        Stellar mass [kg].
+    luminosity : float
+        Bolometric luminosity [W].
+    saturation_ratio : float, optional
+        Saturated ``L_xuv / L_bol`` [1]. Default ``10**-3.5``: the X-ray saturation level
+        ``log(L_X/L_bol) ~ -3 to -3.5`` of young Sun-like stars (Pizzolato et al. 2003;
+        Jackson et al. 2012), from memory, within a factor ~2.
+    saturation_time : float, optional
+        End of saturation, as stellar age [s]. Default 100 Myr (Jackson et al. 2012, Sun-like
+        stars; from memory).
+    decay_index : float, optional
+        ``beta`` of the decline after saturation [1]. Default 1.23, the fit to the 1–1180 Å
+        flux of solar analogues by Ribas et al. (2005, ApJ 622, 680), from memory.
+
+    Examples
+    --------
+    >>> from exosieve import constants as c
+    >>> sun_like = Star(c.M_SUN, c.L_SUN, saturation_ratio=1e-3, decay_index=1.5)
+    >>> f"{sun_like.xuv_luminosity(1e3 * c.MYR) / c.L_SUN:.3e}"
+    '3.162e-05'
+    """
+
+    def __init__(self, mass: Any, luminosity: Any,
+                 saturation_ratio: float = _DEFAULT_XUV.saturation_ratio,
+                 saturation_time: Any = _DEFAULT_XUV.saturation_time,
+                 decay_index: float = _DEFAULT_XUV.decay_index) -> None:
+        xuv = _core.XuvHistory(_scalar(saturation_ratio, "saturation_ratio", "1"),
+                               _scalar(saturation_time, "saturation_time", "s"),
+                               _scalar(decay_index, "decay_index", "1"))
+        self._core = _core.Star(_scalar(mass, "star mass", "kg"),
+                                _scalar(luminosity, "star luminosity", "W"), xuv)
+
+    @property
+    def mass(self) -> float:
+        """Stellar mass [kg]."""
+        return float(self._core.mass)
+
+    @property
+    def luminosity(self) -> float:
+        """Bolometric luminosity [W]."""
+        return float(self._core.luminosity)
+
+    @property
+    def saturation_ratio(self) -> float:
+        """Saturated ``L_xuv / L_bol`` [1]."""
+        return float(self._core.xuv.saturation_ratio)
+
+    @property
+    def saturation_time(self) -> float:
+        """End of XUV saturation (stellar age) [s]."""
+        return float(self._core.xuv.saturation_time)
+
+    @property
+    def decay_index(self) -> float:
+        """Power-law index of the XUV decline after saturation [1]."""
+        return float(self._core.xuv.decay_index)
+
+    def xuv_luminosity(self, t: Any) -> FloatOrArray:
+        """XUV luminosity [W] at stellar age ``t`` [s] (float or array)."""
+        return _map(self._core.xuv_luminosity, t, "t", "s")
+
+    def __repr__(self) -> str:
+        return (f"Star(mass={self.mass:.6g}, luminosity={self.luminosity:.6g}, "
+                f"saturation_ratio={self.saturation_ratio:.6g}, "
+                f"saturation_time={self.saturation_time:.6g}, decay_index={self.decay_index:.6g})")
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (Star, (self.mass, self.luminosity, self.saturation_ratio, self.saturation_time,
+                       self.decay_index))
+
+
+class Planet:
+    """A planet; with an orbit and a star it also knows its XUV flux.
+
+    Parameters
+    ----------
+    mass : float
+        Planet mass [kg].
+    radius : float
+        Planet radius [m].
+    semi_major_axis : float, optional
+        Orbital semi-major axis [m]; needed with ``star`` for anything XUV-driven.
+    star : Star, optional
+        The host star.
+
+    Examples
+    --------
+    >>> from exosieve import constants as c
+    >>> p = Planet(c.M_EARTH, c.R_EARTH, c.AU, Star(c.M_SUN, c.L_SUN))
+    >>> round(p.xuv_flux(10 * c.MYR) / (c.L_SUN / (4 * 3.141592653589793 * c.AU**2)), 6)
+    0.000316
+    """
+
+    def __init__(self, mass: Any, radius: Any, semi_major_axis: Any = None,
+                 star: Optional[Star] = None) -> None:
+        m = _scalar(mass, "planet mass", "kg")
+        r = _scalar(radius, "planet radius", "m")
+        if (semi_major_axis is None) != (star is None):
+            raise ValueError("give both semi_major_axis and star, or neither")
+        self.star: Optional[Star] = star
+        if star is None:
+            self._core = _core.Planet(m, r)
+        else:
+            if not isinstance(star, Star):
+                raise ValueError(f"star must be an exosieve.Star, got {star!r}")
+            self._core = _core.Planet(m, r, _scalar(semi_major_axis, "semi_major_axis", "m"),
+                                      star._core)
+
+    @property
+    def mass(self) -> float:
+        """Planet mass [kg]."""
+        return float(self._core.mass)
+
+    @property
+    def radius(self) -> float:
+        """Planet radius [m]."""
+        return float(self._core.radius)
+
+    @property
+    def semi_major_axis(self) -> Optional[float]:
+        """Semi-major axis [m], or None."""
+        return float(self._core.semi_major_axis) if self.star is not None else None
+
+    def xuv_flux(self, t: Any) -> FloatOrArray:
+        """XUV flux at the planet ``L_xuv(t) / (4 pi a^2)`` [W m^-2] at stellar age ``t`` [s]."""
+        return _map(self._core.xuv_flux, t, "t", "s")
+
+    def __repr__(self) -> str:
+        orbit = "" if self.star is None else f", semi_major_axis={self.semi_major_axis:.6g}, star={self.star!r}"
+        return f"Planet(mass={self.mass:.6g}, radius={self.radius:.6g}{orbit})"
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (Planet, (self.mass, self.radius, self.semi_major_axis, self.star))
+
+
+class TabulatedTemperature:
+    """Exobase temperature from a table: linear in time between points, held at the end values
+    outside them.
+
+    Parameters
+    ----------
+    times : array_like
+        Strictly increasing times (stellar age) [s].
+    temperatures : array_like
+        Exobase temperatures [K] (> 0).
+
+    Examples
+    --------
+    >>> T = TabulatedTemperature([0.0, 10.0], [1000.0, 2000.0])
+    >>> T(5.0), T(50.0)
+    (1500.0, 2000.0)
+    """
+
+    def __init__(self, times: ArrayLike, temperatures: ArrayLike) -> None:
+        self.times = _vector(times, "times", "s")
+        self.temperatures = _vector(temperatures, "temperatures", "K")
+        self._core = _core.ExobaseTemperature.table(self.times, self.temperatures)
+
+    def __call__(self, t: float) -> float:
+        """Temperature [K] at time ``t`` [s]."""
+        return float(self._core(float(t)))
+
+    def __repr__(self) -> str:
+        return f"TabulatedTemperature(times={self.times!r}, temperatures={self.temperatures!r})"
+
+
+class XuvTemperature:
+    """Exobase temperature driven by the planet's XUV flux:
+    ``T = T_ref (F_xuv / F_ref)^exponent`` clamped to ``[minimum, maximum]``.
+
+    Parameters
+    ----------
+    reference_temperature : float
+        ``T_ref`` [K].
+    reference_flux : float
+        ``F_ref`` [W m^-2].
+    exponent : float
+        Power-law exponent [1].
+    minimum, maximum : float
+        Clamp [K].
+
+    Examples
+    --------
+    >>> XuvTemperature(1000.0, 1e-3, 0.5, 500.0, 5000.0).temperature(4e-3)
+    2000.0
+    """
+
+    def __init__(self, reference_temperature: Any, reference_flux: Any, exponent: float,
+                 minimum: Any, maximum: Any) -> None:
+        self.reference_temperature = _scalar(reference_temperature, "reference_temperature", "K")
+        self.reference_flux = _scalar(reference_flux, "reference_flux", "W m-2")
+        self.exponent = _scalar(exponent, "exponent", "1")
+        self.minimum = _scalar(minimum, "minimum", "K")
+        self.maximum = _scalar(maximum, "maximum", "K")
+        self._core = _core.ExobaseTemperature.xuv_power_law(
+            self.reference_temperature, self.reference_flux, self.exponent, self.minimum,
+            self.maximum)
+
+    def temperature(self, xuv_flux: float) -> float:
+        """Temperature [K] at XUV flux ``xuv_flux`` [W m^-2]."""
+        return float(self._core(0.0, float(xuv_flux)))
+
+    def __repr__(self) -> str:
+        return (f"XuvTemperature({self.reference_temperature!r}, {self.reference_flux!r}, "
+                f"{self.exponent!r}, {self.minimum!r}, {self.maximum!r})")
+
+
+TemperatureLike = Union[float, TabulatedTemperature, XuvTemperature, Callable[[float], float]]
+
+
+def temperature_history(temperature: Any) -> Any:
+    """The core history for a float, a table, an XUV power law or a callable ``t -> T``."""
+    if isinstance(temperature, (TabulatedTemperature, XuvTemperature)):
+        return temperature._core
+    if isinstance(temperature, _core.ExobaseTemperature):
+        return temperature
+    if callable(temperature) and not hasattr(temperature, "unit"):
+        return _core.ExobaseTemperature.callable(temperature, repr(temperature))
+    return _core.ExobaseTemperature.constant(_scalar(temperature, "exobase temperature", "K"))
+
+
+class PrescribedExobase:
+    """An exobase at a prescribed radius with prescribed densities.
+
+    Parameters
+    ----------
+    radius : float
+        Exobase radius from the planet's centre [m].
+    temperature : float, TabulatedTemperature, XuvTemperature or callable
+        Exobase temperature [K]: a constant, a table against time, a clamped power law in the
+        XUV flux, or a Python callable ``t [s] -> T [K]`` (single runs only).
+    densities : mapping of str to float
+        Number density of each species at the exobase at the start [m^-3].
+    scaling : {"inventory", "fixed"}
+        ``"inventory"``: each density follows its species' inventory, ``n_i = n_i0 N_i/N_i0``;
+        ``"fixed"``: densities are held. A species whose fixed density outlives its inventory is
+        held at the depletion level from its depletion time on.
+
+    Examples
+    --------
+    >>> from exosieve import constants as c
+    >>> exo = PrescribedExobase(c.R_EARTH + 500e3, 1000.0, {"H": 1e11, "O": 1e13})
+    >>> exo.scaling
+    'inventory'
+    """
+
+    def __init__(self, radius: Any, temperature: TemperatureLike, densities: Mapping[str, Any],
+                 scaling: str = "inventory") -> None:
+        if scaling not in ("inventory", "fixed"):
+            raise ValueError(f"scaling must be 'inventory' or 'fixed', got {scaling!r}")
+        if not isinstance(densities, Mapping) or not densities:
+            raise ValueError(f"densities must be a non-empty mapping of species to m^-3, "
+                             f"got {densities!r}")
+        self.radius = _scalar(radius, "exobase radius", "m")
+        self.temperature = temperature
+        self.densities = {_name(k): _scalar(v, f"density of {_name(k)}", "m-3")
+                          for k, v in densities.items()}
+        self.scaling = scaling
+        self._history = temperature_history(temperature)
+
+    def _core_model(self, species: Sequence[str]) -> Any:
+        missing = [s for s in species if s not in self.densities]
+        if missing:
+            raise ValueError(f"densities: no exobase density for {', '.join(missing)}")
+        extra = [s for s in self.densities if s not in species]
+        if extra:
+            raise ValueError(f"densities: {', '.join(extra)} not in the inventory")
+        return _core.PrescribedExobase(self.radius, list(species),
+                                       [self.densities[s] for s in species],
+                                       getattr(_core.DensityScaling, self.scaling))
+
+    def __repr__(self) -> str:
+        return (f"PrescribedExobase(radius={self.radius!r}, temperature={self.temperature!r}, "
+                f"densities={self.densities!r}, scaling={self.scaling!r})")
+
+
+class TabulatedSource:
+    """A source (e.g. outgassing) against time [s^-1]: linear between points, held at the ends.
+
+    Parameters
+    ----------
+    times : array_like
+        Strictly increasing times [s].
+    rates : array_like
+        Source rates [particles s^-1] (>= 0).
+
+    Examples
+    --------
+    >>> TabulatedSource([0.0, 1e16], [1e27, 0.0])(5e15)
+    5e+26
+    """
+
+    def __init__(self, times: ArrayLike, rates: ArrayLike) -> None:
+        self.times = _vector(times, "times", "s")
+        self.rates = _vector(rates, "rates", "s-1")
+        self._core = _core.SourceRate(self.times, self.rates)
+
+    def __call__(self, t: float) -> float:
+        """Rate [s^-1] at time ``t`` [s]."""
+        return float(self._core(float(t)))
+
+    def __repr__(self) -> str:
+        return f"TabulatedSource(times={self.times!r}, rates={self.rates!r})"
+
+
+def source_rate(value: Any, name: str) -> Any:
+    """The core source for a float rate [s^-1], a TabulatedSource or a (times, rates) pair."""
+    if isinstance(value, TabulatedSource):
+        return value._core
+    if isinstance(value, tuple) and len(value) == 2:
+        return TabulatedSource(*value)._core
+    return _core.SourceRate(_scalar(value, f"source of {name}", "s-1"))
+
+
+DiffusionLike = Union[float, Tuple[float, float]]
+
+
+class EnergyLimitedEscape:
+    """Energy-limited hydrodynamic escape with drag of heavier species.
+
+    Mass-loss rate ``dM/dt = eta pi R_p R_xuv^2 F_xuv / (G M_p K)`` (Watson et al. 1981) with the
+    Roche-lobe factor ``K = 1 - 3/(2 xi) + 1/(2 xi^3)``, ``xi = a (M_p/(3 M_star))^(1/3)/R_p``
+    (Erkaev et al. 2007). The mass leaves as the light escaping species and the heavier species
+    it drags: ``F_i = (x_i/x_1) F_1 (m_c - m_i)/(m_c - m_1)`` below the crossover mass
+    ``m_c = m_1 + k T F_1/(b g x_1)`` (Hunten, Pepin & Walker 1987), the budget shared so that
+    the total mass rate equals ``dM/dt``. Species without a diffusion law are not dragged and
+    keep their Jeans rate.
+
+    Parameters
+    ----------
+    efficiency : float, optional
+        Heating efficiency ``eta`` [1] in (0, 1]; default 0.15 (common practice: 0.1–0.3).
+    xuv_radius : float, optional
+        Radius where the XUV is absorbed [m]; default the planet radius.
+    roche_lobe : bool, optional
+        Apply the Roche-lobe factor (default True; needs the star and the orbit).
+    escaping_species : str, optional
+        The light escaping species; default the lightest in the inventory.
+    activation : {"hydrodynamic", "transition", "always"}, optional
+        When it replaces Jeans escape: while the bulk regime (by the Jeans parameter of the
+        densest species at the exobase) is hydrodynamic (default), transition or hydrodynamic,
+        or throughout.
+    diffusion : mapping of str to float or (float, float), optional
+        Binary diffusion parameter ``b`` of each dragged species in the light gas
+        [m^-1 s^-1]: a constant, or ``(A, s)`` for ``b = A (T / 1 K)^s``.
+
+    Examples
+    --------
+    >>> EnergyLimitedEscape(efficiency=0.1, diffusion={"O": (4.8e19, 0.75)}).activation
+    'hydrodynamic'
+    """
+
+    def __init__(self, efficiency: float = 0.15, xuv_radius: Any = None, roche_lobe: bool = True,
+                 escaping_species: Optional[str] = None, activation: str = "hydrodynamic",
+                 diffusion: Optional[Mapping[str, DiffusionLike]] = None) -> None:
+        if activation not in ("hydrodynamic", "transition", "always"):
+            raise ValueError("activation must be 'hydrodynamic', 'transition' or 'always', "
+                             f"got {activation!r}")
+        self.efficiency = _scalar(efficiency, "efficiency", "1")
+        self.xuv_radius = None if xuv_radius is None else _scalar(xuv_radius, "xuv_radius", "m")
+        self.roche_lobe = bool(roche_lobe)
+        self.escaping_species = escaping_species
+        self.activation = activation
+        self.diffusion: dict[str, tuple[float, float]] = {}
+        for name, law in (diffusion or {}).items():
+            if isinstance(law, tuple):
+                a, s = law
+            else:
+                a, s = law, 0.0
+            self.diffusion[_name(name)] = (_scalar(a, f"diffusion coefficient of {name}",
+                                                   "m-1 s-1"), float(s))
+        self._core = _core.HydrodynamicOptions(
+            self.efficiency, 0.0 if self.xuv_radius is None else self.xuv_radius,
+            self.roche_lobe, escaping_species or "",
+            getattr(_core.HydrodynamicActivation, activation),
+            [(k, _core.DiffusionLaw(a, s)) for k, (a, s) in self.diffusion.items()])
+
+    def __repr__(self) -> str:
+        return (f"EnergyLimitedEscape(efficiency={self.efficiency!r}, "
+                f"xuv_radius={self.xuv_radius!r}, roche_lobe={self.roche_lobe!r}, "
+                f"escaping_species={self.escaping_species!r}, activation={self.activation!r}, "
+                f"diffusion={self.diffusion!r})")
+
+
+def RegimeThresholds(enhanced: float = 6.0, transition: float = 3.0,  # noqa: N802
+                     hydrodynamic: float = 2.1) -> Any:
+    """Jeans-parameter thresholds between escape regimes [1].
+
+    Defaults from the kinetic simulations of Volkov et al. (2011, ApJL 729, L24): Jeans-like
+    escape above ~6, enhanced molecule-by-molecule escape down to ~3, transition down to ~2.1,
+    hydrodynamic outflow below.
+
+    Examples
+    --------
+    >>> RegimeThresholds().transition
+    3.0
+    """
+    return _core.RegimeThresholds(enhanced, transition, hydrodynamic)
+
+
+def classify_regime(jeans_parameter: Any, thresholds: Any = None) -> Any:
+    """Regime code (0 Jeans, 1 enhanced Jeans, 2 transition, 3 hydrodynamic; see
+    :data:`REGIMES`) of each Jeans parameter [1]; an int for scalar input.
+
+    Examples
+    --------
+    >>> [REGIMES[k] for k in classify_regime([10.0, 4.0, 2.5, 1.0])]
+    ['jeans', 'enhanced_jeans', 'transition', 'hydrodynamic']
+    """
+    lam = to_si(jeans_parameter, "jeans_parameter", "1")
+    codes = _core.classify_regime(np.ascontiguousarray(lam).reshape(-1),
+                                  thresholds or _core.RegimeThresholds()).reshape(lam.shape)
+    return int(codes) if lam.ndim == 0 else codes
+
+
+def roche_lobe_ratio(planet_mass: Any, star_mass: Any, semi_major_axis: Any, radius: Any) -> float:
+    """``xi = a (M_p / (3 M_star))^(1/3) / R_p`` [1] (Erkaev et al. 2007)."""
+    return float(_core.roche_lobe_ratio(_scalar(planet_mass, "planet_mass", "kg"),
+                                        _scalar(star_mass, "star_mass", "kg"),
+                                        _scalar(semi_major_axis, "semi_major_axis", "m"),
+                                        _scalar(radius, "radius", "m")))
+
+
+def roche_lobe_factor(xi: Any) -> FloatOrArray:
+    """Roche-lobe factor ``K(xi) = 1 - 3/(2 xi) + 1/(2 xi^3)`` [1] (Erkaev et al. 2007), xi > 1.
+
+    Examples
+    --------
+    >>> roche_lobe_factor(2.0)
+    0.3125
+    """
+    return _map(_core.roche_lobe_factor, xi, "xi", "1")
+
+
+def energy_limited_mass_loss(efficiency: float, planet_radius: Any, xuv_radius: Any,
+                             xuv_flux: Any, planet_mass: Any, roche_factor: float = 1.0) -> float:
+    """Energy-limited mass-loss rate ``eta pi R_p R_xuv^2 F_xuv / (G M_p K)`` [kg s^-1]
+    (Watson et al. 1981; Erkaev et al. 2007).
+
+    Examples
+    --------
+    >>> from exosieve import constants as c
+    >>> f"{energy_limited_mass_loss(0.15, 2 * c.R_EARTH, 2 * c.R_EARTH, 10.0, 5 * c.M_EARTH):.4e}"
+    '4.9079e+06'
+    """
+    return float(_core.energy_limited_mass_loss(
+        _scalar(efficiency, "efficiency", "1"), _scalar(planet_radius, "planet_radius", "m"),
+        _scalar(xuv_radius, "xuv_radius", "m"), _scalar(xuv_flux, "xuv_flux", "W m-2"),
+        _scalar(planet_mass, "planet_mass", "kg"), _scalar(roche_factor, "roche_factor", "1")))
+
+
+def crossover_mass(light_mass: Any, temperature: Any, light_flux: Any, diffusion_parameter: Any,
+                   gravity: Any, light_mole_fraction: float) -> float:
+    """Crossover mass ``m_1 + k T F_1 / (b g x_1)`` [kg] (Hunten, Pepin & Walker 1987)."""
+    return float(_core.crossover_mass(
+        _scalar(light_mass, "light_mass", "kg"), _scalar(temperature, "temperature", "K"),
+        _scalar(light_flux, "light_flux", "m-2 s-1"),
+        _scalar(diffusion_parameter, "diffusion_parameter", "m-1 s-1"),
+        _scalar(gravity, "gravity", "m s-2"), _scalar(light_mole_fraction,
+                                                      "light_mole_fraction", "1")))
+
+
+def dragged_flux(mass: Any, mole_fraction: float, light_mass: Any, light_flux: Any,
+                 light_mole_fraction: float, crossover_mass: Any) -> float:
+    """Flux of a species dragged by the light one [m^-2 s^-1] (Hunten, Pepin & Walker 1987):
+    ``(x_i/x_1) F_1 (m_c - m_i)/(m_c - m_1)`` below the crossover mass, else 0."""
+    return float(_core.dragged_flux(
+        _scalar(mass, "mass", "kg"), _scalar(mole_fraction, "mole_fraction", "1"),
+        _scalar(light_mass, "light_mass", "kg"), _scalar(light_flux, "light_flux", "m-2 s-1"),
+        _scalar(light_mole_fraction, "light_mole_fraction", "1"),
+        _scalar(crossover_mass, "crossover_mass", "kg")))
+
+
+def _name(key: Any) -> str:
+    if isinstance(key, _core.Species):
+        return str(key.name)
+    if not isinstance(key, str):
+        raise ValueError(f"species must be given by name (str), got {key!r}")
+    return key

@@ -1,0 +1,311 @@
+"""Results of :func:`exosieve.evolve`: time series per species, diagnostics, and their files.
+
+Files are HDF5, written by the C++ core (temporary name, then renamed over the target), with
+dimensions ``time``, ``species`` and ``ratio``, CF-style ``units`` and ``long_name`` on every
+variable and the model configuration as JSON in the global attribute ``config``. They open
+with :func:`open_result`, with h5py, and with ``xarray.open_dataset(path, engine="h5netcdf")``.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+from collections.abc import Iterator, Mapping
+from typing import Any, Optional, Union
+
+import numpy as np
+from numpy.typing import NDArray
+
+from . import _core
+from .model import REGIMES
+
+__all__ = ["EvolutionResult", "PerName", "open_result", "VARIABLES"]
+
+#: Per-time-and-species variables: name -> (units, long_name).
+SPECIES_VARIABLES: dict[str, tuple[str, str]] = {
+    "inventory": ("1", "number of particles in the inventory"),
+    "escape_rate": ("s-1", "global escape rate"),
+    "source_rate": ("s-1", "source rate"),
+    "jeans_parameter": ("1", "Jeans parameter at the exobase"),
+}
+#: Per-time variables: name -> (units, long_name).
+TIME_VARIABLES: dict[str, tuple[str, str]] = {
+    "exobase_radius": ("m", "exobase radius from the planet's centre"),
+    "exobase_temperature": ("K", "exobase temperature"),
+    "xuv_flux": ("W m-2", "XUV flux at the planet"),
+    "regime": ("1", "escape regime of the bulk gas at the exobase"),
+    "energy_limited": ("1", "1 where energy-limited hydrodynamic loss acted"),
+}
+#: Every variable of a result file with its units and long name.
+VARIABLES: dict[str, tuple[str, str]] = {
+    **SPECIES_VARIABLES,
+    **TIME_VARIABLES,
+    "isotope_ratio": ("1", "isotope ratio"),
+    "depletion_time": ("s", "time when the inventory fell below the depletion fraction"),
+    "initial_inventory": ("1", "number of particles at the start"),
+    "species_mass": ("kg", "particle mass"),
+    "steps": ("1", "accepted integration steps"),
+    "rejected_steps": ("1", "rejected integration steps"),
+    "rhs_evaluations": ("1", "evaluations of the right-hand side"),
+    "completed": ("1", "1 when the run reached the end of t_span"),
+    "t_reached": ("s", "last time reached"),
+}
+REGIME_FLAGS = {"flag_values": "0 1 2 3", "flag_meanings": " ".join(REGIMES)}
+
+
+class PerName(Mapping):  # type: ignore[type-arg]
+    """Columns of a (time x name) array, looked up by species or ratio name.
+
+    ``result.inventory["H"]`` is the time series of H; ``.values`` is the whole array.
+    """
+
+    def __init__(self, names: list[str], values: NDArray[Any]) -> None:
+        self.names = list(names)
+        self.values = values
+        self._index = {n: i for i, n in enumerate(self.names)}
+
+    def __getitem__(self, name: str) -> NDArray[Any]:
+        try:
+            return self.values[:, self._index[name]]
+        except KeyError:
+            raise KeyError(f"{name!r} is not among {self.names}") from None
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self.names)
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    def __repr__(self) -> str:
+        return f"PerName({self.names}, shape={self.values.shape})"
+
+
+class EvolutionResult:
+    """Output of :func:`exosieve.evolve` or :func:`open_result` [SI units].
+
+    Attributes
+    ----------
+    time : ndarray
+        Output times (stellar age) [s].
+    species : list of str
+        Species names.
+    inventory, escape_rate, source_rate, jeans_parameter : PerName
+        Per species: particles [1], escape rate [s^-1], source rate [s^-1], Jeans parameter at
+        the exobase [1]; ``result.inventory["H"]`` is an array over time.
+    isotope_ratio : PerName
+        Ratios such as ``"D/H"`` over time [1].
+    exobase_radius, exobase_temperature, xuv_flux : ndarray
+        [m], [K], [W m^-2] over time (xuv_flux NaN without a star).
+    regime : ndarray of int
+        Regime code over time (see :data:`exosieve.REGIMES`); ``regime_names`` gives names.
+    energy_limited : ndarray of int
+        1 where energy-limited loss acted.
+    depletion_time : dict of str to float or None
+        Time [s] each species fell below the depletion fraction; None where it did not.
+    regime_changes : list of (float, str, str)
+        Located regime changes: (time [s], from, to).
+    steps, rejected_steps, rhs_evaluations : int
+        Integration diagnostics.
+    completed : bool
+        False when the run was stopped before the end of t_span.
+    config : dict
+        The full model configuration.
+    """
+
+    def __init__(self, data: Mapping[str, Any]) -> None:
+        self.time: NDArray[np.float64] = np.asarray(data["time"], dtype=np.float64)
+        self.species: list[str] = [str(s) for s in data["species"]]
+        ratios = [str(s) for s in data.get("ratio_names", [])]
+        for name in SPECIES_VARIABLES:
+            setattr(self, name, PerName(self.species, np.asarray(data[name], dtype=np.float64)))
+        self.isotope_ratio = PerName(ratios, np.asarray(data["isotope_ratio"],
+                                                        dtype=np.float64).reshape(
+                                                            len(self.time), len(ratios)))
+        for name in ("exobase_radius", "exobase_temperature", "xuv_flux"):
+            setattr(self, name, np.asarray(data[name], dtype=np.float64))
+        self.regime: NDArray[np.int64] = np.asarray(data["regime"], dtype=np.int64)
+        self.energy_limited: NDArray[np.int64] = np.asarray(data["energy_limited"],
+                                                            dtype=np.int64)
+        depletion = np.asarray(data["depletion_time"], dtype=np.float64)
+        self.depletion_time: dict[str, Optional[float]] = {
+            s: (None if math.isnan(t) else float(t)) for s, t in zip(self.species, depletion)}
+        self.regime_changes: list[tuple[float, str, str]] = [
+            (float(t), str(a), str(b)) for t, a, b in data.get("regime_changes", [])]
+        self.initial_inventory = np.asarray(data["initial_inventory"], dtype=np.float64)
+        self.species_mass = np.asarray(data["species_mass"], dtype=np.float64)
+        self.steps = int(data["steps"])
+        self.rejected_steps = int(data["rejected_steps"])
+        self.rhs_evaluations = int(data["rhs_evaluations"])
+        self.completed = bool(data["completed"])
+        self.t_reached = float(data["t_reached"])
+        self.config_json: str = str(data["config"])
+        self._config: Optional[dict[str, Any]] = None
+
+    inventory: PerName
+    escape_rate: PerName
+    source_rate: PerName
+    jeans_parameter: PerName
+    exobase_radius: NDArray[np.float64]
+    exobase_temperature: NDArray[np.float64]
+    xuv_flux: NDArray[np.float64]
+
+    @classmethod
+    def _from_core(cls, raw: Any, masses: list[float], initial: list[float]) -> EvolutionResult:
+        return cls({
+            "time": raw.time, "species": raw.species, "ratio_names": raw.ratio_names,
+            "inventory": raw.inventory, "escape_rate": raw.escape_rate,
+            "source_rate": raw.source_rate, "jeans_parameter": raw.jeans_parameter,
+            "isotope_ratio": raw.isotope_ratio, "exobase_radius": raw.exobase_radius,
+            "exobase_temperature": raw.exobase_temperature, "xuv_flux": raw.xuv_flux,
+            "regime": raw.regime, "energy_limited": raw.energy_limited,
+            "depletion_time": raw.depletion_time,
+            "regime_changes": [(c.time, REGIMES[c.from_regime], REGIMES[c.to_regime])
+                               for c in raw.regime_changes],
+            "initial_inventory": initial, "species_mass": masses, "steps": raw.steps,
+            "rejected_steps": raw.rejected_steps, "rhs_evaluations": raw.rhs_evaluations,
+            "completed": raw.completed, "t_reached": raw.t_reached, "config": raw.config,
+        })
+
+    @property
+    def config(self) -> dict[str, Any]:
+        """The full model configuration (parsed from :attr:`config_json`)."""
+        if self._config is None:
+            self._config = json.loads(self.config_json)
+        return self._config
+
+    @property
+    def regime_names(self) -> list[str]:
+        """Regime name at each output time."""
+        return [REGIMES[k] for k in self.regime]
+
+    @property
+    def ratio_names(self) -> list[str]:
+        """Names of the isotope ratios, e.g. ``["D/H"]``."""
+        return list(self.isotope_ratio.names)
+
+    def __repr__(self) -> str:
+        return (f"<EvolutionResult {len(self.species)} species, {len(self.time)} times "
+                f"[{self.time[0]:.4g}, {self.time[-1]:.4g}] s, {self.steps} steps "
+                f"({self.rejected_steps} rejected){'' if self.completed else ', stopped early'}>")
+
+    def _fields(self) -> dict[str, Any]:
+        return {
+            "time": self.time, "species": self.species, "ratio_names": self.ratio_names,
+            **{n: getattr(self, n).values for n in SPECIES_VARIABLES},
+            "isotope_ratio": self.isotope_ratio.values,
+            **{n: getattr(self, n) for n in ("exobase_radius", "exobase_temperature",
+                                              "xuv_flux", "regime", "energy_limited")},
+            "depletion_time": np.array([np.nan if t is None else t
+                                        for t in self.depletion_time.values()]),
+            "initial_inventory": self.initial_inventory, "species_mass": self.species_mass,
+            "steps": self.steps, "rejected_steps": self.rejected_steps,
+            "rhs_evaluations": self.rhs_evaluations, "completed": self.completed,
+            "t_reached": self.t_reached, "config": self.config_json,
+            "regime_changes": json.dumps([{"time_s": t, "from": a, "to": b}
+                                          for t, a, b in self.regime_changes]),
+        }
+
+    def to_hdf5(self, path: Union[str, os.PathLike[str]]) -> None:
+        """Write the result to an HDF5 file at ``path`` (replaced atomically).
+
+        The layout is described in the module docstring; read it back with
+        :func:`open_result` or ``xarray.open_dataset(path, engine="h5netcdf")``.
+        """
+        fields = self._fields()
+        fields["regime_changes"] = list(self.regime_changes)
+        _core.write_result(os.fspath(path), fields)
+
+    def to_xarray(self) -> Any:
+        """The result as an ``xarray.Dataset`` with the file's dimensions, units and names."""
+        import xarray as xr
+
+        coords = {
+            "time": ("time", self.time, {"units": "s", "long_name": "time (stellar age)"}),
+            "species": ("species", np.array(self.species, dtype=object),
+                        {"units": "1", "long_name": "species"}),
+        }
+        data = {}
+        for name, (units, long_name) in SPECIES_VARIABLES.items():
+            data[name] = (("time", "species"), getattr(self, name).values,
+                          {"units": units, "long_name": long_name})
+        for name, (units, long_name) in TIME_VARIABLES.items():
+            attrs = {"units": units, "long_name": long_name}
+            if name == "regime":
+                attrs.update(REGIME_FLAGS)
+            data[name] = (("time",), getattr(self, name), attrs)
+        if self.ratio_names:
+            coords["ratio"] = ("ratio", np.array(self.ratio_names, dtype=object),
+                               {"units": "1", "long_name": "isotope ratio"})
+            data["isotope_ratio"] = (("time", "ratio"), self.isotope_ratio.values,
+                                     _attrs("isotope_ratio"))
+        f = self._fields()
+        for name in ("depletion_time", "initial_inventory", "species_mass"):
+            data[name] = (("species",), f[name], _attrs(name))
+        for name in ("steps", "rejected_steps", "rhs_evaluations", "completed"):
+            data[name] = ((), np.int64(f[name]), _attrs(name))
+        data["t_reached"] = ((), np.float64(self.t_reached), _attrs("t_reached"))
+        return xr.Dataset(data, coords=coords, attrs={
+            "config": self.config_json, "regime_changes": f["regime_changes"],
+            "exosieve_version": str(self.config.get("version", "")),
+        })
+
+    def to_pandas(self) -> Any:
+        """A ``pandas.DataFrame`` indexed by time [s] with (quantity, species) columns;
+        per-time quantities have an empty species label."""
+        import pandas as pd
+
+        columns: dict[tuple[str, str], Any] = {}
+        for name in SPECIES_VARIABLES:
+            per = getattr(self, name)
+            for s in self.species:
+                columns[(name, s)] = per[s]
+        for r in self.ratio_names:
+            columns[("isotope_ratio", r)] = self.isotope_ratio[r]
+        for name in TIME_VARIABLES:
+            columns[(name, "")] = getattr(self, name)
+        frame = pd.DataFrame(columns, index=pd.Index(self.time, name="time"))
+        frame.columns = pd.MultiIndex.from_tuples(frame.columns, names=["quantity", "species"])
+        return frame
+
+
+def _attrs(name: str) -> dict[str, str]:
+    units, long_name = VARIABLES[name]
+    return {"units": units, "long_name": long_name}
+
+
+def open_result(path: Union[str, os.PathLike[str]]) -> EvolutionResult:
+    """Read a result file written by :meth:`EvolutionResult.to_hdf5`.
+
+    Examples
+    --------
+    >>> import exosieve, tempfile, os
+    >>> from exosieve import constants as c
+    >>> planet = exosieve.Planet(c.M_EARTH, c.R_EARTH)
+    >>> exo = exosieve.PrescribedExobase(c.R_EARTH + 500e3, 1000.0, {"H": 1e11})
+    >>> r = exosieve.evolve(planet, exo, {"H": 1e40}, (0.0, c.GYR))
+    >>> path = os.path.join(tempfile.mkdtemp(), "run.h5")
+    >>> r.to_hdf5(path)
+    >>> bool(exosieve.open_result(path).inventory["H"][-1] == r.inventory["H"][-1])
+    True
+    """
+    import h5py
+
+    def text(value: Any) -> str:
+        return value.decode() if isinstance(value, bytes) else str(value)
+
+    with h5py.File(os.fspath(path), "r") as f:
+        species = [text(s) for s in f["species"][()]]
+        ratios = [text(s) for s in f["ratio"][()]] if "ratio" in f else []
+        time = f["time"][()]
+        data: dict[str, Any] = {"time": time, "species": species, "ratio_names": ratios}
+        for name in list(SPECIES_VARIABLES) + list(TIME_VARIABLES) + [
+                "depletion_time", "initial_inventory", "species_mass", "steps",
+                "rejected_steps", "rhs_evaluations", "completed", "t_reached"]:
+            data[name] = f[name][()]
+        data["isotope_ratio"] = (f["isotope_ratio"][()] if ratios
+                                 else np.empty((len(time), 0)))
+        data["config"] = text(f.attrs["config"])
+        changes = json.loads(text(f.attrs.get("regime_changes", "[]")))
+        data["regime_changes"] = [(c["time_s"], c["from"], c["to"]) for c in changes]
+    return EvolutionResult(data)
