@@ -14,6 +14,7 @@ from .diffusion import (
     diffusion_limited_flux,
     diffusion_pairs,
 )
+from .evolution import evolve
 from .jeans import (
     TailDepletion,
     escape_speed,
@@ -32,8 +33,6 @@ from .maxwell import (
     rms_speed,
     speed_pdf,
 )
-from .species import Species, register_species, species, species_names
-from .evolution import evolve
 from .model import (
     REGIMES,
     EnergyLimitedEscape,
@@ -52,6 +51,7 @@ from .model import (
     roche_lobe_ratio,
 )
 from .result import EvolutionResult, open_result
+from .species import Species, register_species, species, species_names
 from .thermosphere import (
     Exobase,
     ExobaseStatus,

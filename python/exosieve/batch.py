@@ -56,11 +56,9 @@ from numpy.typing import NDArray
 from . import _core
 from . import constants as c
 from .catalogue import CaseTable, load_cases
+from .model import REGIMES
 
-__all__ = ["compare", "Comparison", "open_comparison", "Interrupted", "REGIMES"]
-
-#: Regime names by code (-1: none).
-REGIMES: tuple[str, ...] = ("jeans", "enhanced_jeans", "transition", "hydrodynamic")
+__all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
 
 # Case variables of a result file: name, dtype, dimensions after `case`, units, long name.
 _VARIABLES: list[tuple[str, type, list[str], str, str]] = [

@@ -338,7 +338,7 @@ def read_case_table(path: str | Path, errors: str = "raise") -> CaseTable:
     Examples
     --------
     >>> table = read_case_table(demo_catalogue_path())
-    >>> table.names[0], round(table.column("planet_mass")[0] / 5.9722e24, 2)
+    >>> table.names[0], round(float(table.column("planet_mass")[0]) / 5.9722e24, 2)
     ('Ithrel b', 0.62)
     """
     _check_errors(errors)
@@ -375,7 +375,7 @@ def case_table_from_frame(
     >>> import pandas as pd
     >>> from exosieve.constants import M_EARTH
     >>> frame = pd.DataFrame({"case": ["A"], "planet_mass [M_earth]": [2.0], "x_N2": [1.0]})
-    >>> case_table_from_frame(frame).column("planet_mass")[0] / M_EARTH
+    >>> float(case_table_from_frame(frame).column("planet_mass")[0] / M_EARTH)
     2.0
     """
     _check_errors(errors)
