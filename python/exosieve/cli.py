@@ -152,7 +152,11 @@ def _summary(args: argparse.Namespace) -> int:
 
 
 def _chart(args: argparse.Namespace) -> int:
-    import matplotlib
+    try:
+        import matplotlib
+    except ImportError:
+        print("exosieve: error: 'chart' needs matplotlib (pip install matplotlib)", file=sys.stderr)
+        return 2
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt

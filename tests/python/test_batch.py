@@ -135,69 +135,99 @@ def test_same_seed_same_results_for_any_thread_count(tmp_path):
     assert same(one["final_retained_fraction"], other["final_retained_fraction"])
 
 
-def test_summary_matches_single_evolve_runs(tmp_path):
-    path = write(tmp_path, rows(5))
-    table = read_case_table(path)
-    result = compare(path, t_end=GYR_45, samples=8, seed=5, threads=2, retain=0.4)
+def test_summary_matches_single_evolve_runs():
+    # Two cases at a constant exobase temperature, two on the XUV law of their star.
+    nan = np.nan
+    frame = pd.DataFrame(
+        {
+            "case": ["A", "B", "C", "D"],
+            "planet_mass [M_earth]": [0.8, 1.0, 1.2, 0.7],
+            "planet_mass_sigma [M_earth]": [0.1, 0.1, 0.2, 0.1],
+            "planet_radius [R_earth]": [0.95, 1.0, 1.1, 0.9],
+            "semi_major_axis [au]": [0.3, 0.3, 0.5, 1.0],
+            "star_mass [M_sun]": [0.8] * 4,
+            "star_luminosity [L_sun]": [0.5] * 4,
+            "exobase_altitude [km]": [500.0] * 4,
+            "exobase_density [m-3]": [1e13] * 4,
+            "exobase_temperature [K]": [900.0, 1300.0, nan, nan],
+            "exobase_temperature_lnsigma [1]": [0.15, 0.15, nan, nan],
+            "temperature_reference [K]": [nan, nan, 1000.0, 1000.0],
+            "temperature_reference_flux [W m-2]": [nan, nan, 4.6e-3, 4.6e-3],
+            "temperature_exponent [1]": [nan, nan, 0.5, 0.7],
+            "temperature_min [K]": [nan, nan, 300.0, 300.0],
+            "temperature_max [K]": [nan, nan, 3000.0, 3000.0],
+            "inventory [particles]": [1e37] * 4,
+            "x_N2": [0.7] * 4,
+            "x_He": [0.25] * 4,
+            "x_H": [0.05] * 4,
+        }
+    )
+    result = compare(frame, t_end=GYR_45, samples=8, seed=5, threads=2, retain=0.4)
     summary = result.summary.set_index(["case", "species"])
-    names = ["N2", "He", "H"]
-    x = np.array([0.7, 0.25, 0.05])
-    for row in range(5):
-        # The same model built directly from the physical inputs (SI), one evolve() each.
-        mass = table.column("planet_mass")[row]
-        config = _core.EvolutionConfig(_core.Planet(mass, c.R_EARTH))
-        config.species = [exosieve.species(n) for n in names]
-        config.exobase = _core.PrescribedExobase(
-            c.R_EARTH + 500e3, names, list(x * 1e13), _core.DensityScaling.inventory
+    x = {"N2": 0.7, "He": 0.25, "H": 0.05}
+    core_table = case_table_from_frame(frame).to_core()
+
+    def single(row, drawn):
+        """The same case through the public single-run API (exosieve.evolve)."""
+        star = exosieve.Star(drawn["star_mass"], drawn["star_luminosity"])
+        planet = exosieve.Planet(
+            drawn["planet_mass"], drawn["planet_radius"], drawn["semi_major_axis"], star
         )
-        config.initial_inventory = list(1e37 * x / x.sum())
-        config.temperature = _core.ExobaseTemperature.constant(
-            table.column("exobase_temperature")[row]
-        )
-        config.t_start, config.t_end = 10 * c.MYR, GYR_45
-        config.t_eval = np.array([10 * c.MYR, GYR_45])
-        config.rtol = 1e-6
-        r = _core.evolve(config)
-        left = r.inventory[-1] / np.array(config.initial_inventory)
-        lam = r.jeans_parameter
-        for j, name in enumerate(names):
-            line = summary.loc[(f"P{row}", name)]
-            assert line["final_retained_fraction"] == pytest.approx(left[j], rel=1e-9, abs=1e-300)
-            assert line["retained"] == (left[j] > 0.4)
-            assert same(line["depletion_time"], r.depletion_time[j])
-            assert line["efolding_time"] == pytest.approx(r.inventory[0, j] / r.escape_rate[0, j])
-            assert line["jeans_parameter_start"] == pytest.approx(lam[0, j], rel=1e-12)
-            assert line["jeans_parameter_end"] == pytest.approx(lam[-1, j], rel=1e-12)
-            assert line["regime_start"] == _core.regime_name(
-                int(_core.classify_regime(np.array([lam[0, j]]), _core.RegimeThresholds())[0])
+        if "exobase_temperature" in drawn:
+            temperature = drawn["exobase_temperature"]
+        else:
+            temperature = exosieve.XuvTemperature(
+                drawn["temperature_reference"],
+                drawn["temperature_reference_flux"],
+                drawn["temperature_exponent"],
+                drawn["temperature_min"],
+                drawn["temperature_max"],
             )
-        # Monte Carlo: each sample is the run of the drawn parameters; the probability and the
-        # percentiles are those of the sampled fractions (numpy as the reference).
-        core_table = table.to_core()
-        options = _core.BatchOptions(
-            species=names,
-            times=result.times,
-            t_start=10 * c.MYR,
-            t_end=GYR_45,
-            rtol=1e-6,
-            max_steps=100000,
-            depletion_fraction=1e-3,
-            thresholds=_core.RegimeThresholds(),
-            samples=8,
-            seed=5,
-            threads=1,
-            chunk_size=1,
+        exobase = exosieve.PrescribedExobase(
+            drawn["planet_radius"] + drawn["exobase_altitude"],
+            temperature,
+            {k: v * drawn["exobase_density"] for k, v in x.items()},
         )
+        inventory = {k: v * drawn["inventory"] / sum(x.values()) for k, v in x.items()}
+        t_span = (10 * c.MYR, GYR_45)
+        return exosieve.evolve(planet, exobase, inventory, t_span, t_eval=t_span, rtol=1e-6)
+
+    thresholds = _core.RegimeThresholds()
+    for row, case in enumerate("ABCD"):
+        r = single(row, _core.case_values(core_table, row))
+        for name in x:
+            line = summary.loc[(case, name)]
+            n = r.inventory[name]
+            lam = r.jeans_parameter[name]
+            assert line["final_retained_fraction"] == pytest.approx(n[-1] / n[0], rel=1e-9)
+            assert line["retained"] == (n[-1] / n[0] > 0.4)
+            depleted = r.depletion_time[name]
+            assert same(line["depletion_time"], np.nan if depleted is None else depleted)
+            assert line["efolding_time"] == pytest.approx(n[0] / r.escape_rate[name][0])
+            assert line["jeans_parameter_start"] == pytest.approx(lam[0], rel=1e-12)
+            assert line["jeans_parameter_end"] == pytest.approx(lam[-1], rel=1e-12)
+            code = _core.classify_regime(np.array([lam[0]]), thresholds)[0]
+            assert line["regime_start"] == _core.regime_name(int(code))
+        if case in "CD":  # the XUV law cools the exobase: lambda rises over the run
+            assert (
+                summary.loc[(case, "H"), "jeans_parameter_end"]
+                > summary.loc[(case, "H"), "jeans_parameter_start"]
+            )
+        # Monte Carlo: each sample is the single run of its drawn parameters; the probability
+        # and the percentiles are those of the sampled fractions (numpy as the reference).
         for k in (0, 7):
             drawn = _core.case_values(core_table, row, 5, k)
-            assert drawn["planet_radius"] == c.R_EARTH  # no uncertainty given
-            rs = _core.evolve(_core.case_config(core_table, row, options, k))
-            sampled = result["sample_retained_fraction"][row, k]
-            assert same(sampled, rs.inventory[-1] / np.array(config.initial_inventory))
+            assert drawn["planet_radius"] == result["planet_radius"][row]  # no uncertainty
+            rs = single(row, drawn)
+            for j, name in enumerate(x):
+                got = result["sample_retained_fraction"][row, k, j]
+                n = rs.inventory[name]
+                assert got == pytest.approx(n[-1] / n[0], rel=1e-9, abs=1e-300)
         draws = result["sample_retained_fraction"][row, :, 1]
-        line = summary.loc[(f"P{row}", "He")]
+        line = summary.loc[(case, "He")]
         assert line["probability_retained"] == np.mean(draws > 0.4)
         assert line["retained_fraction_p50"] == pytest.approx(np.percentile(draws, 50))
+        assert line["samples_ok"] == 8
 
 
 def test_result_file_layout(tmp_path):
