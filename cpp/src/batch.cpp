@@ -382,8 +382,14 @@ CaseSpec case_from_table(const CaseTable& table, std::size_t row) {
                 ends_with(name, "_lnsigma"))
                 continue;
             const auto it = s.values.find(name);
-            if (it != s.values.end() && it->second > 0.0)
-                s.species.push_back(default_registry().get(name.substr(2)));
+            if (it != s.values.end() && it->second > 0.0) {
+                // The numbers only: the source texts would be copied with every run.
+                Species sp = default_registry().get(name.substr(2));
+                sp.mass_source.clear();
+                sp.lj_source.clear();
+                sp.cross_section_source.clear();
+                s.species.push_back(std::move(sp));
+            }
         }
         if (s.species.empty())
             throw InputError("no species: every mole fraction 'x_<species>' is zero or empty");
@@ -653,9 +659,9 @@ namespace {
 bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
               const std::vector<std::size_t>& column, std::size_t c, BatchChunk& out,
               const std::atomic<bool>& cancel) {
-    const CaseSpec drawn =
-        sample < 0 ? spec : sample_case(spec, o.seed, static_cast<std::uint64_t>(sample));
-    EvolutionConfig config = build_config(drawn, o);
+    EvolutionConfig config =
+        sample < 0 ? build_config(spec, o)
+                   : build_config(sample_case(spec, o.seed, static_cast<std::uint64_t>(sample)), o);
     config.progress = [&cancel](double) { return !cancel.load(std::memory_order_relaxed); };
     const EvolutionResult r = evolve(config);
     if (!r.completed)
@@ -733,19 +739,14 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
     check_table_columns(table);
     o.validate();
 
-    // Every row is checked before any run; invalid rows are an InputError unless preset as
-    // row errors (then they are reported in their chunk).
-    std::map<std::size_t, std::string> invalid;
-    {
+    // Unless invalid rows are to be reported, every row is checked before any run.
+    if (!o.skip_invalid) {
         const std::vector<std::string> errors = check_rows(table, o, begin, end);
         std::string listed;
         std::size_t bad = 0;
         for (std::size_t i = begin; i < end; ++i) {
             const std::string& e = errors[i - begin];
-            if (e.empty())
-                continue;
-            invalid[i] = e;
-            if (o.skip_invalid || (!table.row_errors.empty() && !table.row_errors[i].empty()))
+            if (e.empty() || (!table.row_errors.empty() && !table.row_errors[i].empty()))
                 continue;
             if (bad < 10)
                 listed += "\n  " + e;
@@ -780,12 +781,22 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
             const std::size_t row = begin + first + j;
             s.out.key[j] = table.first_key + row;
             s.out.name[j] = table.names[row];
-            const auto bad = invalid.find(row);
-            if (bad != invalid.end()) {
-                s.specs[j].error = bad->second;
+            if (!table.row_errors.empty() && !table.row_errors[row].empty()) {
+                s.specs[j].error = table.row_errors[row];
                 continue;
             }
-            s.specs[j] = case_from_table(table, row);
+            try {
+                s.specs[j] = case_from_table(table, row);
+                for (const Species& sp : s.specs[j].species)
+                    if (std::find(o.species.begin(), o.species.end(), sp.name) == o.species.end())
+                        throw InputError(s.specs[j].label + " (case '" + s.specs[j].name +
+                                         "'), species '" + sp.name +
+                                         "' is not among the batch's species");
+            } catch (const InputError& e) {
+                s.specs[j] = CaseSpec{};
+                s.specs[j].error = e.what();
+                continue;
+            }
             for (std::size_t i = 0; i < S; ++i) {
                 const auto x = s.specs[j].values.find("x_" + o.species[i]);
                 s.out.mole_fraction[j * S + i] = x == s.specs[j].values.end() ? 0.0 : x->second;
@@ -831,6 +842,9 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
             } else {
                 try {
                     finished = run_case(spec, sample, o, s.columns[j], j, s.out, cancel);
+                } catch (const InputError& e) {
+                    // As check_table() words it: where, then what.
+                    failure = spec.label + " (case '" + spec.name + "'), " + e.what();
                 } catch (const std::exception& e) {
                     failure = e.what();
                 } catch (...) {

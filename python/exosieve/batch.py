@@ -758,7 +758,6 @@ def compare(
         "seed": int(seed),
         "skip_invalid": bad_rows == "report",
     }
-    core_options = _core_options(options, threads=int(threads or 0), chunk_size=chunk)
     config = {
         "kind": "exosieve.compare",
         "version": _core.__version__,
@@ -790,11 +789,13 @@ def compare(
         },
         "summary": {"retain": float(retain), "percentiles": [float(q) for q in percentiles]},
     }
-    core_table = table.to_core()
-    if client is not None:
-        # Every row is checked here, before any work is sent out.
-        errors = _core.check_case_table(core_table, core_options)
-        _raise_for_rows(errors, table, bad_rows)
+    # The table goes to the engine in blocks of whole chunks, so that the engine's copy of it
+    # stays small; the engine reports invalid rows (skip_invalid) and never checks twice.
+    block = chunk * max(1, 16384 // chunk)
+    options["skip_invalid"] = True
+    core_options = _core_options(options, threads=int(threads or 0), chunk_size=chunk)
+    if bad_rows == "raise":
+        _raise_for_rows(table, block, core_options)  # every row, before any run or file
     sink: _FileSink | _MemorySink
     if output is not None:
         sink = _FileSink(Path(output), config, species, grid, int(samples), overwrite)
@@ -805,17 +806,16 @@ def compare(
     runs_per_case = 1 + int(samples)
     interrupted = False
     try:
-        if begin < len(table):
-            if client is None:
+        if client is not None and begin < len(table):
+            _run_distributed(client, table, begin, options, chunk, threads, sink, bar)
+        for first in range(begin, len(table) if client is None else begin, block):
+            last = min(first + block, len(table))
+            part = table.to_core(first_key=first, rows=slice(first, last))
 
-                def on_progress(done: int, total: int) -> None:
-                    bar.update(begin + done // runs_per_case)
+            def on_progress(done: int, total: int, first: int = first) -> None:
+                bar.update(first + done // runs_per_case)
 
-                _core.run_batch(
-                    core_table, begin, len(table), core_options, sink.append, on_progress
-                )
-            else:
-                _run_distributed(client, table, begin, options, chunk, threads, sink, bar)
+            _core.run_batch(part, 0, last - first, core_options, sink.append, on_progress)
         bar.update(sink.completed)
     except KeyboardInterrupt:
         interrupted = True
@@ -836,15 +836,20 @@ def _core_options(options: dict[str, Any], threads: int, chunk_size: int) -> Any
     return _core.BatchOptions(threads=threads, chunk_size=chunk_size, **kwargs)
 
 
-def _raise_for_rows(errors: list[str], table: CaseTable, bad_rows: str) -> None:
-    bad = [e for e in errors if e]
-    if not bad or bad_rows == "report":
-        return
-    listed = "".join(f"\n  {e}" for e in bad[:10])
-    more = "\n  ..." if len(bad) > 10 else ""
-    raise ValueError(
-        f"case table: {len(bad)} invalid row{'s' if len(bad) > 1 else ''}{listed}{more}"
-    )
+def _raise_for_rows(table: CaseTable, block: int, core_options: Any) -> None:
+    """ValueError listing the first ten invalid rows (row and column named) and their number."""
+    listed: list[str] = []
+    bad = 0
+    for first in range(0, len(table), block):
+        part = table.to_core(first_key=first, rows=slice(first, min(first + block, len(table))))
+        for error in _core.check_case_table(part, core_options):
+            if error:
+                bad += 1
+                if len(listed) < 10:
+                    listed.append(error)
+    if bad:
+        text = "".join(f"\n  {e}" for e in listed) + ("\n  ..." if bad > 10 else "")
+        raise ValueError(f"case table: {bad} invalid row{'s' if bad > 1 else ''}{text}")
 
 
 # --- Dask -------------------------------------------------------------------------------------
@@ -894,7 +899,7 @@ def _run_distributed(
     table order as soon as every earlier chunk is in."""
     from distributed import as_completed
 
-    options = dict(options, skip_invalid=True)  # rows were checked before any work
+    options = dict(options)
     options["times"] = np.asarray(options["times"], dtype=float)
     starts = iter(range(begin, len(table), chunk))
     workers = max(1, len(client.scheduler_info().get("workers", {})))

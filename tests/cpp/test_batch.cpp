@@ -230,6 +230,21 @@ TEST_CASE("case tables: columns and rows are checked with the row and the column
     CHECK(out[0].error[1].find("column 'planet_mass'") != std::string::npos);
     CHECK(std::isnan(out[0].final_retained[1 * 3 + 0]));
     CHECK(std::isfinite(out[0].final_retained[2 * 3 + 0]));
+
+    // Reported rows name the row and the column whether the row or its model is at fault.
+    CaseTable starless = t;
+    set_column(starless, "semi_major_axis", {missing, constants::au, missing});
+    const auto out2 = run(starless, skip, &st);
+    CHECK(out2[0].error[1] ==
+          "line 6 (case 'case 1'), column 'star_mass': no value given (a semi_major_axis needs "
+          "the star)");
+    CHECK(check_table(starless, options(1))[1] == out2[0].error[1]);
+    BatchOptions fewer = skip;
+    fewer.species = {"N2", "He"};
+    const auto out3 = run(t, fewer, &st);
+    CHECK(st.cases_failed == 3);
+    CHECK(out3[0].error[0].find("species 'H' is not among the batch's species") !=
+          std::string::npos);
 }
 
 TEST_CASE("configs from cases: inventories, temperature histories, spans") {

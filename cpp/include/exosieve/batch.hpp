@@ -87,7 +87,8 @@ struct BatchOptions {
     std::size_t threads = 0;          //!< worker threads (0: all hardware threads)
     std::size_t chunk_size = 256;     //!< cases per chunk handed to the chunk callback (> 0)
     std::size_t chunks_in_flight = 2; //!< chunks computed ahead of the callback (>= 1)
-    //! Report invalid rows in their chunk instead of raising InputError before any run.
+    //! Report invalid rows with their error in their chunk instead of checking every row first
+    //! and raising InputError before any run.
     bool skip_invalid = false;
 
     //! Throw InputError naming the option and its value for anything that cannot run.
@@ -212,10 +213,11 @@ struct BatchStatus {
 };
 
 //! Run rows [begin, end) of `table` on options.threads threads and hand the results to
-//! hooks.on_chunk chunk by chunk, in order. Every row is checked first: rows with a preset row
-//! error, and with options.skip_invalid every invalid row, are reported with their error in their
-//! chunk; otherwise an invalid row raises InputError (listing up to ten) before any run.
-//! A run that fails numerically is reported in its chunk and every other run completes.
+//! hooks.on_chunk chunk by chunk, in order. Unless options.skip_invalid, every row is checked
+//! first and an invalid one raises InputError (listing up to ten) before any run; with it, an
+//! invalid row is reported with its error (naming the row and the column) in its chunk. Rows
+//! with a preset row error are always reported with it. A run that fails numerically is
+//! reported in its chunk and every other run completes.
 //! Cancelling (on_progress returns false) stops the workers within one integration step; the
 //! chunks handed out before stay handed out. An exception from a hook stops the batch and is
 //! rethrown after the workers have stopped.
