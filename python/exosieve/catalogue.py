@@ -139,17 +139,13 @@ class CaseTable:
     def fingerprint(self) -> str:
         """SHA-256 of the table's content in SI (names, columns and text), for resuming runs."""
         digest = hashlib.sha256()
-        for name in self.names:
-            digest.update(name.encode() + b"\0")
+        digest.update("\0".join(self.names).encode() + b"\1")
         for name in sorted(self.columns):
             digest.update(name.encode() + b"\0")
             digest.update(np.asarray(self.columns[name], dtype="<f8").tobytes())
         for name in sorted(self.text_columns):
-            digest.update(name.encode() + b"\0")
-            for text in self.text_columns[name]:
-                digest.update(text.encode() + b"\0")
-        for text in self.row_errors:
-            digest.update(text.encode() + b"\0")
+            digest.update(name.encode() + b"\0" + "\0".join(self.text_columns[name]).encode())
+        digest.update("\0".join(self.row_errors).encode())
         return digest.hexdigest()
 
     def to_core(self, first_key: int = 0, rows: slice | None = None) -> Any:
@@ -262,7 +258,10 @@ class _Reader:
             raw = np.asarray(column, dtype=object) if not _is_float_array(column) else column
             if name in table.text_columns:
                 table.text_columns[name] = [
-                    "" if _is_missing(value) else str(value).strip() for value in raw
+                    value.strip()
+                    if type(value) is str and value.strip().lower() != "nan"
+                    else ("" if _is_missing(value) else str(value).strip())
+                    for value in raw
                 ]
                 continue
             values, bad = _numbers(raw)
