@@ -4,7 +4,9 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import signal
+import sys
 
 import numpy as np
 import pytest
@@ -312,3 +314,16 @@ def test_dask_cluster_gives_the_local_results(tmp_path):
     assert remote.path is not None
     same_results(local, remote)
     same_results(local, open_comparison(out))
+
+
+def test_progress_reports_cases_rate_and_time_left(tmp_path, monkeypatch, capsys):
+    path = write(tmp_path, rows(6))
+    seen = []
+    compare(path, t_end=GYR_45, threads=1, chunk_size=2, progress=lambda d, t: seen.append((d, t)))
+    assert seen[-1] == (6, 6) and all(t == 6 for _, t in seen)
+    assert [d for d, _ in seen] == sorted(d for d, _ in seen)
+    # Without tqdm: a plain line on stderr with the rate and the time left.
+    monkeypatch.setitem(sys.modules, "tqdm", None)
+    compare(path, t_end=GYR_45, threads=1, progress=True)
+    line = capsys.readouterr().err.strip().split("\r")[-1]
+    assert re.fullmatch(r"6/6 cases \(100%\), [\d.]+ cases/s, 00:00 left, \d\d:\d\d elapsed", line)
