@@ -45,12 +45,12 @@ std::vector<double> to_vector(const DoubleArray& a) {
 }
 
 // Apply a scalar function elementwise (the facade broadcasts; the loop runs here, in C++).
-template <class F>
-py::array_t<double> map(const DoubleArray& in, F f) {
+template <class F> py::array_t<double> map(const DoubleArray& in, F f) {
     py::array_t<double> out(in.size());
     const double* x = in.data();
     double* y = out.mutable_data();
-    for (py::ssize_t i = 0; i < in.size(); ++i) y[i] = f(x[i]);
+    for (py::ssize_t i = 0; i < in.size(); ++i)
+        y[i] = f(x[i]);
     return out;
 }
 
@@ -80,11 +80,12 @@ void bind_evolution(py::module_& m) {
         .def_property_readonly("mass", &Star::mass)
         .def_property_readonly("luminosity", &Star::luminosity)
         .def_property_readonly("xuv", &Star::xuv)
-        .def("xuv_luminosity",
-             [](const Star& s, const DoubleArray& t) {
-                 return map(t, [&](double x) { return s.xuv_luminosity(x); });
-             },
-             py::arg("t"))
+        .def(
+            "xuv_luminosity",
+            [](const Star& s, const DoubleArray& t) {
+                return map(t, [&](double x) { return s.xuv_luminosity(x); });
+            },
+            py::arg("t"))
         .def(py::pickle(
             [](const Star& s) {
                 const XuvHistory& x = s.xuv();
@@ -109,11 +110,12 @@ void bind_evolution(py::module_& m) {
         .def_property_readonly("semi_major_axis", &Planet::semi_major_axis)
         .def_property_readonly("star", &Planet::star)
         .def_property_readonly("surface_gravity", &Planet::surface_gravity)
-        .def("xuv_flux",
-             [](const Planet& p, const DoubleArray& t) {
-                 return map(t, [&](double x) { return p.xuv_flux(x); });
-             },
-             py::arg("t"));
+        .def(
+            "xuv_flux",
+            [](const Planet& p, const DoubleArray& t) {
+                return map(t, [&](double x) { return p.xuv_flux(x); });
+            },
+            py::arg("t"));
 
     // --- hydrodynamic ----------------------------------------------------------------------
     py::class_<RegimeThresholds>(m, "RegimeThresholds", "Jeans-parameter regime thresholds [1]")
@@ -125,29 +127,46 @@ void bind_evolution(py::module_& m) {
                  t.validate();
                  return t;
              }),
-             py::arg("enhanced") = 6.0, py::arg("transition") = 3.0,
-             py::arg("hydrodynamic") = 2.1)
+             py::arg("enhanced") = 6.0, py::arg("transition") = 3.0, py::arg("hydrodynamic") = 2.1)
+        .def(py::pickle(
+            [](const RegimeThresholds& t) {
+                return py::make_tuple(t.enhanced, t.transition, t.hydrodynamic);
+            },
+            [](const py::tuple& s) {
+                RegimeThresholds t;
+                t.enhanced = s[0].cast<double>();
+                t.transition = s[1].cast<double>();
+                t.hydrodynamic = s[2].cast<double>();
+                t.validate();
+                return t;
+            }))
         .def_readonly("enhanced", &RegimeThresholds::enhanced)
         .def_readonly("transition", &RegimeThresholds::transition)
         .def_readonly("hydrodynamic", &RegimeThresholds::hydrodynamic);
 
-    m.def("classify_regime",
-          [](const DoubleArray& lambda, const RegimeThresholds& t) {
-              py::array_t<std::int64_t> out(lambda.size());
-              for (py::ssize_t i = 0; i < lambda.size(); ++i)
-                  out.mutable_data()[i] = static_cast<std::int64_t>(classify_regime(lambda.data()[i], t));
-              return out;
-          },
-          py::arg("jeans_parameter"), py::arg("thresholds"));
+    m.def(
+        "classify_regime",
+        [](const DoubleArray& lambda, const RegimeThresholds& t) {
+            py::array_t<std::int64_t> out(lambda.size());
+            for (py::ssize_t i = 0; i < lambda.size(); ++i)
+                out.mutable_data()[i] =
+                    static_cast<std::int64_t>(classify_regime(lambda.data()[i], t));
+            return out;
+        },
+        py::arg("jeans_parameter"), py::arg("thresholds"));
     m.def("regime_name", [](int code) {
-        if (code < 0 || code > 3) throw InputError("regime code must be 0..3, got " + std::to_string(code));
+        if (code < 0 || code > 3)
+            throw InputError("regime code must be 0..3, got " + std::to_string(code));
         return std::string(regime_name(static_cast<Regime>(code)));
     });
     m.def("roche_lobe_ratio", &roche_lobe_ratio, py::arg("planet_mass"), py::arg("star_mass"),
           py::arg("semi_major_axis"), py::arg("radius"));
-    m.def("roche_lobe_factor",
-          [](const DoubleArray& xi) { return map(xi, [](double x) { return roche_lobe_factor(x); }); },
-          py::arg("xi"));
+    m.def(
+        "roche_lobe_factor",
+        [](const DoubleArray& xi) {
+            return map(xi, [](double x) { return roche_lobe_factor(x); });
+        },
+        py::arg("xi"));
     m.def("energy_limited_mass_loss", &energy_limited_mass_loss, py::arg("efficiency"),
           py::arg("planet_radius"), py::arg("xuv_radius"), py::arg("xuv_flux"),
           py::arg("planet_mass"), py::arg("roche_factor") = 1.0);
@@ -164,8 +183,10 @@ void bind_evolution(py::module_& m) {
         .value("always", HydrodynamicActivation::Always);
 
     py::class_<DiffusionLaw>(m, "DiffusionLaw", "b(T) = A T^s [m^-1 s^-1]")
-        .def(py::init([](double a, double s) { return DiffusionLaw{a, s}; }), py::arg("coefficient"),
-             py::arg("exponent") = 0.0)
+        .def(py::init([](double a, double s) {
+                 return DiffusionLaw{a, s};
+             }),
+             py::arg("coefficient"), py::arg("exponent") = 0.0)
         .def_readonly("coefficient", &DiffusionLaw::coefficient)
         .def_readonly("exponent", &DiffusionLaw::exponent)
         .def("__call__", &DiffusionLaw::operator(), py::arg("temperature"));
@@ -196,11 +217,12 @@ void bind_evolution(py::module_& m) {
     // --- exobase models and histories -----------------------------------------------------------
     py::class_<ExobaseTemperature>(m, "ExobaseTemperature", "Exobase temperature history")
         .def_static("constant", &ExobaseTemperature::constant, py::arg("temperature"))
-        .def_static("table",
-                    [](const DoubleArray& times, const DoubleArray& temps) {
-                        return ExobaseTemperature::table(to_vector(times), to_vector(temps));
-                    },
-                    py::arg("times"), py::arg("temperatures"))
+        .def_static(
+            "table",
+            [](const DoubleArray& times, const DoubleArray& temps) {
+                return ExobaseTemperature::table(to_vector(times), to_vector(temps));
+            },
+            py::arg("times"), py::arg("temperatures"))
         .def_static("xuv_power_law", &ExobaseTemperature::xuv_power_law,
                     py::arg("reference_temperature"), py::arg("reference_flux"),
                     py::arg("exponent"), py::arg("minimum"), py::arg("maximum"))
@@ -253,22 +275,24 @@ void bind_evolution(py::module_& m) {
                          const TailDepletion& tail) {
                  if (method != "measured" && method != "chapman_enskog")
                      throw InputError("diffusion method must be 'measured' or 'chapman_enskog', "
-                                      "got '" + method + "'");
-                 return std::make_shared<ThermosphereExobase>(
-                     t, species, limit_by_diffusion,
-                     method == "measured" ? DiffusionMethod::measured_first
-                                          : DiffusionMethod::chapman_enskog,
-                     tail);
+                                      "got '" +
+                                      method + "'");
+                 return std::make_shared<ThermosphereExobase>(t, species, limit_by_diffusion,
+                                                              method == "measured"
+                                                                  ? DiffusionMethod::measured_first
+                                                                  : DiffusionMethod::chapman_enskog,
+                                                              tail);
              }),
              py::arg("thermosphere"), py::arg("species"), py::arg("limit_by_diffusion"),
              py::arg("method"), py::arg("tail"))
-        .def("at",
-             [](const ThermosphereExobase& e, double temperature, const DoubleArray& log_fraction) {
-                 if (static_cast<std::size_t>(log_fraction.size()) != e.species_names().size())
-                     throw InputError("log_fraction: need one value per species");
-                 return e.at(temperature, log_fraction.data());
-             },
-             py::arg("temperature"), py::arg("log_fraction"));
+        .def(
+            "at",
+            [](const ThermosphereExobase& e, double temperature, const DoubleArray& log_fraction) {
+                if (static_cast<std::size_t>(log_fraction.size()) != e.species_names().size())
+                    throw InputError("log_fraction: need one value per species");
+                return e.at(temperature, log_fraction.data());
+            },
+            py::arg("temperature"), py::arg("log_fraction"));
 
     py::class_<SourceRate>(m, "SourceRate", "Source of one species [s^-1]")
         .def(py::init<>())
@@ -287,7 +311,10 @@ void bind_evolution(py::module_& m) {
         .def_readwrite("species", &EvolutionConfig::species)
         .def_readwrite("initial_inventory", &EvolutionConfig::initial_inventory)
         .def_property(
-            "exobase", [](const EvolutionConfig& c) { return std::const_pointer_cast<ExobaseModel>(c.exobase); },
+            "exobase",
+            [](const EvolutionConfig& c) {
+                return std::const_pointer_cast<ExobaseModel>(c.exobase);
+            },
             [](EvolutionConfig& c, std::shared_ptr<ExobaseModel> e) { c.exobase = std::move(e); })
         .def_readwrite("temperature", &EvolutionConfig::temperature)
         .def_readwrite("sources", &EvolutionConfig::sources)
@@ -313,34 +340,44 @@ void bind_evolution(py::module_& m) {
 
     py::class_<RegimeChange>(m, "RegimeChange")
         .def_readonly("time", &RegimeChange::time)
-        .def_property_readonly("from_regime", [](const RegimeChange& c) { return static_cast<int>(c.from); })
-        .def_property_readonly("to_regime", [](const RegimeChange& c) { return static_cast<int>(c.to); });
+        .def_property_readonly("from_regime",
+                               [](const RegimeChange& c) { return static_cast<int>(c.from); })
+        .def_property_readonly("to_regime",
+                               [](const RegimeChange& c) { return static_cast<int>(c.to); });
 
     py::class_<EvolutionResult>(m, "EvolutionResult", "Raw output of evolve() [SI]")
         .def_readonly("species", &EvolutionResult::species)
         .def_readonly("ratio_names", &EvolutionResult::ratio_names)
         .def_property_readonly("time", [](const EvolutionResult& r) { return vector(r.time); })
-        .def_property_readonly("inventory", [](const EvolutionResult& r) {
-            return matrix(r.inventory, r.time_count(), r.species_count());
-        })
-        .def_property_readonly("escape_rate", [](const EvolutionResult& r) {
-            return matrix(r.escape_rate, r.time_count(), r.species_count());
-        })
-        .def_property_readonly("source_rate", [](const EvolutionResult& r) {
-            return matrix(r.source_rate, r.time_count(), r.species_count());
-        })
-        .def_property_readonly("jeans_parameter", [](const EvolutionResult& r) {
-            return matrix(r.jeans_parameter, r.time_count(), r.species_count());
-        })
-        .def_property_readonly("isotope_ratio", [](const EvolutionResult& r) {
-            return matrix(r.isotope_ratio, r.time_count(), r.ratio_names.size());
-        })
+        .def_property_readonly("inventory",
+                               [](const EvolutionResult& r) {
+                                   return matrix(r.inventory, r.time_count(), r.species_count());
+                               })
+        .def_property_readonly("escape_rate",
+                               [](const EvolutionResult& r) {
+                                   return matrix(r.escape_rate, r.time_count(), r.species_count());
+                               })
+        .def_property_readonly("source_rate",
+                               [](const EvolutionResult& r) {
+                                   return matrix(r.source_rate, r.time_count(), r.species_count());
+                               })
+        .def_property_readonly("jeans_parameter",
+                               [](const EvolutionResult& r) {
+                                   return matrix(r.jeans_parameter, r.time_count(),
+                                                 r.species_count());
+                               })
+        .def_property_readonly("isotope_ratio",
+                               [](const EvolutionResult& r) {
+                                   return matrix(r.isotope_ratio, r.time_count(),
+                                                 r.ratio_names.size());
+                               })
         .def_property_readonly("exobase_radius",
                                [](const EvolutionResult& r) { return vector(r.exobase_radius); })
-        .def_property_readonly("exobase_temperature", [](const EvolutionResult& r) {
-            return vector(r.exobase_temperature);
-        })
-        .def_property_readonly("xuv_flux", [](const EvolutionResult& r) { return vector(r.xuv_flux); })
+        .def_property_readonly(
+            "exobase_temperature",
+            [](const EvolutionResult& r) { return vector(r.exobase_temperature); })
+        .def_property_readonly("xuv_flux",
+                               [](const EvolutionResult& r) { return vector(r.xuv_flux); })
         .def_property_readonly("regime",
                                [](const EvolutionResult& r) {
                                    py::array_t<std::int64_t> out(r.regime.size());
@@ -373,12 +410,12 @@ void bind_evolution(py::module_& m) {
     m.def(
         "write_result",
         [](const std::string& path, const py::dict& f) {
-            auto doubles = [&](const char* key) {
-                return to_vector(f[key].cast<DoubleArray>());
-            };
+            auto doubles = [&](const char* key) { return to_vector(f[key].cast<DoubleArray>()); };
             auto ints = [&](const char* key) {
-                auto a = f[key].cast<py::array_t<std::int64_t, py::array::c_style |
-                                                              py::array::forcecast>>();
+                auto a =
+                    f[key]
+                        .cast<
+                            py::array_t<std::int64_t, py::array::c_style | py::array::forcecast>>();
                 return std::vector<int>(a.data(), a.data() + a.size());
             };
             EvolutionResult r;
@@ -408,7 +445,8 @@ void bind_evolution(py::module_& m) {
                 const auto t = c.cast<py::tuple>();
                 auto code = [](const std::string& name) {
                     for (int k = 0; k < 4; ++k)
-                        if (name == regime_name(static_cast<Regime>(k))) return static_cast<Regime>(k);
+                        if (name == regime_name(static_cast<Regime>(k)))
+                            return static_cast<Regime>(k);
                     throw InputError("unknown regime name '" + name + "'");
                 };
                 r.regime_changes.push_back({t[0].cast<double>(), code(t[1].cast<std::string>()),
@@ -430,7 +468,8 @@ void bind_evolution(py::module_& m) {
             std::unique_ptr<py::error_already_set> progress_error;
             config.progress = [&](double t) {
                 const auto now = clock::now();
-                if (now - last < std::chrono::milliseconds(50)) return true;
+                if (now - last < std::chrono::milliseconds(50))
+                    return true;
                 last = now;
                 py::gil_scoped_acquire gil;
                 if (PyErr_CheckSignals() != 0) {
@@ -440,7 +479,8 @@ void bind_evolution(py::module_& m) {
                 if (!progress.is_none()) {
                     try {
                         py::object keep = progress(t);
-                        if (!keep.is_none() && !py::cast<bool>(keep)) return false;
+                        if (!keep.is_none() && !py::cast<bool>(keep))
+                            return false;
                     } catch (py::error_already_set& e) {
                         progress_error = std::make_unique<py::error_already_set>(std::move(e));
                         return false;
@@ -457,8 +497,10 @@ void bind_evolution(py::module_& m) {
                 throw;
             }
             config.progress = nullptr;
-            if (interrupted) throw py::error_already_set();
-            if (progress_error) throw std::move(*progress_error);
+            if (interrupted)
+                throw py::error_already_set();
+            if (progress_error)
+                throw std::move(*progress_error);
             return result;
         },
         py::arg("config"), py::arg("progress") = py::none());

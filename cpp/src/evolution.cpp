@@ -57,13 +57,15 @@ class LogErrorChecker {
         for (Eigen::Index i = 0; i < y_err.size(); ++i) {
             const double tol = rtol_ + std::exp((*log_atol_)[i] - y_old[i]);
             double ratio = std::abs(y_err[i]) / tol;
-            if (std::isnan(ratio)) ratio = inf; // a NaN trial step must be rejected
+            if (std::isnan(ratio))
+                ratio = inf; // a NaN trial step must be rejected
             if (ratio > largest) {
                 largest = ratio;
                 index = static_cast<std::size_t>(i);
             }
         }
-        if (worst_) *worst_ = index;
+        if (worst_)
+            *worst_ = index;
         return largest;
     }
 
@@ -111,7 +113,8 @@ class Model {
         lambda_.resize(n_);
         needs_flux_ = c.temperature.needs_xuv_flux() || c.hydrodynamic.has_value();
         log_area_factor_ = std::log(4.0 * constants::pi);
-        if (c.hydrodynamic) setup_hydrodynamic(*c.hydrodynamic);
+        if (c.hydrodynamic)
+            setup_hydrodynamic(*c.hydrodynamic);
         mode_.frozen.assign(n_, 0);
     }
 
@@ -132,7 +135,8 @@ class Model {
             double d = -std::exp(log_rate_[i] - y[i]);
             if (has_sources_) {
                 const double s = c_.sources[i](t);
-                if (s > 0.0) d += std::exp(std::log(s) - y[i]);
+                if (s > 0.0)
+                    d += std::exp(std::log(s) - y[i]);
             }
             dydt[i] = d;
         }
@@ -157,17 +161,21 @@ class Model {
         for (std::size_t i = 0; i < n_; ++i)
             s.source[i] = c_.sources.empty() ? 0.0 : c_.sources[i](t);
         for (std::size_t i = 0; i < n_; ++i)
-            if (mode.frozen[i]) s.log_rate[i] = -inf;
+            if (mode.frozen[i])
+                s.log_rate[i] = -inf;
     }
 
     // Whether energy-limited loss acts in `regime`.
     bool energy_limited_in(Regime regime) const {
-        if (!c_.hydrodynamic) return false;
+        if (!c_.hydrodynamic)
+            return false;
         switch (c_.hydrodynamic->activation) {
-        case HydrodynamicActivation::Always: return true;
+        case HydrodynamicActivation::Always:
+            return true;
         case HydrodynamicActivation::Transition:
             return regime == Regime::Transition || regime == Regime::Hydrodynamic;
-        case HydrodynamicActivation::Hydrodynamic: return regime == Regime::Hydrodynamic;
+        case HydrodynamicActivation::Hydrodynamic:
+            return regime == Regime::Hydrodynamic;
         }
         return false;
     }
@@ -176,8 +184,10 @@ class Model {
     // inventory would reach zero in finite time, where ln N is singular, so it is held at
     // depletion.
     bool loss_follows_inventory(std::size_t i, const State& y, const Mode& mode) {
-        for (std::size_t j = 0; j < n_; ++j) log_fraction_[j] = y[j] - y0_[j];
-        if (!c_.exobase->loss_follows_inventory(i, log_fraction_.data())) return false;
+        for (std::size_t j = 0; j < n_; ++j)
+            log_fraction_[j] = y[j] - y0_[j];
+        if (!c_.exobase->loss_follows_inventory(i, log_fraction_.data()))
+            return false;
         return !(mode.energy_limited && i == escaping_);
     }
 
@@ -197,15 +207,17 @@ class Model {
         xuv_radius_ = h.xuv_radius > 0.0 ? h.xuv_radius : p.radius();
         roche_ = 1.0;
         if (h.roche_lobe)
-            roche_ = roche_lobe_factor(roche_lobe_ratio(p.mass(), p.star().mass(),
-                                                        p.semi_major_axis(), p.radius()));
+            roche_ = roche_lobe_factor(
+                roche_lobe_ratio(p.mass(), p.star().mass(), p.semi_major_axis(), p.radius()));
         escaping_ = 0;
         if (h.escaping_species.empty()) {
             for (std::size_t i = 1; i < n_; ++i)
-                if (mass_[i] < mass_[escaping_]) escaping_ = i;
+                if (mass_[i] < mass_[escaping_])
+                    escaping_ = i;
         } else {
             for (std::size_t i = 0; i < n_; ++i)
-                if (c_.species[i].name == h.escaping_species) escaping_ = i;
+                if (c_.species[i].name == h.escaping_species)
+                    escaping_ = i;
         }
         laws_.assign(n_, DiffusionLaw{});
         listed_.assign(n_, 0);
@@ -221,10 +233,17 @@ class Model {
     }
 
     void evaluate(double t, const State& y, const Mode& mode) {
+        // The last stage of a Dormand–Prince step is the step's end (first same as last), where
+        // regime checks and output ask again: reuse it.
+        if (cached_ && t == cached_t_ && mode.energy_limited == cached_energy_limited_ &&
+            y == cached_y_)
+            return;
+        cached_ = false;
         ++evaluations_;
         flux_ = needs_flux_ ? c_.planet.xuv_flux(t) : nan;
         temperature_ = c_.temperature(t, flux_);
-        for (std::size_t i = 0; i < n_; ++i) log_fraction_[i] = y[i] - y0_[i];
+        for (std::size_t i = 0; i < n_; ++i)
+            log_fraction_[i] = y[i] - y0_[i];
         c_.exobase->evaluate(t, log_fraction_.data(), temperature_, state_);
         const double r = state_.radius;
         exobase_temperature_ = state_.temperature;
@@ -243,26 +262,39 @@ class Model {
                 const double log_v0 = half_log_2kT - half_log_mass_[i];
                 double lr = log_area + state_.log_density[i] + log_v0 + log_inv_two_sqrt_pi +
                             std::log1p(lambda) - lambda;
-                if (!c_.tail.is_identity()) lr += std::log(c_.tail(lambda));
+                if (!c_.tail.is_identity())
+                    lr += std::log(c_.tail(lambda));
                 log_rate_[i] = lr;
             }
-            if (state_.log_density[i] > state_.log_density[densest]) densest = i;
+            if (state_.log_density[i] > state_.log_density[densest])
+                densest = i;
         }
         bulk_regime_ = classify_regime(lambda_[densest], c_.thresholds);
-        if (mode.energy_limited) apply_energy_limited(y);
+        if (mode.energy_limited)
+            apply_energy_limited(y);
+        cached_t_ = t;
+        cached_y_ = y;
+        cached_energy_limited_ = mode.energy_limited;
+        cached_ = true;
     }
+
+    bool cached_ = false;
+    bool cached_energy_limited_ = false;
+    double cached_t_ = 0.0;
+    State cached_y_;
 
     // Energy-limited loss of the light species, shared with the species it drags; a dragged
     // species keeps its Jeans rate where that is larger.
     void apply_energy_limited(const State& y) {
         const HydrodynamicOptions& h = *c_.hydrodynamic;
-        const double mass_loss = energy_limited_mass_loss(h.efficiency, c_.planet.radius(),
-                                                          xuv_radius_, flux_, c_.planet.mass(),
-                                                          roche_);
+        const double mass_loss = energy_limited_mass_loss(
+            h.efficiency, c_.planet.radius(), xuv_radius_, flux_, c_.planet.mass(), roche_);
         double y_max = -inf;
-        for (std::size_t i = 0; i < n_; ++i) y_max = std::max(y_max, y[i]);
+        for (std::size_t i = 0; i < n_; ++i)
+            y_max = std::max(y_max, y[i]);
         double sum = 0.0;
-        for (std::size_t i = 0; i < n_; ++i) sum += std::exp(y[i] - y_max);
+        for (std::size_t i = 0; i < n_; ++i)
+            sum += std::exp(y[i] - y_max);
         for (std::size_t i = 0; i < n_; ++i) {
             mole_fraction_[i] = std::exp(y[i] - y_max) / sum;
             if (listed_[i])
@@ -273,14 +305,16 @@ class Model {
             else
                 diffusion_[i] = 0.0;
         }
-        partition_mass_loss(mass_loss, exobase_temperature_, c_.planet.mass(), escaping_, mass_.data(),
-                            mole_fraction_.data(), diffusion_.data(), n_, partition_.data());
+        partition_mass_loss(mass_loss, exobase_temperature_, c_.planet.mass(), escaping_,
+                            mass_.data(), mole_fraction_.data(), diffusion_.data(), n_,
+                            partition_.data());
         for (std::size_t i = 0; i < n_; ++i) {
             const double lp = partition_[i] > 0.0 ? std::log(partition_[i]) : -inf;
             log_rate_[i] = i == escaping_ ? lp : std::max(log_rate_[i], lp);
         }
         // A vanishing mole fraction makes the shared rate 0 * inf: rebuild it in logs.
-        if (!(mole_fraction_[escaping_] > 0.0)) log_rate_[escaping_] = -inf;
+        if (!(mole_fraction_[escaping_] > 0.0))
+            log_rate_[escaping_] = -inf;
     }
 
     const EvolutionConfig& c_;
@@ -331,7 +365,8 @@ class Recorder {
         r_.xuv_flux.push_back(s.flux);
         r_.regime.push_back(static_cast<int>(s.regime));
         r_.energy_limited.push_back(energy_limited ? 1 : 0);
-        for (const auto& [a, b] : ratios_) r_.isotope_ratio.push_back(std::exp(y[a] - y[b]));
+        for (const auto& [a, b] : ratios_)
+            r_.isotope_ratio.push_back(std::exp(y[a] - y[b]));
     }
 
   private:
@@ -343,21 +378,23 @@ class Recorder {
 std::size_t index_of(const std::vector<Species>& species, const std::string& name,
                      const char* what) {
     for (std::size_t i = 0; i < species.size(); ++i)
-        if (species[i].name == name) return i;
+        if (species[i].name == name)
+            return i;
     std::string names;
-    for (const Species& s : species) names += (names.empty() ? "" : ", ") + s.name;
+    for (const Species& s : species)
+        names += (names.empty() ? "" : ", ") + s.name;
     throw InputError(std::string(what) + " '" + name + "' is not among the species (" + names +
                      ")");
 }
 
 // Bisection for the first time in [lo, hi] where `changed(t)` holds (it holds at hi, not at
 // lo), to the resolution of doubles.
-template <class Pred>
-double locate(double lo, double hi, Pred changed) {
-    for (int k = 0; k < 200 && hi - lo > 4.0 * std::numeric_limits<double>::epsilon() * std::abs(hi);
-         ++k) {
+template <class Pred> double locate(double lo, double hi, Pred changed) {
+    for (int k = 0;
+         k < 200 && hi - lo > 4.0 * std::numeric_limits<double>::epsilon() * std::abs(hi); ++k) {
         const double mid = 0.5 * (lo + hi);
-        if (mid <= lo || mid >= hi) break;
+        if (mid <= lo || mid >= hi)
+            break;
         if (changed(mid))
             hi = mid;
         else
@@ -368,7 +405,9 @@ double locate(double lo, double hi, Pred changed) {
 
 } // namespace
 
-SourceRate::SourceRate(double rate) : rate_(rate) { require_non_negative("source rate", rate); }
+SourceRate::SourceRate(double rate) : rate_(rate) {
+    require_non_negative("source rate", rate);
+}
 
 SourceRate::SourceRate(std::vector<double> times, std::vector<double> rates) {
     for (std::size_t i = 0; i < rates.size(); ++i)
@@ -379,7 +418,8 @@ SourceRate::SourceRate(std::vector<double> times, std::vector<double> rates) {
 }
 
 std::string SourceRate::to_json() const {
-    if (table_.empty()) return JsonObject().string("kind", "constant").number("rate_s-1", rate_).str();
+    if (table_.empty())
+        return JsonObject().string("kind", "constant").number("rate_s-1", rate_).str();
     return JsonObject()
         .string("kind", "table")
         .add("times_s", json_array(table_.times()))
@@ -389,8 +429,10 @@ std::string SourceRate::to_json() const {
 
 void EvolutionConfig::validate() const {
     const std::size_t n = species.size();
-    if (n == 0) throw InputError("inventory: at least one species is needed");
-    if (!exobase) throw InputError("exobase: no exobase model given");
+    if (n == 0)
+        throw InputError("inventory: at least one species is needed");
+    if (!exobase)
+        throw InputError("exobase: no exobase model given");
     const auto& names = exobase->species_names();
     if (names.size() != n)
         throw InputError("exobase model has " + std::to_string(names.size()) +
@@ -410,8 +452,10 @@ void EvolutionConfig::validate() const {
     for (std::size_t i = 0; i < n; ++i) {
         const double v = initial_inventory[i];
         if (!std::isfinite(v) || !(v > 0.0))
-            throw InputError("inventory of " + species[i].name + " must be finite and > 0 "
-                             "[particles], got " + format_value(v) +
+            throw InputError("inventory of " + species[i].name +
+                             " must be finite and > 0 "
+                             "[particles], got " +
+                             format_value(v) +
                              (v == 0.0 ? " (the inventory is integrated in logarithms: give a "
                                          "small positive value for a species that starts absent)"
                                        : ""));
@@ -430,9 +474,8 @@ void EvolutionConfig::validate() const {
                              " s is outside t_span [" + format_value(t_start) + ", " +
                              format_value(t_end) + "] s");
         if (k > 0 && !(t > t_eval[k - 1]))
-            throw InputError("t_eval must be strictly increasing, got t_eval[" +
-                             std::to_string(k) + "] = " + format_value(t) + " after " +
-                             format_value(t_eval[k - 1]));
+            throw InputError("t_eval must be strictly increasing, got t_eval[" + std::to_string(k) +
+                             "] = " + format_value(t) + " after " + format_value(t_eval[k - 1]));
     }
     if (!std::isfinite(rtol) || !(rtol > 0.0) || !(rtol < 1.0))
         throw InputError("rtol must be finite and in (0, 1), got " + format_value(rtol));
@@ -448,7 +491,8 @@ void EvolutionConfig::validate() const {
         !(depletion_fraction < 1.0))
         throw InputError("depletion_fraction must be in (0, 1), got " +
                          format_value(depletion_fraction));
-    if (max_steps == 0) throw InputError("max_steps must be > 0");
+    if (max_steps == 0)
+        throw InputError("max_steps must be > 0");
     if (!sources.empty() && sources.size() != n)
         throw InputError("sources: need one per species or none, got " +
                          std::to_string(sources.size()) + " for " + std::to_string(n));
@@ -462,12 +506,14 @@ void EvolutionConfig::validate() const {
                          " needs the planet's semi_major_axis and star");
     if (needs_flux && !(t_start > 0.0))
         throw InputError("t_span start must be > 0 (a stellar age) when the XUV flux is used, "
-                         "got " + format_value(t_start));
+                         "got " +
+                         format_value(t_start));
     if (hydrodynamic) {
         hydrodynamic->validate();
         if (!hydrodynamic->escaping_species.empty())
             index_of(species, hydrodynamic->escaping_species, "escaping species");
-        for (const auto& d : hydrodynamic->diffusion) index_of(species, d.first, "dragged species");
+        for (const auto& d : hydrodynamic->diffusion)
+            index_of(species, d.first, "dragged species");
         if (hydrodynamic->xuv_radius > 0.0 && hydrodynamic->xuv_radius < planet.radius())
             throw InputError("xuv_radius " + format_value(hydrodynamic->xuv_radius) +
                              " m is below the planet radius " + format_value(planet.radius()) +
@@ -514,7 +560,8 @@ std::string EvolutionConfig::to_json() const {
     if (!sources.empty()) {
         JsonObject src;
         for (std::size_t i = 0; i < sources.size(); ++i)
-            if (!sources[i].is_zero()) src.add(species[i].name, sources[i].to_json());
+            if (!sources[i].is_zero())
+                src.add(species[i].name, sources[i].to_json());
         o.add("sources", src.str());
     }
     if (hydrodynamic) {
@@ -528,16 +575,16 @@ std::string EvolutionConfig::to_json() const {
         const char* act = h.activation == HydrodynamicActivation::Always       ? "always"
                           : h.activation == HydrodynamicActivation::Transition ? "transition"
                                                                                : "hydrodynamic";
-        o.add("hydrodynamic", JsonObject()
-                                  .number("efficiency", h.efficiency)
-                                  .number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius
-                                                                              : planet.radius())
-                                  .add("roche_lobe", h.roche_lobe ? "true" : "false")
-                                  .add("drag", h.drag ? "true" : "false")
-                                  .string("escaping_species", h.escaping_species)
-                                  .string("activation", act)
-                                  .add("diffusion", diff.str())
-                                  .str());
+        o.add("hydrodynamic",
+              JsonObject()
+                  .number("efficiency", h.efficiency)
+                  .number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius : planet.radius())
+                  .add("roche_lobe", h.roche_lobe ? "true" : "false")
+                  .add("drag", h.drag ? "true" : "false")
+                  .string("escaping_species", h.escaping_species)
+                  .string("activation", act)
+                  .add("diffusion", diff.str())
+                  .str());
     }
     o.add("regime_thresholds", JsonObject()
                                    .number("enhanced", thresholds.enhanced)
@@ -548,14 +595,15 @@ std::string EvolutionConfig::to_json() const {
         if (tail.table_jeans_parameter().empty())
             o.number("tail_depletion", tail.constant());
         else
-            o.add("tail_depletion", JsonObject()
-                                        .add("jeans_parameter",
-                                             json_array(tail.table_jeans_parameter()))
-                                        .add("factor", json_array(tail.table_factor()))
-                                        .str());
+            o.add("tail_depletion",
+                  JsonObject()
+                      .add("jeans_parameter", json_array(tail.table_jeans_parameter()))
+                      .add("factor", json_array(tail.table_factor()))
+                      .str());
     }
     std::vector<std::string> ratio_names;
-    for (const auto& [a, b] : isotope_ratios) ratio_names.push_back(a + "/" + b);
+    for (const auto& [a, b] : isotope_ratios)
+        ratio_names.push_back(a + "/" + b);
     o.add("t_span_s", json_array(std::vector<double>{t_start, t_end}))
         .number("rtol", rtol)
         .add("atol", atol.empty() ? "null" : json_array(atol))
@@ -566,8 +614,8 @@ std::string EvolutionConfig::to_json() const {
     return o.str();
 }
 
-std::vector<std::pair<std::string, std::string>> default_isotope_ratios(
-    const std::vector<std::string>& species) {
+std::vector<std::pair<std::string, std::string>>
+default_isotope_ratios(const std::vector<std::string>& species) {
     static const std::pair<const char*, const char*> known[] = {
         {"D", "H"}, {"HD", "H2"}, {"3He", "He"}, {"36Ar", "38Ar"}, {"40Ar", "36Ar"}};
     std::vector<std::pair<std::string, std::string>> out;
@@ -575,7 +623,8 @@ std::vector<std::pair<std::string, std::string>> default_isotope_ratios(
         return std::find(species.begin(), species.end(), name) != species.end();
     };
     for (const auto& [a, b] : known)
-        if (has(a) && has(b)) out.emplace_back(a, b);
+        if (has(a) && has(b))
+            out.emplace_back(a, b);
     return out;
 }
 
@@ -584,11 +633,13 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     const std::size_t n = c.species.size();
     Model model(c);
     bool any_source = false;
-    for (const SourceRate& s : c.sources) any_source = any_source || !s.is_zero();
+    for (const SourceRate& s : c.sources)
+        any_source = any_source || !s.is_zero();
     model.enable_sources(any_source);
 
     EvolutionResult r;
-    for (const Species& s : c.species) r.species.push_back(s.name);
+    for (const Species& s : c.species)
+        r.species.push_back(s.name);
     std::vector<std::pair<std::size_t, std::size_t>> ratios;
     for (const auto& [a, b] : c.isotope_ratios) {
         ratios.emplace_back(index_of(c.species, a, "isotope ratio numerator"),
@@ -597,7 +648,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     }
     r.depletion_time.assign(n, nan);
     r.initial_inventory = c.initial_inventory;
-    for (const Species& s : c.species) r.species_mass.push_back(s.mass);
+    for (const Species& s : c.species)
+        r.species_mass.push_back(s.mass);
     r.config = c.to_json();
     Recorder recorder(r, n, ratios);
 
@@ -605,8 +657,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     State log_atol(n);
     std::vector<double> log_depleted(n);
     for (std::size_t i = 0; i < n; ++i) {
-        const double a = c.atol.empty() ? c.rtol * c.depletion_fraction * c.initial_inventory[i]
-                                        : c.atol[i];
+        const double a =
+            c.atol.empty() ? c.rtol * c.depletion_fraction * c.initial_inventory[i] : c.atol[i];
         log_atol[i] = std::log(a);
         log_depleted[i] = std::log(c.depletion_fraction) + model.y0()[i];
     }
@@ -615,10 +667,12 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     std::vector<double> stops = c.temperature.breakpoints(c.planet, c.t_start, c.t_end);
     for (const SourceRate& s : c.sources)
         for (double t : s.table().times())
-            if (t > c.t_start && t < c.t_end) stops.push_back(t);
+            if (t > c.t_start && t < c.t_end)
+                stops.push_back(t);
     if ((c.temperature.needs_xuv_flux() || c.hydrodynamic) && c.planet.has_star()) {
         const double ts = c.planet.star().xuv().saturation_time;
-        if (ts > c.t_start && ts < c.t_end) stops.push_back(ts);
+        if (ts > c.t_start && ts < c.t_end)
+            stops.push_back(ts);
     }
     std::sort(stops.begin(), stops.end());
     stops.erase(std::unique(stops.begin(), stops.end()), stops.end());
@@ -626,7 +680,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
 
     double t = c.t_start;
     State y(n), dydt(n), y_new(n), dydt_new(n), y_probe(n);
-    for (std::size_t i = 0; i < n; ++i) y[i] = model.y0()[i];
+    for (std::size_t i = 0; i < n; ++i)
+        y[i] = model.y0()[i];
 
     Mode mode;
     mode.frozen.assign(n, 0);
@@ -655,9 +710,11 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     // First step: a small fraction of the time scale set by the stellar age (histories vary on
     // it), the span and the fastest e-folding; the controller grows it by up to 5x per step.
     double scale = c.t_end - c.t_start;
-    if (c.t_start > 0.0) scale = std::min(scale, c.t_start);
+    if (c.t_start > 0.0)
+        scale = std::min(scale, c.t_start);
     for (std::size_t i = 0; i < n; ++i)
-        if (dydt[i] != 0.0) scale = std::min(scale, 1.0 / std::abs(dydt[i]));
+        if (dydt[i] != 0.0)
+            scale = std::min(scale, 1.0 / std::abs(dydt[i]));
     double dt = 0.01 * std::pow(c.rtol, 0.2) * scale;
 
     std::size_t worst = 0;
@@ -667,6 +724,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     std::size_t consecutive_rejections = 0;
     const double span = c.t_end - c.t_start;
 
+    std::vector<double> depleted_at(n, nan);
+    std::vector<char> freeze(n, 0);
     while (t < c.t_end) {
         if (r.steps + r.rejected_steps >= c.max_steps)
             throw NumericalError(
@@ -687,8 +746,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             dt = h;
             if (consecutive_rejections > 50 ||
                 dt < 8.0 * std::numeric_limits<double>::epsilon() * std::max(std::abs(t), span)) {
-                std::string why = "the error of ln N[" + c.species[worst].name +
-                                  "] stays above tolerance";
+                std::string why =
+                    "the error of ln N[" + c.species[worst].name + "] stays above tolerance";
                 for (std::size_t i = 0; i < n; ++i)
                     if (!std::isfinite(y_new[i]) || !std::isfinite(dydt_new[i])) {
                         why = "the rate of change of " + c.species[i].name +
@@ -698,9 +757,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
                     }
                 throw NumericalError("no progress at t = " + when(t) + ": the step size fell to " +
                                      format_value(dt) + " s after " +
-                                     std::to_string(consecutive_rejections) +
-                                     " rejected steps; " + why + " (" +
-                                     model.explain(worst, t, y) + ")");
+                                     std::to_string(consecutive_rejections) + " rejected steps; " +
+                                     why + " (" + model.explain(worst, t, y) + ")");
             }
             continue;
         }
@@ -721,10 +779,11 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         // energy-limited option).
         double t_cut = t_new;
         Mode next_mode = mode;
-        std::vector<double> depleted_at(n, nan);
-        std::vector<char> freeze(n, 0);
+        std::fill(depleted_at.begin(), depleted_at.end(), nan);
+        std::fill(freeze.begin(), freeze.end(), 0);
         for (std::size_t i = 0; i < n; ++i) {
-            if (!std::isnan(r.depletion_time[i]) || !(y_new[i] < log_depleted[i])) continue;
+            if (!std::isnan(r.depletion_time[i]) || !(y_new[i] < log_depleted[i]))
+                continue;
             depleted_at[i] = locate(t, t_new, [&](double tq) {
                 dense(tq, y_probe);
                 return y_probe[i] < log_depleted[i];
@@ -745,15 +804,15 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             });
             dense(regime_time, y_probe);
             regime_after = model.regime(regime_time, y_probe);
-            if (model.energy_limited_in(regime_after) != mode.energy_limited &&
-                regime_time < t_cut)
+            if (model.energy_limited_in(regime_after) != mode.energy_limited && regime_time < t_cut)
                 t_cut = regime_time;
         }
         // Apply the events at or before t_cut.
         for (std::size_t i = 0; i < n; ++i)
             if (!std::isnan(depleted_at[i]) && depleted_at[i] <= t_cut) {
                 r.depletion_time[i] = depleted_at[i];
-                if (freeze[i]) next_mode.frozen[i] = 1;
+                if (freeze[i])
+                    next_mode.frozen[i] = 1;
             }
         if (!std::isnan(regime_time) && regime_time <= t_cut) {
             r.regime_changes.push_back({regime_time, regime, regime_after});
@@ -775,7 +834,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             dense(t_cut, y_probe);
             y = y_probe;
             t = t_cut;
-            if (c.t_eval.empty()) record(t, y);
+            if (c.t_eval.empty())
+                record(t, y);
             mode = next_mode;
             model.set_mode(mode);
             model.rhs(y, dydt, t);
@@ -783,8 +843,10 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             y.swap(y_new);
             dydt.swap(dydt_new);
             t = t_new;
-            if (c.t_eval.empty()) record(t, y);
-            if (landing) ++stop_index;
+            if (c.t_eval.empty())
+                record(t, y);
+            if (landing)
+                ++stop_index;
             if (!(next_mode == mode)) {
                 mode = next_mode;
                 model.set_mode(mode);
@@ -827,13 +889,13 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     ResultWriter w(path, r.config);
     w.add_coordinate("time", r.time, "s", "time (stellar age)");
     w.add_coordinate("species", r.species, "species");
-    if (nr > 0) w.add_coordinate("ratio", r.ratio_names, "isotope ratio");
+    if (nr > 0)
+        w.add_coordinate("ratio", r.ratio_names, "isotope ratio");
     const std::vector<std::string> ts = {"time", "species"}, t = {"time"}, s = {"species"};
     w.add_variable("inventory", ts, r.inventory, "1", "number of particles in the inventory");
     w.add_variable("escape_rate", ts, r.escape_rate, "s-1", "global escape rate");
     w.add_variable("source_rate", ts, r.source_rate, "s-1", "source rate");
-    w.add_variable("jeans_parameter", ts, r.jeans_parameter, "1",
-                   "Jeans parameter at the exobase");
+    w.add_variable("jeans_parameter", ts, r.jeans_parameter, "1", "Jeans parameter at the exobase");
     w.add_variable("exobase_radius", t, r.exobase_radius, "m",
                    "exobase radius from the planet's centre");
     w.add_variable("exobase_temperature", t, r.exobase_temperature, "K", "exobase temperature");

@@ -34,8 +34,10 @@ TimeTable::TimeTable(std::vector<double> times, std::vector<double> values, cons
 }
 
 double TimeTable::operator()(double t) const {
-    if (t <= times_.front()) return values_.front();
-    if (t >= times_.back()) return values_.back();
+    if (t <= times_.front())
+        return values_.front();
+    if (t >= times_.back())
+        return values_.back();
     const std::size_t hi = std::upper_bound(times_.begin(), times_.end(), t) - times_.begin();
     const std::size_t lo = hi - 1;
     const double w = (t - times_[lo]) / (times_[hi] - times_[lo]);
@@ -85,7 +87,8 @@ ExobaseTemperature ExobaseTemperature::xuv_power_law(double reference_temperatur
 
 ExobaseTemperature ExobaseTemperature::callable(std::function<double(double)> function,
                                                 std::string description) {
-    if (!function) throw InputError("exobase temperature callable is empty");
+    if (!function)
+        throw InputError("exobase temperature callable is empty");
     ExobaseTemperature h;
     h.kind_ = Kind::Callable;
     h.function_ = std::move(function);
@@ -95,8 +98,10 @@ ExobaseTemperature ExobaseTemperature::callable(std::function<double(double)> fu
 
 double ExobaseTemperature::operator()(double t, double xuv_flux) const {
     switch (kind_) {
-    case Kind::Constant: return constant_;
-    case Kind::Table: return table_(t);
+    case Kind::Constant:
+        return constant_;
+    case Kind::Table:
+        return table_(t);
     case Kind::XuvPowerLaw: {
         const double T = t_ref_ * std::pow(xuv_flux / f_ref_, gamma_);
         return std::min(t_max_, std::max(t_min_, T));
@@ -105,7 +110,8 @@ double ExobaseTemperature::operator()(double t, double xuv_flux) const {
         const double T = function_(t);
         if (!std::isfinite(T) || !(T > 0.0))
             throw InputError("exobase temperature callable returned " + format_value(T) +
-                             " at t = " + format_value(t) + " s; it must return a finite "
+                             " at t = " + format_value(t) +
+                             " s; it must return a finite "
                              "temperature > 0 [K]");
         return T;
     }
@@ -118,16 +124,19 @@ std::vector<double> ExobaseTemperature::breakpoints(const Planet& planet, double
     std::vector<double> out;
     if (kind_ == Kind::Table) {
         for (double t : table_.times())
-            if (t > t0 && t < t1) out.push_back(t);
+            if (t > t0 && t < t1)
+                out.push_back(t);
     } else if (kind_ == Kind::XuvPowerLaw && planet.has_star() && gamma_ != 0.0) {
         // The flux falls monotonically after saturation, so each clamp switches at most once.
         const double distance = planet.semi_major_axis();
         const double area = 4.0 * 3.141592653589793 * distance * distance;
         for (double T : {t_min_, t_max_}) {
             const double flux = f_ref_ * std::pow(T / t_ref_, 1.0 / gamma_);
-            if (!(flux > 0.0) || !std::isfinite(flux)) continue;
+            if (!(flux > 0.0) || !std::isfinite(flux))
+                continue;
             const double t = planet.star().age_at_xuv_luminosity(flux * area);
-            if (t > t0 && t < t1 && t > planet.star().xuv().saturation_time) out.push_back(t);
+            if (t > t0 && t < t1 && t > planet.star().xuv().saturation_time)
+                out.push_back(t);
         }
     }
     std::sort(out.begin(), out.end());
@@ -137,7 +146,9 @@ std::vector<double> ExobaseTemperature::breakpoints(const Planet& planet, double
 std::string ExobaseTemperature::to_json() const {
     JsonObject o;
     switch (kind_) {
-    case Kind::Constant: o.string("kind", "constant").number("temperature_K", constant_); break;
+    case Kind::Constant:
+        o.string("kind", "constant").number("temperature_K", constant_);
+        break;
     case Kind::Table:
         o.string("kind", "table")
             .add("times_s", json_array(table_.times()))
@@ -151,7 +162,9 @@ std::string ExobaseTemperature::to_json() const {
             .number("minimum_K", t_min_)
             .number("maximum_K", t_max_);
         break;
-    case Kind::Callable: o.string("kind", "callable").string("description", description_); break;
+    case Kind::Callable:
+        o.string("kind", "callable").string("description", description_);
+        break;
     }
     return o.str();
 }
@@ -180,9 +193,11 @@ void PrescribedExobase::evaluate(double, const double* log_fraction, double temp
     out.has_escape_rates = false;
     const std::size_t n = log_densities_.size();
     if (scaling_ == DensityScaling::Inventory)
-        for (std::size_t i = 0; i < n; ++i) out.log_density[i] = log_densities_[i] + log_fraction[i];
+        for (std::size_t i = 0; i < n; ++i)
+            out.log_density[i] = log_densities_[i] + log_fraction[i];
     else
-        for (std::size_t i = 0; i < n; ++i) out.log_density[i] = log_densities_[i];
+        for (std::size_t i = 0; i < n; ++i)
+            out.log_density[i] = log_densities_[i];
 }
 
 void PrescribedExobase::check(const Planet& planet) const {
@@ -231,17 +246,41 @@ ThermosphereExobase::ThermosphereExobase(const Thermosphere& initial,
     }
 }
 
-Thermosphere ThermosphereExobase::at(double temperature, const double* log_fraction) const {
-    const std::size_t n = species_.size();
-    std::vector<double> x(n);
+namespace {
+
+// Smallest mole fraction given to the thermosphere: a trace's density and flux are linear in its
+// mole fraction, so rarer traces are solved at this fraction and scaled back in logs (their
+// effect on the exobase, <= 1e-30, is below double precision). This keeps ln Q_i exact where
+// the fluxes themselves would underflow.
+constexpr double smallest_fraction = 1e-30;
+
+// ln x_i from ln x_i0 + ln(N_i/N_i0), normalised.
+void log_mole_fractions(const std::vector<double>& log_x0, const double* log_fraction,
+                        std::vector<double>& out) {
+    const std::size_t n = log_x0.size();
+    out.resize(n);
     double top = -std::numeric_limits<double>::infinity();
-    for (std::size_t i = 0; i < n; ++i) {
-        x[i] = log_x0_[i] + log_fraction[i];
-        top = std::max(top, x[i]);
-    }
+    for (std::size_t i = 0; i < n; ++i)
+        top = std::max(top, out[i] = log_x0[i] + log_fraction[i]);
     double sum = 0.0;
-    for (std::size_t i = 0; i < n; ++i) sum += (x[i] = std::exp(x[i] - top));
-    for (std::size_t i = 0; i < n; ++i) x[i] /= sum;
+    for (std::size_t i = 0; i < n; ++i)
+        sum += std::exp(out[i] - top);
+    const double log_sum = top + std::log(sum);
+    for (std::size_t i = 0; i < n; ++i)
+        out[i] -= log_sum;
+}
+
+} // namespace
+
+Thermosphere ThermosphereExobase::at(double temperature, const double* log_fraction) const {
+    std::vector<double> lx;
+    log_mole_fractions(log_x0_, log_fraction, lx);
+    std::vector<double> x(lx.size());
+    double sum = 0.0;
+    for (std::size_t i = 0; i < lx.size(); ++i)
+        sum += (x[i] = std::isinf(lx[i]) ? 0.0 : std::max(std::exp(lx[i]), smallest_fraction));
+    for (double& v : x)
+        v /= sum;
     TemperatureProfile profile =
         kind_ == TemperatureProfile::Kind::bates
             ? TemperatureProfile::bates(temperature, base_temperature_, shape_, base_radius_)
@@ -258,6 +297,15 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
     const Thermosphere th = at(temperature, log_fraction);
     const Exobase& e = th.exobase();
     const std::size_t n = species_.size();
+    // ln(x_i / x_i used): 0 except for traces solved at smallest_fraction.
+    std::vector<double> lx;
+    log_mole_fractions(log_x0_, log_fraction, lx);
+    std::vector<double> shift(n, 0.0);
+    for (std::size_t i = 0; i < n; ++i) {
+        const double used = th.mole_fractions()[i];
+        if (used > 0.0)
+            shift[i] = lx[i] - std::log(used);
+    }
     if (e.status == ExobaseStatus::none_below_outer_radius)
         throw NumericalError("no exobase at t = " + format_value(t) + " s: " + e.message +
                              " (a sign of hydrodynamic outflow: consider the energy-limited "
@@ -267,7 +315,8 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
         out.radius = homopause_radius_;
         out.temperature = th.temperature(homopause_radius_);
         out.has_escape_rates = false;
-        for (std::size_t i = 0; i < n; ++i) out.log_density[i] = th.log_density(i, out.radius);
+        for (std::size_t i = 0; i < n; ++i)
+            out.log_density[i] = th.log_density(i, out.radius) + shift[i];
         return;
     }
     out.radius = e.radius;
@@ -275,18 +324,20 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
     out.has_escape_rates = true;
     const double log_area = std::log(4.0 * 3.141592653589793 * e.radius * e.radius);
     for (std::size_t i = 0; i < n; ++i) {
-        out.log_density[i] = th.log_density(i, e.radius);
+        out.log_density[i] = th.log_density(i, e.radius) + shift[i];
         const double flux = th.escape_flux(i, limit_by_diffusion_);
-        out.log_escape_rate[i] =
-            flux > 0.0 ? log_area + std::log(flux) : -std::numeric_limits<double>::infinity();
+        out.log_escape_rate[i] = flux > 0.0 ? log_area + std::log(flux) + shift[i]
+                                            : -std::numeric_limits<double>::infinity();
     }
 }
 
 bool ThermosphereExobase::loss_follows_inventory(std::size_t i, const double* log_fraction) const {
     double top = -std::numeric_limits<double>::infinity();
-    for (std::size_t j = 0; j < log_x0_.size(); ++j) top = std::max(top, log_x0_[j] + log_fraction[j]);
+    for (std::size_t j = 0; j < log_x0_.size(); ++j)
+        top = std::max(top, log_x0_[j] + log_fraction[j]);
     double sum = 0.0;
-    for (std::size_t j = 0; j < log_x0_.size(); ++j) sum += std::exp(log_x0_[j] + log_fraction[j] - top);
+    for (std::size_t j = 0; j < log_x0_.size(); ++j)
+        sum += std::exp(log_x0_[j] + log_fraction[j] - top);
     return std::exp(log_x0_[i] + log_fraction[i] - top) / sum < 0.5;
 }
 
@@ -301,7 +352,8 @@ void ThermosphereExobase::check(const Planet& planet) const {
 
 std::string ThermosphereExobase::to_json() const {
     std::vector<double> x0;
-    for (double lx : log_x0_) x0.push_back(std::exp(lx));
+    for (double lx : log_x0_)
+        x0.push_back(std::exp(lx));
     JsonObject o;
     o.string("kind", "thermosphere")
         .number("homopause_radius_m", homopause_radius_)
@@ -317,7 +369,8 @@ std::string ThermosphereExobase::to_json() const {
     o.add("limit_by_diffusion", limit_by_diffusion_ ? "true" : "false")
         .string("diffusion_method",
                 method_ == DiffusionMethod::measured_first ? "measured" : "chapman_enskog");
-    if (!tail_.is_identity()) o.string("tail_depletion", "set");
+    if (!tail_.is_identity())
+        o.string("tail_depletion", "set");
     return o.str();
 }
 

@@ -14,10 +14,14 @@ using constants::k_B;
 
 const char* regime_name(Regime regime) {
     switch (regime) {
-    case Regime::Jeans: return "jeans";
-    case Regime::EnhancedJeans: return "enhanced_jeans";
-    case Regime::Transition: return "transition";
-    case Regime::Hydrodynamic: return "hydrodynamic";
+    case Regime::Jeans:
+        return "jeans";
+    case Regime::EnhancedJeans:
+        return "enhanced_jeans";
+    case Regime::Transition:
+        return "transition";
+    case Regime::Hydrodynamic:
+        return "hydrodynamic";
     }
     return "unknown";
 }
@@ -28,14 +32,18 @@ void RegimeThresholds::validate() const {
     require_positive("enhanced threshold", enhanced);
     if (!(hydrodynamic < transition && transition < enhanced))
         throw InputError("regime thresholds must satisfy hydrodynamic < transition < enhanced, "
-                         "got " + format_value(hydrodynamic) + ", " + format_value(transition) +
-                         ", " + format_value(enhanced));
+                         "got " +
+                         format_value(hydrodynamic) + ", " + format_value(transition) + ", " +
+                         format_value(enhanced));
 }
 
 Regime classify_regime(double lambda, const RegimeThresholds& t) {
-    if (lambda > t.enhanced) return Regime::Jeans;
-    if (lambda > t.transition) return Regime::EnhancedJeans;
-    if (lambda > t.hydrodynamic) return Regime::Transition;
+    if (lambda > t.enhanced)
+        return Regime::Jeans;
+    if (lambda > t.transition)
+        return Regime::EnhancedJeans;
+    if (lambda > t.hydrodynamic)
+        return Regime::Transition;
     return Regime::Hydrodynamic;
 }
 
@@ -51,8 +59,9 @@ double roche_lobe_ratio(double planet_mass, double star_mass, double semi_major_
 double roche_lobe_factor(double xi) {
     require_finite("roche lobe ratio xi", xi);
     if (!(xi > 1.0))
-        throw InputError("roche lobe ratio xi must be > 1 (the planet inside its Roche lobe), got " +
-                         format_value(xi));
+        throw InputError(
+            "roche lobe ratio xi must be > 1 (the planet inside its Roche lobe), got " +
+            format_value(xi));
     return 1.0 - 1.5 / xi + 0.5 / (xi * xi * xi);
 }
 
@@ -92,7 +101,8 @@ double dragged_flux(double mass, double mole_fraction, double light_mass, double
     require_non_negative("light_flux", light_flux);
     require_positive("light_mole_fraction", light_mole_fraction);
     require_positive("crossover_mass", crossover);
-    if (!(mass < crossover) || !(crossover > light_mass)) return 0.0;
+    if (!(mass < crossover) || !(crossover > light_mass))
+        return 0.0;
     return mole_fraction / light_mole_fraction * light_flux * (crossover - mass) /
            (crossover - light_mass);
 }
@@ -107,7 +117,8 @@ void partition_mass_loss(double mass_loss, double temperature, double planet_mas
     std::fill(rates, rates + n, 0.0);
     const double m1 = mass[escaping];
     const double x1 = mole_fraction[escaping];
-    if (!(mass_loss > 0.0) || !(x1 > 0.0)) return;
+    if (!(mass_loss > 0.0) || !(x1 > 0.0))
+        return;
     // Dragged species j: threshold q_j and slope weight w_j = m_j x_j / x_1, so that
     // total(Q1) = m1 Q1 + sum_j w_j max(0, Q1 - q_j).
     struct Dragged {
@@ -125,8 +136,10 @@ void partition_mass_loss(double mass_loss, double temperature, double planet_mas
     std::size_t count = 0;
     const double scale = 4.0 * constants::pi * G * planet_mass * x1 / (k_B * temperature);
     for (std::size_t j = 0; j < n; ++j) {
-        if (j == escaping || !(diffusion_parameter[j] > 0.0) || mass[j] < m1) continue;
-        if (!(mole_fraction[j] > 0.0)) continue;
+        if (j == escaping || !(diffusion_parameter[j] > 0.0) || mass[j] < m1)
+            continue;
+        if (!(mole_fraction[j] > 0.0))
+            continue;
         dragged[count++] = {j, scale * (mass[j] - m1) * diffusion_parameter[j],
                             mass[j] * mole_fraction[j] / x1};
     }

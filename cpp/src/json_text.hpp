@@ -13,11 +13,21 @@ inline std::string json_string(const std::string& value) {
     std::string out = "\"";
     for (const char c : value) {
         switch (c) {
-        case '"': out += "\\\""; break;
-        case '\\': out += "\\\\"; break;
-        case '\n': out += "\\n"; break;
-        case '\t': out += "\\t"; break;
-        case '\r': out += "\\r"; break;
+        case '"':
+            out += "\\\"";
+            break;
+        case '\\':
+            out += "\\\\";
+            break;
+        case '\n':
+            out += "\\n";
+            break;
+        case '\t':
+            out += "\\t";
+            break;
+        case '\r':
+            out += "\\r";
+            break;
         default:
             if (static_cast<unsigned char>(c) < 0x20) {
                 char buf[8];
@@ -33,7 +43,8 @@ inline std::string json_string(const std::string& value) {
 
 // Shortest text that reads back to the same double; non-finite numbers have no JSON form: null.
 inline std::string json_number(double value) {
-    if (!std::isfinite(value)) return "null";
+    if (!std::isfinite(value))
+        return "null";
     char buf[32];
     const auto end = std::to_chars(buf, buf + sizeof buf, value).ptr;
     return std::string(buf, end);
@@ -41,13 +52,15 @@ inline std::string json_number(double value) {
 
 inline std::string json_array(const std::vector<double>& values) {
     std::string out = "[";
-    for (std::size_t i = 0; i < values.size(); ++i) out += (i ? ", " : "") + json_number(values[i]);
+    for (std::size_t i = 0; i < values.size(); ++i)
+        out += (i ? ", " : "") + json_number(values[i]);
     return out + "]";
 }
 
 inline std::string json_array(const std::vector<std::string>& values) {
     std::string out = "[";
-    for (std::size_t i = 0; i < values.size(); ++i) out += (i ? ", " : "") + json_string(values[i]);
+    for (std::size_t i = 0; i < values.size(); ++i)
+        out += (i ? ", " : "") + json_string(values[i]);
     return out + "]";
 }
 
@@ -58,7 +71,9 @@ class JsonObject {
         text_ += (text_.size() > 1 ? ", " : "") + json_string(key) + ": " + encoded;
         return *this;
     }
-    JsonObject& number(const std::string& key, double value) { return add(key, json_number(value)); }
+    JsonObject& number(const std::string& key, double value) {
+        return add(key, json_number(value));
+    }
     JsonObject& string(const std::string& key, const std::string& value) {
         return add(key, json_string(value));
     }

@@ -24,14 +24,16 @@ Star::Star(double mass, double luminosity, XuvHistory xuv)
 double Star::xuv_luminosity(double t) const {
     require_positive("stellar age t", t);
     const double saturated = xuv_.saturation_ratio * luminosity_;
-    if (t <= xuv_.saturation_time) return saturated;
+    if (t <= xuv_.saturation_time)
+        return saturated;
     return saturated * std::pow(t / xuv_.saturation_time, -xuv_.decay_index);
 }
 
 double Star::age_at_xuv_luminosity(double luminosity) const {
     require_positive("xuv luminosity", luminosity);
     const double saturated = xuv_.saturation_ratio * luminosity_;
-    if (luminosity >= saturated) return xuv_.saturation_time;
+    if (luminosity >= saturated)
+        return xuv_.saturation_time;
     return xuv_.saturation_time * std::pow(luminosity / saturated, -1.0 / xuv_.decay_index);
 }
 
@@ -48,12 +50,14 @@ Planet::Planet(double mass, double radius, double semi_major_axis, Star star)
 }
 
 double Planet::semi_major_axis() const {
-    if (!star_) throw InputError("the planet has no semi_major_axis and star set");
+    if (!star_)
+        throw InputError("the planet has no semi_major_axis and star set");
     return semi_major_axis_;
 }
 
 const Star& Planet::star() const {
-    if (!star_) throw InputError("the planet has no star set (give semi_major_axis and star)");
+    if (!star_)
+        throw InputError("the planet has no star set (give semi_major_axis and star)");
     return *star_;
 }
 
@@ -64,7 +68,9 @@ double Planet::xuv_flux(double t) const {
     return exosieve::xuv_flux(star_->xuv_luminosity(t), semi_major_axis_);
 }
 
-double Planet::surface_gravity() const { return constants::G * mass_ / (radius_ * radius_); }
+double Planet::surface_gravity() const {
+    return constants::G * mass_ / (radius_ * radius_);
+}
 
 double xuv_flux(double xuv_luminosity, double distance) {
     require_non_negative("xuv_luminosity", xuv_luminosity);

@@ -8,8 +8,8 @@ control, with dense output at ``t_eval`` and events located by bisection on the 
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
-from typing import Any, Callable, Optional, Union
+from collections.abc import Callable, Mapping, Sequence
+from typing import Any
 
 from . import _core
 from .model import (
@@ -34,17 +34,17 @@ def evolve(
     exobase: ExobaseLike,
     inventory: Mapping[str, Any],
     t_span: Sequence[Any],
-    t_eval: Optional[Any] = None,
+    t_eval: Any | None = None,
     rtol: float = 1e-8,
-    atol: Union[None, float, Mapping[str, float]] = None,
+    atol: None | float | Mapping[str, float] = None,
     depletion_fraction: float = 1e-3,
-    sources: Optional[Mapping[str, Any]] = None,
-    hydrodynamic: Optional[EnergyLimitedEscape] = None,
+    sources: Mapping[str, Any] | None = None,
+    hydrodynamic: EnergyLimitedEscape | None = None,
     thresholds: Any = None,
     tail_depletion: Any = 1.0,
-    isotope_ratios: Optional[Sequence[tuple[str, str]]] = None,
+    isotope_ratios: Sequence[tuple[str, str]] | None = None,
     max_steps: int = 100_000,
-    progress: Optional[Callable[[float], Optional[bool]]] = None,
+    progress: Callable[[float], bool | None] | None = None,
     exobase_temperature: Any = None,
     limit_by_diffusion: bool = True,
 ) -> EvolutionResult:
@@ -125,17 +125,21 @@ def evolve(
     if not isinstance(planet, Planet):
         raise ValueError(f"planet must be an exosieve.Planet, got {planet!r}")
     if not isinstance(inventory, Mapping) or not inventory:
-        raise ValueError(f"inventory must be a non-empty mapping of species to particle "
-                         f"numbers, got {inventory!r}")
+        raise ValueError(
+            f"inventory must be a non-empty mapping of species to particle "
+            f"numbers, got {inventory!r}"
+        )
     names = [_name(k) for k in inventory]
     species_objects = [k if isinstance(k, _core.Species) else _core.species(k) for k in inventory]
-    initial = [_scalar(v, f"inventory of {n}", "1") for n, v in zip(names, inventory.values())]
+    values = zip(names, inventory.values(), strict=True)
+    initial = [_scalar(v, f"inventory of {n}", "1") for n, v in values]
 
     config = _core.EvolutionConfig(planet._core)
     config.species = species_objects
     config.initial_inventory = initial
-    config.exobase, config.temperature = _exobase_model(exobase, names, exobase_temperature,
-                                                       limit_by_diffusion)
+    config.exobase, config.temperature = _exobase_model(
+        exobase, names, exobase_temperature, limit_by_diffusion
+    )
     span = _vector(t_span, "t_span", "s")
     if span.shape != (2,):
         raise ValueError(f"t_span must be (start, end) [s], got {t_span!r}")
@@ -150,8 +154,9 @@ def evolve(
         if isinstance(atol, Mapping):
             unknown = [k for k in atol if k not in names]
             if unknown or len(atol) != len(names):
-                raise ValueError(f"atol must give one value per species ({', '.join(names)}), "
-                                 f"got {dict(atol)!r}")
+                raise ValueError(
+                    f"atol must give one value per species ({', '.join(names)}), got {dict(atol)!r}"
+                )
             config.atol = [_scalar(atol[n], f"atol of {n}", "1") for n in names]
         else:
             config.atol = [_scalar(atol, "atol", "1")] * len(names)
@@ -164,12 +169,14 @@ def evolve(
         if unknown:
             raise ValueError(f"sources: {', '.join(unknown)} not in the inventory")
         by_name = {_name(k): v for k, v in sources.items()}
-        config.sources = [source_rate(by_name[n], n) if n in by_name else _core.SourceRate()
-                          for n in names]
+        config.sources = [
+            source_rate(by_name[n], n) if n in by_name else _core.SourceRate() for n in names
+        ]
     if hydrodynamic is not None:
         if not isinstance(hydrodynamic, EnergyLimitedEscape):
-            raise ValueError(f"hydrodynamic must be an exosieve.EnergyLimitedEscape, "
-                             f"got {hydrodynamic!r}")
+            raise ValueError(
+                f"hydrodynamic must be an exosieve.EnergyLimitedEscape, got {hydrodynamic!r}"
+            )
         config.hydrodynamic = hydrodynamic._core
     if thresholds is not None:
         config.thresholds = thresholds
@@ -182,27 +189,37 @@ def evolve(
     return EvolutionResult._from_core(raw, [s.mass for s in species_objects], initial)
 
 
-def _exobase_model(exobase: Any, names: list[str], temperature: Any,
-                   limit_by_diffusion: bool) -> tuple[Any, Any]:
+def _exobase_model(
+    exobase: Any, names: list[str], temperature: Any, limit_by_diffusion: bool
+) -> tuple[Any, Any]:
     """The core exobase model and temperature history for ``exobase``."""
     from .jeans import _tail
     from .thermosphere import Thermosphere
 
     if isinstance(exobase, PrescribedExobase):
         if temperature is not None:
-            raise ValueError("exobase_temperature is for a Thermosphere; a PrescribedExobase "
-                             "carries its own temperature")
+            raise ValueError(
+                "exobase_temperature is for a Thermosphere; a PrescribedExobase "
+                "carries its own temperature"
+            )
         return exobase._core_model(names), exobase._history
     if isinstance(exobase, Thermosphere):
         kwargs = exobase._kwargs
-        model = _core.ThermosphereExobase(exobase._core, names, bool(limit_by_diffusion),
-                                          kwargs["diffusion_method"],
-                                          _tail(kwargs["tail_depletion"]))
+        model = _core.ThermosphereExobase(
+            exobase._core,
+            names,
+            bool(limit_by_diffusion),
+            kwargs["diffusion_method"],
+            _tail(kwargs["tail_depletion"]),
+        )
         if temperature is None:
             temperature = exobase._args[4]
             if temperature is None:
-                raise ValueError("exobase_temperature is required for a thermosphere given "
-                                 "by a temperature table")
+                raise ValueError(
+                    "exobase_temperature is required for a thermosphere given "
+                    "by a temperature table"
+                )
         return model, temperature_history(temperature)
-    raise ValueError(f"exobase must be an exosieve.PrescribedExobase or exosieve.Thermosphere, "
-                     f"got {exobase!r}")
+    raise ValueError(
+        f"exobase must be an exosieve.PrescribedExobase or exosieve.Thermosphere, got {exobase!r}"
+    )

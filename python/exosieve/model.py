@@ -7,8 +7,9 @@ Arguments accept astropy quantities where astropy is installed.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
-from typing import Any, Callable, Optional, Sequence, Tuple, Union
+import math
+from collections.abc import Callable, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -50,14 +51,17 @@ def _scalar(value: Any, name: str, unit: str) -> float:
 
 
 def _vector(value: Any, name: str, unit: str) -> NDArray[np.float64]:
+    if isinstance(value, (list, tuple)) and any(hasattr(v, "unit") for v in value):
+        value = [to_si(v, name, unit) for v in value]  # e.g. (10 * u.Myr, 1 * u.Gyr)
     array = np.atleast_1d(to_si(value, name, unit))
     if array.ndim != 1:
         raise ValueError(f"{name} must be one-dimensional, got shape {array.shape}")
     return np.ascontiguousarray(array)
 
 
-def _map(function: Callable[[NDArray[np.float64]], NDArray[np.float64]], value: Any, name: str,
-         unit: str) -> FloatOrArray:
+def _map(
+    function: Callable[[NDArray[np.float64]], NDArray[np.float64]], value: Any, name: str, unit: str
+) -> FloatOrArray:
     array = to_si(value, name, unit)
     out = function(np.ascontiguousarray(array).reshape(-1)).reshape(array.shape)
     return float(out) if array.ndim == 0 else out
@@ -95,15 +99,22 @@ class Star:
     '3.162e-05'
     """
 
-    def __init__(self, mass: Any, luminosity: Any,
-                 saturation_ratio: float = _DEFAULT_XUV.saturation_ratio,
-                 saturation_time: Any = _DEFAULT_XUV.saturation_time,
-                 decay_index: float = _DEFAULT_XUV.decay_index) -> None:
-        xuv = _core.XuvHistory(_scalar(saturation_ratio, "saturation_ratio", "1"),
-                               _scalar(saturation_time, "saturation_time", "s"),
-                               _scalar(decay_index, "decay_index", "1"))
-        self._core = _core.Star(_scalar(mass, "star mass", "kg"),
-                                _scalar(luminosity, "star luminosity", "W"), xuv)
+    def __init__(
+        self,
+        mass: Any,
+        luminosity: Any,
+        saturation_ratio: float = _DEFAULT_XUV.saturation_ratio,
+        saturation_time: Any = _DEFAULT_XUV.saturation_time,
+        decay_index: float = _DEFAULT_XUV.decay_index,
+    ) -> None:
+        xuv = _core.XuvHistory(
+            _scalar(saturation_ratio, "saturation_ratio", "1"),
+            _scalar(saturation_time, "saturation_time", "s"),
+            _scalar(decay_index, "decay_index", "1"),
+        )
+        self._core = _core.Star(
+            _scalar(mass, "star mass", "kg"), _scalar(luminosity, "star luminosity", "W"), xuv
+        )
 
     @property
     def mass(self) -> float:
@@ -135,13 +146,23 @@ class Star:
         return _map(self._core.xuv_luminosity, t, "t", "s")
 
     def __repr__(self) -> str:
-        return (f"Star(mass={self.mass:.6g}, luminosity={self.luminosity:.6g}, "
-                f"saturation_ratio={self.saturation_ratio:.6g}, "
-                f"saturation_time={self.saturation_time:.6g}, decay_index={self.decay_index:.6g})")
+        return (
+            f"Star(mass={self.mass:.6g}, luminosity={self.luminosity:.6g}, "
+            f"saturation_ratio={self.saturation_ratio:.6g}, "
+            f"saturation_time={self.saturation_time:.6g}, decay_index={self.decay_index:.6g})"
+        )
 
     def __reduce__(self) -> tuple[Any, ...]:
-        return (Star, (self.mass, self.luminosity, self.saturation_ratio, self.saturation_time,
-                       self.decay_index))
+        return (
+            Star,
+            (
+                self.mass,
+                self.luminosity,
+                self.saturation_ratio,
+                self.saturation_time,
+                self.decay_index,
+            ),
+        )
 
 
 class Planet:
@@ -166,20 +187,22 @@ class Planet:
     0.000316
     """
 
-    def __init__(self, mass: Any, radius: Any, semi_major_axis: Any = None,
-                 star: Optional[Star] = None) -> None:
+    def __init__(
+        self, mass: Any, radius: Any, semi_major_axis: Any = None, star: Star | None = None
+    ) -> None:
         m = _scalar(mass, "planet mass", "kg")
         r = _scalar(radius, "planet radius", "m")
         if (semi_major_axis is None) != (star is None):
             raise ValueError("give both semi_major_axis and star, or neither")
-        self.star: Optional[Star] = star
+        self.star: Star | None = star
         if star is None:
             self._core = _core.Planet(m, r)
         else:
             if not isinstance(star, Star):
                 raise ValueError(f"star must be an exosieve.Star, got {star!r}")
-            self._core = _core.Planet(m, r, _scalar(semi_major_axis, "semi_major_axis", "m"),
-                                      star._core)
+            self._core = _core.Planet(
+                m, r, _scalar(semi_major_axis, "semi_major_axis", "m"), star._core
+            )
 
     @property
     def mass(self) -> float:
@@ -192,7 +215,7 @@ class Planet:
         return float(self._core.radius)
 
     @property
-    def semi_major_axis(self) -> Optional[float]:
+    def semi_major_axis(self) -> float | None:
         """Semi-major axis [m], or None."""
         return float(self._core.semi_major_axis) if self.star is not None else None
 
@@ -201,7 +224,11 @@ class Planet:
         return _map(self._core.xuv_flux, t, "t", "s")
 
     def __repr__(self) -> str:
-        orbit = "" if self.star is None else f", semi_major_axis={self.semi_major_axis:.6g}, star={self.star!r}"
+        orbit = (
+            ""
+            if self.star is None
+            else f", semi_major_axis={self.semi_major_axis:.6g}, star={self.star!r}"
+        )
         return f"Planet(mass={self.mass:.6g}, radius={self.radius:.6g}{orbit})"
 
     def __reduce__(self) -> tuple[Any, ...]:
@@ -238,6 +265,9 @@ class TabulatedTemperature:
     def __repr__(self) -> str:
         return f"TabulatedTemperature(times={self.times!r}, temperatures={self.temperatures!r})"
 
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (TabulatedTemperature, (self.times, self.temperatures))
+
 
 class XuvTemperature:
     """Exobase temperature driven by the planet's XUV flux:
@@ -260,27 +290,51 @@ class XuvTemperature:
     2000.0
     """
 
-    def __init__(self, reference_temperature: Any, reference_flux: Any, exponent: float,
-                 minimum: Any, maximum: Any) -> None:
+    def __init__(
+        self,
+        reference_temperature: Any,
+        reference_flux: Any,
+        exponent: float,
+        minimum: Any,
+        maximum: Any,
+    ) -> None:
         self.reference_temperature = _scalar(reference_temperature, "reference_temperature", "K")
         self.reference_flux = _scalar(reference_flux, "reference_flux", "W m-2")
         self.exponent = _scalar(exponent, "exponent", "1")
         self.minimum = _scalar(minimum, "minimum", "K")
         self.maximum = _scalar(maximum, "maximum", "K")
         self._core = _core.ExobaseTemperature.xuv_power_law(
-            self.reference_temperature, self.reference_flux, self.exponent, self.minimum,
-            self.maximum)
+            self.reference_temperature,
+            self.reference_flux,
+            self.exponent,
+            self.minimum,
+            self.maximum,
+        )
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (
+            XuvTemperature,
+            (
+                self.reference_temperature,
+                self.reference_flux,
+                self.exponent,
+                self.minimum,
+                self.maximum,
+            ),
+        )
 
     def temperature(self, xuv_flux: float) -> float:
         """Temperature [K] at XUV flux ``xuv_flux`` [W m^-2]."""
         return float(self._core(0.0, float(xuv_flux)))
 
     def __repr__(self) -> str:
-        return (f"XuvTemperature({self.reference_temperature!r}, {self.reference_flux!r}, "
-                f"{self.exponent!r}, {self.minimum!r}, {self.maximum!r})")
+        return (
+            f"XuvTemperature({self.reference_temperature!r}, {self.reference_flux!r}, "
+            f"{self.exponent!r}, {self.minimum!r}, {self.maximum!r})"
+        )
 
 
-TemperatureLike = Union[float, TabulatedTemperature, XuvTemperature, Callable[[float], float]]
+TemperatureLike = float | TabulatedTemperature | XuvTemperature | Callable[[float], float]
 
 
 def temperature_history(temperature: Any) -> Any:
@@ -319,19 +373,29 @@ class PrescribedExobase:
     'inventory'
     """
 
-    def __init__(self, radius: Any, temperature: TemperatureLike, densities: Mapping[str, Any],
-                 scaling: str = "inventory") -> None:
+    def __init__(
+        self,
+        radius: Any,
+        temperature: TemperatureLike,
+        densities: Mapping[str, Any],
+        scaling: str = "inventory",
+    ) -> None:
         if scaling not in ("inventory", "fixed"):
             raise ValueError(f"scaling must be 'inventory' or 'fixed', got {scaling!r}")
         if not isinstance(densities, Mapping) or not densities:
-            raise ValueError(f"densities must be a non-empty mapping of species to m^-3, "
-                             f"got {densities!r}")
+            raise ValueError(
+                f"densities must be a non-empty mapping of species to m^-3, got {densities!r}"
+            )
         self.radius = _scalar(radius, "exobase radius", "m")
         self.temperature = temperature
-        self.densities = {_name(k): _scalar(v, f"density of {_name(k)}", "m-3")
-                          for k, v in densities.items()}
+        self.densities = {
+            _name(k): _scalar(v, f"density of {_name(k)}", "m-3") for k, v in densities.items()
+        }
         self.scaling = scaling
         self._history = temperature_history(temperature)
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (PrescribedExobase, (self.radius, self.temperature, self.densities, self.scaling))
 
     def _core_model(self, species: Sequence[str]) -> Any:
         missing = [s for s in species if s not in self.densities]
@@ -340,13 +404,18 @@ class PrescribedExobase:
         extra = [s for s in self.densities if s not in species]
         if extra:
             raise ValueError(f"densities: {', '.join(extra)} not in the inventory")
-        return _core.PrescribedExobase(self.radius, list(species),
-                                       [self.densities[s] for s in species],
-                                       getattr(_core.DensityScaling, self.scaling))
+        return _core.PrescribedExobase(
+            self.radius,
+            list(species),
+            [self.densities[s] for s in species],
+            getattr(_core.DensityScaling, self.scaling),
+        )
 
     def __repr__(self) -> str:
-        return (f"PrescribedExobase(radius={self.radius!r}, temperature={self.temperature!r}, "
-                f"densities={self.densities!r}, scaling={self.scaling!r})")
+        return (
+            f"PrescribedExobase(radius={self.radius!r}, temperature={self.temperature!r}, "
+            f"densities={self.densities!r}, scaling={self.scaling!r})"
+        )
 
 
 class TabulatedSource:
@@ -377,6 +446,9 @@ class TabulatedSource:
     def __repr__(self) -> str:
         return f"TabulatedSource(times={self.times!r}, rates={self.rates!r})"
 
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (TabulatedSource, (self.times, self.rates))
+
 
 def source_rate(value: Any, name: str) -> Any:
     """The core source for a float rate [s^-1], a TabulatedSource or a (times, rates) pair."""
@@ -384,10 +456,13 @@ def source_rate(value: Any, name: str) -> Any:
         return value._core
     if isinstance(value, tuple) and len(value) == 2:
         return TabulatedSource(*value)._core
-    return _core.SourceRate(_scalar(value, f"source of {name}", "s-1"))
+    rate = _scalar(value, f"source of {name}", "s-1")
+    if not (math.isfinite(rate) and rate >= 0.0):
+        raise ValueError(f"source of {name} must be finite and >= 0 [s^-1], got {rate!r}")
+    return _core.SourceRate(rate)
 
 
-DiffusionLike = Union[float, Tuple[float, float]]
+DiffusionLike = float | tuple[float, float]
 
 
 class EnergyLimitedEscape:
@@ -425,12 +500,19 @@ class EnergyLimitedEscape:
     'hydrodynamic'
     """
 
-    def __init__(self, efficiency: float = 0.15, xuv_radius: Any = None, roche_lobe: bool = True,
-                 escaping_species: Optional[str] = None, activation: str = "hydrodynamic",
-                 diffusion: Optional[Mapping[str, DiffusionLike]] = None) -> None:
+    def __init__(
+        self,
+        efficiency: float = 0.15,
+        xuv_radius: Any = None,
+        roche_lobe: bool = True,
+        escaping_species: str | None = None,
+        activation: str = "hydrodynamic",
+        diffusion: Mapping[str, DiffusionLike] | None = None,
+    ) -> None:
         if activation not in ("hydrodynamic", "transition", "always"):
-            raise ValueError("activation must be 'hydrodynamic', 'transition' or 'always', "
-                             f"got {activation!r}")
+            raise ValueError(
+                f"activation must be 'hydrodynamic', 'transition' or 'always', got {activation!r}"
+            )
         self.efficiency = _scalar(efficiency, "efficiency", "1")
         self.xuv_radius = None if xuv_radius is None else _scalar(xuv_radius, "xuv_radius", "m")
         self.roche_lobe = bool(roche_lobe)
@@ -442,23 +524,46 @@ class EnergyLimitedEscape:
                 a, s = law
             else:
                 a, s = law, 0.0
-            self.diffusion[_name(name)] = (_scalar(a, f"diffusion coefficient of {name}",
-                                                   "m-1 s-1"), float(s))
+            self.diffusion[_name(name)] = (
+                _scalar(a, f"diffusion coefficient of {name}", "m-1 s-1"),
+                float(s),
+            )
         self._core = _core.HydrodynamicOptions(
-            self.efficiency, 0.0 if self.xuv_radius is None else self.xuv_radius,
-            self.roche_lobe, escaping_species or "",
+            self.efficiency,
+            0.0 if self.xuv_radius is None else self.xuv_radius,
+            self.roche_lobe,
+            escaping_species or "",
             getattr(_core.HydrodynamicActivation, activation),
-            [(k, _core.DiffusionLaw(a, s)) for k, (a, s) in self.diffusion.items()])
+            [(k, _core.DiffusionLaw(a, s)) for k, (a, s) in self.diffusion.items()],
+        )
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (
+            EnergyLimitedEscape,
+            (
+                self.efficiency,
+                self.xuv_radius,
+                self.roche_lobe,
+                self.escaping_species,
+                self.activation,
+                self.diffusion,
+            ),
+        )
 
     def __repr__(self) -> str:
-        return (f"EnergyLimitedEscape(efficiency={self.efficiency!r}, "
-                f"xuv_radius={self.xuv_radius!r}, roche_lobe={self.roche_lobe!r}, "
-                f"escaping_species={self.escaping_species!r}, activation={self.activation!r}, "
-                f"diffusion={self.diffusion!r})")
+        return (
+            f"EnergyLimitedEscape(efficiency={self.efficiency!r}, "
+            f"xuv_radius={self.xuv_radius!r}, roche_lobe={self.roche_lobe!r}, "
+            f"escaping_species={self.escaping_species!r}, activation={self.activation!r}, "
+            f"diffusion={self.diffusion!r})"
+        )
 
 
-def RegimeThresholds(enhanced: float = 6.0, transition: float = 3.0,  # noqa: N802
-                     hydrodynamic: float = 2.1) -> Any:
+def RegimeThresholds(
+    enhanced: float = 6.0,
+    transition: float = 3.0,  # noqa: N802
+    hydrodynamic: float = 2.1,
+) -> Any:
     """Jeans-parameter thresholds between escape regimes [1].
 
     Defaults from the kinetic simulations of Volkov et al. (2011, ApJL 729, L24): Jeans-like
@@ -483,17 +588,22 @@ def classify_regime(jeans_parameter: Any, thresholds: Any = None) -> Any:
     ['jeans', 'enhanced_jeans', 'transition', 'hydrodynamic']
     """
     lam = to_si(jeans_parameter, "jeans_parameter", "1")
-    codes = _core.classify_regime(np.ascontiguousarray(lam).reshape(-1),
-                                  thresholds or _core.RegimeThresholds()).reshape(lam.shape)
+    codes = _core.classify_regime(
+        np.ascontiguousarray(lam).reshape(-1), thresholds or _core.RegimeThresholds()
+    ).reshape(lam.shape)
     return int(codes) if lam.ndim == 0 else codes
 
 
 def roche_lobe_ratio(planet_mass: Any, star_mass: Any, semi_major_axis: Any, radius: Any) -> float:
     """``xi = a (M_p / (3 M_star))^(1/3) / R_p`` [1] (Erkaev et al. 2007)."""
-    return float(_core.roche_lobe_ratio(_scalar(planet_mass, "planet_mass", "kg"),
-                                        _scalar(star_mass, "star_mass", "kg"),
-                                        _scalar(semi_major_axis, "semi_major_axis", "m"),
-                                        _scalar(radius, "radius", "m")))
+    return float(
+        _core.roche_lobe_ratio(
+            _scalar(planet_mass, "planet_mass", "kg"),
+            _scalar(star_mass, "star_mass", "kg"),
+            _scalar(semi_major_axis, "semi_major_axis", "m"),
+            _scalar(radius, "radius", "m"),
+        )
+    )
 
 
 def roche_lobe_factor(xi: Any) -> FloatOrArray:
@@ -507,8 +617,14 @@ def roche_lobe_factor(xi: Any) -> FloatOrArray:
     return _map(_core.roche_lobe_factor, xi, "xi", "1")
 
 
-def energy_limited_mass_loss(efficiency: float, planet_radius: Any, xuv_radius: Any,
-                             xuv_flux: Any, planet_mass: Any, roche_factor: float = 1.0) -> float:
+def energy_limited_mass_loss(
+    efficiency: float,
+    planet_radius: Any,
+    xuv_radius: Any,
+    xuv_flux: Any,
+    planet_mass: Any,
+    roche_factor: float = 1.0,
+) -> float:
     """Energy-limited mass-loss rate ``eta pi R_p R_xuv^2 F_xuv / (G M_p K)`` [kg s^-1]
     (Watson et al. 1981; Erkaev et al. 2007).
 
@@ -518,32 +634,59 @@ def energy_limited_mass_loss(efficiency: float, planet_radius: Any, xuv_radius: 
     >>> f"{energy_limited_mass_loss(0.15, 2 * c.R_EARTH, 2 * c.R_EARTH, 10.0, 5 * c.M_EARTH):.4e}"
     '4.9079e+06'
     """
-    return float(_core.energy_limited_mass_loss(
-        _scalar(efficiency, "efficiency", "1"), _scalar(planet_radius, "planet_radius", "m"),
-        _scalar(xuv_radius, "xuv_radius", "m"), _scalar(xuv_flux, "xuv_flux", "W m-2"),
-        _scalar(planet_mass, "planet_mass", "kg"), _scalar(roche_factor, "roche_factor", "1")))
+    return float(
+        _core.energy_limited_mass_loss(
+            _scalar(efficiency, "efficiency", "1"),
+            _scalar(planet_radius, "planet_radius", "m"),
+            _scalar(xuv_radius, "xuv_radius", "m"),
+            _scalar(xuv_flux, "xuv_flux", "W m-2"),
+            _scalar(planet_mass, "planet_mass", "kg"),
+            _scalar(roche_factor, "roche_factor", "1"),
+        )
+    )
 
 
-def crossover_mass(light_mass: Any, temperature: Any, light_flux: Any, diffusion_parameter: Any,
-                   gravity: Any, light_mole_fraction: float) -> float:
+def crossover_mass(
+    light_mass: Any,
+    temperature: Any,
+    light_flux: Any,
+    diffusion_parameter: Any,
+    gravity: Any,
+    light_mole_fraction: float,
+) -> float:
     """Crossover mass ``m_1 + k T F_1 / (b g x_1)`` [kg] (Hunten, Pepin & Walker 1987)."""
-    return float(_core.crossover_mass(
-        _scalar(light_mass, "light_mass", "kg"), _scalar(temperature, "temperature", "K"),
-        _scalar(light_flux, "light_flux", "m-2 s-1"),
-        _scalar(diffusion_parameter, "diffusion_parameter", "m-1 s-1"),
-        _scalar(gravity, "gravity", "m s-2"), _scalar(light_mole_fraction,
-                                                      "light_mole_fraction", "1")))
+    return float(
+        _core.crossover_mass(
+            _scalar(light_mass, "light_mass", "kg"),
+            _scalar(temperature, "temperature", "K"),
+            _scalar(light_flux, "light_flux", "m-2 s-1"),
+            _scalar(diffusion_parameter, "diffusion_parameter", "m-1 s-1"),
+            _scalar(gravity, "gravity", "m s-2"),
+            _scalar(light_mole_fraction, "light_mole_fraction", "1"),
+        )
+    )
 
 
-def dragged_flux(mass: Any, mole_fraction: float, light_mass: Any, light_flux: Any,
-                 light_mole_fraction: float, crossover_mass: Any) -> float:
+def dragged_flux(
+    mass: Any,
+    mole_fraction: float,
+    light_mass: Any,
+    light_flux: Any,
+    light_mole_fraction: float,
+    crossover_mass: Any,
+) -> float:
     """Flux of a species dragged by the light one [m^-2 s^-1] (Hunten, Pepin & Walker 1987):
     ``(x_i/x_1) F_1 (m_c - m_i)/(m_c - m_1)`` below the crossover mass, else 0."""
-    return float(_core.dragged_flux(
-        _scalar(mass, "mass", "kg"), _scalar(mole_fraction, "mole_fraction", "1"),
-        _scalar(light_mass, "light_mass", "kg"), _scalar(light_flux, "light_flux", "m-2 s-1"),
-        _scalar(light_mole_fraction, "light_mole_fraction", "1"),
-        _scalar(crossover_mass, "crossover_mass", "kg")))
+    return float(
+        _core.dragged_flux(
+            _scalar(mass, "mass", "kg"),
+            _scalar(mole_fraction, "mole_fraction", "1"),
+            _scalar(light_mass, "light_mass", "kg"),
+            _scalar(light_flux, "light_flux", "m-2 s-1"),
+            _scalar(light_mole_fraction, "light_mole_fraction", "1"),
+            _scalar(crossover_mass, "crossover_mass", "kg"),
+        )
+    )
 
 
 def _name(key: Any) -> str:

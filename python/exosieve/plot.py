@@ -300,3 +300,86 @@ def _span_text(comparison: Any) -> str:
         if np.isclose(lo, hi)
         else f"evolution to {lo:.3g}-{hi:.3g} Gyr"
     )
+
+
+_GYR = 3.15576e16  # Julian gigayear [s]
+
+
+def histories(
+    result: Any,
+    quantity: str = "inventory",
+    gases: Sequence[str] | None = None,
+    relative: bool = True,
+    ax: Any = None,
+) -> Any:
+    """Inventory or escape-rate histories of an evolution result on log axes.
+
+    Parameters
+    ----------
+    result : EvolutionResult
+        Output of :func:`exosieve.evolve` or :func:`exosieve.open_result`.
+    quantity : {"inventory", "escape_rate"}
+        What to draw: inventories [particles] or global escape rates [s^-1].
+    gases : sequence of str, optional
+        Species to draw (default: all).
+    relative : bool
+        Inventories as the fraction of the initial inventory [1] (default) or in particles.
+    ax : matplotlib Axes, optional
+        Where to draw.
+    """
+    if quantity not in ("inventory", "escape_rate"):
+        raise ValueError(f"quantity must be 'inventory' or 'escape_rate', got {quantity!r}")
+    ax = _axes(ax)
+    t = np.asarray(result.time) / _GYR
+    table = getattr(result, quantity)
+    for gas in gases or result.species:
+        values = np.asarray(table[gas], dtype=float)
+        if quantity == "inventory" and relative:
+            values = values / result.initial_inventory[result.species.index(gas)]
+        line = ax.loglog(t, np.where(values > 0, values, np.nan), label=gas)[0]
+        depleted = result.depletion_time.get(gas)
+        if quantity == "inventory" and depleted is not None:
+            ax.axvline(depleted / _GYR, color=line.get_color(), linestyle=":", linewidth=1)
+    ax.set_xlabel("time [Gyr]")
+    if quantity == "inventory":
+        ax.set_ylabel("retained fraction [1]" if relative else "inventory [particles]")
+    else:
+        ax.set_ylabel("escape rate [s$^{-1}$]")
+    ax.legend(fontsize="small")
+    return ax
+
+
+def isotope_ratios(
+    result: Any, ratios: Sequence[str] | None = None, normalise: bool = True, ax: Any = None
+) -> Any:
+    """Isotope-ratio histories (e.g. D/H) of an evolution result.
+
+    With ``normalise`` each ratio is divided by its initial value, so the curve shows the
+    enrichment [1] that escape leaves behind.
+    """
+    ax = _axes(ax)
+    t = np.asarray(result.time) / _GYR
+    for name in ratios or list(result.isotope_ratio):
+        values = np.asarray(result.isotope_ratio[name], dtype=float)
+        if normalise:
+            values = values / values[0]
+        ax.semilogx(t, values, label=name)
+    ax.set_xlabel("time [Gyr]")
+    ax.set_ylabel("ratio / initial ratio [1]" if normalise else "isotope ratio [1]")
+    ax.legend(fontsize="small")
+    return ax
+
+
+def exobase_history(result: Any, ax: Any = None) -> Any:
+    """Exobase temperature [K] (left axis) and XUV flux [W m^-2] (right axis) over time."""
+    ax = _axes(ax)
+    t = np.asarray(result.time) / _GYR
+    ax.semilogx(t, result.exobase_temperature, color="C3", label="exobase temperature")
+    ax.set_xlabel("time [Gyr]")
+    ax.set_ylabel("exobase temperature [K]", color="C3")
+    xuv = np.asarray(result.xuv_flux, dtype=float)
+    if np.any(np.isfinite(xuv)):
+        right = ax.twinx()
+        right.loglog(t, xuv, color="C0", linestyle="--", label="XUV flux")
+        right.set_ylabel("XUV flux at the planet [W m$^{-2}$]", color="C0")
+    return ax

@@ -12,7 +12,7 @@ import json
 import math
 import os
 from collections.abc import Iterator, Mapping
-from typing import Any, Optional, Union
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -119,19 +119,24 @@ class EvolutionResult:
         ratios = [str(s) for s in data.get("ratio_names", [])]
         for name in SPECIES_VARIABLES:
             setattr(self, name, PerName(self.species, np.asarray(data[name], dtype=np.float64)))
-        self.isotope_ratio = PerName(ratios, np.asarray(data["isotope_ratio"],
-                                                        dtype=np.float64).reshape(
-                                                            len(self.time), len(ratios)))
+        self.isotope_ratio = PerName(
+            ratios,
+            np.asarray(data["isotope_ratio"], dtype=np.float64).reshape(
+                len(self.time), len(ratios)
+            ),
+        )
         for name in ("exobase_radius", "exobase_temperature", "xuv_flux"):
             setattr(self, name, np.asarray(data[name], dtype=np.float64))
         self.regime: NDArray[np.int64] = np.asarray(data["regime"], dtype=np.int64)
-        self.energy_limited: NDArray[np.int64] = np.asarray(data["energy_limited"],
-                                                            dtype=np.int64)
+        self.energy_limited: NDArray[np.int64] = np.asarray(data["energy_limited"], dtype=np.int64)
         depletion = np.asarray(data["depletion_time"], dtype=np.float64)
-        self.depletion_time: dict[str, Optional[float]] = {
-            s: (None if math.isnan(t) else float(t)) for s, t in zip(self.species, depletion)}
+        self.depletion_time: dict[str, float | None] = {
+            s: (None if math.isnan(t) else float(t))
+            for s, t in zip(self.species, depletion, strict=True)
+        }
         self.regime_changes: list[tuple[float, str, str]] = [
-            (float(t), str(a), str(b)) for t, a, b in data.get("regime_changes", [])]
+            (float(t), str(a), str(b)) for t, a, b in data.get("regime_changes", [])
+        ]
         self.initial_inventory = np.asarray(data["initial_inventory"], dtype=np.float64)
         self.species_mass = np.asarray(data["species_mass"], dtype=np.float64)
         self.steps = int(data["steps"])
@@ -140,7 +145,7 @@ class EvolutionResult:
         self.completed = bool(data["completed"])
         self.t_reached = float(data["t_reached"])
         self.config_json: str = str(data["config"])
-        self._config: Optional[dict[str, Any]] = None
+        self._config: dict[str, Any] | None = None
 
     inventory: PerName
     escape_rate: PerName
@@ -152,20 +157,36 @@ class EvolutionResult:
 
     @classmethod
     def _from_core(cls, raw: Any, masses: list[float], initial: list[float]) -> EvolutionResult:
-        return cls({
-            "time": raw.time, "species": raw.species, "ratio_names": raw.ratio_names,
-            "inventory": raw.inventory, "escape_rate": raw.escape_rate,
-            "source_rate": raw.source_rate, "jeans_parameter": raw.jeans_parameter,
-            "isotope_ratio": raw.isotope_ratio, "exobase_radius": raw.exobase_radius,
-            "exobase_temperature": raw.exobase_temperature, "xuv_flux": raw.xuv_flux,
-            "regime": raw.regime, "energy_limited": raw.energy_limited,
-            "depletion_time": raw.depletion_time,
-            "regime_changes": [(c.time, REGIMES[c.from_regime], REGIMES[c.to_regime])
-                               for c in raw.regime_changes],
-            "initial_inventory": initial, "species_mass": masses, "steps": raw.steps,
-            "rejected_steps": raw.rejected_steps, "rhs_evaluations": raw.rhs_evaluations,
-            "completed": raw.completed, "t_reached": raw.t_reached, "config": raw.config,
-        })
+        return cls(
+            {
+                "time": raw.time,
+                "species": raw.species,
+                "ratio_names": raw.ratio_names,
+                "inventory": raw.inventory,
+                "escape_rate": raw.escape_rate,
+                "source_rate": raw.source_rate,
+                "jeans_parameter": raw.jeans_parameter,
+                "isotope_ratio": raw.isotope_ratio,
+                "exobase_radius": raw.exobase_radius,
+                "exobase_temperature": raw.exobase_temperature,
+                "xuv_flux": raw.xuv_flux,
+                "regime": raw.regime,
+                "energy_limited": raw.energy_limited,
+                "depletion_time": raw.depletion_time,
+                "regime_changes": [
+                    (c.time, REGIMES[c.from_regime], REGIMES[c.to_regime])
+                    for c in raw.regime_changes
+                ],
+                "initial_inventory": initial,
+                "species_mass": masses,
+                "steps": raw.steps,
+                "rejected_steps": raw.rejected_steps,
+                "rhs_evaluations": raw.rhs_evaluations,
+                "completed": raw.completed,
+                "t_reached": raw.t_reached,
+                "config": raw.config,
+            }
+        )
 
     @property
     def config(self) -> dict[str, Any]:
@@ -185,28 +206,46 @@ class EvolutionResult:
         return list(self.isotope_ratio.names)
 
     def __repr__(self) -> str:
-        return (f"<EvolutionResult {len(self.species)} species, {len(self.time)} times "
-                f"[{self.time[0]:.4g}, {self.time[-1]:.4g}] s, {self.steps} steps "
-                f"({self.rejected_steps} rejected){'' if self.completed else ', stopped early'}>")
+        return (
+            f"<EvolutionResult {len(self.species)} species, {len(self.time)} times "
+            f"[{self.time[0]:.4g}, {self.time[-1]:.4g}] s, {self.steps} steps "
+            f"({self.rejected_steps} rejected){'' if self.completed else ', stopped early'}>"
+        )
 
     def _fields(self) -> dict[str, Any]:
         return {
-            "time": self.time, "species": self.species, "ratio_names": self.ratio_names,
+            "time": self.time,
+            "species": self.species,
+            "ratio_names": self.ratio_names,
             **{n: getattr(self, n).values for n in SPECIES_VARIABLES},
             "isotope_ratio": self.isotope_ratio.values,
-            **{n: getattr(self, n) for n in ("exobase_radius", "exobase_temperature",
-                                              "xuv_flux", "regime", "energy_limited")},
-            "depletion_time": np.array([np.nan if t is None else t
-                                        for t in self.depletion_time.values()]),
-            "initial_inventory": self.initial_inventory, "species_mass": self.species_mass,
-            "steps": self.steps, "rejected_steps": self.rejected_steps,
-            "rhs_evaluations": self.rhs_evaluations, "completed": self.completed,
-            "t_reached": self.t_reached, "config": self.config_json,
-            "regime_changes": json.dumps([{"time_s": t, "from": a, "to": b}
-                                          for t, a, b in self.regime_changes]),
+            **{
+                n: getattr(self, n)
+                for n in (
+                    "exobase_radius",
+                    "exobase_temperature",
+                    "xuv_flux",
+                    "regime",
+                    "energy_limited",
+                )
+            },
+            "depletion_time": np.array(
+                [np.nan if t is None else t for t in self.depletion_time.values()]
+            ),
+            "initial_inventory": self.initial_inventory,
+            "species_mass": self.species_mass,
+            "steps": self.steps,
+            "rejected_steps": self.rejected_steps,
+            "rhs_evaluations": self.rhs_evaluations,
+            "completed": self.completed,
+            "t_reached": self.t_reached,
+            "config": self.config_json,
+            "regime_changes": json.dumps(
+                [{"time_s": t, "from": a, "to": b} for t, a, b in self.regime_changes]
+            ),
         }
 
-    def to_hdf5(self, path: Union[str, os.PathLike[str]]) -> None:
+    def to_hdf5(self, path: str | os.PathLike[str]) -> None:
         """Write the result to an HDF5 file at ``path`` (replaced atomically).
 
         The layout is described in the module docstring; read it back with
@@ -222,33 +261,50 @@ class EvolutionResult:
 
         coords = {
             "time": ("time", self.time, {"units": "s", "long_name": "time (stellar age)"}),
-            "species": ("species", np.array(self.species, dtype=object),
-                        {"units": "1", "long_name": "species"}),
+            "species": (
+                "species",
+                np.array(self.species, dtype=object),
+                {"units": "1", "long_name": "species"},
+            ),
         }
         data = {}
         for name, (units, long_name) in SPECIES_VARIABLES.items():
-            data[name] = (("time", "species"), getattr(self, name).values,
-                          {"units": units, "long_name": long_name})
+            data[name] = (
+                ("time", "species"),
+                getattr(self, name).values,
+                {"units": units, "long_name": long_name},
+            )
         for name, (units, long_name) in TIME_VARIABLES.items():
             attrs = {"units": units, "long_name": long_name}
             if name == "regime":
                 attrs.update(REGIME_FLAGS)
             data[name] = (("time",), getattr(self, name), attrs)
         if self.ratio_names:
-            coords["ratio"] = ("ratio", np.array(self.ratio_names, dtype=object),
-                               {"units": "1", "long_name": "isotope ratio"})
-            data["isotope_ratio"] = (("time", "ratio"), self.isotope_ratio.values,
-                                     _attrs("isotope_ratio"))
+            coords["ratio"] = (
+                "ratio",
+                np.array(self.ratio_names, dtype=object),
+                {"units": "1", "long_name": "isotope ratio"},
+            )
+            data["isotope_ratio"] = (
+                ("time", "ratio"),
+                self.isotope_ratio.values,
+                _attrs("isotope_ratio"),
+            )
         f = self._fields()
         for name in ("depletion_time", "initial_inventory", "species_mass"):
             data[name] = (("species",), f[name], _attrs(name))
         for name in ("steps", "rejected_steps", "rhs_evaluations", "completed"):
             data[name] = ((), np.int64(f[name]), _attrs(name))
         data["t_reached"] = ((), np.float64(self.t_reached), _attrs("t_reached"))
-        return xr.Dataset(data, coords=coords, attrs={
-            "config": self.config_json, "regime_changes": f["regime_changes"],
-            "exosieve_version": str(self.config.get("version", "")),
-        })
+        return xr.Dataset(
+            data,
+            coords=coords,
+            attrs={
+                "config": self.config_json,
+                "regime_changes": f["regime_changes"],
+                "exosieve_version": str(self.config.get("version", "")),
+            },
+        )
 
     def to_pandas(self) -> Any:
         """A ``pandas.DataFrame`` indexed by time [s] with (quantity, species) columns;
@@ -274,7 +330,7 @@ def _attrs(name: str) -> dict[str, str]:
     return {"units": units, "long_name": long_name}
 
 
-def open_result(path: Union[str, os.PathLike[str]]) -> EvolutionResult:
+def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
     """Read a result file written by :meth:`EvolutionResult.to_hdf5`.
 
     Examples
@@ -299,12 +355,22 @@ def open_result(path: Union[str, os.PathLike[str]]) -> EvolutionResult:
         ratios = [text(s) for s in f["ratio"][()]] if "ratio" in f else []
         time = f["time"][()]
         data: dict[str, Any] = {"time": time, "species": species, "ratio_names": ratios}
-        for name in list(SPECIES_VARIABLES) + list(TIME_VARIABLES) + [
-                "depletion_time", "initial_inventory", "species_mass", "steps",
-                "rejected_steps", "rhs_evaluations", "completed", "t_reached"]:
+        for name in (
+            list(SPECIES_VARIABLES)
+            + list(TIME_VARIABLES)
+            + [
+                "depletion_time",
+                "initial_inventory",
+                "species_mass",
+                "steps",
+                "rejected_steps",
+                "rhs_evaluations",
+                "completed",
+                "t_reached",
+            ]
+        ):
             data[name] = f[name][()]
-        data["isotope_ratio"] = (f["isotope_ratio"][()] if ratios
-                                 else np.empty((len(time), 0)))
+        data["isotope_ratio"] = f["isotope_ratio"][()] if ratios else np.empty((len(time), 0))
         data["config"] = text(f.attrs["config"])
         changes = json.loads(text(f.attrs.get("regime_changes", "[]")))
         data["regime_changes"] = [(c["time_s"], c["from"], c["to"]) for c in changes]

@@ -25,7 +25,8 @@ const double r_exo = constants::R_earth + 500e3;
 EvolutionConfig prescribed(const std::vector<std::string>& names, const std::vector<double>& n0,
                            const std::vector<double>& N0, DensityScaling scaling, double T) {
     EvolutionConfig c(Planet(constants::M_earth, constants::R_earth));
-    for (const auto& name : names) c.species.push_back(species(name));
+    for (const auto& name : names)
+        c.species.push_back(species(name));
     c.initial_inventory = N0;
     c.exobase = std::make_shared<PrescribedExobase>(r_exo, names, n0, scaling);
     c.temperature = ExobaseTemperature::constant(T);
@@ -52,7 +53,8 @@ TEST_CASE("exponential decay when densities follow the inventory at constant tem
     c.t_end = 8 * Gyr;
     c.rtol = 1e-10;
     c.depletion_fraction = 1e-3;
-    for (int k = 0; k <= 50; ++k) c.t_eval.push_back(0.1 * k * Gyr);
+    for (int k = 0; k <= 50; ++k)
+        c.t_eval.push_back(0.1 * k * Gyr);
     const auto r = evolve(c);
     REQUIRE(r.completed);
     REQUIRE(r.time_count() == 51);
@@ -79,7 +81,8 @@ TEST_CASE("linear loss and the depletion time when densities are fixed") {
     c.t_end = 3 * Gyr;
     c.rtol = 1e-9;
     c.depletion_fraction = f;
-    for (int k = 0; k <= 30; ++k) c.t_eval.push_back(0.1 * k * Gyr);
+    for (int k = 0; k <= 30; ++k)
+        c.t_eval.push_back(0.1 * k * Gyr);
     const auto r = evolve(c);
     REQUIRE(r.completed);
     const double t_dep = (1 - f) * N0 / Q0;
@@ -182,8 +185,8 @@ TEST_CASE("a species gone in 1e4 yr beside one lasting 10 Gyr costs no more step
     auto r = evolve(c);
     CHECK(r.steps < 30);
     CHECK(r.inventory.back() == doctest::Approx(N0[1] * std::exp(-1.0)).epsilon(1e-7));
-    CHECK(r.depletion_time[0] == doctest::Approx(std::log(1000.0) * 1e4 * constants::year)
-                                     .epsilon(1e-7));
+    CHECK(r.depletion_time[0] ==
+          doctest::Approx(std::log(1000.0) * 1e4 * constants::year).epsilon(1e-7));
     // Now with a temperature that falls over the run (1e4 yr to 10 Gyr).
     c.temperature = ExobaseTemperature::table({0.0, 10 * Gyr}, {1000.0, 700.0});
     c.t_start = 1e4 * constants::year;
@@ -216,7 +219,8 @@ TEST_CASE("outgassing: a constant source balances a proportional loss") {
     const auto r = evolve(c);
     for (std::size_t i = 0; i < 3; ++i) {
         const double t = r.time[i];
-        CHECK(r.inventory[i] == doctest::Approx(S / k + (N0 - S / k) * std::exp(-k * t)).epsilon(1e-9));
+        CHECK(r.inventory[i] ==
+              doctest::Approx(S / k + (N0 - S / k) * std::exp(-k * t)).epsilon(1e-9));
         CHECK(r.source_rate[i] == S);
     }
 }
@@ -264,8 +268,8 @@ TEST_CASE("energy-limited loss during saturation: linear loss of the light speci
     c.rtol = 1e-10;
     c.t_eval = {10 * Myr, 50 * Myr, 90 * Myr};
     const auto r = evolve(c);
-    const double K = roche_lobe_factor(roche_lobe_ratio(planet.mass(), star.mass(),
-                                                        planet.semi_major_axis(), planet.radius()));
+    const double K = roche_lobe_factor(
+        roche_lobe_ratio(planet.mass(), star.mass(), planet.semi_major_axis(), planet.radius()));
     const double mdot = energy_limited_mass_loss(0.15, planet.radius(), planet.radius(),
                                                  planet.xuv_flux(50 * Myr), planet.mass(), K);
     const double q = mdot / species("H").mass;
@@ -302,7 +306,8 @@ TEST_CASE("energy-limited loss with drag conserves the mass budget") {
                                                  planet.xuv_flux(10 * Myr), planet.mass());
     double lost = 0.0;
     for (std::size_t i = 0; i < 3; ++i)
-        lost += c.species[i].mass * (c.initial_inventory[i] - r.inventory[col(r, r.time_count() - 1, i)]);
+        lost += c.species[i].mass *
+                (c.initial_inventory[i] - r.inventory[col(r, r.time_count() - 1, i)]);
     // Jeans escape of O and CO2 at 3000 K is many orders below the dragged rates here.
     CHECK(lost == doctest::Approx(mdot * 49 * Myr).epsilon(1e-7));
     const std::size_t last = r.time_count() - 1;
@@ -341,10 +346,9 @@ TEST_CASE("bad input raises InputError naming the argument before any step") {
     c.temperature = ExobaseTemperature::xuv_power_law(1000, 1, 0.5, 500, 3000);
     CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("semi_major_axis and star"), InputError);
     c = base();
-    c.exobase = std::make_shared<PrescribedExobase>(0.5 * constants::R_earth,
-                                                    std::vector<std::string>{"H"},
-                                                    std::vector<double>{1e11},
-                                                    DensityScaling::Inventory);
+    c.exobase =
+        std::make_shared<PrescribedExobase>(0.5 * constants::R_earth, std::vector<std::string>{"H"},
+                                            std::vector<double>{1e11}, DensityScaling::Inventory);
     CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("below the planet's surface"), InputError);
 }
 
@@ -377,8 +381,10 @@ TEST_CASE("runs in parallel threads give identical results") {
     const auto reference = evolve(c);
     std::vector<EvolutionResult> results(4);
     std::vector<std::thread> threads;
-    for (auto& slot : results) threads.emplace_back([&c, &slot] { slot = evolve(c); });
-    for (auto& t : threads) t.join();
+    for (auto& slot : results)
+        threads.emplace_back([&c, &slot] { slot = evolve(c); });
+    for (auto& t : threads)
+        t.join();
     for (const auto& r : results) {
         CHECK(r.inventory == reference.inventory);
         CHECK(r.steps == reference.steps);
@@ -402,18 +408,20 @@ TEST_CASE("a thermosphere's minor species decays exponentially when its share fo
     EvolutionConfig c(planet);
     c.species = {species("N2"), species("H")};
     c.initial_inventory = {1e43, N_H};
-    c.exobase = std::make_shared<ThermosphereExobase>(th, std::vector<std::string>{"N2", "H"},
-                                                      false);
+    c.exobase =
+        std::make_shared<ThermosphereExobase>(th, std::vector<std::string>{"N2", "H"}, false);
     c.temperature = ExobaseTemperature::constant(T);
     c.t_end = 3.0 / k;
     c.rtol = 1e-10;
     c.t_eval = {1.0 / k, 2.0 / k, 3.0 / k};
     const auto res = evolve(c);
     for (std::size_t j = 0; j < 3; ++j)
-        CHECK(std::log(res.inventory[col(res, j, 1)] / N_H) == doctest::Approx(-(j + 1.0)).epsilon(1e-6));
+        CHECK(std::log(res.inventory[col(res, j, 1)] / N_H) ==
+              doctest::Approx(-(j + 1.0)).epsilon(1e-6));
     CHECK(res.exobase_radius[0] == doctest::Approx(r).epsilon(1e-6));
     CHECK(res.exobase_temperature[0] == doctest::Approx(T).epsilon(1e-12));
-    MESSAGE("thermosphere run: " << res.steps << " steps, " << res.rhs_evaluations << " evaluations");
+    MESSAGE("thermosphere run: " << res.steps << " steps, " << res.rhs_evaluations
+                                 << " evaluations");
 }
 
 TEST_CASE("a thermosphere of one species loses it at a constant rate, held at depletion") {
@@ -443,11 +451,11 @@ TEST_CASE("a thermosphere of one species loses it at a constant rate, held at de
 }
 
 TEST_CASE("an evolving thermosphere refuses a tabulated profile and another planet") {
-    const Thermosphere table(constants::M_earth, constants::R_earth, constants::R_earth + 100e3,
-                             1e18, {species("O")}, {1.0},
-                             TemperatureProfile::table({constants::R_earth + 100e3,
-                                                        constants::R_earth + 500e3},
-                                                       {500.0, 1000.0}));
+    const Thermosphere table(
+        constants::M_earth, constants::R_earth, constants::R_earth + 100e3, 1e18, {species("O")},
+        {1.0},
+        TemperatureProfile::table({constants::R_earth + 100e3, constants::R_earth + 500e3},
+                                  {500.0, 1000.0}));
     CHECK_THROWS_WITH_AS(ThermosphereExobase(table, {"O"}, true), doctest::Contains("table"),
                          InputError);
     const Thermosphere th(constants::M_earth, constants::R_earth, constants::R_earth + 100e3, 1e18,

@@ -57,8 +57,8 @@ TEST_CASE("Roche-lobe factor limits (Erkaev et al. 2007)") {
 
 TEST_CASE("Roche-lobe ratio of the Earth: its Hill radius is ~1.5e9 m (common practice)") {
     // Hill radius a (M/(3 M_sun))^(1/3) of the Earth: about 1.5 million km (common practice).
-    const double xi = roche_lobe_ratio(constants::M_earth, constants::M_sun, constants::au,
-                                       constants::R_earth);
+    const double xi =
+        roche_lobe_ratio(constants::M_earth, constants::M_sun, constants::au, constants::R_earth);
     CHECK(xi * constants::R_earth == doctest::Approx(1.4966e9).epsilon(2e-3));
 }
 
@@ -112,7 +112,8 @@ TEST_CASE("sharing an energy-limited mass loss conserves mass and matches the HP
         CAPTURE(mdot);
         partition_mass_loss(mdot, T, Mp, 0, mass.data(), x.data(), b.data(), 4, rates.data());
         double total = 0.0;
-        for (int i = 0; i < 4; ++i) total += mass[i] * rates[i];
+        for (int i = 0; i < 4; ++i)
+            total += mass[i] * rates[i];
         CHECK(total == doctest::Approx(mdot).epsilon(1e-12)); // conservation of mass
         // Each dragged rate agrees with the per-area HPW formula at any radius (here R_earth).
         const double r = constants::R_earth, area = 4 * constants::pi * r * r, g = G * Mp / (r * r);

@@ -26,7 +26,8 @@ TEST_CASE("the XUV history is saturated, continuous at t_sat, then a power law")
     // Worked values of the defining formula.
     CHECK(star.xuv_luminosity(1 * Myr) == doctest::Approx(saturated).epsilon(1e-15));
     CHECK(star.xuv_luminosity(100 * Myr) == doctest::Approx(saturated).epsilon(1e-15));
-    CHECK(star.xuv_luminosity(100 * Myr * (1 + 1e-12)) == doctest::Approx(saturated).epsilon(1e-10));
+    CHECK(star.xuv_luminosity(100 * Myr * (1 + 1e-12)) ==
+          doctest::Approx(saturated).epsilon(1e-10));
     // (t / t_sat)^-1.5 at t = 10 t_sat: 10^-1.5.
     CHECK(star.xuv_luminosity(1000 * Myr) ==
           doctest::Approx(saturated * std::pow(10.0, -1.5)).epsilon(1e-14));
@@ -88,8 +89,8 @@ TEST_CASE("the XUV power law is clamped and its clamp switches are breakpoints")
     const auto h = ExobaseTemperature::xuv_power_law(1000.0, 1.0, 0.5, 600.0, 3000.0);
     CHECK(h(0.0, 1.0) == doctest::Approx(1000.0).epsilon(1e-15));
     CHECK(h(0.0, 4.0) == doctest::Approx(2000.0).epsilon(1e-15)); // 1000 * 4^0.5
-    CHECK(h(0.0, 100.0) == 3000.0);                                // clamped above
-    CHECK(h(0.0, 0.01) == 600.0);                                  // clamped below
+    CHECK(h(0.0, 100.0) == 3000.0);                               // clamped above
+    CHECK(h(0.0, 0.01) == 600.0);                                 // clamped below
     XuvHistory x;
     x.saturation_ratio = 1e-3;
     x.saturation_time = 100 * Myr;

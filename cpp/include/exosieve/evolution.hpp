@@ -58,23 +58,23 @@ struct EvolutionConfig {
     //! Start from a planet; fill in the rest before calling evolve().
     explicit EvolutionConfig(Planet p) : planet(std::move(p)) {}
 
-    Planet planet;                       //!< the planet (and its star, for XUV-driven models)
-    std::vector<Species> species;        //!< the species, in the exobase model's order
+    Planet planet;                         //!< the planet (and its star, for XUV-driven models)
+    std::vector<Species> species;          //!< the species, in the exobase model's order
     std::vector<double> initial_inventory; //!< N_i(t_start) [particles] (> 0)
-    std::shared_ptr<const ExobaseModel> exobase; //!< exobase radius and densities
-    ExobaseTemperature temperature;      //!< exobase temperature history
-    std::vector<SourceRate> sources;     //!< empty or one per species [s^-1]
+    std::shared_ptr<const ExobaseModel> exobase;     //!< exobase radius and densities
+    ExobaseTemperature temperature;                  //!< exobase temperature history
+    std::vector<SourceRate> sources;                 //!< empty or one per species [s^-1]
     std::optional<HydrodynamicOptions> hydrodynamic; //!< energy-limited loss with drag
-    RegimeThresholds thresholds;         //!< Jeans-parameter regime thresholds
-    TailDepletion tail;                  //!< factor on every Jeans flux
-    double t_start = 0.0;                //!< start time (stellar age) [s]
-    double t_end = 0.0;                  //!< end time [s] (> t_start)
-    std::vector<double> t_eval;          //!< output times [s]; empty: every step
-    double rtol = 1e-8;                  //!< relative tolerance on each N_i [1]
+    RegimeThresholds thresholds;                     //!< Jeans-parameter regime thresholds
+    TailDepletion tail;                              //!< factor on every Jeans flux
+    double t_start = 0.0;                            //!< start time (stellar age) [s]
+    double t_end = 0.0;                              //!< end time [s] (> t_start)
+    std::vector<double> t_eval;                      //!< output times [s]; empty: every step
+    double rtol = 1e-8;                              //!< relative tolerance on each N_i [1]
     //! Absolute tolerance on each N_i [particles]; empty: rtol * depletion_fraction * N_i(t_start).
     std::vector<double> atol;
-    double depletion_fraction = 1e-3;    //!< a species is depleted below this share of N_i(t_start)
-    std::size_t max_steps = 100000;      //!< accepted + rejected steps before giving up
+    double depletion_fraction = 1e-3; //!< a species is depleted below this share of N_i(t_start)
+    std::size_t max_steps = 100000;   //!< accepted + rejected steps before giving up
     //! Isotope ratios to report, (numerator, denominator) species names.
     std::vector<std::pair<std::string, std::string>> isotope_ratios;
     //! Called after every accepted step with the time [s]; returning false stops the run.
@@ -88,36 +88,36 @@ struct EvolutionConfig {
 
 //! A regime change located during a run.
 struct RegimeChange {
-    double time;  //!< [s]
-    Regime from;  //!< regime before
-    Regime to;    //!< regime after
+    double time; //!< [s]
+    Regime from; //!< regime before
+    Regime to;   //!< regime after
 };
 
 //! Output of evolve(): time series (row-major, time x species) and diagnostics.
 struct EvolutionResult {
-    std::vector<std::string> species;       //!< species names
-    std::vector<double> time;               //!< output times [s]
-    std::vector<double> inventory;          //!< N_i [particles], time x species
-    std::vector<double> escape_rate;        //!< Q_i [s^-1], time x species
-    std::vector<double> source_rate;        //!< S_i [s^-1], time x species
-    std::vector<double> jeans_parameter;    //!< lambda_i at the exobase [1], time x species
-    std::vector<double> exobase_radius;     //!< [m], per time
-    std::vector<double> exobase_temperature;//!< [K], per time
-    std::vector<double> xuv_flux;           //!< [W m^-2], per time (NaN without a star)
-    std::vector<int> regime;                //!< Regime code, per time
-    std::vector<int> energy_limited;        //!< 1 where energy-limited loss acted, per time
-    std::vector<std::string> ratio_names;   //!< e.g. "D/H"
-    std::vector<double> isotope_ratio;      //!< time x ratio [1]
-    std::vector<double> depletion_time;     //!< per species [s]; NaN where not reached
-    std::vector<double> initial_inventory;  //!< per species [particles]
-    std::vector<double> species_mass;       //!< per species [kg]
+    std::vector<std::string> species;         //!< species names
+    std::vector<double> time;                 //!< output times [s]
+    std::vector<double> inventory;            //!< N_i [particles], time x species
+    std::vector<double> escape_rate;          //!< Q_i [s^-1], time x species
+    std::vector<double> source_rate;          //!< S_i [s^-1], time x species
+    std::vector<double> jeans_parameter;      //!< lambda_i at the exobase [1], time x species
+    std::vector<double> exobase_radius;       //!< [m], per time
+    std::vector<double> exobase_temperature;  //!< [K], per time
+    std::vector<double> xuv_flux;             //!< [W m^-2], per time (NaN without a star)
+    std::vector<int> regime;                  //!< Regime code, per time
+    std::vector<int> energy_limited;          //!< 1 where energy-limited loss acted, per time
+    std::vector<std::string> ratio_names;     //!< e.g. "D/H"
+    std::vector<double> isotope_ratio;        //!< time x ratio [1]
+    std::vector<double> depletion_time;       //!< per species [s]; NaN where not reached
+    std::vector<double> initial_inventory;    //!< per species [particles]
+    std::vector<double> species_mass;         //!< per species [kg]
     std::vector<RegimeChange> regime_changes; //!< located regime changes
-    std::size_t steps = 0;                  //!< accepted steps
-    std::size_t rejected_steps = 0;         //!< rejected steps
-    std::size_t rhs_evaluations = 0;        //!< right-hand-side evaluations
-    bool completed = false;                 //!< false when stopped by the progress hook
-    double t_reached = 0.0;                 //!< last time reached [s]
-    std::string config;                     //!< JSON of the model
+    std::size_t steps = 0;                    //!< accepted steps
+    std::size_t rejected_steps = 0;           //!< rejected steps
+    std::size_t rhs_evaluations = 0;          //!< right-hand-side evaluations
+    bool completed = false;                   //!< false when stopped by the progress hook
+    double t_reached = 0.0;                   //!< last time reached [s]
+    std::string config;                       //!< JSON of the model
 
     std::size_t time_count() const { return time.size(); }       //!< output times
     std::size_t species_count() const { return species.size(); } //!< species
@@ -129,8 +129,8 @@ struct EvolutionResult {
 EvolutionResult evolve(const EvolutionConfig& config);
 
 //! Default isotope ratios present among `species`: D/H, HD/H2, 3He/He, 36Ar/38Ar, 40Ar/36Ar.
-std::vector<std::pair<std::string, std::string>> default_isotope_ratios(
-    const std::vector<std::string>& species);
+std::vector<std::pair<std::string, std::string>>
+default_isotope_ratios(const std::vector<std::string>& species);
 
 //! Write a result to an HDF5 file at `path` (atomically: temporary file, then rename).
 //! Dimensions `time` [s], `species` and (when there are isotope ratios) `ratio`; variables

@@ -74,13 +74,13 @@ class ExobaseTemperature {
     //! JSON description of the history.
     std::string to_json() const;
 
-    double constant_value() const { return constant_; }        //!< Kind::Constant [K]
-    const TimeTable& table_values() const { return table_; }   //!< Kind::Table
-    double reference_temperature() const { return t_ref_; }    //!< Kind::XuvPowerLaw [K]
-    double reference_flux() const { return f_ref_; }           //!< Kind::XuvPowerLaw [W m^-2]
-    double exponent() const { return gamma_; }                 //!< Kind::XuvPowerLaw [1]
-    double minimum() const { return t_min_; }                  //!< Kind::XuvPowerLaw [K]
-    double maximum() const { return t_max_; }                  //!< Kind::XuvPowerLaw [K]
+    double constant_value() const { return constant_; }      //!< Kind::Constant [K]
+    const TimeTable& table_values() const { return table_; } //!< Kind::Table
+    double reference_temperature() const { return t_ref_; }  //!< Kind::XuvPowerLaw [K]
+    double reference_flux() const { return f_ref_; }         //!< Kind::XuvPowerLaw [W m^-2]
+    double exponent() const { return gamma_; }               //!< Kind::XuvPowerLaw [1]
+    double minimum() const { return t_min_; }                //!< Kind::XuvPowerLaw [K]
+    double maximum() const { return t_max_; }                //!< Kind::XuvPowerLaw [K]
 
   private:
     Kind kind_ = Kind::Constant;
@@ -148,9 +148,9 @@ class PrescribedExobase final : public ExobaseModel {
     void check(const Planet& planet) const override;
     std::string to_json() const override;
 
-    double radius() const { return radius_; }                     //!< exobase radius [m]
+    double radius() const { return radius_; }                           //!< exobase radius [m]
     const std::vector<double>& densities() const { return densities_; } //!< n_i0 [m^-3]
-    DensityScaling scaling() const { return scaling_; }           //!< density scaling
+    DensityScaling scaling() const { return scaling_; }                 //!< density scaling
 
   private:
     double radius_;

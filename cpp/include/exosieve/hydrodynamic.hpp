@@ -91,9 +91,9 @@ enum class HydrodynamicActivation : int {
 
 //! Options of energy-limited hydrodynamic escape with drag.
 struct HydrodynamicOptions {
-    double efficiency = 0.15; //!< heating efficiency eta [1] (common practice: 0.1–0.3)
-    double xuv_radius = 0.0;  //!< radius where XUV is absorbed [m]; 0 means the planet radius
-    bool roche_lobe = true;   //!< apply the Roche-lobe factor K (needs the star and the orbit)
+    double efficiency = 0.15;     //!< heating efficiency eta [1] (common practice: 0.1–0.3)
+    double xuv_radius = 0.0;      //!< radius where XUV is absorbed [m]; 0 means the planet radius
+    bool roche_lobe = true;       //!< apply the Roche-lobe factor K (needs the star and the orbit)
     std::string escaping_species; //!< the light escaping species; empty: the lightest present
     HydrodynamicActivation activation = HydrodynamicActivation::Hydrodynamic; //!< when it acts
     //! Drag heavier species: those listed in `diffusion` with their law, the others with the
