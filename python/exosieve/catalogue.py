@@ -367,7 +367,8 @@ def case_table_from_frame(
 ) -> CaseTable:
     """Read a case table from a pandas DataFrame whose column names are ``quantity [unit]``.
 
-    The same rules as :func:`read_case_table`; rows are named by their index label.
+    The same rules as :func:`read_case_table`; rows are named by their index label. An index
+    named ``case`` serves as the ``case`` column.
 
     Examples
     --------
@@ -378,6 +379,8 @@ def case_table_from_frame(
     2.0
     """
     _check_errors(errors)
+    if "case" not in frame.columns and frame.index.name == "case":
+        frame = frame.reset_index()  # case labels kept as the index
     reader = _Reader(source, [str(name) for name in frame.columns], "header", errors == "collect")
     reader.read(
         [f"row {label}" for label in frame.index],

@@ -114,6 +114,7 @@ def test_frames_and_csv_give_the_same_table(tmp_path):
     frame = pd.read_csv(path)
     a, b = read_case_table(path), case_table_from_frame(frame)
     assert a.fingerprint() == b.fingerprint()
+    assert case_table_from_frame(frame.set_index("case")).fingerprint() == a.fingerprint()
     frame["planet_mass [M_earth]"] = frame["planet_mass [M_earth]"].astype(object)
     frame.loc[2, "planet_mass [M_earth]"] = "light"
     with pytest.raises(ValueError, match=r"row 2 column 'planet_mass': 'light' is not a number"):
