@@ -720,7 +720,8 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
 // A chunk being computed: its results and the cases' specs.
 struct Slot {
     BatchChunk out;
-    std::vector<CaseSpec> specs;
+    std::vector<CaseSpec> specs;                   // read by the first worker that needs one
+    std::unique_ptr<std::once_flag[]> read;        // one per case
     std::vector<std::vector<std::size_t>> columns; // case species -> output species
     std::vector<std::size_t> lowest_failed;        // lowest failed sample per case
     std::size_t remaining = 0;                     // runs not finished
@@ -769,42 +770,47 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
 
     std::vector<Slot> slots(window);
     auto chunk_end_run = [&](std::size_t c) { return std::min((c + 1) * chunk, cases) * per_case; };
+    // Opening a chunk only sizes its arrays; its cases are read by the workers (read_case), so
+    // that the calling thread stays free for the hooks.
     auto open_chunk = [&](std::size_t c) {
         Slot& s = slots[c % window];
         const std::size_t first = c * chunk, count = std::min(chunk, cases - first);
         s.out.reset(begin + first, count, S, T, N);
         s.specs.assign(count, CaseSpec{});
+        s.read.reset(new std::once_flag[count]);
         s.columns.assign(count, {});
         s.lowest_failed.assign(count, std::numeric_limits<std::size_t>::max());
         s.remaining = count * per_case;
         for (std::size_t j = 0; j < count; ++j) {
-            const std::size_t row = begin + first + j;
-            s.out.key[j] = table.first_key + row;
-            s.out.name[j] = table.names[row];
-            if (!table.row_errors.empty() && !table.row_errors[row].empty()) {
-                s.specs[j].error = table.row_errors[row];
-                continue;
-            }
-            try {
-                s.specs[j] = case_from_table(table, row);
-                for (const Species& sp : s.specs[j].species)
-                    if (std::find(o.species.begin(), o.species.end(), sp.name) == o.species.end())
-                        throw InputError(s.specs[j].label + " (case '" + s.specs[j].name +
-                                         "'), species '" + sp.name +
-                                         "' is not among the batch's species");
-            } catch (const InputError& e) {
-                s.specs[j] = CaseSpec{};
-                s.specs[j].error = e.what();
-                continue;
-            }
-            for (std::size_t i = 0; i < S; ++i) {
-                const auto x = s.specs[j].values.find("x_" + o.species[i]);
-                s.out.mole_fraction[j * S + i] = x == s.specs[j].values.end() ? 0.0 : x->second;
-            }
-            for (const Species& sp : s.specs[j].species)
-                s.columns[j].push_back(static_cast<std::size_t>(
-                    std::find(o.species.begin(), o.species.end(), sp.name) - o.species.begin()));
+            s.out.key[j] = table.first_key + begin + first + j;
+            s.out.name[j] = table.names[begin + first + j];
         }
+    };
+    auto read_case = [&](Slot& s, std::size_t j) {
+        const std::size_t row = s.out.first + j;
+        CaseSpec& spec = s.specs[j];
+        if (!table.row_errors.empty() && !table.row_errors[row].empty()) {
+            spec.error = table.row_errors[row];
+            return;
+        }
+        try {
+            spec = case_from_table(table, row);
+            for (const Species& sp : spec.species)
+                if (std::find(o.species.begin(), o.species.end(), sp.name) == o.species.end())
+                    throw InputError(spec.label + " (case '" + spec.name + "'), species '" +
+                                     sp.name + "' is not among the batch's species");
+        } catch (const InputError& e) {
+            spec = CaseSpec{};
+            spec.error = e.what();
+            return;
+        }
+        for (std::size_t i = 0; i < S; ++i) {
+            const auto x = spec.values.find("x_" + o.species[i]);
+            s.out.mole_fraction[j * S + i] = x == spec.values.end() ? 0.0 : x->second;
+        }
+        for (const Species& sp : spec.species)
+            s.columns[j].push_back(static_cast<std::size_t>(
+                std::find(o.species.begin(), o.species.end(), sp.name) - o.species.begin()));
     };
 
     std::mutex m;
@@ -834,22 +840,25 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
             const std::size_t c = case_index / chunk;
             Slot& s = slots[c % window];
             const std::size_t j = case_index - c * chunk;
-            const CaseSpec& spec = s.specs[j];
             std::string failure;
             bool finished = true;
-            if (!spec.error.empty()) {
-                failure = spec.error;
-            } else {
-                try {
-                    finished = run_case(spec, sample, o, s.columns[j], j, s.out, cancel);
-                } catch (const InputError& e) {
-                    // As check_table() words it: where, then what.
-                    failure = spec.label + " (case '" + spec.name + "'), " + e.what();
-                } catch (const std::exception& e) {
-                    failure = e.what();
-                } catch (...) {
-                    failure = "unknown error";
+            try {
+                std::call_once(s.read[j], read_case, std::ref(s), j);
+                const CaseSpec& spec = s.specs[j];
+                if (!spec.error.empty()) {
+                    failure = spec.error;
+                } else {
+                    try {
+                        finished = run_case(spec, sample, o, s.columns[j], j, s.out, cancel);
+                    } catch (const InputError& e) {
+                        // As check_table() words it: where, then what.
+                        failure = spec.label + " (case '" + spec.name + "'), " + e.what();
+                    }
                 }
+            } catch (const std::exception& e) {
+                failure = e.what();
+            } catch (...) {
+                failure = "unknown error";
             }
             if (!finished)
                 return; // cancelled
