@@ -517,7 +517,9 @@ def _clock(seconds: float) -> str:
 
 
 def _default_chunk(samples: int) -> int:
-    return max(8, min(512, 65536 // (1 + samples)))
+    # An append costs ~10-20 ms (two fsyncs) whatever its size: chunks of up to 1024 cases
+    # spread it thin; 64k runs per chunk bound a chunk's memory with many samples.
+    return max(8, min(1024, 65536 // (1 + samples)))
 
 
 def _spans(table: CaseTable, t_start: float, t_end: float) -> tuple[float, float]:
@@ -833,7 +835,8 @@ def _core_options(options: dict[str, Any], threads: int, chunk_size: int) -> Any
     kwargs = dict(options)
     kwargs["thresholds"] = _core.RegimeThresholds(*kwargs["thresholds"])
     kwargs["times"] = np.asarray(kwargs["times"], dtype=float)
-    return _core.BatchOptions(threads=threads, chunk_size=chunk_size, **kwargs)
+    # Four chunks in flight: workers go on while the calling thread appends a chunk to the file.
+    return _core.BatchOptions(threads=threads, chunk_size=chunk_size, chunks_in_flight=4, **kwargs)
 
 
 def _raise_for_rows(table: CaseTable, block: int, core_options: Any) -> None:

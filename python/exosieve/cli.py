@@ -305,7 +305,7 @@ def build_parser() -> argparse.ArgumentParser:
         default=None,
         metavar="CASES",
         help="cases per chunk written at once (and per task on a cluster) [1] "
-        "(default: 8 to 512, fewer with more samples)",
+        "(default: 8 to 1024, fewer with more samples)",
     )
     sweep.add_argument(
         "--scheduler",
