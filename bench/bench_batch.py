@@ -125,7 +125,16 @@ def memory_child(n: int, in_memory: bool) -> None:
     with tempfile.TemporaryDirectory() as folder:
         output = None if in_memory else Path(folder) / "sweep.h5"
         seconds = run(frame, 2, output)
-    print(json.dumps({"before": before, "peak": rss_kib("VmHWM"), "seconds": seconds}))
+    # What compare() holds of the input: the table in SI (numbers, labels, row names).
+    table = exosieve.catalogue.case_table_from_frame(frame)
+    table_bytes = sum(v.nbytes for v in table.columns.values()) + sum(
+        sys.getsizeof(x) + 8 for x in table.names + table.row_labels + table.row_errors
+    )
+    print(
+        json.dumps(
+            {"before": before, "peak": rss_kib("VmHWM"), "seconds": seconds, "table": table_bytes}
+        )
+    )
 
 
 def memory(n: int, in_memory: bool = False) -> dict[str, float]:
@@ -243,8 +252,8 @@ def main() -> None:
         m = memory(n)
         print(
             f"memory, {n:>7d} cases streamed to HDF5: peak {m['peak'] / 1024:7.1f} MiB, "
-            f"rise during compare {(m['peak'] - m['before']) / 1024:6.1f} MiB "
-            f"({n / m['seconds']:.0f} cases/s)"
+            f"rise during compare {(m['peak'] - m['before']) / 1024:6.1f} MiB, of which the "
+            f"case table read in SI {m['table'] / 2**20:5.1f} MiB ({n / m['seconds']:.0f} cases/s)"
         )
     if sizes:
         n = max(sizes)
