@@ -139,7 +139,7 @@ def main() -> None:
     ]
     if args.with_rk45_linear:
         peers.append(("RK45, N (scipy default)", "RK45", rhs_linear, n0, rtol * 1e-3 * n0, True))
-    best_peer = None
+    best: dict[bool, tuple[str, float]] = {}
     for label, method, rhs, start, atol, linear in peers:
         repeat = 1 if label.startswith("RK45, N") else min(args.repeat, 3)
 
@@ -158,15 +158,17 @@ def main() -> None:
             f"{label:<28}{t_p * 1e3:>11.3f}{len(sol.t) - 1:>8d}{sol.nfev:>11d}"
             f"{error:>14.2e}{ratio:>12.0f}"
         )
-        if sol.success and error < 100 * rtol and (best_peer is None or t_p < best_peer[1]):
-            best_peer = (label, t_p)
-    if best_peer is not None:
-        ratio = best_peer[1] / t_x
-        print(
-            f"fastest peer within 100 rtol of the reference: {best_peer[0]}, "
-            f"{ratio:.0f}x slower than exosieve (goal >= 200x: "
-            f"{'met' if ratio >= 200 else 'not met'})"
-        )
+        if sol.success and error < 100 * rtol and (linear not in best or t_p < best[linear][1]):
+            best[linear] = (label, t_p)
+    for linear, form in ((True, "N (the model as written)"), (False, "ln N (exosieve's form)")):
+        if linear in best:
+            label, t_p = best[linear]
+            ratio = t_p / t_x
+            verdict = "met" if ratio >= 200 else "not met"
+            print(
+                f"fastest peer on {form} within 100 rtol of the reference: {label}, "
+                f"{ratio:.0f}x slower than exosieve (goal >= 200x: {verdict})"
+            )
 
 
 if __name__ == "__main__":

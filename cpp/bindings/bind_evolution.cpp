@@ -305,6 +305,11 @@ void bind_evolution(py::module_& m) {
         .def("to_json", &SourceRate::to_json);
 
     // --- evolution ---------------------------------------------------------------------------
+    py::enum_<StepperKind>(m, "StepperKind")
+        .value("auto", StepperKind::Auto)
+        .value("dopri5", StepperKind::Dopri5)
+        .value("rosenbrock4", StepperKind::Rosenbrock4);
+
     py::class_<EvolutionConfig>(m, "EvolutionConfig", "Everything one run needs (plain data)")
         .def(py::init<Planet>(), py::arg("planet"))
         .def_readwrite("planet", &EvolutionConfig::planet)
@@ -330,6 +335,7 @@ void bind_evolution(py::module_& m) {
         .def_readwrite("atol", &EvolutionConfig::atol)
         .def_readwrite("depletion_fraction", &EvolutionConfig::depletion_fraction)
         .def_readwrite("max_steps", &EvolutionConfig::max_steps)
+        .def_readwrite("stepper", &EvolutionConfig::stepper)
         .def_readwrite("isotope_ratios", &EvolutionConfig::isotope_ratios)
         .def_property_readonly("thread_safe",
                                [](const EvolutionConfig& c) { return c.temperature.thread_safe(); })
@@ -397,6 +403,7 @@ void bind_evolution(py::module_& m) {
         .def_readonly("steps", &EvolutionResult::steps)
         .def_readonly("rejected_steps", &EvolutionResult::rejected_steps)
         .def_readonly("rhs_evaluations", &EvolutionResult::rhs_evaluations)
+        .def_readonly("stepper", &EvolutionResult::stepper)
         .def_readonly("completed", &EvolutionResult::completed)
         .def_readonly("t_reached", &EvolutionResult::t_reached)
         .def_readonly("config", &EvolutionResult::config)
@@ -441,6 +448,7 @@ void bind_evolution(py::module_& m) {
             r.completed = f["completed"].cast<bool>();
             r.t_reached = f["t_reached"].cast<double>();
             r.config = f["config"].cast<std::string>();
+            r.stepper = f["stepper"].cast<std::string>();
             for (const auto& c : f["regime_changes"].cast<py::list>()) {
                 const auto t = c.cast<py::tuple>();
                 auto code = [](const std::string& name) {

@@ -107,6 +107,8 @@ class EvolutionResult:
         Located regime changes: (time [s], from, to).
     steps, rejected_steps, rhs_evaluations : int
         Integration diagnostics.
+    stepper : str
+        The Odeint stepper used: ``"dopri5"`` or ``"rosenbrock4"``.
     completed : bool
         False when the run was stopped before the end of t_span.
     config : dict
@@ -142,6 +144,7 @@ class EvolutionResult:
         self.steps = int(data["steps"])
         self.rejected_steps = int(data["rejected_steps"])
         self.rhs_evaluations = int(data["rhs_evaluations"])
+        self.stepper = str(data.get("stepper", ""))
         self.completed = bool(data["completed"])
         self.t_reached = float(data["t_reached"])
         self.config_json: str = str(data["config"])
@@ -182,6 +185,7 @@ class EvolutionResult:
                 "steps": raw.steps,
                 "rejected_steps": raw.rejected_steps,
                 "rhs_evaluations": raw.rhs_evaluations,
+                "stepper": raw.stepper,
                 "completed": raw.completed,
                 "t_reached": raw.t_reached,
                 "config": raw.config,
@@ -237,6 +241,7 @@ class EvolutionResult:
             "steps": self.steps,
             "rejected_steps": self.rejected_steps,
             "rhs_evaluations": self.rhs_evaluations,
+            "stepper": self.stepper,
             "completed": self.completed,
             "t_reached": self.t_reached,
             "config": self.config_json,
@@ -303,6 +308,7 @@ class EvolutionResult:
                 "config": self.config_json,
                 "regime_changes": f["regime_changes"],
                 "exosieve_version": str(self.config.get("version", "")),
+                "stepper": self.stepper,
             },
         )
 
@@ -372,6 +378,7 @@ def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
             data[name] = f[name][()]
         data["isotope_ratio"] = f["isotope_ratio"][()] if ratios else np.empty((len(time), 0))
         data["config"] = text(f.attrs["config"])
+        data["stepper"] = text(f.attrs.get("stepper", ""))
         changes = json.loads(text(f.attrs.get("regime_changes", "[]")))
         data["regime_changes"] = [(c["time_s"], c["from"], c["to"]) for c in changes]
     return EvolutionResult(data)

@@ -648,3 +648,21 @@ def test_astropy_quantities_are_converted():
     # astropy's Myr is the Julian one, as exosieve's (IAU: 1 a = 365.25 d).
     np.testing.assert_allclose(q.time, si.time, rtol=1e-15)
     np.testing.assert_allclose(q.inventory["H"], si.inventory["H"], rtol=1e-12)
+
+
+def test_stiff_source_balance_takes_few_steps_with_the_default_stepper():
+    # dN/dt = S - k N, e-folding 1e4 yr, over 10 Gyr (worked analytic solution); with a source
+    # the default stepper is Rosenbrock 4(3), which is not held to steps of 1/k.
+    T, n0 = 1000.0, 1e11
+    Q0 = jeans_rate(n0, T, exosieve.species("H").mass, c.M_EARTH, R_EXO)
+    N0 = Q0 * 1e4 * c.YEAR
+    k, S = Q0 / N0, 0.5 * Q0
+    exo = exosieve.PrescribedExobase(R_EXO, T, {"H": n0})
+    t_eval = np.array([1e3 * c.YEAR, 1e4 * c.YEAR, c.GYR, 10 * c.GYR])
+    r = exosieve.evolve(earth(), exo, {"H": N0}, (0.0, 10 * c.GYR), t_eval=t_eval, sources={"H": S})
+    assert r.stepper == "rosenbrock4" and r.steps < 1000
+    np.testing.assert_allclose(
+        r.inventory["H"], S / k + (N0 - S / k) * np.exp(-k * t_eval), rtol=1e-7
+    )
+    with pytest.raises(ValueError, match="stepper must be"):
+        exosieve.evolve(earth(), exo, {"H": N0}, (0.0, c.GYR), stepper="rk4")

@@ -9,8 +9,14 @@ nbclient = pytest.importorskip("nbclient")
 
 NOTEBOOKS = sorted((Path(__file__).resolve().parents[2] / "notebooks").glob("*.ipynb"))
 
-# Executed with the non-interactive Agg backend and every warning turned into an error.
-PRELUDE = "import matplotlib, warnings\nmatplotlib.use('Agg')\nwarnings.simplefilter('error')\n"
+# Executed with the non-interactive Agg backend and every warning turned into an error
+# (except those of the kernel's own machinery, which is not notebook code).
+PRELUDE = (
+    "import matplotlib, warnings\n"
+    "matplotlib.use('Agg')\n"
+    "warnings.simplefilter('error')\n"
+    "warnings.filterwarnings('ignore', module='ipykernel')\n"
+)
 
 
 @pytest.mark.slow

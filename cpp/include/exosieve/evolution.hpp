@@ -53,6 +53,13 @@ class SourceRate {
     TimeTable table_;
 };
 
+//! Which Odeint stepper integrates ln N.
+enum class StepperKind : int {
+    Auto = 0,       //!< Rosenbrock4 when any species has a source, else Dopri5 (default)
+    Dopri5 = 1,     //!< explicit Dormand–Prince 5(4): fastest for losses, however fast
+    Rosenbrock4 = 2 //!< linearly implicit Rosenbrock 4(3): for stiff source–loss balances
+};
+
 //! Everything one run needs; plain data, no interpreter objects, so runs can go in parallel.
 struct EvolutionConfig {
     //! Start from a planet; fill in the rest before calling evolve().
@@ -75,6 +82,7 @@ struct EvolutionConfig {
     std::vector<double> atol;
     double depletion_fraction = 1e-3; //!< a species is depleted below this share of N_i(t_start)
     std::size_t max_steps = 100000;   //!< accepted + rejected steps before giving up
+    StepperKind stepper = StepperKind::Auto; //!< the Odeint stepper
     //! Isotope ratios to report, (numerator, denominator) species names.
     std::vector<std::pair<std::string, std::string>> isotope_ratios;
     //! Called after every accepted step with the time [s]; returning false stops the run.
@@ -115,6 +123,7 @@ struct EvolutionResult {
     std::size_t steps = 0;                    //!< accepted steps
     std::size_t rejected_steps = 0;           //!< rejected steps
     std::size_t rhs_evaluations = 0;          //!< right-hand-side evaluations
+    std::string stepper;                      //!< the stepper used: "dopri5" or "rosenbrock4"
     bool completed = false;                   //!< false when stopped by the progress hook
     double t_reached = 0.0;                   //!< last time reached [s]
     std::string config;                       //!< JSON of the model
