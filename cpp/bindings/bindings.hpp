@@ -38,5 +38,6 @@ void bind_kernel(py::module_& m);
 void bind_evolution(py::module_& m);
 void bind_thermosphere(py::module_& m);
 void bind_hdf5_io(py::module_& m);
+void bind_batch(py::module_& m);
 
 } // namespace exosieve::bindings

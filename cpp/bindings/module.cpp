@@ -12,4 +12,5 @@ PYBIND11_MODULE(_core, m) {
     b::bind_evolution(m);
     b::bind_thermosphere(m);
     b::bind_hdf5_io(m);
+    b::bind_batch(m);
 }

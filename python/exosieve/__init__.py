@@ -6,6 +6,7 @@ Astropy quantities are accepted where astropy is installed.
 
 from . import constants, results
 from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
+from .batch import Comparison, Interrupted, compare, open_comparison
 from .diffusion import (
     DiffusionPair,
     binary_diffusion_parameter,
@@ -67,6 +68,10 @@ __all__ = [
     "NumericalError",
     "FileError",
     "results",
+    "compare",
+    "Comparison",
+    "Interrupted",
+    "open_comparison",
     "Species",
     "species",
     "species_names",

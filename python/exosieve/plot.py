@@ -111,6 +111,197 @@ def _mass(gas: str) -> float:
     return species(gas).mass
 
 
+def retention_chart(
+    comparison: Any,
+    species: Sequence[str] | None = None,
+    retain: float | None = None,
+    fig: Any = None,
+) -> Any:
+    """Which cases keep which species: one panel per species placing each case by its escape
+    speed at the exobase [km/s] and its exobase temperature at the start [K].
+
+    Lines mark where the species' Jeans parameter ``lambda = m v_esc^2 / (2 k T)`` equals the
+    regime thresholds of the run (Volkov et al. 2011 by default): below a line (cooler, or a
+    faster escape speed) lambda is larger. Markers: filled circles for cases that keep more than
+    ``retain`` of the species' inventory at the end, crosses for those that do not; with Monte
+    Carlo samples the colour gives the probability of keeping it. Failed cases are left out
+    (their number is in the panel title).
+
+    Parameters
+    ----------
+    comparison : Comparison
+        From :func:`exosieve.compare` or :func:`exosieve.open_comparison`.
+    species : sequence of str, optional
+        Species to draw (default: all present in some case).
+    retain : float, optional
+        Retained-fraction threshold [1] (default: the run's).
+    fig : matplotlib Figure, optional
+        Where to draw (a new one by default).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.lines import Line2D
+    from matplotlib.ticker import FuncFormatter
+
+    from .constants import K_B
+    from .species import species as _species
+
+    summary = comparison.summary if retain is None else comparison.summarize(retain=retain)
+    retain = float(summary.attrs["retain"])
+    present = comparison["mole_fraction"] > 0.0
+    names = list(comparison.species)
+    chosen = (
+        [s for s in names if present[:, names.index(s)].any()] if species is None else list(species)
+    )
+    for name in chosen:
+        if name not in names:
+            raise ValueError(f"species '{name}' is not in the comparison (have {names})")
+    if not chosen:
+        raise ValueError("no species to draw: no case ran")
+    speed = comparison["escape_speed"] / 1e3  # [km/s]
+    temperature = comparison["exobase_temperature_start"]  # [K]
+    ok = (np.asarray(comparison["error"], dtype=object) == "") & np.isfinite(temperature)
+    thresholds = comparison.config["options"]["regime_thresholds"]
+    levels = [
+        (thresholds["enhanced"], "-"),
+        (thresholds["transition"], "--"),
+        (thresholds["hydrodynamic"], ":"),
+    ]
+    columns = min(3, len(chosen))
+    rows = -(-len(chosen) // columns)
+    if fig is None:
+        fig = plt.figure(figsize=(4.2 * columns + 0.8, 3.6 * rows), layout="constrained")
+    axes = np.atleast_1d(fig.subplots(rows, columns, squeeze=False)).ravel()
+    good = speed[ok & np.isfinite(speed)]
+    v_lo = float(np.min(good)) / 1.5 if good.size else 1.0
+    v_hi = float(np.max(good)) * 1.5 if good.size else 100.0
+    t_good = temperature[ok]
+    t_lo = float(np.min(t_good)) / 1.5 if t_good.size else 100.0
+    t_hi = float(np.max(t_good)) * 1.5 if t_good.size else 1e4
+    v = np.geomspace(v_lo, v_hi, 200)
+    with_samples = comparison.samples > 0 and "probability_retained" in summary
+    colour_map = plt.get_cmap("viridis")
+    index = summary.set_index(["row", "species"])
+    for ax, name in zip(axes, chosen, strict=False):
+        j = names.index(name)
+        mass = _species(name).mass
+        for value, style in levels:
+            ax.plot(v, mass * (v * 1e3) ** 2 / (2.0 * K_B * value), color="0.35", ls=style, lw=1)
+        here = ok & present[:, j]
+        failed = int((~ok & present[:, j]).sum())
+        rows_here = comparison["case"][here]
+        keys = [(int(r), name) for r in rows_here]
+        kept = index.loc[keys, "retained"].to_numpy(dtype=bool) if keys else np.zeros(0, bool)
+        if with_samples and keys:
+            colour = colour_map(index.loc[keys, "probability_retained"].to_numpy(dtype=float))
+        else:
+            colour = np.array([[0.1, 0.5, 0.2, 1.0] if k else [0.75, 0.15, 0.1, 1.0] for k in kept])
+        x, y = speed[here], temperature[here]
+        if kept.any():
+            ax.scatter(
+                x[kept],
+                y[kept],
+                c=colour[kept],
+                marker="o",
+                s=36,
+                edgecolors="k",
+                linewidths=0.5,
+                zorder=3,
+            )
+        if (~kept).any():
+            ax.scatter(
+                x[~kept],
+                y[~kept],
+                c=colour[~kept],
+                marker="X",
+                s=44,
+                edgecolors="k",
+                linewidths=0.4,
+                zorder=3,
+            )
+        if here.sum() <= 20:
+            for label, xi, yi in zip(np.asarray(comparison["case_name"])[here], x, y, strict=True):
+                ax.annotate(
+                    str(label),
+                    (xi, yi),
+                    xytext=(3, 3),
+                    textcoords="offset points",
+                    fontsize="x-small",
+                )
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        for axis in (ax.xaxis, ax.yaxis):
+            axis.set_major_formatter(FuncFormatter(_plain))
+            axis.set_minor_formatter(FuncFormatter(_plain_minor))
+        ax.set_xlim(v_lo, v_hi)
+        ax.set_ylim(t_lo, t_hi)
+        ax.set_xlabel("escape speed at the exobase [km s$^{-1}$]")
+        ax.set_ylabel("exobase temperature at the start [K]")
+        title = name + (f" ({failed} failed)" if failed else "")
+        ax.set_title(title)
+    for ax in axes[len(chosen) :]:
+        ax.set_visible(False)
+    handles = [
+        Line2D([], [], color="0.35", ls=style, label=f"$\\lambda$ = {value:g}")
+        for value, style in levels
+    ]
+    handles += [
+        Line2D(
+            [],
+            [],
+            marker="o",
+            ls="",
+            color="0.5",
+            markeredgecolor="k",
+            label=f"keeps > {retain:g} of its inventory",
+        ),
+        Line2D([], [], marker="X", ls="", color="0.5", markeredgecolor="k", label="loses more"),
+    ]
+    fig.legend(handles=handles, loc="outside lower center", ncols=5, fontsize="small")
+    if with_samples:
+        from matplotlib.cm import ScalarMappable
+        from matplotlib.colors import Normalize
+
+        fig.colorbar(
+            ScalarMappable(norm=Normalize(0.0, 1.0), cmap=colour_map),
+            ax=list(axes[: len(chosen)]),
+            label=f"probability of keeping > {retain:g} [1]",
+            shrink=0.8,
+        )
+    fig.suptitle(f"Retention after {_span_text(comparison)}")
+    return fig
+
+
+def _plain(value: float, _: Any = None) -> str:
+    return f"{value:g}"
+
+
+def _plain_minor(value: float, _: Any = None) -> str:
+    # Label 2, 3 and 5 times a power of ten; the others would crowd the axis.
+    if value <= 0:
+        return ""
+    lead = value / 10 ** np.floor(np.log10(value))
+    return f"{value:g}" if int(round(lead)) in (2, 3, 5) else ""
+
+
+def _span_text(comparison: Any) -> str:
+    from .constants import GYR
+
+    end = comparison["age_end"]
+    end = end[np.isfinite(end)]
+    if end.size == 0:
+        return "the run"
+    lo, hi = float(end.min()) / GYR, float(end.max()) / GYR
+    return (
+        f"evolution to {hi:.3g} Gyr"
+        if np.isclose(lo, hi)
+        else f"evolution to {lo:.3g}-{hi:.3g} Gyr"
+    )
+
+
 _GYR = 3.15576e16  # Julian gigayear [s]
 
 

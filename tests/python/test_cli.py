@@ -1,13 +1,21 @@
 """The command line: the demo runs, prints a table and writes a file xarray opens."""
 
+import os
+import re
+import signal
+import subprocess
+import sys
+
 import numpy as np
 import pytest
 
 import exosieve
+from exosieve.batch import open_comparison
 from exosieve.catalogue import demo_catalogue_path, read_case_table
 from exosieve.cli import main
 
 xr = pytest.importorskip("xarray")
+pd = pytest.importorskip("pandas")
 
 
 def test_demo_writes_table_and_file(tmp_path, capsys):
@@ -40,3 +48,119 @@ def test_bad_case_table_names_line_and_column(tmp_path):
     bad.write_text("case,planet_mass [stone]\nA,1.0\n")
     with pytest.raises(ValueError, match="unknown unit 'stone'"):
         read_case_table(bad)
+
+
+# --- sweeps ------------------------------------------------------------------------------------
+
+SWEEP_HEADER = (
+    "case,planet_mass [M_earth],planet_mass_sigma [M_earth],planet_radius [R_earth],"
+    "exobase_altitude [km],exobase_density [m-3],exobase_temperature [K],"
+    "exobase_temperature_lnsigma [1],inventory [particles],x_N2,x_He,x_H"
+)
+
+
+def sweep_table(tmp_path, n):
+    lines = [SWEEP_HEADER]
+    for i in range(n):
+        mass, temperature = 0.6 + 0.1 * (i % 6), 800 + 120 * (i % 7)
+        lines.append(f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,0.7,0.25,0.05")
+    path = tmp_path / "cases.csv"
+    path.write_text("\n".join(lines) + "\n")
+    return path
+
+
+def test_every_command_explains_its_options_with_units(capsys):
+    for command, words in [
+        ("sweep", ["[Myr]", "[Gyr]", "--scheduler", "--samples", "resume"]),
+        ("summary", ["[1]", "--retain", "[%]"]),
+        ("chart", ["[km/s]", "[K]", "--output"]),
+        ("columns", ["unit"]),
+        ("demo", ["--output"]),
+    ]:
+        with pytest.raises(SystemExit):
+            main([command, "--help"])
+        text = capsys.readouterr().out
+        for word in words:
+            assert word in text, (command, word)
+
+
+def test_sweep_summary_chart_and_columns(tmp_path, capsys):
+    table = sweep_table(tmp_path, 6)
+    out = tmp_path / "sweep.h5"
+    assert (
+        main(["sweep", str(table), "-o", str(out), "--samples", "4", "--threads", "1", "--quiet"])
+        == 0
+    )
+    assert f"wrote {out.resolve()}: 6 cases, 0 failed" in capsys.readouterr().out
+    csv = tmp_path / "summary.csv"
+    assert main(["summary", str(out), "--retain", "0.3", "--species", "He", "--csv", str(csv)]) == 0
+    printed = capsys.readouterr().out
+    assert "more than 0.3 of the inventory" in printed and "P(kept) [1]" in printed
+    assert "N2" not in printed.split("\n", 2)[2]
+    saved = pd.read_csv(csv)
+    assert "depletion_time [s]" in saved.columns and set(saved["species"]) == {"He"}
+    png = tmp_path / "chart.png"
+    assert main(["chart", str(out), "-o", str(png)]) == 0
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and png.stat().st_size > 20000
+    assert main(["columns"]) == 0
+    assert "planet_mass" in capsys.readouterr().out
+    # A different sweep into the same file is refused rather than mixed in.
+    assert main(["sweep", str(table), "-o", str(out), "--samples", "5", "--quiet"]) == 2
+    assert "made with other options" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM, signal.SIGKILL])
+def test_interrupted_sweep_resumes_to_the_same_file(tmp_path, sig):
+    table = sweep_table(tmp_path, 40)
+    out, reference = tmp_path / "run.h5", tmp_path / "whole.h5"
+    command = [
+        sys.executable,
+        "-m",
+        "exosieve.cli",
+        "sweep",
+        str(table),
+        "--samples",
+        "300",
+        "--threads",
+        "1",
+        "--chunk",
+        "4",
+    ]
+    child = subprocess.Popen([*command, "-o", str(out)], stderr=subprocess.PIPE)
+    # Wait for the progress bar to pass a third of the cases, then send the signal.
+    seen = b""
+    while True:
+        data = os.read(child.stderr.fileno(), 4096)
+        assert data, seen.decode(errors="replace")
+        seen += data
+        counts = re.findall(rb"(\d+)/40", seen)
+        if counts and int(counts[-1]) >= 14:
+            break
+    child.send_signal(sig)
+    rest = child.stderr.read()
+    child.stderr.close()
+    child.wait(timeout=60)
+    if sig == signal.SIGKILL:
+        assert child.returncode == -signal.SIGKILL
+    else:
+        assert child.returncode == 130, rest.decode(errors="replace")
+        assert b"run the same command again to resume" in rest
+    # Resume (the appender cuts any block a kill left half-written), then compare with an
+    # uninterrupted run: the same numbers in every variable.
+    resumed = subprocess.run(
+        [*command, "-o", str(out)], capture_output=True, text=True, timeout=120
+    )
+    assert resumed.returncode == 0, resumed.stderr
+    assert "resumed after the" in resumed.stdout
+    kept = int(re.search(r"resumed after the (\d+) cases", resumed.stdout).group(1))
+    assert 12 <= kept < 40
+    subprocess.run([*command, "-o", str(reference), "--quiet"], check=True, timeout=120)
+    a, b = open_comparison(out), open_comparison(reference)
+    assert a.complete and b.complete
+    for name in ["case", *a.variables]:
+        x, y = np.asarray(a[name]), np.asarray(b[name])
+        if x.dtype.kind in "OU":
+            assert [str(v) for v in x.ravel()] == [str(v) for v in y.ravel()], name
+        else:
+            assert np.array_equal(x, y, equal_nan=x.dtype.kind == "f"), name
+    assert a.config == b.config

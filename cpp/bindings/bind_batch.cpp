@@ -1,0 +1,237 @@
+#include "bindings.hpp"
+
+#include <pybind11/stl.h>
+
+#include <chrono>
+#include <cstdint>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "exosieve/batch.hpp"
+#include "exosieve/errors.hpp"
+
+namespace exosieve::bindings {
+
+namespace {
+
+// Thrown through run_batch() when a Python hook raised; the Python error is kept aside.
+struct PythonHookFailed {};
+
+template <class T>
+py::array_t<T> shaped(const std::vector<T>& data, std::vector<py::ssize_t> shape) {
+    py::array_t<T> out(shape);
+    std::copy(data.begin(), data.end(), out.mutable_data());
+    return out;
+}
+
+py::array strings(const std::vector<std::string>& data) {
+    py::list items;
+    for (const std::string& s : data)
+        items.append(py::str(s));
+    return py::module_::import("numpy").attr("array")(items, py::arg("dtype") = "object");
+}
+
+// A chunk as the case variables of a result file (see exosieve.batch).
+py::dict chunk_dict(const BatchChunk& c) {
+    const auto n = static_cast<py::ssize_t>(c.count), s = static_cast<py::ssize_t>(c.species),
+               t = static_cast<py::ssize_t>(c.times), k = static_cast<py::ssize_t>(c.samples);
+    py::dict d;
+    std::vector<std::int64_t> key(c.key.begin(), c.key.end());
+    d["case"] = shaped(key, {n});
+    d["case_name"] = strings(c.name);
+    d["error"] = strings(c.error);
+    d["steps"] = shaped(c.steps, {n});
+    d["planet_mass"] = shaped(c.planet_mass, {n});
+    d["planet_radius"] = shaped(c.planet_radius, {n});
+    d["exobase_radius"] = shaped(c.exobase_radius, {n});
+    d["escape_speed"] = shaped(c.escape_speed, {n});
+    d["age_start"] = shaped(c.t_start, {n});
+    d["age_end"] = shaped(c.t_end, {n});
+    d["exobase_temperature_start"] = shaped(c.temperature_start, {n});
+    d["mole_fraction"] = shaped(c.mole_fraction, {n, s});
+    d["exobase_temperature"] = shaped(c.exobase_temperature, {n, t});
+    d["retained_fraction"] = shaped(c.retained, {n, t, s});
+    d["jeans_parameter"] = shaped(c.jeans_parameter, {n, t, s});
+    d["final_retained_fraction"] = shaped(c.final_retained, {n, s});
+    d["depletion_time"] = shaped(c.depletion_time, {n, s});
+    d["efolding_time"] = shaped(c.efolding_time, {n, s});
+    d["jeans_parameter_start"] = shaped(c.jeans_start, {n, s});
+    d["jeans_parameter_end"] = shaped(c.jeans_end, {n, s});
+    d["regime_start"] = shaped(c.regime_start, {n, s});
+    if (k > 0) {
+        d["sample_retained_fraction"] = shaped(c.sample_retained, {n, k, s});
+        d["sample_depletion_time"] = shaped(c.sample_depletion_time, {n, k, s});
+        d["sample_failed"] = shaped(c.sample_failed, {n, k});
+        d["sample_error"] = strings(c.sample_error);
+    }
+    return d;
+}
+
+std::vector<double> to_vector(const DoubleArray& a) {
+    return std::vector<double>(a.data(), a.data() + a.size());
+}
+
+} // namespace
+
+void bind_batch(py::module_& m) {
+    py::class_<CaseTable>(m, "CaseTable", "A case table in SI units (built by exosieve.cases)")
+        .def(py::init<>())
+        .def_readwrite("names", &CaseTable::names)
+        .def_readwrite("row_labels", &CaseTable::row_labels)
+        .def_readwrite("row_errors", &CaseTable::row_errors)
+        .def_readwrite("first_key", &CaseTable::first_key)
+        .def(
+            "add_column",
+            [](CaseTable& t, const std::string& name, const DoubleArray& values) {
+                t.columns.emplace_back(name, to_vector(values));
+            },
+            py::arg("name"), py::arg("values"))
+        .def(
+            "add_text",
+            [](CaseTable& t, const std::string& name, std::vector<std::string> values) {
+                t.text.emplace_back(name, std::move(values));
+            },
+            py::arg("name"), py::arg("values"))
+        .def_property_readonly("column_names",
+                               [](const CaseTable& t) {
+                                   std::vector<std::string> names;
+                                   for (const auto& c : t.columns)
+                                       names.push_back(c.first);
+                                   return names;
+                               })
+        .def_property_readonly("rows", &CaseTable::rows)
+        .def_property_readonly("species", &table_species);
+
+    py::class_<BatchOptions>(m, "BatchOptions", "What a batch asks of every case [SI]")
+        .def(py::init([](std::vector<std::string> species, const DoubleArray& times, double t_start,
+                         double t_end, double rtol, std::size_t max_steps,
+                         double depletion_fraction, const RegimeThresholds& thresholds,
+                         std::size_t samples, std::uint64_t seed, std::size_t threads,
+                         std::size_t chunk_size, std::size_t chunks_in_flight, bool skip_invalid) {
+                 BatchOptions o;
+                 o.species = std::move(species);
+                 o.times = to_vector(times);
+                 o.t_start = t_start;
+                 o.t_end = t_end;
+                 o.rtol = rtol;
+                 o.max_steps = max_steps;
+                 o.depletion_fraction = depletion_fraction;
+                 o.thresholds = thresholds;
+                 o.samples = samples;
+                 o.seed = seed;
+                 o.threads = threads;
+                 o.chunk_size = chunk_size;
+                 o.chunks_in_flight = chunks_in_flight;
+                 o.skip_invalid = skip_invalid;
+                 o.validate();
+                 return o;
+             }),
+             py::kw_only(), py::arg("species"), py::arg("times"), py::arg("t_start"),
+             py::arg("t_end"), py::arg("rtol"), py::arg("max_steps"), py::arg("depletion_fraction"),
+             py::arg("thresholds"), py::arg("samples"), py::arg("seed"), py::arg("threads"),
+             py::arg("chunk_size"), py::arg("chunks_in_flight") = 2,
+             py::arg("skip_invalid") = false)
+        .def_readonly("species", &BatchOptions::species)
+        .def_readonly("samples", &BatchOptions::samples)
+        .def_readonly("seed", &BatchOptions::seed)
+        .def_readonly("threads", &BatchOptions::threads)
+        .def_readonly("chunk_size", &BatchOptions::chunk_size);
+
+    m.def(
+        "case_parameters",
+        []() {
+            py::list out;
+            for (const CaseParameter& p : case_parameters())
+                out.append(py::make_tuple(p.name, p.unit, p.meaning, p.required, p.uncertain));
+            return out;
+        },
+        "Parameters a case may carry: (name, SI unit, meaning, required, uncertain).");
+
+    m.def(
+        "check_case_table",
+        [](const CaseTable& t, const BatchOptions& o) {
+            py::gil_scoped_release release;
+            return check_table(t, o);
+        },
+        py::arg("table"), py::arg("options"));
+
+    m.def(
+        "case_values",
+        [](const CaseTable& t, std::size_t row, std::uint64_t seed, long long sample) {
+            const CaseSpec s = case_from_table(t, row);
+            const CaseSpec d =
+                sample < 0 ? s : sample_case(s, seed, static_cast<std::uint64_t>(sample));
+            return d.values;
+        },
+        py::arg("table"), py::arg("row"), py::arg("seed") = 0, py::arg("sample") = -1,
+        "Parameters [SI] of a row, or of its Monte Carlo sample `sample` under `seed`.");
+
+    m.def(
+        "case_config",
+        [](const CaseTable& t, std::size_t row, const BatchOptions& o, long long sample) {
+            const CaseSpec s = case_from_table(t, row);
+            const CaseSpec d =
+                sample < 0 ? s : sample_case(s, o.seed, static_cast<std::uint64_t>(sample));
+            return build_config(d, o);
+        },
+        py::arg("table"), py::arg("row"), py::arg("options"), py::arg("sample") = -1,
+        "The EvolutionConfig of a row (or of one of its samples), as the batch runs it.");
+
+    // Runs without the GIL; the hooks take it. Every progress call also checks for signals, so
+    // Ctrl-C cancels the batch: the chunks handed out stay handed out, then KeyboardInterrupt.
+    m.def(
+        "run_batch",
+        [](const CaseTable& table, std::size_t begin, std::size_t end, const BatchOptions& o,
+           py::object on_chunk, py::object on_progress, unsigned interval_ms) {
+            std::unique_ptr<py::error_already_set> failure;
+            BatchHooks hooks;
+            hooks.progress_interval_ms = interval_ms;
+            hooks.on_chunk = [&](const BatchChunk& c) {
+                py::gil_scoped_acquire gil;
+                try {
+                    if (!on_chunk.is_none())
+                        on_chunk(chunk_dict(c));
+                } catch (py::error_already_set& e) {
+                    failure = std::make_unique<py::error_already_set>(std::move(e));
+                    throw PythonHookFailed{};
+                }
+            };
+            hooks.on_progress = [&](std::size_t done, std::size_t total) {
+                py::gil_scoped_acquire gil;
+                if (PyErr_CheckSignals() != 0) {
+                    failure = std::make_unique<py::error_already_set>();
+                    return false;
+                }
+                try {
+                    if (!on_progress.is_none()) {
+                        py::object keep = on_progress(done, total);
+                        if (!keep.is_none() && !py::cast<bool>(keep))
+                            return false;
+                    }
+                } catch (py::error_already_set& e) {
+                    failure = std::make_unique<py::error_already_set>(std::move(e));
+                    return false;
+                }
+                return true;
+            };
+            BatchStatus status;
+            try {
+                py::gil_scoped_release release;
+                status = run_batch(table, begin, end, o, hooks);
+            } catch (const PythonHookFailed&) {
+            }
+            if (failure)
+                throw std::move(*failure);
+            py::dict d;
+            d["cases_done"] = status.cases_done;
+            d["cases_failed"] = status.cases_failed;
+            d["samples_failed"] = status.samples_failed;
+            d["cancelled"] = status.cancelled;
+            return d;
+        },
+        py::arg("table"), py::arg("begin"), py::arg("end"), py::arg("options"), py::arg("on_chunk"),
+        py::arg("on_progress") = py::none(), py::arg("progress_interval_ms") = 100);
+}
+
+} // namespace exosieve::bindings

@@ -1,0 +1,230 @@
+#pragma once
+//! \file batch.hpp
+//! Many planet cases at once: a case table turned into evolution runs, Monte Carlo samples over
+//! the stated uncertainties, a pool of threads, and results handed out chunk by chunk in table
+//! order so that a sweep of any length streams to disk in constant memory.
+//!
+//! A case is a set of named parameters in SI units (the quantities of a case-table row, e.g.
+//! "planet_mass" [kg]) plus its species. build_config() turns it into an EvolutionConfig.
+//!
+//! Monte Carlo: sample j of the case with key k draws its parameters from a counter-based
+//! generator seeded by (seed, k, j) alone (SplitMix64 of Steele, Lea & Flood 2014 over a hash of
+//! the three), so every figure is independent of the number of threads, of the chunk size and
+//! of which machine ran which chunk. Normal draws come from the Box–Muller transform (Box &
+//! Muller 1958), written out here so that results do not depend on the standard library.
+//! - Normal: X ~ N(value, sigma^2), truncated to the parameter's allowed range by drawing again
+//!   (at most 1000 draws; then the sample fails).
+//! - Log-normal: ln X ~ N(ln value, s^2): the table value is the median, s the standard
+//!   deviation of ln X [1].
+
+#include <cstddef>
+#include <cstdint>
+#include <functional>
+#include <map>
+#include <string>
+#include <vector>
+
+#include "exosieve/evolution.hpp"
+#include "exosieve/exobase_model.hpp"
+#include "exosieve/hydrodynamic.hpp"
+#include "exosieve/species.hpp"
+
+namespace exosieve {
+
+//! Counter-based random numbers: one independent stream per (seed, case key, sample).
+class CounterRng {
+  public:
+    //! The stream of sample `sample` of the case with key `case_key` under `seed`.
+    CounterRng(std::uint64_t seed, std::uint64_t case_key, std::uint64_t sample);
+    //! Next 64 random bits.
+    std::uint64_t next_bits();
+    //! Uniform in [0, 1) with 53 random bits [1].
+    double uniform();
+    //! Standard normal N(0, 1) by the Box–Muller transform (two uniforms per draw) [1].
+    double normal();
+
+  private:
+    std::uint64_t state_;
+};
+
+//! Shape of a parameter's uncertainty.
+enum class Distribution : int {
+    Normal = 0,    //!< width is the standard deviation, in the parameter's SI unit
+    LogNormal = 1, //!< width is the standard deviation of ln X [1]; the value is the median
+};
+
+//! The uncertainty of one parameter of a case.
+struct Uncertainty {
+    std::string parameter;                            //!< parameter name, e.g. "planet_mass"
+    Distribution distribution = Distribution::Normal; //!< shape
+    double width = 0.0;                               //!< sigma [SI] or sigma of ln X [1] (>= 0)
+};
+
+//! One planet case: named SI parameters, its species and their uncertainties.
+struct CaseSpec {
+    std::string name;             //!< case label
+    std::string label;            //!< where the case comes from, for messages (e.g. "line 7")
+    std::uint64_t key = 0;        //!< index of the case in its full table; seeds its samples
+    std::vector<Species> species; //!< species present (mole fraction > 0), in table order
+    std::map<std::string, double> values; //!< parameters present [SI] (see case_parameters())
+    DensityScaling scaling = DensityScaling::Inventory; //!< how exobase densities follow N_i
+    std::vector<Uncertainty> uncertainties;             //!< uncertain parameters, in a fixed order
+    std::string error; //!< non-empty: the case is invalid and is reported, not run
+};
+
+//! What the batch asks of every case.
+struct BatchOptions {
+    std::vector<std::string> species; //!< species of the output (the union of the cases')
+    std::vector<double> times;        //!< output stellar ages [s], strictly increasing
+    double t_start = 0.0;           //!< start age [s] for cases without age_start (> 0 with a star)
+    double t_end = 0.0;             //!< end age [s] for cases without age_end or star_age
+    double rtol = 1e-6;             //!< relative tolerance for cases without an rtol column [1]
+    std::size_t max_steps = 100000; //!< step budget for cases without a max_steps column
+    double depletion_fraction = 1e-3; //!< a species is depleted below this share [1]
+    RegimeThresholds thresholds;      //!< regime thresholds of the Jeans parameter [1]
+    std::size_t samples = 0;          //!< Monte Carlo samples per case (0: nominal runs only)
+    std::uint64_t seed = 0;           //!< seed of the Monte Carlo streams
+    std::size_t threads = 0;          //!< worker threads (0: all hardware threads)
+    std::size_t chunk_size = 256;     //!< cases per chunk handed to the chunk callback (> 0)
+    std::size_t chunks_in_flight = 2; //!< chunks computed ahead of the callback (>= 1)
+    //! Report invalid rows with their error in their chunk instead of checking every row first
+    //! and raising InputError before any run.
+    bool skip_invalid = false;
+
+    //! Throw InputError naming the option and its value for anything that cannot run.
+    void validate() const;
+};
+
+//! Parameters a case may carry: name, SI unit, and whether an uncertainty may be given.
+struct CaseParameter {
+    std::string name;       //!< e.g. "planet_mass"
+    std::string unit;       //!< SI unit, e.g. "kg"
+    std::string meaning;    //!< one line of documentation
+    bool required = false;  //!< every case needs it (per-species: "x_" columns)
+    bool uncertain = true;  //!< a _sigma or _lnsigma column may be given
+    double lower = 0.0;     //!< smallest allowed value
+    bool lower_open = true; //!< lower bound excluded
+    double upper = 0.0;     //!< largest allowed value (inf: none)
+};
+
+//! The parameters of a case, in documentation order. "x_<species>" (mole fraction at the
+//! exobase [1]) and "inventory_<species>" (initial inventory [particles]) are per species.
+const std::vector<CaseParameter>& case_parameters();
+
+//! The allowed range of parameter `name` (also "x_<species>", "inventory_<species>");
+//! nullptr when unknown.
+const CaseParameter* find_case_parameter(const std::string& name);
+
+//! A case table in SI: numeric columns by parameter name (NaN: not given for that row), text
+//! columns, one label per row for messages. Column "<name>_sigma" holds a normal standard
+//! deviation [SI], "<name>_lnsigma" a log-normal width [1].
+struct CaseTable {
+    std::vector<std::string> names;      //!< case labels, one per row
+    std::vector<std::string> row_labels; //!< e.g. "line 7" or "row 3"; empty: "row <i+1>"
+    std::vector<std::string> row_errors; //!< empty, or per row: a parse error ("" if none)
+    std::uint64_t first_key = 0;         //!< key of row 0 (its index in the full table)
+    std::vector<std::pair<std::string, std::vector<double>>> columns;   //!< name -> SI values
+    std::vector<std::pair<std::string, std::vector<std::string>>> text; //!< name -> text
+
+    //! Number of rows.
+    std::size_t rows() const { return names.size(); }
+    //! Label of row `i` for messages.
+    std::string row_label(std::size_t i) const;
+};
+
+//! Throw InputError for a table whose columns cannot be read at all (unknown or duplicate
+//! column, sigma without its value column, columns of unequal length, no species).
+void check_table_columns(const CaseTable& table);
+
+//! The case in row `row` of `table`. Throws InputError naming the row and the column for a
+//! value that is missing or out of range (the spec's `error` is not used).
+CaseSpec case_from_table(const CaseTable& table, std::size_t row);
+
+//! Per row: "" when the case can run, else the error naming the row and column. Checks the
+//! columns first (throwing for those), then each row's values and its evolution config.
+std::vector<std::string> check_table(const CaseTable& table, const BatchOptions& options);
+
+//! The evolution config of a case (parameters as given; no sampling). Throws InputError naming
+//! the parameter for missing or out-of-range values.
+EvolutionConfig build_config(const CaseSpec& spec, const BatchOptions& options);
+
+//! Sample `sample` of `spec`: each uncertain parameter drawn in the order of
+//! spec.uncertainties from the stream (seed, spec.key, sample). Throws NumericalError when a
+//! truncated normal finds no allowed value in 1000 draws.
+CaseSpec sample_case(const CaseSpec& spec, std::uint64_t seed, std::uint64_t sample);
+
+//! Results of one chunk of consecutive cases (S species, T times, N samples; row-major).
+//! Entries of species a case does not have, and of times outside its span, are NaN.
+struct BatchChunk {
+    std::size_t first = 0;                   //!< row of the first case in the table
+    std::size_t count = 0;                   //!< cases in the chunk
+    std::size_t species = 0;                 //!< S
+    std::size_t times = 0;                   //!< T
+    std::size_t samples = 0;                 //!< N
+    std::vector<std::uint64_t> key;          //!< case key [case]
+    std::vector<std::string> name;           //!< case label [case]
+    std::vector<std::string> error;          //!< "" or why the nominal run failed [case]
+    std::vector<std::int64_t> steps;         //!< accepted steps of the nominal run [case]
+    std::vector<double> planet_mass;         //!< [kg] [case]
+    std::vector<double> planet_radius;       //!< [m] [case]
+    std::vector<double> exobase_radius;      //!< [m] [case]
+    std::vector<double> escape_speed;        //!< escape speed at the exobase [m s^-1] [case]
+    std::vector<double> t_start;             //!< start age [s] [case]
+    std::vector<double> t_end;               //!< end age [s] [case]
+    std::vector<double> temperature_start;   //!< exobase temperature at t_start [K] [case]
+    std::vector<double> mole_fraction;       //!< x_i at the exobase [1], 0: absent [case x species]
+    std::vector<double> exobase_temperature; //!< [K] [case x time]
+    std::vector<double> retained;            //!< N_i(t) / N_i(t_start) [1] [case x time x species]
+    std::vector<double> jeans_parameter;     //!< lambda_i(t) [1] [case x time x species]
+    std::vector<double> final_retained;      //!< N_i(t_end) / N_i(t_start) [1] [case x species]
+    std::vector<double> depletion_time;      //!< age of depletion [s], NaN: none [case x species]
+    std::vector<double> efolding_time;       //!< N_i / Q_i at t_start [s] [case x species]
+    std::vector<double> jeans_start;         //!< lambda_i(t_start) [1] [case x species]
+    std::vector<double> jeans_end;           //!< lambda_i(t_end) [1] [case x species]
+    std::vector<std::int64_t>
+        regime_start;                    //!< Regime of lambda_i(t_start), -1: none [case x species]
+    std::vector<double> sample_retained; //!< N_i(t_end)/N_i(t_start) [1] [case x sample x species]
+    std::vector<double> sample_depletion_time; //!< [s] [case x sample x species]
+    std::vector<std::int64_t> sample_failed;   //!< 1 where the sample run failed [case x sample]
+    std::vector<std::string> sample_error;     //!< error of the lowest failed sample [case]
+
+    //! Size every array for `cases` cases, filled with NaN, -1, 0 or "" as documented.
+    void reset(std::size_t first_row, std::size_t cases, std::size_t species_count,
+               std::size_t time_count, std::size_t sample_count);
+};
+
+//! Hooks of run_batch(), all called on the calling thread.
+struct BatchHooks {
+    //! Receives each finished chunk, in table order; may throw to stop the batch.
+    std::function<void(const BatchChunk&)> on_chunk;
+    //! Called about every `progress_interval_ms` with evolution runs done and in total (one
+    //! run per case plus one per sample); returning false cancels. May throw to stop.
+    std::function<bool(std::size_t runs_done, std::size_t runs_total)> on_progress;
+    //! Milliseconds between progress calls.
+    unsigned progress_interval_ms = 100;
+};
+
+//! What run_batch() did.
+struct BatchStatus {
+    std::size_t cases_done = 0;     //!< cases handed to on_chunk
+    std::size_t cases_failed = 0;   //!< of those, cases whose nominal run failed or was invalid
+    std::size_t samples_failed = 0; //!< failed sample runs in those cases
+    bool cancelled = false;         //!< stopped by on_progress before the end
+};
+
+//! Run rows [begin, end) of `table` on options.threads threads and hand the results to
+//! hooks.on_chunk chunk by chunk, in order. Unless options.skip_invalid, every row is checked
+//! first and an invalid one raises InputError (listing up to ten) before any run; with it, an
+//! invalid row is reported with its error (naming the row and the column) in its chunk. Rows
+//! with a preset row error are always reported with it. A run that fails numerically is
+//! reported in its chunk and every other run completes.
+//! Cancelling (on_progress returns false) stops the workers within one integration step; the
+//! chunks handed out before stay handed out. An exception from a hook stops the batch and is
+//! rethrown after the workers have stopped.
+BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end,
+                      const BatchOptions& options, const BatchHooks& hooks);
+
+//! Species of a table in column order ("x_<species>" columns).
+std::vector<std::string> table_species(const CaseTable& table);
+
+} // namespace exosieve

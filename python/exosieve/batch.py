@@ -1,0 +1,943 @@
+"""Comparing planet cases: many evolution runs in parallel, with Monte Carlo over the stated
+uncertainties, summarised per case and species, streamed to HDF5.
+
+:func:`compare` reads a case table (a CSV file or a pandas DataFrame, see
+:mod:`exosieve.catalogue` and the README), runs one evolution per case (and ``samples`` more per
+case with parameters drawn from their uncertainties) on the compiled batch engine, and returns a
+:class:`Comparison`. Its ``summary`` is a pandas DataFrame with one row per case and species.
+
+The engine runs cases on a pool of C++ threads without the GIL and hands results back chunk by
+chunk in table order; with ``output=`` each chunk is appended to an HDF5 file as it finishes, so
+memory stays flat in the number of cases and an interrupted sweep resumes where it stopped. With
+``client=`` (a ``dask.distributed.Client``) chunks run on the cluster's workers instead. Monte
+Carlo draws depend only on (seed, row, sample), so results are the same for any number of
+threads or workers.
+
+Result files (DESIGN section 5): dimensions ``case`` (appendable; the coordinate holds the
+table row), ``species``, ``time`` (stellar age [s]) and ``sample``; every variable has
+``units`` and ``long_name``; the global attribute ``config`` holds the table's fingerprint and
+every option as JSON.
+
+Examples
+--------
+>>> import pandas as pd
+>>> from exosieve import compare
+>>> cases = pd.DataFrame({
+...     "case": ["warm", "hot"],
+...     "planet_mass [M_earth]": [1.0, 1.0],
+...     "planet_radius [R_earth]": [1.0, 1.0],
+...     "exobase_altitude [km]": [500.0, 500.0],
+...     "exobase_density [m-3]": [1e13, 1e13],
+...     "exobase_temperature [K]": [900.0, 1500.0],
+...     "inventory [particles]": [1e37, 1e37],
+...     "x_N2": [0.75, 0.75], "x_He": [0.25, 0.25]})
+>>> result = compare(cases, t_end=4.5e9 * 3.15576e7, threads=1)
+>>> table = result.summary.set_index(["case", "species"])
+>>> bool(table.loc[("warm", "He"), "retained"]), bool(table.loc[("hot", "He"), "retained"])
+(True, False)
+>>> round(float(table.loc[("hot", "N2"), "final_retained_fraction"]), 12)
+1.0
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import sys
+import time as _time
+from collections.abc import Callable, Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+
+from . import _core
+from . import constants as c
+from .catalogue import CaseTable, load_cases
+from .model import REGIMES
+
+__all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
+
+# Case variables of a result file: name, dtype, dimensions after `case`, units, long name.
+_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
+    ("case_name", str, [], "1", "planet case"),
+    ("error", str, [], "1", "why the row is invalid or its nominal run failed (empty: it ran)"),
+    ("steps", int, [], "1", "accepted integration steps of the nominal run"),
+    ("planet_mass", float, [], "kg", "planet mass"),
+    ("planet_radius", float, [], "m", "planet radius"),
+    ("exobase_radius", float, [], "m", "exobase radius from the planet's centre"),
+    ("escape_speed", float, [], "m s-1", "escape speed at the exobase"),
+    ("age_start", float, [], "s", "stellar age at the start of the run"),
+    ("age_end", float, [], "s", "stellar age at the end of the run"),
+    ("exobase_temperature_start", float, [], "K", "exobase temperature at the start"),
+    ("mole_fraction", float, ["species"], "1", "mole fraction at the exobase (0: absent)"),
+    ("exobase_temperature", float, ["time"], "K", "exobase temperature"),
+    (
+        "retained_fraction",
+        float,
+        ["time", "species"],
+        "1",
+        "inventory left, N(t) / N(start) (NaN outside the run)",
+    ),
+    ("jeans_parameter", float, ["time", "species"], "1", "Jeans parameter at the exobase"),
+    (
+        "final_retained_fraction",
+        float,
+        ["species"],
+        "1",
+        "inventory left at the end, N(end) / N(start)",
+    ),
+    (
+        "depletion_time",
+        float,
+        ["species"],
+        "s",
+        "stellar age when the inventory fell below the depletion fraction (NaN: never)",
+    ),
+    ("efolding_time", float, ["species"], "s", "loss e-folding time N / Q at the start"),
+    ("jeans_parameter_start", float, ["species"], "1", "Jeans parameter at the start"),
+    ("jeans_parameter_end", float, ["species"], "1", "Jeans parameter at the end"),
+    (
+        "regime_start",
+        int,
+        ["species"],
+        "1",
+        "escape regime of the species at the start: 0 Jeans, 1 enhanced Jeans, "
+        "2 transition, 3 hydrodynamic (-1: none)",
+    ),
+]
+_SAMPLE_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
+    (
+        "sample_retained_fraction",
+        float,
+        ["sample", "species"],
+        "1",
+        "inventory left at the end in each Monte Carlo sample",
+    ),
+    (
+        "sample_depletion_time",
+        float,
+        ["sample", "species"],
+        "s",
+        "stellar age of depletion in each Monte Carlo sample (NaN: never)",
+    ),
+    ("sample_failed", int, ["sample"], "1", "1 where the Monte Carlo run failed"),
+    ("sample_error", str, [], "1", "error of the lowest-numbered failed sample"),
+]
+
+_UNITS = {
+    "final_retained_fraction": "1",
+    "depletion_time": "s",
+    "efolding_time": "s",
+    "jeans_parameter_start": "1",
+    "jeans_parameter_end": "1",
+    "probability_retained": "1",
+}
+
+
+class Interrupted(KeyboardInterrupt):
+    """Ctrl-C (or a signal) stopped :func:`compare`; ``result`` holds the finished cases."""
+
+    def __init__(self, result: Comparison) -> None:
+        super().__init__(f"interrupted after {len(result)} of {result.total_cases} cases")
+        self.result = result
+
+
+class Comparison:
+    """Results of :func:`compare`, in memory or backed by a result file.
+
+    Arrays are indexed ``[case, ...]`` in table order; see ``variables`` for names, units and
+    dimensions. Species a case does not have are NaN.
+
+    Attributes
+    ----------
+    species : list of str
+        Species of the ``species`` dimension.
+    times : ndarray
+        Output stellar ages [s].
+    samples : int
+        Monte Carlo samples per case.
+    config : dict
+        The table's fingerprint and every option of the run.
+    path : Path or None
+        The result file, if the comparison lives in one.
+    """
+
+    def __init__(
+        self,
+        data: dict[str, NDArray[Any]] | None,
+        species: list[str],
+        times: NDArray[np.float64],
+        samples: int,
+        config: dict[str, Any],
+        path: Path | None = None,
+        rows: int | None = None,
+    ) -> None:
+        self._data: dict[str, NDArray[Any]] = dict(data or {})
+        self.species = list(species)
+        self.times = np.asarray(times, dtype=float)
+        self.samples = int(samples)
+        self.config = config
+        self.path = path
+        self._rows = rows
+        self._summary: Any = None
+        #: Cases that were already in ``output`` when :func:`compare` started (0: a new run).
+        self.resumed_from = 0
+
+    # --- arrays ---------------------------------------------------------------------------
+    @property
+    def variables(self) -> dict[str, tuple[list[str], str, str]]:
+        """Name -> (dimensions, units, long name) of every per-case array."""
+        spec = _VARIABLES + (_SAMPLE_VARIABLES if self.samples else [])
+        return {name: (["case", *dims], units, text) for name, _, dims, units, text in spec}
+
+    def __getitem__(self, name: str) -> NDArray[Any]:
+        if name == "case":
+            return self._load("case")
+        if name not in self.variables:
+            raise ValueError(f"no variable '{name}' (have {', '.join(self.variables)})")
+        return self._load(name)
+
+    def _load(self, name: str) -> NDArray[Any]:
+        if name not in self._data:
+            if self.path is None:
+                raise ValueError(f"no variable '{name}'")
+            self._data[name] = _read_variable(self.path, name, len(self))
+        return self._data[name]
+
+    def __len__(self) -> int:
+        if self._rows is not None:
+            return self._rows
+        return len(self._data["case"])
+
+    @property
+    def cases(self) -> list[str]:
+        """Case labels, in table order."""
+        return [str(x) for x in self["case_name"]]
+
+    @property
+    def total_cases(self) -> int:
+        """Rows of the case table the run was asked to compute."""
+        return int(self.config["table"]["rows"])
+
+    @property
+    def complete(self) -> bool:
+        """True when every row of the table has its results."""
+        return len(self) == self.total_cases
+
+    @property
+    def errors(self) -> Any:
+        """pandas DataFrame of the cases whose row was invalid or whose nominal run failed, and
+        of cases with failed Monte Carlo samples (columns: case, row, error, samples_failed,
+        sample_error)."""
+        import pandas as pd
+
+        error = np.asarray(self["error"], dtype=object)
+        failed = (
+            self["sample_failed"].sum(axis=1)
+            if self.samples
+            else np.zeros(len(self), dtype=np.int64)
+        )
+        sample_error = (
+            np.asarray(self["sample_error"], dtype=object)
+            if self.samples
+            else np.full(len(self), "", dtype=object)
+        )
+        keep = (error != "") | (failed > 0)
+        return pd.DataFrame(
+            {
+                "case": np.asarray(self["case_name"], dtype=object)[keep],
+                "row": self["case"][keep],
+                "error": error[keep],
+                "samples_failed": failed[keep],
+                "sample_error": sample_error[keep],
+            }
+        ).reset_index(drop=True)
+
+    # --- summary ----------------------------------------------------------------------------
+    @property
+    def summary(self) -> Any:
+        """One row per case and species (see :meth:`summarize`), with the run's ``retain`` and
+        ``percentiles``."""
+        if self._summary is None:
+            self._summary = self.summarize()
+        return self._summary
+
+    def summarize(
+        self, retain: float | None = None, percentiles: Sequence[float] | None = None
+    ) -> Any:
+        """Summary table: one row per case and species present (and one row, species empty,
+        for an invalid row).
+
+        Parameters
+        ----------
+        retain : float, optional
+            A species counts as retained when more than this fraction of its inventory is left
+            at the end [1]; default: the run's ``retain``.
+        percentiles : sequence of float, optional
+            Percentiles of the retained fraction over the Monte Carlo samples [%]; default: the
+            run's.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Columns ``case``, ``row``, ``species``, ``final_retained_fraction`` [1],
+            ``retained`` (bool), ``depletion_time`` [s] (NaN: never), ``efolding_time`` [s]
+            (N/Q at the start), ``jeans_parameter_start`` and ``jeans_parameter_end`` [1],
+            ``regime_start`` (name), ``error``; with samples also ``probability_retained``
+            (share of successful samples with more than ``retain`` left) [1],
+            ``retained_fraction_p<q>`` [1] and ``samples_ok``. ``frame.attrs["units"]`` gives
+            the unit of each numeric column.
+        """
+        import pandas as pd
+
+        summary = self.config.get("summary", {})
+        retain = float(summary.get("retain", 0.5) if retain is None else retain)
+        if not 0.0 <= retain < 1.0:
+            raise ValueError(f"retain must be in [0, 1), got {retain}")
+        q = list(summary.get("percentiles", [5, 50, 95]) if percentiles is None else percentiles)
+        for value in q:
+            if not 0.0 <= float(value) <= 100.0:
+                raise ValueError(f"percentiles must be in [0, 100], got {value}")
+        n, s = len(self), len(self.species)
+        x = self["mole_fraction"]
+        present = x > 0.0
+        unknown = ~np.isfinite(x).any(axis=1) if s else np.ones(n, dtype=bool)
+        ci, si = np.nonzero(present)
+        extra = np.nonzero(unknown)[0]
+        case_index = np.concatenate([ci, extra])
+        species_index = np.concatenate([si, np.full(len(extra), -1)])
+        order = np.lexsort((species_index, case_index))
+        ci, si = case_index[order], species_index[order]
+        valid = si >= 0
+        sj = np.where(valid, si, 0)
+
+        def pick(name: str) -> NDArray[Any]:
+            values = self[name]
+            out = values[ci, sj] if s else np.full(len(ci), np.nan)
+            return np.where(valid, out, np.nan) if out.dtype.kind == "f" else out
+
+        final = pick("final_retained_fraction")
+        regime = self["regime_start"][ci, sj] if s else np.full(len(ci), -1)
+        names = np.array(["", *REGIMES], dtype=object)
+        columns: dict[str, Any] = {
+            "case": np.asarray(self["case_name"], dtype=object)[ci],
+            "row": self["case"][ci],
+            "species": np.where(valid, np.array(self.species + [""], dtype=object)[si], ""),
+            "final_retained_fraction": final,
+            "retained": final > retain,
+            "depletion_time": pick("depletion_time"),
+            "efolding_time": pick("efolding_time"),
+            "jeans_parameter_start": pick("jeans_parameter_start"),
+            "jeans_parameter_end": pick("jeans_parameter_end"),
+            "regime_start": names[np.where(valid, regime, -1) + 1],
+            "error": np.asarray(self["error"], dtype=object)[ci],
+        }
+        units = dict(_UNITS)
+        if self.samples:
+            draws = self["sample_retained_fraction"][ci, :, sj]  # (rows, samples)
+            ok = np.isfinite(draws) & valid[:, None]
+            count = ok.sum(axis=1)
+            hits = ((draws > retain) & ok).sum(axis=1)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                columns["probability_retained"] = np.where(count > 0, hits / count, np.nan)
+            for value in q:
+                label = f"retained_fraction_p{float(value):g}"
+                columns[label] = _nanpercentile_rows(draws, ok, float(value))
+                units[label] = "1"
+            columns["samples_ok"] = count
+        frame = pd.DataFrame(columns)
+        frame.attrs["units"] = units
+        frame.attrs["retain"] = retain
+        return frame
+
+    # --- files ------------------------------------------------------------------------------
+    def to_hdf5(self, path: str | os.PathLike[str]) -> Path:
+        """Write the comparison to ``path`` (replaced atomically) in the layout of
+        :func:`compare`'s ``output`` files; returns the path."""
+        path = Path(path)
+        out = _create_file(path, self.config, self.species, self.times, self.samples)
+        try:
+            if len(self):
+                names = ["case"] + list(self.variables)
+                out.append({name: self[name] for name in names})
+        finally:
+            out.close()
+        return path
+
+    def __repr__(self) -> str:
+        where = f", path={str(self.path)!r}" if self.path else ""
+        return (
+            f"Comparison({len(self)} of {self.total_cases} cases, species={self.species}, "
+            f"samples={self.samples}{where})"
+        )
+
+
+def _nanpercentile_rows(
+    draws: NDArray[np.float64], ok: NDArray[np.bool_], q: float
+) -> NDArray[np.float64]:
+    """Percentile ``q`` of each row over its `ok` entries (NaN for a row with none)."""
+    values = np.where(ok, draws, np.nan)
+    out = np.full(values.shape[0], np.nan)
+    rows = ok.any(axis=1)
+    if rows.any():
+        out[rows] = np.nanpercentile(values[rows], q, axis=1)
+    return out
+
+
+def open_comparison(path: str | os.PathLike[str]) -> Comparison:
+    """Open a result file written by :func:`compare` or :meth:`Comparison.to_hdf5`.
+
+    Only the rows recorded as complete are read (a sweep still running, or interrupted, has
+    fewer rows than its table). Arrays are read when first used.
+    """
+    from .results import read_attribute, read_doubles, read_int64s, read_int_attribute, read_strings
+
+    path = Path(path)
+    try:
+        config = json.loads(read_attribute(path, "", "config"))
+    except json.JSONDecodeError:
+        config = {}
+    if config.get("kind") != "exosieve.compare":
+        raise ValueError(f"{path} is not a comparison file written by exosieve.compare")
+    rows = int(read_int_attribute(path, "", "completed"))
+    species = [str(name) for name in read_strings(path, "species")]
+    times = np.asarray(read_doubles(path, "time"))
+    samples = int(config["options"]["samples"])
+    if samples:
+        assert len(read_int64s(path, "sample")) == samples
+    return Comparison(None, species, times, samples, config, path=path, rows=rows)
+
+
+def _read_variable(path: Path, name: str, rows: int) -> NDArray[Any]:
+    from .results import read_doubles, read_int64s, read_strings
+
+    kind = "int" if name == "case" else None
+    for variable, dtype, *_ in _VARIABLES + _SAMPLE_VARIABLES:
+        if variable == name:
+            kind = {str: "str", int: "int", float: "float"}[dtype]
+    if kind == "str":
+        return np.asarray(read_strings(path, name)[:rows], dtype=object)
+    reader = read_int64s if kind == "int" else read_doubles
+    return np.asarray(reader(path, name)[:rows])
+
+
+def _create_file(
+    path: Path, config: dict[str, Any], species: list[str], times: NDArray[Any], samples: int
+) -> Any:
+    from .results import ResultAppender, ResultWriter
+
+    schema = ResultWriter(path, config)
+    schema.add_coordinate("species", list(species), long_name="species")
+    schema.add_coordinate(
+        "time", np.asarray(times, dtype=float), units="s", long_name="stellar age"
+    )
+    variables = list(_VARIABLES)
+    if samples:
+        schema.add_coordinate(
+            "sample", np.arange(samples, dtype=np.int64), units="1", long_name="Monte Carlo sample"
+        )
+        variables += _SAMPLE_VARIABLES
+    for name, dtype, dims, units, long_name in variables:
+        schema.add_case_variable(name, dtype, dims, units=units, long_name=long_name)
+    schema.set_attribute("long_name", "row of the case table", dataset="case")
+    return ResultAppender(schema)
+
+
+# --- progress ---------------------------------------------------------------------------------
+
+
+class _Progress:
+    """A progress bar in cases with rate and time left: tqdm when installed, else a stderr
+    line; or a user callable ``progress(done, total)``."""
+
+    def __init__(self, total: int, initial: int, progress: bool | Callable[[int, int], Any]):
+        self.total, self.done = total, initial
+        self.callback = progress if callable(progress) else None
+        self.bar: Any = None
+        self.plain = False
+        self.start = _time.monotonic()
+        self.initial = initial
+        self.last_print = 0.0
+        if progress is True:
+            try:
+                from tqdm import tqdm
+            except ImportError:
+                self.plain = True
+            else:
+                self.bar = tqdm(
+                    total=total, initial=initial, unit="case", dynamic_ncols=True, smoothing=0.1
+                )
+
+    def update(self, done: int) -> None:
+        done = min(max(done, self.done), self.total)
+        if self.bar is not None:
+            self.bar.update(done - self.done)
+        self.done = done
+        if self.callback is not None:
+            self.callback(done, self.total)
+        if self.plain:
+            now = _time.monotonic()
+            if now - self.last_print >= 0.5 or done == self.total:
+                self.last_print = now
+                sys.stderr.write("\r" + self.line(now))
+                sys.stderr.flush()
+
+    def line(self, now: float) -> str:
+        elapsed = max(now - self.start, 1e-9)
+        rate = (self.done - self.initial) / elapsed
+        left = (self.total - self.done) / rate if rate > 0 else math.inf
+        left_text = "?" if not math.isfinite(left) else _clock(left)
+        return (
+            f"{self.done}/{self.total} cases ({100.0 * self.done / max(self.total, 1):.0f}%), "
+            f"{rate:.1f} cases/s, {left_text} left, {_clock(elapsed)} elapsed"
+        )
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.close()
+        if self.plain:
+            sys.stderr.write("\r" + self.line(_time.monotonic()) + "\n")
+            sys.stderr.flush()
+
+
+def _clock(seconds: float) -> str:
+    seconds = int(round(seconds))
+    hours, rest = divmod(seconds, 3600)
+    return (
+        f"{hours}:{rest // 60:02d}:{rest % 60:02d}"
+        if hours
+        else f"{rest // 60:02d}:{rest % 60:02d}"
+    )
+
+
+# --- running ----------------------------------------------------------------------------------
+
+
+def _default_chunk(samples: int) -> int:
+    # An append costs ~10-20 ms (two fsyncs) whatever its size: chunks of up to 1024 cases
+    # spread it thin; 64k runs per chunk bound a chunk's memory with many samples.
+    return max(8, min(1024, 65536 // (1 + samples)))
+
+
+def _spans(table: CaseTable, t_start: float, t_end: float) -> tuple[float, float]:
+    """Earliest start and latest end age [s] over the table's rows."""
+    n = len(table)
+
+    def column(name: str) -> NDArray[np.float64]:
+        return np.asarray(table.columns.get(name, [np.nan] * n), dtype=float)
+
+    start = np.where(np.isnan(column("age_start")), t_start, column("age_start"))
+    end = column("age_end")
+    end = np.where(np.isnan(end), column("star_age"), end)
+    end = np.where(np.isnan(end), t_end, end)
+    if n == 0:
+        return t_start, t_end
+    return float(np.nanmin(start)), float(np.nanmax(end))
+
+
+def _output_times(times: int | Any, table: CaseTable, t_start: float, t_end: float) -> Any:
+    if isinstance(times, (int, np.integer)) and not isinstance(times, bool):
+        if times < 2:
+            raise ValueError(f"times must be a count >= 2 or an array of ages [s], got {times}")
+        lo, hi = _spans(table, t_start, t_end)
+        if not (math.isfinite(lo) and math.isfinite(hi) and hi > lo):
+            raise ValueError(
+                f"cannot place output times between ages {lo} s and {hi} s; give t_start, t_end"
+            )
+        grid = np.geomspace(lo, hi, times) if lo > 0 else np.linspace(lo, hi, times)
+        grid[0], grid[-1] = lo, hi
+        return grid
+    return np.asarray(times, dtype=float).reshape(-1)
+
+
+def _run_key(config: dict[str, Any]) -> Any:
+    """What must match for a file to be resumed: the table and the options that change results."""
+    return (config.get("kind"), config.get("table", {}).get("sha256"), config.get("options"))
+
+
+class _MemorySink:
+    def __init__(self) -> None:
+        self.chunks: list[dict[str, Any]] = []
+        self.completed = 0
+
+    def append(self, chunk: dict[str, Any]) -> None:
+        self.chunks.append(chunk)
+        self.completed += len(chunk["case"])
+
+    def close(self) -> None:
+        pass
+
+    def result(
+        self, species: list[str], times: Any, samples: int, config: dict[str, Any]
+    ) -> Comparison:
+        names = ["case"] + [v[0] for v in _VARIABLES + (_SAMPLE_VARIABLES if samples else [])]
+        data: dict[str, Any] = {}
+        for name in names:
+            parts = [chunk[name] for chunk in self.chunks]
+            if parts:
+                data[name] = np.concatenate(parts)
+            else:
+                data[name] = _empty(name, len(species), len(times), samples)
+        return Comparison(data, species, times, samples, config)
+
+
+def _empty(name: str, s: int, t: int, n: int) -> NDArray[Any]:
+    if name == "case":
+        return np.zeros(0, dtype=np.int64)
+    for variable, dtype, dims, *_ in _VARIABLES + _SAMPLE_VARIABLES:
+        if variable == name:
+            shape = (0, *[{"species": s, "time": t, "sample": n}[d] for d in dims])
+            kind = {str: object, int: np.int64, float: float}[dtype]
+            return np.zeros(shape, dtype=kind)
+    raise ValueError(name)
+
+
+class _FileSink:
+    def __init__(
+        self,
+        path: Path,
+        config: dict[str, Any],
+        species: list[str],
+        times: Any,
+        samples: int,
+        overwrite: bool,
+    ) -> None:
+        from .results import ResultAppender, read_attribute
+
+        self.path = path
+        if path.exists() and not overwrite:
+            try:
+                existing = json.loads(read_attribute(path, "", "config"))
+            except Exception as err:  # not an HDF5 file, or no config
+                raise ValueError(
+                    f"output {path} exists and is not a sweep file of exosieve ({err}); "
+                    "choose another path or overwrite it"
+                ) from None
+            if _run_key(existing) != _run_key(config):
+                what = (
+                    "of another case table"
+                    if existing.get("table", {}).get("sha256") != config["table"]["sha256"]
+                    else "made with other options"
+                )
+                raise ValueError(
+                    f"output {path} holds a sweep {what}; choose another path or overwrite it"
+                )
+            self.appender = ResultAppender(path)
+            self.resumed = True
+        else:
+            self.appender = _create_file(path, config, species, times, samples)
+            self.resumed = False
+        self.completed = int(self.appender.completed)
+
+    def append(self, chunk: dict[str, Any]) -> None:
+        self.appender.append(chunk)
+        self.completed += len(chunk["case"])
+
+    def close(self) -> None:
+        self.appender.close()
+
+    def result(
+        self, species: list[str], times: Any, samples: int, config: dict[str, Any]
+    ) -> Comparison:
+        return open_comparison(self.path)
+
+
+def compare(
+    cases: Any,
+    *,
+    t_start: float = 10.0 * c.MYR,
+    t_end: float = 4.5 * c.GYR,
+    times: int | Sequence[float] | NDArray[np.float64] = 16,
+    samples: int = 0,
+    seed: int = 0,
+    retain: float = 0.5,
+    percentiles: Sequence[float] = (5.0, 50.0, 95.0),
+    depletion_fraction: float = 1e-3,
+    thresholds: tuple[float, float, float] = (6.0, 3.0, 2.1),
+    rtol: float = 1e-6,
+    max_steps: int = 100_000,
+    bad_rows: str = "raise",
+    threads: int | None = None,
+    chunk_size: int | None = None,
+    output: str | os.PathLike[str] | None = None,
+    overwrite: bool = False,
+    client: Any = None,
+    progress: bool | Callable[[int, int], Any] = False,
+) -> Comparison:
+    """Evolve every case of a case table, with Monte Carlo over its uncertainties.
+
+    Parameters
+    ----------
+    cases : str, Path, pandas.DataFrame or CaseTable
+        The case table (CSV path or DataFrame with ``quantity [unit]`` headers; see the README).
+    t_start : float, optional
+        Stellar age at the start [s] for rows without ``age_start``. Default 10 Myr.
+    t_end : float, optional
+        Stellar age at the end [s] for rows without ``age_end`` or ``star_age``. Default 4.5 Gyr.
+    times : int or array of float, optional
+        Output stellar ages [s], or their number, log-spaced from the earliest start to the
+        latest end. Default 16.
+    samples : int, optional
+        Monte Carlo samples per case (0: nominal runs only).
+    seed : int, optional
+        Seed of the Monte Carlo draws; sample ``j`` of row ``k`` depends only on (seed, k, j).
+    retain : float, optional
+        Summary threshold: a species is retained when more than this fraction of its inventory
+        is left at the end [1]. Default 0.5.
+    percentiles : sequence of float, optional
+        Percentiles of the sampled retained fractions in the summary [%].
+    depletion_fraction : float, optional
+        A species is depleted below this fraction of its start inventory [1]. Default 1e-3.
+    thresholds : (float, float, float), optional
+        Jeans-parameter thresholds (enhanced, transition, hydrodynamic) [1]; default
+        (6, 3, 2.1) from Volkov et al. (2011).
+    rtol : float, optional
+        Relative tolerance of each run for rows without an ``rtol`` column [1]. Default 1e-6.
+    max_steps : int, optional
+        Step budget of each run for rows without a ``max_steps`` column.
+    bad_rows : {"raise", "report"}, optional
+        ``"raise"``: a malformed or invalid row stops everything before any run, with the row and
+        column named. ``"report"``: such rows get their error in the results and the others run.
+    threads : int, optional
+        Threads of the batch engine (default: all cores; on a Dask worker: 1 per task).
+    chunk_size : int, optional
+        Cases per chunk (results stream out a chunk at a time; a Dask task is one chunk).
+    output : str or PathLike, optional
+        Stream results into this HDF5 file. If it already holds a sweep of the same table and
+        options, the run resumes after its finished chunks; a different sweep is refused unless
+        ``overwrite``.
+    overwrite : bool, optional
+        Replace an existing ``output`` instead of resuming it.
+    client : dask.distributed.Client, optional
+        Run the chunks on this cluster's workers; results stream back in table order.
+    progress : bool or callable, optional
+        True: a progress bar (tqdm if installed) with rate and time left; a callable is called
+        as ``progress(cases_done, cases_total)``.
+
+    Returns
+    -------
+    Comparison
+        With ``.summary`` (pandas DataFrame) and ``.to_hdf5(path)``; file-backed when
+        ``output`` is given.
+
+    Raises
+    ------
+    ValueError
+        For a malformed table (naming the row and the column) or bad options, before any run.
+    Interrupted
+        (a KeyboardInterrupt) on Ctrl-C; its ``result`` holds the finished cases, which are also
+        in ``output``.
+    """
+    if bad_rows not in ("raise", "report"):
+        raise ValueError(f"bad_rows must be 'raise' or 'report', got {bad_rows!r}")
+    for name, value in (("samples", samples), ("seed", seed), ("max_steps", max_steps)):
+        if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 0:
+            raise ValueError(f"{name} must be a whole number >= 0, got {value!r}")
+    if not 0.0 <= float(retain) < 1.0:
+        raise ValueError(f"retain must be in [0, 1), got {retain}")
+    if threads is not None and (not isinstance(threads, (int, np.integer)) or threads < 1):
+        raise ValueError(f"threads must be a whole number >= 1, got {threads!r}")
+    if chunk_size is not None and (not isinstance(chunk_size, (int, np.integer)) or chunk_size < 1):
+        raise ValueError(f"chunk_size must be a whole number >= 1 [cases], got {chunk_size!r}")
+    table = load_cases(cases, errors="collect" if bad_rows == "report" else "raise")
+    species = list(table.species)
+    grid = _output_times(times, table, float(t_start), float(t_end))
+    chunk = int(chunk_size or _default_chunk(int(samples)))
+    enhanced, transition, hydrodynamic = (float(v) for v in thresholds)
+    options = {
+        "species": species,
+        "times": grid,
+        "t_start": float(t_start),
+        "t_end": float(t_end),
+        "rtol": float(rtol),
+        "max_steps": int(max_steps),
+        "depletion_fraction": float(depletion_fraction),
+        "thresholds": (enhanced, transition, hydrodynamic),
+        "samples": int(samples),
+        "seed": int(seed),
+        "skip_invalid": bad_rows == "report",
+    }
+    config = {
+        "kind": "exosieve.compare",
+        "version": _core.__version__,
+        "table": {
+            "source": table.source,
+            "rows": len(table),
+            "sha256": table.fingerprint(),
+            "columns": sorted(table.columns) + sorted(table.text_columns),
+        },
+        "options": {
+            "species": species,
+            "times_s": [float(t) for t in grid],
+            "t_start_s": float(t_start),
+            "t_end_s": float(t_end),
+            "rtol": float(rtol),
+            "max_steps": int(max_steps),
+            "depletion_fraction": float(depletion_fraction),
+            "regime_thresholds": {
+                "enhanced": enhanced,
+                "transition": transition,
+                "hydrodynamic": hydrodynamic,
+            },
+            "samples": int(samples),
+            "seed": int(seed),
+            "bad_rows": bad_rows,
+            "distributions": "normal (_sigma, truncated to the allowed range) or log-normal "
+            "(_lnsigma, median = value); draws from SplitMix64 streams keyed by (seed, row, "
+            "sample)",
+        },
+        "summary": {"retain": float(retain), "percentiles": [float(q) for q in percentiles]},
+    }
+    # The table goes to the engine in blocks of whole chunks, so that the engine's copy of it
+    # stays small; the engine reports invalid rows (skip_invalid) and never checks twice.
+    block = chunk * max(1, 16384 // chunk)
+    options["skip_invalid"] = True
+    core_options = _core_options(options, threads=int(threads or 0), chunk_size=chunk)
+    if bad_rows == "raise":
+        _raise_for_rows(table, block, core_options)  # every row, before any run or file
+    sink: _FileSink | _MemorySink
+    if output is not None:
+        sink = _FileSink(Path(output), config, species, grid, int(samples), overwrite)
+    else:
+        sink = _MemorySink()
+    begin = sink.completed
+    bar = _Progress(len(table), begin, progress)
+    runs_per_case = 1 + int(samples)
+    interrupted = False
+    try:
+        if client is not None and begin < len(table):
+            _run_distributed(client, table, begin, options, chunk, threads, sink, bar)
+        for first in range(begin, len(table) if client is None else begin, block):
+            last = min(first + block, len(table))
+            part = table.to_core(first_key=first, rows=slice(first, last))
+
+            def on_progress(done: int, total: int, first: int = first) -> None:
+                bar.update(first + done // runs_per_case)
+
+            _core.run_batch(part, 0, last - first, core_options, sink.append, on_progress)
+        bar.update(sink.completed)
+    except KeyboardInterrupt:
+        interrupted = True
+    finally:
+        bar.close()
+        sink.close()
+    result = sink.result(species, grid, int(samples), config)
+    result.resumed_from = begin
+    if interrupted:
+        raise Interrupted(result)
+    return result
+
+
+def _core_options(options: dict[str, Any], threads: int, chunk_size: int) -> Any:
+    kwargs = dict(options)
+    kwargs["thresholds"] = _core.RegimeThresholds(*kwargs["thresholds"])
+    kwargs["times"] = np.asarray(kwargs["times"], dtype=float)
+    # Four chunks in flight: workers go on while the calling thread appends a chunk to the file.
+    return _core.BatchOptions(threads=threads, chunk_size=chunk_size, chunks_in_flight=4, **kwargs)
+
+
+def _raise_for_rows(table: CaseTable, block: int, core_options: Any) -> None:
+    """ValueError listing the first ten invalid rows (row and column named) and their number."""
+    listed: list[str] = []
+    bad = 0
+    for first in range(0, len(table), block):
+        part = table.to_core(first_key=first, rows=slice(first, min(first + block, len(table))))
+        for error in _core.check_case_table(part, core_options):
+            if error:
+                bad += 1
+                if len(listed) < 10:
+                    listed.append(error)
+    if bad:
+        text = "".join(f"\n  {e}" for e in listed) + ("\n  ..." if bad > 10 else "")
+        raise ValueError(f"case table: {bad} invalid row{'s' if bad > 1 else ''}{text}")
+
+
+# --- Dask -------------------------------------------------------------------------------------
+
+
+def _run_chunk(payload: dict[str, Any], options: dict[str, Any], threads: int) -> dict[str, Any]:
+    """One chunk on a Dask worker: the rows in `payload` through the C++ batch engine."""
+    table = _core.CaseTable()
+    table.names = payload["names"]
+    table.row_labels = payload["row_labels"]
+    table.row_errors = payload["row_errors"]
+    table.first_key = payload["first_key"]
+    for name, values in payload["columns"].items():
+        table.add_column(name, values)
+    for name, values in payload["text"].items():
+        table.add_text(name, values)
+    rows = len(payload["names"])
+    core_options = _core_options(options, threads=threads, chunk_size=max(rows, 1))
+    chunks: list[dict[str, Any]] = []
+    _core.run_batch(table, 0, rows, core_options, chunks.append, None)
+    return chunks[0]
+
+
+def _payload(table: CaseTable, start: int, stop: int) -> dict[str, Any]:
+    rows = slice(start, stop)
+    return {
+        "names": table.names[rows],
+        "row_labels": table.row_labels[rows] if table.row_labels else [],
+        "row_errors": table.row_errors[rows] if any(table.row_errors) else [],
+        "first_key": start,
+        "columns": {k: np.asarray(v, dtype=float)[rows] for k, v in table.columns.items()},
+        "text": {k: v[rows] for k, v in table.text_columns.items() if k != "case"},
+    }
+
+
+def _run_distributed(
+    client: Any,
+    table: CaseTable,
+    begin: int,
+    options: dict[str, Any],
+    chunk: int,
+    threads: int | None,
+    sink: _FileSink | _MemorySink,
+    bar: _Progress,
+) -> None:
+    """Chunks on the workers of `client`, a bounded number in flight; results are written in
+    table order as soon as every earlier chunk is in."""
+    from distributed import as_completed
+
+    options = dict(options)
+    options["times"] = np.asarray(options["times"], dtype=float)
+    starts = iter(range(begin, len(table), chunk))
+    workers = max(1, len(client.scheduler_info().get("workers", {})))
+    window = 2 * workers
+    pending = as_completed(loop=client.loop)
+    where: dict[str, int] = {}
+    finished: dict[int, dict[str, Any]] = {}
+    next_row = begin
+
+    def submit() -> bool:
+        start = next(starts, None)
+        if start is None:
+            return False
+        stop = min(start + chunk, len(table))
+        future = client.submit(
+            _run_chunk, _payload(table, start, stop), options, int(threads or 1), pure=False
+        )
+        where[future.key] = start
+        pending.add(future)
+        return True
+
+    for _ in range(window):
+        if not submit():
+            break
+    try:
+        for future in pending:
+            start = where.pop(future.key)
+            finished[start] = future.result()
+            future.release()
+            while next_row in finished:
+                block = finished.pop(next_row)
+                sink.append(block)
+                next_row += len(block["case"])
+                bar.update(next_row)
+            submit()
+    except BaseException:
+        client.cancel(list(pending.futures))
+        raise

@@ -1,0 +1,441 @@
+#include <doctest/doctest.h>
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <string>
+#include <vector>
+
+#include "exosieve/batch.hpp"
+#include "exosieve/constants.hpp"
+#include "exosieve/errors.hpp"
+#include "exosieve/jeans.hpp"
+
+using namespace exosieve;
+using constants::Gyr;
+using constants::Myr;
+
+namespace {
+
+const double missing = std::numeric_limits<double>::quiet_NaN();
+
+void set_column(CaseTable& t, const std::string& name, std::vector<double> values) {
+    for (auto& [n, v] : t.columns)
+        if (n == name) {
+            v = std::move(values);
+            return;
+        }
+    t.columns.emplace_back(name, std::move(values));
+}
+
+// `rows` Earth-like cases with N2, He and H at a constant exobase temperature rising by row.
+CaseTable earthlike(std::size_t rows) {
+    CaseTable t;
+    std::vector<double> mass, radius, alt, dens, temp, inv, xn2, xhe, xh, msig, tsig;
+    for (std::size_t i = 0; i < rows; ++i) {
+        t.names.push_back("case " + std::to_string(i));
+        mass.push_back(constants::M_earth * (0.5 + 0.1 * static_cast<double>(i % 7)));
+        radius.push_back(constants::R_earth);
+        alt.push_back(500e3);
+        dens.push_back(1e13);
+        temp.push_back(800.0 + 150.0 * static_cast<double>(i % 5));
+        inv.push_back(1e37);
+        xn2.push_back(0.7);
+        xhe.push_back(0.25);
+        xh.push_back(0.05);
+        msig.push_back(0.1 * mass.back());
+        tsig.push_back(0.2); // log-normal width of the temperature [1]
+    }
+    set_column(t, "planet_mass", mass);
+    set_column(t, "planet_mass_sigma", msig);
+    set_column(t, "planet_radius", radius);
+    set_column(t, "exobase_altitude", alt);
+    set_column(t, "exobase_density", dens);
+    set_column(t, "exobase_temperature", temp);
+    set_column(t, "exobase_temperature_lnsigma", tsig);
+    set_column(t, "inventory", inv);
+    set_column(t, "x_N2", xn2);
+    set_column(t, "x_He", xhe);
+    set_column(t, "x_H", xh);
+    return t;
+}
+
+BatchOptions options(std::size_t threads, std::size_t samples = 0, std::size_t chunk = 4) {
+    BatchOptions o;
+    o.t_start = 10 * Myr;
+    o.t_end = 4.5 * Gyr;
+    o.times = {10 * Myr, 100 * Myr, 1 * Gyr, 4.5 * Gyr};
+    o.threads = threads;
+    o.samples = samples;
+    o.seed = 20261202;
+    o.chunk_size = chunk;
+    return o;
+}
+
+std::vector<BatchChunk> run(const CaseTable& t, const BatchOptions& o,
+                            BatchStatus* status = nullptr) {
+    std::vector<BatchChunk> chunks;
+    BatchHooks hooks;
+    hooks.on_chunk = [&](const BatchChunk& c) { chunks.push_back(c); };
+    const BatchStatus s = run_batch(t, 0, t.rows(), o, hooks);
+    if (status)
+        *status = s;
+    return chunks;
+}
+
+// Bitwise equality with NaN equal to NaN.
+bool same(const std::vector<double>& a, const std::vector<double>& b) {
+    if (a.size() != b.size())
+        return false;
+    for (std::size_t i = 0; i < a.size(); ++i)
+        if (!(a[i] == b[i] || (std::isnan(a[i]) && std::isnan(b[i]))))
+            return false;
+    return true;
+}
+
+std::vector<double> concat(const std::vector<BatchChunk>& chunks,
+                           std::vector<double> BatchChunk::*field) {
+    std::vector<double> out;
+    for (const BatchChunk& c : chunks)
+        out.insert(out.end(), (c.*field).begin(), (c.*field).end());
+    return out;
+}
+
+} // namespace
+
+TEST_CASE("counter-based streams: reproducible, distinct, with the moments of U(0,1) and N(0,1)") {
+    CounterRng a(7, 3, 11), b(7, 3, 11), c(7, 3, 12), d(8, 3, 11);
+    const auto x = a.next_bits();
+    CHECK(x == b.next_bits());
+    CHECK(x != c.next_bits());
+    CHECK(x != d.next_bits());
+    // Worked analytic moments: U(0,1) has mean 1/2 and variance 1/12; N(0,1) has mean 0,
+    // variance 1, and P(|Z| < 1) = erf(1/sqrt 2) = 0.682689... Tolerances are ~5 standard errors
+    // of n = 200000 draws.
+    const int n = 200000;
+    double su = 0, su2 = 0, sz = 0, sz2 = 0, inside = 0;
+    CounterRng r(1, 2, 3);
+    for (int i = 0; i < n; ++i) {
+        const double u = r.uniform();
+        REQUIRE(u >= 0.0);
+        REQUIRE(u < 1.0);
+        su += u;
+        su2 += u * u;
+        const double z = r.normal();
+        sz += z;
+        sz2 += z * z;
+        inside += std::abs(z) < 1.0;
+    }
+    CHECK(su / n == doctest::Approx(0.5).epsilon(5 * 0.2887 / std::sqrt(n) / 0.5));
+    CHECK(su2 / n - (su / n) * (su / n) == doctest::Approx(1.0 / 12).epsilon(0.01));
+    CHECK(std::abs(sz / n) < 5.0 / std::sqrt(n));
+    CHECK(sz2 / n == doctest::Approx(1.0).epsilon(5 * std::sqrt(2.0 / n)));
+    CHECK(inside / n == doctest::Approx(std::erf(1.0 / std::sqrt(2.0))).epsilon(0.005));
+}
+
+TEST_CASE("samples: log-normal median and width, truncated normal stays in range") {
+    CaseTable t = earthlike(1);
+    set_column(t, "planet_mass_sigma", {2.0 * constants::M_earth}); // wide: truncation matters
+    const CaseSpec spec = case_from_table(t, 0);
+    REQUIRE(spec.uncertainties.size() == 2);
+    const double m0 = spec.values.at("planet_mass"), T0 = spec.values.at("exobase_temperature");
+    std::vector<double> lnT;
+    double below = 0;
+    const int n = 20000;
+    for (int k = 0; k < n; ++k) {
+        const CaseSpec s = sample_case(spec, 5, static_cast<std::uint64_t>(k));
+        REQUIRE(s.values.at("planet_mass") > 0.0);
+        lnT.push_back(std::log(s.values.at("exobase_temperature") / T0));
+        below += s.values.at("exobase_temperature") < T0;
+        CHECK(s.values.at("planet_radius") == spec.values.at("planet_radius"));
+    }
+    // Log-normal with median T0 and sigma of ln T = 0.2 (worked analytic: ln T ~ N(ln T0, 0.04)).
+    double mean = 0, var = 0;
+    for (double v : lnT)
+        mean += v / n;
+    for (double v : lnT)
+        var += (v - mean) * (v - mean) / (n - 1);
+    CHECK(std::abs(mean) < 5 * 0.2 / std::sqrt(n));
+    CHECK(std::sqrt(var) == doctest::Approx(0.2).epsilon(0.03));
+    CHECK(below / n == doctest::Approx(0.5).epsilon(0.03));
+    // Same (seed, key, sample): same draw, whatever else was drawn before.
+    CHECK(sample_case(spec, 5, 17).values.at("planet_mass") ==
+          sample_case(spec, 5, 17).values.at("planet_mass"));
+    CHECK(sample_case(spec, 5, 17).values.at("planet_mass") !=
+          sample_case(spec, 6, 17).values.at("planet_mass"));
+    CHECK(m0 > 0.0);
+}
+
+TEST_CASE("case tables: columns and rows are checked with the row and the column named") {
+    CaseTable t = earthlike(3);
+    t.row_labels = {"line 5", "line 6", "line 7"};
+    CHECK_NOTHROW(check_table_columns(t));
+
+    CaseTable unknown = t;
+    set_column(unknown, "planet_mas", {1, 1, 1});
+    CHECK_THROWS_WITH_AS(check_table_columns(unknown),
+                         doctest::Contains("unknown column 'planet_mas' (closest: planet_mass"),
+                         InputError);
+    CaseTable orphan = t;
+    set_column(orphan, "star_mass_sigma", {1, 1, 1});
+    CHECK_THROWS_WITH_AS(check_table_columns(orphan),
+                         doctest::Contains("'star_mass_sigma' has no value column 'star_mass'"),
+                         InputError);
+    CaseTable fixed_sigma = t;
+    set_column(fixed_sigma, "age_end", {1, 1, 1});
+    set_column(fixed_sigma, "age_end_sigma", {1, 1, 1});
+    CHECK_THROWS_WITH_AS(check_table_columns(fixed_sigma),
+                         doctest::Contains("'age_end' cannot be given an uncertainty"), InputError);
+    CaseTable no_radius;
+    no_radius.names = {"a"};
+    no_radius.columns = {{"planet_mass", {1.0}}, {"x_H", {1.0}}};
+    CHECK_THROWS_WITH_AS(check_table_columns(no_radius),
+                         doctest::Contains("no column 'planet_radius'"), InputError);
+    CaseTable species = t;
+    set_column(species, "x_N3", {1, 1, 1});
+    CHECK_THROWS_WITH_AS(check_table_columns(species), doctest::Contains("'x_N3'"), InputError);
+
+    CaseTable bad = t;
+    bad.columns[0].second[1] = -2.0; // planet_mass of the second row
+    CHECK_THROWS_WITH_AS(
+        case_from_table(bad, 1),
+        doctest::Contains("line 6 (case 'case 1'), column 'planet_mass': must be > 0, got -2"),
+        InputError);
+    const auto errors = check_table(bad, options(2));
+    REQUIRE(errors.size() == 3);
+    CHECK(errors[0].empty());
+    CHECK(errors[1].find("line 6") != std::string::npos);
+    CHECK(errors[2].empty());
+
+    CaseTable empty_temp = t;
+    set_column(empty_temp, "exobase_temperature", {1000.0, missing, 900.0});
+    set_column(empty_temp, "exobase_temperature_lnsigma", {missing, missing, missing});
+    const auto e2 = check_table(empty_temp, options(1));
+    CHECK(e2[1].find("line 6 (case 'case 1'), column 'exobase_temperature': no value given") !=
+          std::string::npos);
+
+    // Invalid rows stop the batch before any run, unless reported in their chunks.
+    int chunks = 0;
+    BatchHooks hooks;
+    hooks.on_chunk = [&](const BatchChunk&) { ++chunks; };
+    CHECK_THROWS_WITH_AS(run_batch(bad, 0, 3, options(1), hooks),
+                         doctest::Contains("1 invalid row\n  line 6"), InputError);
+    CHECK(chunks == 0);
+    BatchOptions skip = options(1);
+    skip.skip_invalid = true;
+    BatchStatus st;
+    const auto out = run(bad, skip, &st);
+    CHECK(st.cases_done == 3);
+    CHECK(st.cases_failed == 1);
+    CHECK(out[0].error[1].find("column 'planet_mass'") != std::string::npos);
+    CHECK(std::isnan(out[0].final_retained[1 * 3 + 0]));
+    CHECK(std::isfinite(out[0].final_retained[2 * 3 + 0]));
+
+    // Reported rows name the row and the column whether the row or its model is at fault.
+    CaseTable starless = t;
+    set_column(starless, "semi_major_axis", {missing, constants::au, missing});
+    const auto out2 = run(starless, skip, &st);
+    CHECK(out2[0].error[1] ==
+          "line 6 (case 'case 1'), column 'star_mass': no value given (a semi_major_axis needs "
+          "the star)");
+    CHECK(check_table(starless, options(1))[1] == out2[0].error[1]);
+    BatchOptions fewer = skip;
+    fewer.species = {"N2", "He"};
+    const auto out3 = run(t, fewer, &st);
+    CHECK(st.cases_failed == 3);
+    CHECK(out3[0].error[0].find("species 'H' is not among the batch's species") !=
+          std::string::npos);
+}
+
+TEST_CASE("configs from cases: inventories, temperature histories, spans") {
+    CaseTable t = earthlike(1);
+    // Worked analytic hydrostatic column: N = P 4 pi R^2 / (g m_mean), g = G M / R^2.
+    CaseTable p = t;
+    p.columns.erase(std::find_if(p.columns.begin(), p.columns.end(),
+                                 [](const auto& c) { return c.first == "inventory"; }));
+    set_column(p, "surface_pressure", {1e5});
+    set_column(p, "inventory_H", {3e30});
+    const BatchOptions o = options(1);
+    const EvolutionConfig c = build_config(case_from_table(p, 0), o);
+    const double M = p.columns[0].second[0], R = constants::R_earth;
+    const double m_mean =
+        0.7 * species("N2").mass + 0.25 * species("He").mass + 0.05 * species("H").mass;
+    const double N = 1e5 * 4 * constants::pi * R * R / (constants::G * M / (R * R) * m_mean);
+    REQUIRE(c.species.size() == 3);
+    CHECK(c.initial_inventory[0] == doctest::Approx(0.7 * N).epsilon(1e-14));
+    CHECK(c.initial_inventory[1] == doctest::Approx(0.25 * N).epsilon(1e-14));
+    CHECK(c.initial_inventory[2] == 3e30);
+    CHECK(c.temperature(1 * Gyr, 0.0) == 800.0);
+    CHECK(c.t_start == 10 * Myr);
+    CHECK(c.t_end == 4.5 * Gyr);
+    CHECK(c.t_eval == std::vector<double>{10 * Myr, 100 * Myr, 1 * Gyr, 4.5 * Gyr});
+
+    CaseTable lin = t;
+    set_column(lin, "exobase_temperature_end", {400.0});
+    set_column(lin, "age_end", {2 * Gyr});
+    const EvolutionConfig cl = build_config(case_from_table(lin, 0), o);
+    CHECK(cl.t_end == 2 * Gyr);
+    CHECK(cl.t_eval == std::vector<double>{10 * Myr, 100 * Myr, 1 * Gyr, 2 * Gyr});
+    // Linear from 800 K at 10 Myr to 400 K at 2 Gyr (worked by hand).
+    CHECK(cl.temperature(1005 * Myr, 0.0) == doctest::Approx(600.0).epsilon(1e-12));
+
+    CaseTable xuv = t;
+    xuv.columns.erase(std::find_if(xuv.columns.begin(), xuv.columns.end(), [](const auto& c) {
+        return c.first == "exobase_temperature_lnsigma";
+    }));
+    xuv.columns.erase(std::find_if(xuv.columns.begin(), xuv.columns.end(),
+                                   [](const auto& c) { return c.first == "exobase_temperature"; }));
+    set_column(xuv, "temperature_reference", {1000.0});
+    set_column(xuv, "temperature_reference_flux", {4.6e-3});
+    set_column(xuv, "temperature_exponent", {0.5});
+    set_column(xuv, "temperature_min", {300.0});
+    set_column(xuv, "temperature_max", {5000.0});
+    const CaseSpec no_star = case_from_table(xuv, 0);
+    CHECK_THROWS_AS(build_config(no_star, o).validate(), InputError);
+    set_column(xuv, "semi_major_axis", {constants::au});
+    CHECK_THROWS_WITH_AS(build_config(case_from_table(xuv, 0), o),
+                         doctest::Contains("column 'star_mass': no value given"), InputError);
+    set_column(xuv, "star_mass", {constants::M_sun});
+    set_column(xuv, "star_luminosity", {constants::L_sun});
+    const EvolutionConfig cx = build_config(case_from_table(xuv, 0), o);
+    CHECK_NOTHROW(cx.validate());
+    CHECK(cx.temperature.needs_xuv_flux());
+}
+
+TEST_CASE("batch: exponential loss as in the analytic solution, outputs per case and species") {
+    // Worked analytic solution: constant temperature, densities following the inventory:
+    // N(t) = N0 exp(-Q0 (t - t0) / N0), with Q0 the Jeans escape rate at the start.
+    CaseTable t = earthlike(2);
+    BatchOptions o = options(2);
+    o.rtol = 1e-10;
+    const auto chunks = run(t, o);
+    REQUIRE(chunks.size() == 1);
+    const BatchChunk& c = chunks[0];
+    CHECK(c.species == 3);
+    CHECK(c.times == 4);
+    for (std::size_t k = 0; k < 2; ++k) {
+        CHECK(c.error[k].empty());
+        const double M = t.columns[0].second[k], T = t.columns[5].second[k];
+        const double r = constants::R_earth + 500e3;
+        const double n_He = 0.25 * 1e13, N_He = 0.25 * 1e37;
+        const double Q0 = jeans_escape_rate(n_He, T, species("He").mass, M, r);
+        const double expected = std::exp(-Q0 * (4.5 * Gyr - 10 * Myr) / N_He);
+        CHECK(c.final_retained[k * 3 + 1] == doctest::Approx(expected).epsilon(1e-8));
+        CHECK(c.efolding_time[k * 3 + 1] == doctest::Approx(N_He / Q0).epsilon(1e-12));
+        const double lambda = jeans_parameter(T, species("H").mass, M, r);
+        CHECK(c.jeans_start[k * 3 + 2] == doctest::Approx(lambda).epsilon(1e-12));
+        CHECK(c.jeans_end[k * 3 + 2] == doctest::Approx(lambda).epsilon(1e-12));
+        CHECK(c.regime_start[k * 3 + 2] ==
+              static_cast<int>(classify_regime(lambda, RegimeThresholds{})));
+        CHECK(c.escape_speed[k] == doctest::Approx(std::sqrt(2 * constants::G * M / r)));
+        CHECK(c.retained[(k * 4 + 0) * 3 + 1] ==
+              doctest::Approx(1.0).epsilon(1e-13)); // exp(ln N) / N
+        CHECK(c.retained[(k * 4 + 3) * 3 + 1] == c.final_retained[k * 3 + 1]);
+        CHECK(c.exobase_temperature[k * 4 + 2] == T);
+        CHECK(c.temperature_start[k] == T);
+        CHECK(c.mole_fraction[k * 3 + 1] == 0.25);
+    }
+}
+
+TEST_CASE("batch: same results for any thread count and chunk size, in table order") {
+    const CaseTable t = earthlike(9);
+    const auto one = run(t, options(1, 6, 4));
+    const auto three = run(t, options(3, 6, 2));
+    const auto single = run(t, options(2, 6, 100));
+    REQUIRE(one.size() == 3);
+    REQUIRE(three.size() == 5);
+    REQUIRE(single.size() == 1);
+    std::size_t first = 0;
+    for (const BatchChunk& c : three) {
+        CHECK(c.first == first);
+        first += c.count;
+    }
+    for (auto field :
+         {&BatchChunk::final_retained, &BatchChunk::sample_retained,
+          &BatchChunk::sample_depletion_time, &BatchChunk::retained, &BatchChunk::depletion_time}) {
+        CHECK(same(concat(one, field), concat(three, field)));
+        CHECK(same(concat(one, field), concat(single, field)));
+    }
+    // The samples differ from one another and from the nominal run.
+    const auto s = concat(one, &BatchChunk::sample_retained);
+    const auto nominal = concat(one, &BatchChunk::final_retained);
+    std::size_t partial = 0;
+    for (std::size_t k = 0; k < 9; ++k) {
+        if (!(nominal[k * 3 + 1] > 1e-6 && nominal[k * 3 + 1] < 1 - 1e-6))
+            continue;
+        ++partial; // He partly lost: its samples spread around the nominal figure
+        CHECK(s[(k * 6 + 0) * 3 + 1] != s[(k * 6 + 1) * 3 + 1]);
+        CHECK(s[(k * 6 + 0) * 3 + 1] != nominal[k * 3 + 1]);
+    }
+    CHECK(partial > 0);
+    // Each result equals a single evolve() of the same config.
+    const CaseSpec spec = case_from_table(t, 4);
+    EvolutionConfig cfg = build_config(spec, options(1));
+    const EvolutionResult r = evolve(cfg);
+    CHECK(one[1].final_retained[0 * 3 + 2] ==
+          r.inventory[(r.time_count() - 1) * 3 + 2] / cfg.initial_inventory[2]);
+    EvolutionConfig sampled = build_config(sample_case(spec, 20261202, 3), options(1));
+    const EvolutionResult rs = evolve(sampled);
+    CHECK(one[1].sample_retained[(0 * 6 + 3) * 3 + 2] ==
+          rs.inventory[(rs.time_count() - 1) * 3 + 2] / sampled.initial_inventory[2]);
+}
+
+TEST_CASE("batch: a case that fails numerically is reported; the others complete") {
+    CaseTable t = earthlike(5);
+    std::vector<double> budget(5, missing);
+    budget[2] = 2; // two steps cannot cover 4.5 Gyr
+    set_column(t, "max_steps", budget);
+    BatchStatus st;
+    const auto out = run(t, options(2, 3, 2), &st);
+    CHECK(st.cases_done == 5);
+    CHECK(st.cases_failed == 1);
+    CHECK(st.samples_failed == 3);
+    CHECK(out[1].error[0].find("no progress: max_steps = 2") != std::string::npos);
+    CHECK(out[1].sample_error[0].find("sample 0: no progress") != std::string::npos);
+    CHECK(std::isnan(out[1].final_retained[0]));
+    for (std::size_t k : {0, 1})
+        for (std::size_t j = 0; j < out[k == 0 ? 0 : 2].count; ++j)
+            CHECK(out[k == 0 ? 0 : 2].error[j].empty());
+    CHECK(std::isfinite(out[2].final_retained[0]));
+}
+
+TEST_CASE("batch: cancelling keeps the chunks handed out and stops soon") {
+    const CaseTable t = earthlike(40);
+    std::size_t handed = 0, calls = 0;
+    BatchHooks hooks;
+    hooks.progress_interval_ms = 1;
+    hooks.on_chunk = [&](const BatchChunk& c) { handed += c.count; };
+    hooks.on_progress = [&](std::size_t done, std::size_t total) {
+        ++calls;
+        CHECK(done <= total);
+        return handed < 10;
+    };
+    const BatchStatus st = run_batch(t, 0, t.rows(), options(2, 20, 5), hooks);
+    CHECK(st.cancelled);
+    CHECK(st.cases_done == handed);
+    CHECK(handed >= 10);
+    CHECK(handed < 40);
+    CHECK(calls > 0);
+
+    BatchHooks failing;
+    failing.on_chunk = [](const BatchChunk& c) {
+        if (c.first >= 10)
+            throw FileError("disk full");
+    };
+    CHECK_THROWS_WITH_AS(run_batch(t, 0, t.rows(), options(2, 0, 5), failing), "disk full",
+                         FileError);
+}
+
+TEST_CASE("batch: rows [begin, end) keep their keys, so a resumed sweep draws the same samples") {
+    const CaseTable t = earthlike(6);
+    const auto whole = run(t, options(2, 4, 3));
+    std::vector<BatchChunk> tail;
+    BatchHooks hooks;
+    hooks.on_chunk = [&](const BatchChunk& c) { tail.push_back(c); };
+    run_batch(t, 3, 6, options(1, 4, 3), hooks);
+    REQUIRE(tail.size() == 1);
+    CHECK(tail[0].first == 3);
+    CHECK(tail[0].key == whole[1].key);
+    CHECK(same(tail[0].sample_retained, whole[1].sample_retained));
+    CHECK_THROWS_AS(run_batch(t, 4, 7, options(1), hooks), InputError);
+}
