@@ -402,3 +402,49 @@ def exobase_history(result: Any, ax: Any = None) -> Any:
         right.loglog(t, xuv, color="C0", linestyle="--", label="XUV flux")
         right.set_ylabel("XUV flux at the planet [W m$^{-2}$]", color="C0")
     return ax
+
+
+def retention_intervals(comparison: Any, gas: str, ax: Any = None) -> Any:
+    """Monte Carlo uncertainty of the retained fraction of one species in every case.
+
+    For each case a bar spans the 5th to 95th percentile of the retained fraction at the end
+    over the samples [1] (log scale), with a dot at the median and a cross at the nominal run.
+
+    Parameters
+    ----------
+    comparison : Comparison
+        From :func:`exosieve.compare` with ``samples > 0``.
+    gas : str
+        Species name.
+    ax : matplotlib Axes, optional
+        Where to draw.
+    """
+    if not comparison.samples:
+        raise ValueError("retention_intervals needs a comparison run with samples > 0")
+    if gas not in comparison.species:
+        raise ValueError(f"gas {gas!r} is not in the comparison (have {comparison.species})")
+    ax = _axes(ax)
+    j = comparison.species.index(gas)
+    names = [str(n) for n in comparison["case_name"]]
+    samples = np.asarray(comparison["sample_retained_fraction"], dtype=float)[:, :, j]
+    nominal = np.asarray(comparison["final_retained_fraction"], dtype=float)[:, j]
+    floor = 1e-30  # retained fractions below this are drawn at the axis floor
+    y = np.arange(len(names))
+    present = ~np.all(np.isnan(samples), axis=1)
+    low, mid, high = (
+        np.clip(np.nanpercentile(samples[present], q, axis=1), floor, None)
+        for q in (5.0, 50.0, 95.0)
+    )
+    ax.hlines(
+        y[present], low, high, color="C0", linewidth=4, alpha=0.5, label="5th to 95th percentile"
+    )
+    ax.plot(mid, y[present], "o", color="C0", label="median")
+    ax.plot(np.clip(nominal[present], floor, None), y[present], "x", color="k", label="nominal run")
+    ax.set_xscale("log")
+    ax.set_xlim(floor / 3, 3.0)
+    ax.set_yticks(y, names)
+    ax.invert_yaxis()
+    ax.set_xlabel(f"retained fraction of {gas} at the end [1]")
+    ax.set_title(f"{gas}: Monte Carlo spread over {comparison.samples} samples per case")
+    ax.legend(fontsize="small", loc="lower left")
+    return ax
