@@ -13,7 +13,7 @@ from typing import Any
 def _demo(args: argparse.Namespace) -> int:
     from .demo import run_demo
 
-    run_demo(args.output)
+    run_demo(args.output, None if args.no_chart else args.chart, args.samples, args.seed)
     return 0
 
 
@@ -400,14 +400,32 @@ def build_parser() -> argparse.ArgumentParser:
     demo = commands.add_parser(
         "demo",
         help="run the demo on the invented planet catalogue",
-        description="Jeans parameters, fluxes [m^-2 s^-1] and escape rates [s^-1] for every "
-        "species of the invented demo catalogue, printed and written to HDF5.",
+        description="Print the present-day Jeans parameters [1], fluxes [m^-2 s^-1] and escape "
+        "rates [s^-1] of every species of the invented demo catalogue, evolve every case over "
+        "its star's life with Monte Carlo samples over the stated uncertainties, write the "
+        "comparison to HDF5 and the retention chart to PNG, and print the probability of "
+        "keeping each gas.",
     )
     demo.add_argument(
         "--output",
         "-o",
         default="exosieve-demo.h5",
-        help="HDF5 file to write (default: %(default)s)",
+        help="HDF5 result file to write (default: %(default)s)",
+    )
+    demo.add_argument(
+        "--chart",
+        default="exosieve-demo.png",
+        help="PNG retention chart to write (default: %(default)s)",
+    )
+    demo.add_argument("--no-chart", action="store_true", help="do not draw the chart")
+    demo.add_argument(
+        "--samples",
+        type=int,
+        default=100,
+        help="Monte Carlo samples per case [1] (default: %(default)s; 0: nominal runs only)",
+    )
+    demo.add_argument(
+        "--seed", type=int, default=0, help="seed of the Monte Carlo draws (default: %(default)s)"
     )
     demo.set_defaults(run=_demo)
     return parser

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -82,55 +83,53 @@ def format_snapshot(result: SnapshotTable) -> str:
     return "\n".join(lines)
 
 
-def write_snapshot(result: SnapshotTable, path: str | Path) -> Path:
-    """Write ``result`` to HDF5: dimensions ``case`` (appendable, as in sweep files) and
-    ``species``; the case labels are the variable ``case_name``."""
-    from .results import ResultAppender, ResultWriter  # C++ writer: atomic, scales, units
+def run_demo(
+    output: str | Path = "exosieve-demo.h5",
+    chart: str | Path | None = "exosieve-demo.png",
+    samples: int = 100,
+    seed: int = 0,
+) -> Any:
+    """The demo on the invented catalogue ``data/demo_planets.csv``.
 
-    path = Path(path)
-    schema = ResultWriter(path, {"kind": "snapshot", "catalogue": result.source})
-    schema.add_coordinate("species", result.species, long_name="species")
-    variables = [
-        ("case_name", str, [], "1", "planet case", np.array(result.cases, dtype=object)),
-        (
-            "exobase_radius",
-            float,
-            [],
-            "m",
-            "exobase radius from the planet's centre",
-            result.exobase_radius,
-        ),
-        ("exobase_temperature", float, [], "K", "exobase temperature", result.exobase_temperature),
-        (
-            "density",
-            float,
-            ["species"],
-            "m-3",
-            "number density at the exobase (NaN: species absent)",
-            result.density,
-        ),
-        (
-            "jeans_parameter",
-            float,
-            ["species"],
-            "1",
-            "Jeans parameter at the exobase",
-            result.jeans_parameter,
-        ),
-        ("jeans_flux", float, ["species"], "m-2 s-1", "Jeans escape flux", result.jeans_flux),
-        ("escape_rate", float, ["species"], "s-1", "global Jeans escape rate", result.escape_rate),
-    ]
-    for name, dtype, dims, units, long_name, _ in variables:
-        schema.add_case_variable(name, dtype, dims, units=units, long_name=long_name)
-    with ResultAppender(schema) as out:
-        out.append({name: values for name, *_, values in variables})
-    return path
+    Prints the present-day Jeans parameters and fluxes of every species, evolves every case over
+    its star's life with ``samples`` Monte Carlo draws over the stated uncertainties, writes the
+    comparison to ``output`` (HDF5), draws the retention chart to ``chart`` (PNG, if matplotlib
+    is installed) and prints the probability that each planet keeps each gas.
 
+    Returns the :class:`exosieve.Comparison`.
+    """
+    from .batch import compare
 
-def run_demo(output: str | Path = "exosieve-demo.h5") -> SnapshotTable:
-    """Run the demo on the invented catalogue, print the table and write ``output``."""
-    result = snapshot(read_case_table(demo_catalogue_path()))
-    print(format_snapshot(result))
-    path = write_snapshot(result, output)
-    print(f"\nwrote {path.resolve()}")
+    catalogue = demo_catalogue_path()
+    print("Present-day exobases of the invented demo catalogue\n")
+    print(format_snapshot(snapshot(read_case_table(catalogue))))
+    print(
+        f"\nEvolving {catalogue.name} over each star's life, {samples} Monte Carlo samples "
+        "per case ..."
+    )
+    result = compare(
+        catalogue, samples=samples, seed=seed, output=output, overwrite=True, progress=True
+    )
+    table = result.summary.pivot(
+        index="case", columns="species", values="probability_retained" if samples else "retained"
+    )
+    names = list(dict.fromkeys(result.summary["case"]))
+    print("\nProbability of keeping more than half of each gas [1] (blank: gas absent)\n")
+    print(table.loc[names, result.species].to_string(float_format=lambda v: f"{v:.2f}", na_rep=""))
+    print(f"\nwrote {Path(output).resolve()}")
+    if chart is not None:
+        try:
+            import matplotlib
+        except ImportError:
+            print("matplotlib is not installed: no chart drawn")
+            return result
+        matplotlib.use("Agg")
+        import matplotlib.pyplot as plt
+
+        from .plot import retention_chart
+
+        fig = retention_chart(result)
+        fig.savefig(chart, dpi=110)
+        plt.close(fig)
+        print(f"wrote {Path(chart).resolve()}")
     return result

@@ -13,31 +13,45 @@ import exosieve
 from exosieve.batch import open_comparison
 from exosieve.catalogue import demo_catalogue_path, read_case_table
 from exosieve.cli import main
+from exosieve.demo import snapshot
 
 xr = pytest.importorskip("xarray")
 pd = pytest.importorskip("pandas")
 
 
-def test_demo_writes_table_and_file(tmp_path, capsys):
-    out = tmp_path / "demo.h5"
-    assert main(["demo", "--output", str(out)]) == 0
+def test_demo_writes_table_file_and_chart(tmp_path, capsys):
+    out, chart = tmp_path / "demo.h5", tmp_path / "demo.png"
+    argv = ["demo", "--output", str(out), "--chart", str(chart), "--samples", "10"]
+    assert main(argv) == 0
     printed = capsys.readouterr().out
-    assert "Sefir b" in printed and "lambda [1]" in printed and str(out.resolve()) in printed
+    assert "Sefir b" in printed and "lambda [1]" in printed
+    assert str(out.resolve()) in printed and str(chart.resolve()) in printed
+    assert chart.stat().st_size > 10_000
     table = read_case_table(demo_catalogue_path())
     with xr.open_dataset(out, engine="h5netcdf") as ds:
         assert list(ds.case_name.values) == table.names
+        assert ds.sizes["sample"] == 10
         for name in ds.data_vars:
-            assert ds[name].attrs["units"] and ds[name].attrs["long_name"], name
-        # Same numbers as a direct call for one case and species (Sefir b, He).
-        row = table.names.index("Sefir b")
-        n = table.column("exobase_density")[row] * table.column("x_He")[row]
-        r = table.column("planet_radius")[row] + table.column("exobase_altitude")[row]
-        expected = exosieve.jeans_flux(
-            n, table.column("exobase_temperature")[row], "He", table.column("planet_mass")[row], r
-        )
-        assert ds.jeans_flux.isel(case=row).sel(species="He").item() == pytest.approx(expected)
-        # Absent species are NaN, not zero.
-        assert np.isnan(ds.jeans_flux.isel(case=row).sel(species="H2").item())
+            assert "units" in ds[name].attrs and ds[name].attrs["long_name"], name
+        fraction = ds.final_retained_fraction.values
+        present = ds.mole_fraction.values > 0
+        # Retained fractions lie in [0, 1] up to the integration tolerance.
+        assert np.all((fraction[present] >= 0) & (fraction[present] <= 1 + 1e-9))
+
+
+def test_demo_snapshot_matches_direct_calls():
+    # The printed table's numbers are the kernel's: Sefir b, helium.
+    result = snapshot(read_case_table(demo_catalogue_path()))
+    table = read_case_table(demo_catalogue_path())
+    row = table.names.index("Sefir b")
+    n = table.column("exobase_density")[row] * table.column("x_He")[row]
+    r = table.column("planet_radius")[row] + table.column("exobase_altitude")[row]
+    expected = exosieve.jeans_flux(
+        n, table.column("exobase_temperature")[row], "He", table.column("planet_mass")[row], r
+    )
+    assert result.jeans_flux[row, result.species.index("He")] == pytest.approx(expected)
+    # Absent species are NaN, not zero.
+    assert np.isnan(result.jeans_flux[row, result.species.index("H2")])
 
 
 def test_bad_case_table_names_line_and_column(tmp_path):
