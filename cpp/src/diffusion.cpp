@@ -16,9 +16,6 @@ using constants::pi;
 
 namespace {
 
-using detail::parse_number;
-using detail::split_csv_line;
-
 std::pair<std::string, std::string> key(const std::string& a, const std::string& b) {
     return a < b ? std::make_pair(a, b) : std::make_pair(b, a);
 }
@@ -89,44 +86,15 @@ DiffusionPairTable DiffusionPairTable::from_csv(const std::string& csv_text,
     static const std::vector<std::string> required = {"species_a", "species_b", "A_per_m_per_s",
                                                       "s", "source"};
     DiffusionPairTable table;
-    std::istringstream in(csv_text);
-    std::string line;
-    std::vector<std::string> header;
-    std::size_t line_number = 0;
-    while (std::getline(in, line)) {
-        ++line_number;
-        if (line.empty() || line[0] == '#' || line.find_first_not_of(" \t\r") == std::string::npos)
-            continue;
-        const auto fields = split_csv_line(line);
-        if (header.empty()) {
-            header = fields;
-            for (const auto& column : required)
-                if (std::find(header.begin(), header.end(), column) == header.end())
-                    throw InputError(origin + ": missing column '" + column + "'");
-            continue;
-        }
-        const std::string where = origin + " line " + std::to_string(line_number);
-        if (fields.size() != header.size())
-            throw InputError(where + ": " + std::to_string(fields.size()) + " fields, header has " +
-                             std::to_string(header.size()));
-        auto field = [&](const std::string& column) -> const std::string& {
-            const auto at = std::find(header.begin(), header.end(), column) - header.begin();
-            return fields[static_cast<std::size_t>(at)];
-        };
+    detail::for_each_csv_row(csv_text, origin, required, [&](const detail::CsvRow& row) {
         DiffusionPair pair;
-        pair.species_a = field("species_a");
-        pair.species_b = field("species_b");
-        pair.coefficient = parse_number(field("A_per_m_per_s"), where + " column A_per_m_per_s");
-        pair.exponent = parse_number(field("s"), where + " column s");
-        pair.source = field("source");
-        try {
-            table.add(pair);
-        } catch (const InputError& e) {
-            throw InputError(where + ": " + e.what());
-        }
-    }
-    if (header.empty())
-        throw InputError(origin + ": no header line");
+        pair.species_a = row.field("species_a");
+        pair.species_b = row.field("species_b");
+        pair.coefficient = row.number("A_per_m_per_s");
+        pair.exponent = row.number("s");
+        pair.source = row.field("source");
+        table.add(pair);
+    });
     return table;
 }
 

@@ -28,9 +28,6 @@ void validate(const Species& s) {
 
 namespace {
 
-using detail::parse_number;
-using detail::split_csv_line;
-
 std::size_t edit_distance(const std::string& a, const std::string& b) {
     std::vector<std::size_t> row(b.size() + 1);
     for (std::size_t j = 0; j <= b.size(); ++j)
@@ -62,51 +59,19 @@ SpeciesRegistry SpeciesRegistry::from_csv(const std::string& csv_text, const std
                                                       "cross_section_source",
                                                       "thermal_diffusion_factor"};
     SpeciesRegistry registry;
-    std::istringstream in(csv_text);
-    std::string line;
-    std::vector<std::string> header;
-    std::size_t line_number = 0;
-    while (std::getline(in, line)) {
-        ++line_number;
-        if (line.empty() || line[0] == '#' || line.find_first_not_of(" \t\r") == std::string::npos)
-            continue;
-        auto fields = split_csv_line(line);
-        if (header.empty()) {
-            header = fields;
-            for (const auto& column : required)
-                if (std::find(header.begin(), header.end(), column) == header.end())
-                    throw InputError(origin + ": missing column '" + column + "'");
-            continue;
-        }
-        const std::string where = origin + " line " + std::to_string(line_number);
-        if (fields.size() != header.size())
-            throw InputError(where + ": " + std::to_string(fields.size()) + " fields, header has " +
-                             std::to_string(header.size()));
-        auto field = [&](const std::string& column) -> const std::string& {
-            const auto at = std::find(header.begin(), header.end(), column) - header.begin();
-            return fields[static_cast<std::size_t>(at)];
-        };
-        auto number = [&](const std::string& column) {
-            return parse_number(field(column), where + " column " + column);
-        };
+    detail::for_each_csv_row(csv_text, origin, required, [&](const detail::CsvRow& row) {
         Species s;
-        s.name = field("name");
-        s.mass = number("mass_u") * constants::amu;
-        s.mass_source = field("mass_source");
-        s.lj_diameter = number("lj_diameter_angstrom") * 1e-10;
-        s.lj_well_depth = number("lj_well_depth_K");
-        s.lj_source = field("lj_source");
-        s.cross_section = number("cross_section_m2");
-        s.cross_section_source = field("cross_section_source");
-        s.thermal_diffusion_factor = number("thermal_diffusion_factor");
-        try {
-            registry.add(s);
-        } catch (const InputError& e) {
-            throw InputError(where + ": " + e.what());
-        }
-    }
-    if (header.empty())
-        throw InputError(origin + ": no header line");
+        s.name = row.field("name");
+        s.mass = row.number("mass_u") * constants::amu;
+        s.mass_source = row.field("mass_source");
+        s.lj_diameter = row.number("lj_diameter_angstrom") * 1e-10;
+        s.lj_well_depth = row.number("lj_well_depth_K");
+        s.lj_source = row.field("lj_source");
+        s.cross_section = row.number("cross_section_m2");
+        s.cross_section_source = row.field("cross_section_source");
+        s.thermal_diffusion_factor = row.number("thermal_diffusion_factor");
+        registry.add(s);
+    });
     return registry;
 }
 
