@@ -380,7 +380,7 @@ TEST_CASE("batch: same results for any thread count and chunk size, in table ord
           rs.inventory[(rs.time_count() - 1) * 3 + 2] / sampled.initial_inventory[2]);
 }
 
-TEST_CASE("batch: a case that fails numerically is reported; the others complete") {
+TEST_CASE("batch: a case that fails numerically is reported and the others complete") {
     CaseTable t = earthlike(5);
     std::vector<double> budget(5, missing);
     budget[2] = 2; // two steps cannot cover 4.5 Gyr
@@ -426,7 +426,7 @@ TEST_CASE("batch: cancelling keeps the chunks handed out and stops soon") {
                          FileError);
 }
 
-TEST_CASE("batch: rows [begin, end) keep their keys, so a resumed sweep draws the same samples") {
+TEST_CASE("batch: a block of rows keeps its keys, so a resumed sweep draws the same samples") {
     const CaseTable t = earthlike(6);
     const auto whole = run(t, options(2, 4, 3));
     std::vector<BatchChunk> tail;

@@ -360,7 +360,7 @@ TEST_CASE("a run that cannot progress says where and why") {
     CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("max_steps = 3"), NumericalError);
 }
 
-TEST_CASE("the progress hook can stop a run; results so far are kept") {
+TEST_CASE("the progress hook can stop a run and the results so far are kept") {
     auto c = prescribed({"H"}, {1e11}, {1e35}, DensityScaling::Inventory, 1000.0);
     c.temperature = ExobaseTemperature::table({0.0, 1 * Gyr}, {800.0, 1500.0});
     c.t_end = 1 * Gyr;

@@ -325,7 +325,7 @@ TEST_CASE("escape fluxes: Jeans at the exobase, and the coupled diffusion-Jeans 
     CHECK(std::isnan(pure.diffusion_limited_flux(0)));
 }
 
-TEST_CASE("copies share the cache; concurrent first use is safe") {
+TEST_CASE("copies share the cache and concurrent first use is safe") {
     const Thermosphere t = earth_like();
     std::vector<double> radii(4);
     std::vector<std::thread> pool;
