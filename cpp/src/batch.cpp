@@ -445,6 +445,7 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
         planet.emplace(mass, radius);
     }
     EvolutionConfig c(*planet);
+    c.record_config = false; // the sweep file records the table and options instead
     const std::size_t n = s.species.size();
     std::vector<std::string> names;
     std::vector<double> x(n);

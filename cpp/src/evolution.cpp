@@ -771,7 +771,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     r.initial_inventory = c.initial_inventory;
     for (const Species& s : c.species)
         r.species_mass.push_back(s.mass);
-    r.config = c.to_json();
+    if (c.record_config)
+        r.config = c.to_json();
     Recorder recorder(r, n, ratios);
 
     // Tolerances in logs, and the depletion level of each species.

@@ -85,6 +85,9 @@ struct EvolutionConfig {
     StepperKind stepper = StepperKind::Auto; //!< the Odeint stepper
     //! Isotope ratios to report, (numerator, denominator) species names.
     std::vector<std::pair<std::string, std::string>> isotope_ratios;
+    //! Put the model's JSON into EvolutionResult::config (batches that keep no per-run
+    //! configuration switch it off: formatting it costs about as much as a short run).
+    bool record_config = true;
     //! Called after every accepted step with the time [s]; returning false stops the run.
     std::function<bool(double)> progress;
 
