@@ -34,7 +34,6 @@ namespace {
 
 constexpr double inf = std::numeric_limits<double>::infinity();
 constexpr double nan = std::numeric_limits<double>::quiet_NaN();
-constexpr double log_inv_two_sqrt_pi = -1.2655121234846454; // ln(1 / (2 sqrt(pi)))
 
 std::string when(double t) {
     return format_value(t) + " s (" + format_value(t / constants::Myr) + " Myr)";
@@ -260,13 +259,10 @@ class Model {
             if (state_.has_escape_rates) {
                 log_rate_[i] = state_.log_escape_rate[i];
             } else {
-                // ln(4 pi r^2 n v0/(2 sqrt(pi)) (1 + lambda) e^-lambda f_tail(lambda))
+                // ln(4 pi r^2 Phi_J), with ln v0 from per-step and per-species halves.
                 const double log_v0 = half_log_2kT - half_log_mass_[i];
-                double lr = log_area + state_.log_density[i] + log_v0 + log_inv_two_sqrt_pi +
-                            std::log1p(lambda) - lambda;
-                if (!c_.tail.is_identity())
-                    lr += std::log(c_.tail(lambda));
-                log_rate_[i] = lr;
+                log_rate_[i] = log_area + log_jeans_flux_unchecked(state_.log_density[i], log_v0,
+                                                                   lambda, c_.tail);
             }
             if (state_.log_density[i] > state_.log_density[densest])
                 densest = i;

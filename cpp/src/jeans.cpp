@@ -190,13 +190,21 @@ double jeans_flux(double density, double temperature, double mass, double planet
     return jeans_flux_unchecked(density, v0, lambda, tail);
 }
 
+double log_jeans_flux_unchecked(double log_density, double log_v0, double lambda,
+                                const TailDepletion& tail) {
+    constexpr double log_inv_two_sqrt_pi = -1.2655121234846454; // ln(1 / (2 sqrt(pi)))
+    double log_flux = log_density + log_v0 + log_inv_two_sqrt_pi + std::log1p(lambda) - lambda;
+    if (!tail.is_identity())
+        log_flux += std::log(tail(lambda));
+    return log_flux;
+}
+
 double log_jeans_flux(double density, double temperature, double mass, double planet_mass,
                       double radius, const TailDepletion& tail) {
     check_flux_args(density, temperature, mass, planet_mass, radius);
     const double lambda = G * planet_mass * mass / (k_B * temperature * radius);
-    const double v0 = std::sqrt(2.0 * k_B * temperature / mass);
-    return std::log(density * v0 * inv_two_sqrt_pi) + std::log1p(lambda) - lambda +
-           std::log(tail(lambda));
+    const double log_v0 = 0.5 * std::log(2.0 * k_B * temperature / mass);
+    return log_jeans_flux_unchecked(std::log(density), log_v0, lambda, tail);
 }
 
 double jeans_energy_flux(double density, double temperature, double mass, double planet_mass,
@@ -262,9 +270,8 @@ void log_jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, Array
     parallel_for(count, [&](std::size_t begin, std::size_t end) {
         for (std::size_t i = begin; i < end; ++i) {
             const double lambda = G * planet_mass[i] * mass[i] / (k_B * temperature[i] * radius[i]);
-            const double v0 = std::sqrt(2.0 * k_B * temperature[i] / mass[i]);
-            out[i] = std::log(density[i] * v0 * inv_two_sqrt_pi) + std::log1p(lambda) - lambda +
-                     std::log(tail(lambda));
+            const double log_v0 = 0.5 * std::log(2.0 * k_B * temperature[i] / mass[i]);
+            out[i] = log_jeans_flux_unchecked(std::log(density[i]), log_v0, lambda, tail);
         }
     });
 }

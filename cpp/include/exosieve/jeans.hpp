@@ -66,6 +66,10 @@ double jeans_effusion_velocity(double temperature, double mass, double planet_ma
 //! Jeans flux from an already validated Jeans parameter and most probable speed (no checks):
 //! the inner kernel for models that loop over many evaluations.
 double jeans_flux_unchecked(double density, double v0, double lambda, const TailDepletion& tail);
+//! Natural log of the Jeans flux (ln of m^-2 s^-1) from ln n [ln m^-3], ln v0 [ln m s^-1] and
+//! lambda (no checks): finite wherever the flux itself underflows.
+double log_jeans_flux_unchecked(double log_density, double log_v0, double lambda,
+                                const TailDepletion& tail);
 
 //! Array forms: each argument has length 1 or `count`; results go to `out` (length `count`).
 void escape_speed(ArrayArg planet_mass, ArrayArg radius, double* out, std::size_t count);
