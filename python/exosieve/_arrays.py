@@ -6,7 +6,7 @@ from collections.abc import Callable
 from typing import Any
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
+from numpy.typing import NDArray
 
 from . import _core
 
@@ -66,8 +66,3 @@ def apply(
     flat = [flat_for_kernel(a, shape) for a in arrays]
     result = kernel(count, *flat, *extra).reshape(shape)
     return float(result) if shape == () else result
-
-
-def array_like(value: ArrayLike) -> NDArray[np.float64]:
-    """Float64 array of ``value`` (no unit handling)."""
-    return np.asarray(value, dtype=np.float64)

@@ -132,10 +132,6 @@ class CaseTable:
             raise ValueError(f"{self.source}: no column '{name}' (have {sorted(self.columns)})")
         return self.columns[name]
 
-    def mole_fractions(self, row: int) -> dict[str, float]:
-        """Non-zero mole fractions of case ``row`` [1]."""
-        return {s: self.columns[f"x_{s}"][row] for s in self.species if self.columns[f"x_{s}"][row]}
-
     def fingerprint(self) -> str:
         """SHA-256 of the table's content in SI (names, columns and text), for resuming runs."""
         digest = hashlib.sha256()

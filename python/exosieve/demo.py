@@ -10,7 +10,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .catalogue import CaseTable, demo_catalogue_path, read_case_table
-from .jeans import jeans_escape_rate, jeans_flux, jeans_parameter
+from .jeans import jeans_flux, jeans_parameter
 from .species import species
 
 
@@ -41,11 +41,10 @@ def snapshot(table: CaseTable) -> SnapshotTable:
     x = np.array([table.column(f"x_{s}") for s in table.species]).T  # (case, species)
     mass = np.array([species(s).mass for s in table.species])
     density = x * n_total[:, None]
-    shape = (radius[:, None], temperature[:, None], mass[None, :], planet_mass[:, None])
-    r, t, m, mp = shape
+    r, t, m, mp = radius[:, None], temperature[:, None], mass[None, :], planet_mass[:, None]
     lam = jeans_parameter(t, m, mp, r)
     flux = jeans_flux(density, t, m, mp, r)
-    rate = jeans_escape_rate(density, t, m, mp, r)
+    rate = 4.0 * np.pi * r**2 * flux  # global rate [s^-1] from the flux just computed
     absent = x == 0.0
     for a in (density, flux, rate):
         a[absent] = np.nan
