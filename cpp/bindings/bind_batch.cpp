@@ -162,7 +162,7 @@ void bind_batch(py::module_& m) {
             const CaseSpec s = case_from_table(t, row);
             const CaseSpec d =
                 sample < 0 ? s : sample_case(s, seed, static_cast<std::uint64_t>(sample));
-            return d.values;
+            return d.named_values();
         },
         py::arg("table"), py::arg("row"), py::arg("seed") = 0, py::arg("sample") = -1,
         "Parameters [SI] of a row, or of its Monte Carlo sample `sample` under `seed`.");

@@ -113,22 +113,6 @@ const CaseParameter& species_inventory_parameter() {
     throw InputError("column '" + column + "': " + what);
 }
 
-double required(const CaseSpec& s, const std::string& name, const std::string& why = "") {
-    const auto it = s.values.find(name);
-    if (it == s.values.end())
-        bad_value(name, "no value given" + (why.empty() ? std::string() : " (" + why + ")"));
-    return it->second;
-}
-
-double optional(const CaseSpec& s, const std::string& name, double fallback) {
-    const auto it = s.values.find(name);
-    return it == s.values.end() ? fallback : it->second;
-}
-
-bool has(const CaseSpec& s, const std::string& name) {
-    return s.values.count(name) != 0;
-}
-
 } // namespace
 
 // --- random numbers ---------------------------------------------------------------------------
@@ -338,76 +322,242 @@ void check_table_columns(const CaseTable& table) {
     }
 }
 
-CaseSpec case_from_table(const CaseTable& table, std::size_t row) {
-    if (row >= table.rows())
-        throw InputError("case table: row " + std::to_string(row) + " is past the last row (" +
-                         std::to_string(table.rows()) + " rows)");
+// --- cases ------------------------------------------------------------------------------------
+
+namespace {
+
+constexpr std::size_t none = std::numeric_limits<std::size_t>::max();
+
+// Slot of a parameter in CaseSpec::values (its index in case_parameters()).
+std::size_t slot_of(const char* name) {
+    const auto& params = case_parameters();
+    for (std::size_t k = 0; k < params.size(); ++k)
+        if (params[k].name == name)
+            return k;
+    throw std::logic_error(std::string("no case parameter '") + name + "'");
+}
+
+// Slots of the parameters build_config() reads, looked up once.
+struct Slots {
+    std::size_t planet_mass = slot_of("planet_mass"), planet_radius = slot_of("planet_radius"),
+                exobase_altitude = slot_of("exobase_altitude"),
+                exobase_density = slot_of("exobase_density"),
+                exobase_temperature = slot_of("exobase_temperature"),
+                exobase_temperature_end = slot_of("exobase_temperature_end"),
+                temperature_reference = slot_of("temperature_reference"),
+                temperature_reference_flux = slot_of("temperature_reference_flux"),
+                temperature_exponent = slot_of("temperature_exponent"),
+                temperature_min = slot_of("temperature_min"),
+                temperature_max = slot_of("temperature_max"),
+                semi_major_axis = slot_of("semi_major_axis"), star_mass = slot_of("star_mass"),
+                star_luminosity = slot_of("star_luminosity"),
+                xuv_saturation_ratio = slot_of("xuv_saturation_ratio"),
+                xuv_saturation_time = slot_of("xuv_saturation_time"),
+                xuv_decay_index = slot_of("xuv_decay_index"),
+                heating_efficiency = slot_of("heating_efficiency"),
+                inventory = slot_of("inventory"), surface_pressure = slot_of("surface_pressure"),
+                age_start = slot_of("age_start"), age_end = slot_of("age_end"),
+                star_age = slot_of("star_age"), rtol = slot_of("rtol"),
+                max_steps = slot_of("max_steps");
+};
+
+const Slots& slots() {
+    static const Slots s;
+    return s;
+}
+
+// What a numeric column of a table holds, worked out once per table instead of once per row.
+struct ColumnRole {
+    const CaseParameter* parameter = nullptr; // range of the value (or of the value uncertain)
+    std::size_t global = none;                // slot of a case parameter, or none
+    std::size_t species = none;               // table species of an x_ / inventory_ column
+    bool inventory = false;                   // inventory_<species> (else x_<species>)
+    bool sigma = false, lnsigma = false;      // an uncertainty column
+    std::string base;                         // the uncertain parameter's name
+    std::size_t value_column = none;          // an uncertainty's value column
+};
+
+// The columns of a table read for its rows.
+struct TablePlan {
+    std::vector<ColumnRole> roles;       // per numeric column
+    std::vector<Species> species;        // table species (x_ columns), numbers only
+    std::vector<std::size_t> x_column;   // per table species: its x_ column
+    std::size_t density_scaling = none;  // text column, or none
+    std::vector<std::size_t> present;    // scratch: table species of the case
+    std::vector<std::size_t> case_index; // scratch: table species -> case species, or none
+};
+
+TablePlan plan_table(const CaseTable& table) {
+    TablePlan plan;
+    const auto& params = case_parameters();
+    std::vector<std::string> species_names;
+    auto species_index = [&](const std::string& name) {
+        for (std::size_t k = 0; k < species_names.size(); ++k)
+            if (species_names[k] == name)
+                return k;
+        return none;
+    };
+    for (const auto& [name, values] : table.columns)
+        if (starts_with(name, "x_") && !ends_with(name, "_sigma") && !ends_with(name, "_lnsigma")) {
+            species_names.push_back(name.substr(2));
+            // The numbers only: the source texts would be copied with every run.
+            Species sp = default_registry().get(species_names.back());
+            sp.mass_source.clear();
+            sp.lj_source.clear();
+            sp.cross_section_source.clear();
+            plan.species.push_back(std::move(sp));
+        }
+    plan.x_column.assign(species_names.size(), none);
+    for (std::size_t c = 0; c < table.columns.size(); ++c) {
+        const std::string& name = table.columns[c].first;
+        ColumnRole role;
+        role.lnsigma = ends_with(name, "_lnsigma");
+        role.sigma = !role.lnsigma && ends_with(name, "_sigma");
+        role.base = role.sigma     ? name.substr(0, name.size() - 6)
+                    : role.lnsigma ? name.substr(0, name.size() - 8)
+                                   : name;
+        role.parameter = find_case_parameter(role.base);
+        for (std::size_t k = 0; k < params.size(); ++k)
+            if (params[k].name == role.base)
+                role.global = k;
+        if (role.global == none && role.parameter) {
+            role.inventory = starts_with(role.base, "inventory_");
+            role.species = species_index(role.base.substr(role.inventory ? 10 : 2));
+            if (!role.inventory && !role.sigma && !role.lnsigma)
+                plan.x_column[role.species] = c;
+        }
+        plan.roles.push_back(std::move(role));
+    }
+    for (ColumnRole& role : plan.roles)
+        if (role.sigma || role.lnsigma)
+            for (std::size_t b = 0; b < table.columns.size(); ++b)
+                if (table.columns[b].first == role.base)
+                    role.value_column = b;
+    for (std::size_t c = 0; c < table.text.size(); ++c)
+        if (table.text[c].first == "density_scaling")
+            plan.density_scaling = c;
+    return plan;
+}
+
+// Row `row` of `table` as a case; InputError naming the row and the column for a bad value.
+CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
+    const std::size_t P = case_parameters().size(), S = plan.species.size();
     CaseSpec s;
     s.name = table.names[row];
-    s.label = table.row_label(row);
     s.key = table.first_key + row;
-    const std::string where = s.label + " (case '" + s.name + "')";
     try {
-        for (const auto& [name, values] : table.columns) {
-            const double v = values[row];
-            const bool lnsigma = ends_with(name, "_lnsigma");
-            const bool sigma = !lnsigma && ends_with(name, "_sigma");
-            if (sigma || lnsigma) {
-                if (std::isnan(v))
-                    continue;
+        // Species present: mole fraction > 0, in table order.
+        plan.present.clear();
+        plan.case_index.assign(S, none);
+        for (std::size_t k = 0; k < S; ++k) {
+            const double x = table.columns[plan.x_column[k]].second[row];
+            if (x > 0.0) {
+                plan.case_index[k] = plan.present.size();
+                plan.present.push_back(k);
+            }
+        }
+        const std::size_t n = plan.present.size();
+        s.values.assign(P + 2 * n, nan);
+        auto slot = [&](const ColumnRole& r) {
+            if (r.global != none)
+                return r.global;
+            const std::size_t i = plan.case_index[r.species];
+            return i == none ? none : P + (r.inventory ? n : 0) + i;
+        };
+        for (std::size_t c = 0; c < plan.roles.size(); ++c) {
+            const ColumnRole& r = plan.roles[c];
+            const std::string& name = table.columns[c].first;
+            const double v = table.columns[c].second[row];
+            if (std::isnan(v))
+                continue;
+            if (r.sigma || r.lnsigma) {
                 if (!std::isfinite(v) || v < 0.0)
                     bad_value(name,
                               "an uncertainty must be finite and >= 0, got " + format_value(v));
-                const std::string base = name.substr(0, name.size() - (lnsigma ? 8 : 6));
-                s.uncertainties.push_back(
-                    {base, lnsigma ? Distribution::LogNormal : Distribution::Normal, v});
+                if (r.value_column == none || std::isnan(table.columns[r.value_column].second[row]))
+                    bad_value(r.base, "an uncertainty is given but no value");
+                const std::size_t k = slot(r);
+                if (k != none) // the uncertainty of an absent species changes nothing
+                    s.uncertainties.push_back(
+                        {r.base, r.lnsigma ? Distribution::LogNormal : Distribution::Normal, v, k,
+                         r.parameter});
                 continue;
             }
-            if (std::isnan(v))
-                continue;
-            const CaseParameter* p = find_case_parameter(name);
-            if (!p)
+            if (!r.parameter)
                 bad_value(name, "unknown column");
-            if (!in_range(*p, v))
-                bad_value(name, "must be " + range_text(*p) + ", got " + format_value(v));
-            if (name == "max_steps" && v != std::floor(v))
+            if (!in_range(*r.parameter, v))
+                bad_value(name, "must be " + range_text(*r.parameter) + ", got " + format_value(v));
+            if (r.global == slots().max_steps && v != std::floor(v))
                 bad_value(name, "must be a whole number, got " + format_value(v));
-            s.values[name] = v;
+            const std::size_t k = slot(r);
+            if (k != none)
+                s.values[k] = v;
         }
-        for (const Uncertainty& u : s.uncertainties)
-            if (!has(s, u.parameter))
-                bad_value(u.parameter, "an uncertainty is given but no value");
-        for (const auto& [name, values] : table.columns) {
-            if (!starts_with(name, "x_") || ends_with(name, "_sigma") ||
-                ends_with(name, "_lnsigma"))
-                continue;
-            const auto it = s.values.find(name);
-            if (it != s.values.end() && it->second > 0.0) {
-                // The numbers only: the source texts would be copied with every run.
-                Species sp = default_registry().get(name.substr(2));
-                sp.mass_source.clear();
-                sp.lj_source.clear();
-                sp.cross_section_source.clear();
-                s.species.push_back(std::move(sp));
-            }
-        }
-        if (s.species.empty())
+        if (n == 0)
             throw InputError("no species: every mole fraction 'x_<species>' is zero or empty");
-        for (const auto& [name, values] : table.text) {
-            if (name != "density_scaling")
-                continue;
-            const std::string& text = values[row];
+        s.species.reserve(n);
+        for (std::size_t k : plan.present)
+            s.species.push_back(plan.species[k]);
+        if (plan.density_scaling != none) {
+            const std::string& text = table.text[plan.density_scaling].second[row];
             if (text.empty() || text == "inventory")
                 s.scaling = DensityScaling::Inventory;
             else if (text == "fixed")
                 s.scaling = DensityScaling::Fixed;
             else
-                bad_value(name, "'" + text + "' is neither 'inventory' nor 'fixed'");
+                bad_value("density_scaling", "'" + text + "' is neither 'inventory' nor 'fixed'");
         }
     } catch (const InputError& e) {
-        throw InputError(where + ", " + e.what());
+        throw InputError(table.row_label(row) + " (case '" + s.name + "'), " + e.what());
     }
+    s.label = table.row_label(row);
     return s;
+}
+
+} // namespace
+
+double CaseSpec::mole_fraction(std::size_t i) const {
+    return values.at(case_parameters().size() + i);
+}
+
+double CaseSpec::inventory(std::size_t i) const {
+    return values.at(case_parameters().size() + species.size() + i);
+}
+
+double CaseSpec::value(const std::string& name) const {
+    const auto& params = case_parameters();
+    for (std::size_t k = 0; k < params.size(); ++k)
+        if (params[k].name == name)
+            return k < values.size() ? values[k] : nan;
+    for (std::size_t i = 0; i < species.size(); ++i) {
+        if (name == "x_" + species[i].name)
+            return mole_fraction(i);
+        if (name == "inventory_" + species[i].name)
+            return inventory(i);
+    }
+    return nan;
+}
+
+std::map<std::string, double> CaseSpec::named_values() const {
+    std::map<std::string, double> out;
+    const auto& params = case_parameters();
+    for (std::size_t k = 0; k < params.size() && k < values.size(); ++k)
+        if (!std::isnan(values[k]))
+            out[params[k].name] = values[k];
+    for (std::size_t i = 0; i < species.size(); ++i) {
+        out["x_" + species[i].name] = mole_fraction(i);
+        if (!std::isnan(inventory(i)))
+            out["inventory_" + species[i].name] = inventory(i);
+    }
+    return out;
+}
+
+CaseSpec case_from_table(const CaseTable& table, std::size_t row) {
+    if (row >= table.rows())
+        throw InputError("case table: row " + std::to_string(row) + " is past the last row (" +
+                         std::to_string(table.rows()) + " rows)");
+    TablePlan plan = plan_table(table);
+    return read_case(table, plan, row);
 }
 
 // --- one case ---------------------------------------------------------------------------------
@@ -427,112 +577,124 @@ std::vector<double> case_times(const BatchOptions& o, double t0, double t1) {
 } // namespace
 
 EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
-    const double mass = required(s, "planet_mass");
-    const double radius = required(s, "planet_radius");
-    const bool with_star = has(s, "semi_major_axis");
+    const Slots& k = slots();
+    const auto& params = case_parameters();
+    const std::size_t n = s.species.size();
+    if (s.values.size() != params.size() + 2 * n)
+        throw InputError("case '" + s.name + "': " + std::to_string(s.values.size()) +
+                         " parameter values for " + std::to_string(n) + " species, expected " +
+                         std::to_string(params.size() + 2 * n));
+    auto has = [&](std::size_t slot) { return !std::isnan(s.values[slot]); };
+    auto required = [&](std::size_t slot, const char* why = "") {
+        if (!has(slot))
+            bad_value(params[slot].name,
+                      "no value given" + (*why ? std::string(" (") + why + ")" : std::string()));
+        return s.values[slot];
+    };
+    auto optional = [&](std::size_t slot, double fallback) {
+        return has(slot) ? s.values[slot] : fallback;
+    };
+    const double mass = required(k.planet_mass);
+    const double radius = required(k.planet_radius);
+    const bool with_star = has(k.semi_major_axis);
     std::optional<Planet> planet;
     if (with_star) {
         XuvHistory xuv;
-        xuv.saturation_ratio = optional(s, "xuv_saturation_ratio", xuv.saturation_ratio);
-        xuv.saturation_time = optional(s, "xuv_saturation_time", xuv.saturation_time);
-        xuv.decay_index = optional(s, "xuv_decay_index", xuv.decay_index);
-        const double star_mass = required(s, "star_mass", "a semi_major_axis needs the star");
-        const double luminosity =
-            required(s, "star_luminosity", "a semi_major_axis needs the star");
-        const Star star(star_mass, luminosity, xuv);
-        planet.emplace(mass, radius, s.values.at("semi_major_axis"), star);
+        xuv.saturation_ratio = optional(k.xuv_saturation_ratio, xuv.saturation_ratio);
+        xuv.saturation_time = optional(k.xuv_saturation_time, xuv.saturation_time);
+        xuv.decay_index = optional(k.xuv_decay_index, xuv.decay_index);
+        const char* why = "a semi_major_axis needs the star";
+        const double star_mass = required(k.star_mass, why); // star mass first in messages
+        const Star star(star_mass, required(k.star_luminosity, why), xuv);
+        planet.emplace(mass, radius, s.values[k.semi_major_axis], star);
     } else {
         planet.emplace(mass, radius);
     }
     EvolutionConfig c(*planet);
     c.record_config = false; // the sweep file records the table and options instead
-    const std::size_t n = s.species.size();
-    std::vector<std::string> names;
-    std::vector<double> x(n);
+    std::vector<std::string> names(n);
     double x_sum = 0.0, mean_mass = 0.0;
     for (std::size_t i = 0; i < n; ++i) {
-        names.push_back(s.species[i].name);
-        x[i] = s.values.at("x_" + names[i]);
-        x_sum += x[i];
-        mean_mass += x[i] * s.species[i].mass;
+        names[i] = s.species[i].name;
+        x_sum += s.mole_fraction(i);
+        mean_mass += s.mole_fraction(i) * s.species[i].mass;
     }
     mean_mass /= x_sum;
     c.species = s.species;
 
     // Exobase: prescribed radius and densities n_i = x_i n.
-    const double n_exo = required(s, "exobase_density");
+    const double n_exo = required(k.exobase_density);
     std::vector<double> densities(n);
     for (std::size_t i = 0; i < n; ++i)
-        densities[i] = x[i] * n_exo;
-    c.exobase = std::make_shared<PrescribedExobase>(radius + required(s, "exobase_altitude"), names,
-                                                    densities, s.scaling);
+        densities[i] = s.mole_fraction(i) * n_exo;
+    c.exobase = std::make_shared<PrescribedExobase>(
+        radius + required(k.exobase_altitude), std::move(names), std::move(densities), s.scaling);
 
     // Inventories: per species, else the total shared by mole fraction. A surface pressure P
     // holds N = P 4 pi R^2 / (g m_mean) particles, g = G M / R^2 (hydrostatic column).
     double total = nan;
-    if (has(s, "inventory") && has(s, "surface_pressure"))
+    if (has(k.inventory) && has(k.surface_pressure))
         bad_value("surface_pressure", "give either 'inventory' or 'surface_pressure', not both");
-    if (has(s, "inventory"))
-        total = s.values.at("inventory");
-    if (has(s, "surface_pressure")) {
+    if (has(k.inventory))
+        total = s.values[k.inventory];
+    if (has(k.surface_pressure)) {
         const double g = constants::G * mass / (radius * radius);
-        total = s.values.at("surface_pressure") * 4.0 * constants::pi * radius * radius /
-                (g * mean_mass);
+        total =
+            s.values[k.surface_pressure] * 4.0 * constants::pi * radius * radius / (g * mean_mass);
     }
     c.initial_inventory.resize(n);
     for (std::size_t i = 0; i < n; ++i) {
-        const auto it = s.values.find("inventory_" + names[i]);
-        if (it != s.values.end()) {
-            c.initial_inventory[i] = it->second;
+        if (!std::isnan(s.inventory(i))) {
+            c.initial_inventory[i] = s.inventory(i);
         } else {
+            const std::string& name = s.species[i].name;
             if (std::isnan(total))
-                bad_value("inventory", "no initial inventory of " + names[i] +
+                bad_value("inventory", "no initial inventory of " + name +
                                            ": give 'inventory', 'surface_pressure' or "
                                            "'inventory_" +
-                                           names[i] + "'");
-            c.initial_inventory[i] = total * x[i] / x_sum;
+                                           name + "'");
+            c.initial_inventory[i] = total * s.mole_fraction(i) / x_sum;
         }
     }
 
     // Span: per case, else the options; the end defaults to the star's present age.
-    c.t_start = optional(s, "age_start", o.t_start);
-    c.t_end = optional(s, "age_end", optional(s, "star_age", o.t_end));
+    c.t_start = optional(k.age_start, o.t_start);
+    c.t_end = optional(k.age_end, optional(k.star_age, o.t_end));
     if (!(c.t_end > c.t_start))
-        bad_value(has(s, "age_end")    ? "age_end"
-                  : has(s, "star_age") ? "star_age"
-                                       : "age_end",
+        bad_value(has(k.age_end)    ? "age_end"
+                  : has(k.star_age) ? "star_age"
+                                    : "age_end",
                   "the end age " + format_value(c.t_end) + " s is not after the start age " +
                       format_value(c.t_start) + " s");
 
     // Exobase temperature history.
-    if (has(s, "temperature_reference")) {
-        if (has(s, "exobase_temperature"))
+    if (has(k.temperature_reference)) {
+        if (has(k.exobase_temperature))
             bad_value("exobase_temperature", "give either 'exobase_temperature' or the XUV law "
                                              "('temperature_reference' ...), not both");
-        const std::string why = "the XUV temperature law needs it";
+        const char* why = "the XUV temperature law needs it";
         c.temperature = ExobaseTemperature::xuv_power_law(
-            s.values.at("temperature_reference"), required(s, "temperature_reference_flux", why),
-            required(s, "temperature_exponent", why), required(s, "temperature_min", why),
-            required(s, "temperature_max", why));
+            s.values[k.temperature_reference], required(k.temperature_reference_flux, why),
+            required(k.temperature_exponent, why), required(k.temperature_min, why),
+            required(k.temperature_max, why));
     } else {
         const double t0 =
-            required(s, "exobase_temperature", "or give the XUV law 'temperature_reference' ...");
-        if (has(s, "exobase_temperature_end"))
+            required(k.exobase_temperature, "or give the XUV law 'temperature_reference' ...");
+        if (has(k.exobase_temperature_end))
             c.temperature = ExobaseTemperature::table({c.t_start, c.t_end},
-                                                      {t0, s.values.at("exobase_temperature_end")});
+                                                      {t0, s.values[k.exobase_temperature_end]});
         else
             c.temperature = ExobaseTemperature::constant(t0);
     }
-    if (has(s, "heating_efficiency")) {
+    if (has(k.heating_efficiency)) {
         HydrodynamicOptions h;
-        h.efficiency = s.values.at("heating_efficiency");
+        h.efficiency = s.values[k.heating_efficiency];
         h.roche_lobe = with_star;
         c.hydrodynamic = h;
     }
     c.thresholds = o.thresholds;
-    c.rtol = optional(s, "rtol", o.rtol);
-    c.max_steps =
-        static_cast<std::size_t>(optional(s, "max_steps", static_cast<double>(o.max_steps)));
+    c.rtol = optional(k.rtol, o.rtol);
+    c.max_steps = static_cast<std::size_t>(optional(k.max_steps, static_cast<double>(o.max_steps)));
     c.depletion_fraction = o.depletion_fraction;
     c.t_eval = case_times(o, c.t_start, c.t_end);
     return c;
@@ -542,8 +704,10 @@ CaseSpec sample_case(const CaseSpec& spec, std::uint64_t seed, std::uint64_t sam
     CaseSpec s = spec;
     CounterRng rng(seed, spec.key, sample);
     for (const Uncertainty& u : spec.uncertainties) {
-        const CaseParameter* p = find_case_parameter(u.parameter);
-        const double value = spec.values.at(u.parameter);
+        const CaseParameter* p = u.range ? u.range : find_case_parameter(u.parameter);
+        if (!p || u.slot >= spec.values.size())
+            throw InputError("uncertainty of '" + u.parameter + "': no such parameter in the case");
+        const double value = spec.values[u.slot];
         double drawn = value;
         bool found = false;
         for (int k = 0; k < 1000 && !found; ++k) {
@@ -557,7 +721,7 @@ CaseSpec sample_case(const CaseSpec& spec, std::uint64_t seed, std::uint64_t sam
                                  u.parameter + "' in its range (" + range_text(*p) +
                                  ") in 1000 draws around " + format_value(value) + " with width " +
                                  format_value(u.width));
-        s.values[u.parameter] = drawn;
+        s.values[u.slot] = drawn;
     }
     return s;
 }
@@ -573,6 +737,7 @@ std::vector<std::string> check_rows(const CaseTable& table, const BatchOptions& 
     const std::size_t threads = std::max<std::size_t>(
         1, std::min<std::size_t>(o.threads ? o.threads : hardware, (end - begin) / 256 + 1));
     auto check = [&](std::size_t first, std::size_t stride) {
+        TablePlan plan = plan_table(table);
         for (std::size_t i = begin + first; i < end; i += stride) {
             std::string& error = errors[i - begin];
             if (!table.row_errors.empty() && !table.row_errors[i].empty()) {
@@ -580,7 +745,7 @@ std::vector<std::string> check_rows(const CaseTable& table, const BatchOptions& 
                 continue;
             }
             try {
-                const CaseSpec s = case_from_table(table, i);
+                const CaseSpec s = read_case(table, plan, i);
                 try {
                     for (const Species& sp : s.species)
                         if (std::find(o.species.begin(), o.species.end(), sp.name) ==
@@ -771,7 +936,7 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
 
     std::vector<Slot> slots(window);
     auto chunk_end_run = [&](std::size_t c) { return std::min((c + 1) * chunk, cases) * per_case; };
-    // Opening a chunk only sizes its arrays; its cases are read by the workers (read_case), so
+    // Opening a chunk only sizes its arrays; its cases are read by the workers (read_slot_case), so
     // that the calling thread stays free for the hooks.
     auto open_chunk = [&](std::size_t c) {
         Slot& s = slots[c % window];
@@ -787,7 +952,7 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
             s.out.name[j] = table.names[begin + first + j];
         }
     };
-    auto read_case = [&](Slot& s, std::size_t j) {
+    auto read_slot_case = [&](Slot& s, std::size_t j, TablePlan& plan) {
         const std::size_t row = s.out.first + j;
         CaseSpec& spec = s.specs[j];
         if (!table.row_errors.empty() && !table.row_errors[row].empty()) {
@@ -795,7 +960,7 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
             return;
         }
         try {
-            spec = case_from_table(table, row);
+            spec = read_case(table, plan, row);
             for (const Species& sp : spec.species)
                 if (std::find(o.species.begin(), o.species.end(), sp.name) == o.species.end())
                     throw InputError(spec.label + " (case '" + spec.name + "'), species '" +
@@ -805,13 +970,14 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
             spec.error = e.what();
             return;
         }
-        for (std::size_t i = 0; i < S; ++i) {
-            const auto x = spec.values.find("x_" + o.species[i]);
-            s.out.mole_fraction[j * S + i] = x == spec.values.end() ? 0.0 : x->second;
+        std::fill_n(s.out.mole_fraction.begin() + static_cast<std::ptrdiff_t>(j * S), S, 0.0);
+        for (std::size_t i = 0; i < spec.species.size(); ++i) {
+            const auto column = static_cast<std::size_t>(
+                std::find(o.species.begin(), o.species.end(), spec.species[i].name) -
+                o.species.begin());
+            s.columns[j].push_back(column);
+            s.out.mole_fraction[j * S + column] = spec.mole_fraction(i);
         }
-        for (const Species& sp : spec.species)
-            s.columns[j].push_back(static_cast<std::size_t>(
-                std::find(o.species.begin(), o.species.end(), sp.name) - o.species.begin()));
     };
 
     std::mutex m;
@@ -824,7 +990,9 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
         window_end = chunk_end_run(c);
     }
 
-    auto worker = [&]() {
+    // One plan per worker: it holds scratch space. Made here, where a failure can still throw.
+    std::vector<TablePlan> plans(threads, plan_table(table));
+    auto worker = [&](TablePlan& plan) {
         for (;;) {
             std::size_t g;
             {
@@ -844,7 +1012,7 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
             std::string failure;
             bool finished = true;
             try {
-                std::call_once(s.read[j], read_case, std::ref(s), j);
+                std::call_once(s.read[j], read_slot_case, std::ref(s), j, std::ref(plan));
                 const CaseSpec& spec = s.specs[j];
                 if (!spec.error.empty()) {
                     failure = spec.error;
@@ -896,7 +1064,7 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
     BatchStatus status;
     try {
         for (std::size_t k = 0; k < threads; ++k)
-            pool.emplace_back(worker);
+            pool.emplace_back(worker, std::ref(plans[k]));
         auto last_progress = std::chrono::steady_clock::now();
         const auto interval = std::chrono::milliseconds(hooks.progress_interval_ms);
         auto report = [&]() {

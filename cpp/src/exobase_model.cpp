@@ -79,6 +79,7 @@ ExobaseTemperature ExobaseTemperature::xuv_power_law(double reference_temperatur
     h.kind_ = Kind::XuvPowerLaw;
     h.t_ref_ = reference_temperature;
     h.f_ref_ = reference_flux;
+    h.log_f_ref_ = std::log(reference_flux);
     h.gamma_ = exponent;
     h.t_min_ = minimum;
     h.t_max_ = maximum;
@@ -102,10 +103,9 @@ double ExobaseTemperature::operator()(double t, double xuv_flux) const {
         return constant_;
     case Kind::Table:
         return table_(t);
-    case Kind::XuvPowerLaw: {
-        const double T = t_ref_ * std::pow(xuv_flux / f_ref_, gamma_);
-        return std::min(t_max_, std::max(t_min_, T));
-    }
+    case Kind::XuvPowerLaw:
+        return at_log_flux(t, xuv_flux > 0.0 ? std::log(xuv_flux)
+                                             : -std::numeric_limits<double>::infinity());
     case Kind::Callable: {
         const double T = function_(t);
         if (!std::isfinite(T) || !(T > 0.0))
@@ -117,6 +117,16 @@ double ExobaseTemperature::operator()(double t, double xuv_flux) const {
     }
     }
     return constant_;
+}
+
+double ExobaseTemperature::at_log_flux(double t, double log_xuv_flux) const {
+    if (kind_ != Kind::XuvPowerLaw)
+        return (*this)(t, std::exp(log_xuv_flux));
+    // T_ref (F / F_ref)^gamma as T_ref exp(gamma (ln F - ln F_ref)); gamma = 0 stays T_ref
+    // even for F = 0.
+    const double T =
+        gamma_ == 0.0 ? t_ref_ : t_ref_ * std::exp(gamma_ * (log_xuv_flux - log_f_ref_));
+    return std::min(t_max_, std::max(t_min_, T));
 }
 
 std::vector<double> ExobaseTemperature::breakpoints(const Planet& planet, double t0,
@@ -180,7 +190,8 @@ PrescribedExobase::PrescribedExobase(double radius, std::vector<std::string> spe
                          std::to_string(species_.size()) + " species");
     log_densities_.resize(densities_.size());
     for (std::size_t i = 0; i < densities_.size(); ++i) {
-        require_non_negative(("exobase density of " + species_[i]).c_str(), densities_[i]);
+        if (!std::isfinite(densities_[i]) || !(densities_[i] >= 0.0))
+            require_non_negative(("exobase density of " + species_[i]).c_str(), densities_[i]);
         log_densities_[i] = densities_[i] > 0.0 ? std::log(densities_[i])
                                                 : -std::numeric_limits<double>::infinity();
     }

@@ -18,6 +18,13 @@ double Species::mass_u() const {
 void validate(const Species& s) {
     if (s.name.empty())
         throw InputError("species name must not be empty");
+    auto at_least = [](double v, double low, bool open) {
+        return std::isfinite(v) && (open ? v > low : v >= low);
+    };
+    if (at_least(s.mass, 0.0, true) && at_least(s.lj_diameter, 0.0, false) &&
+        at_least(s.lj_well_depth, 0.0, false) && at_least(s.cross_section, 0.0, false) &&
+        std::isfinite(s.thermal_diffusion_factor))
+        return; // the messages below are built only for a bad species: runs validate often
     const std::string prefix = "species '" + s.name + "': ";
     require_positive((prefix + "mass").c_str(), s.mass);
     require_non_negative((prefix + "lj_diameter").c_str(), s.lj_diameter);

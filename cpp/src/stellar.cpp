@@ -19,6 +19,8 @@ Star::Star(double mass, double luminosity, XuvHistory xuv)
     require_positive("star mass", mass);
     require_positive("star luminosity", luminosity);
     xuv_.validate();
+    log_saturated_ = std::log(xuv_.saturation_ratio * luminosity_);
+    log_saturation_time_ = std::log(xuv_.saturation_time);
 }
 
 double Star::xuv_luminosity(double t) const {
@@ -27,6 +29,13 @@ double Star::xuv_luminosity(double t) const {
     if (t <= xuv_.saturation_time)
         return saturated;
     return saturated * std::pow(t / xuv_.saturation_time, -xuv_.decay_index);
+}
+
+double Star::log_xuv_luminosity(double t) const {
+    require_positive("stellar age t", t);
+    if (t <= xuv_.saturation_time)
+        return log_saturated_;
+    return log_saturated_ - xuv_.decay_index * (std::log(t) - log_saturation_time_);
 }
 
 double Star::age_at_xuv_luminosity(double luminosity) const {
@@ -46,6 +55,7 @@ Planet::Planet(double mass, double radius, double semi_major_axis, Star star)
     : Planet(mass, radius) {
     require_positive("semi_major_axis", semi_major_axis);
     semi_major_axis_ = semi_major_axis;
+    log_sphere_area_ = std::log(4.0 * constants::pi * semi_major_axis * semi_major_axis);
     star_ = std::move(star);
 }
 
@@ -66,6 +76,13 @@ double Planet::xuv_flux(double t) const {
         throw InputError("the XUV flux needs the planet's semi_major_axis and star, which are not "
                          "set");
     return exosieve::xuv_flux(star_->xuv_luminosity(t), semi_major_axis_);
+}
+
+double Planet::log_xuv_flux(double t) const {
+    if (!star_)
+        throw InputError("the XUV flux needs the planet's semi_major_axis and star, which are not "
+                         "set");
+    return star_->log_xuv_luminosity(t) - log_sphere_area_;
 }
 
 double Planet::surface_gravity() const {

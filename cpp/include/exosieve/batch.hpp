@@ -53,23 +53,51 @@ enum class Distribution : int {
     LogNormal = 1, //!< width is the standard deviation of ln X [1]; the value is the median
 };
 
+//! Parameters a case may carry: name, SI unit, and whether an uncertainty may be given.
+struct CaseParameter {
+    std::string name;       //!< e.g. "planet_mass"
+    std::string unit;       //!< SI unit, e.g. "kg"
+    std::string meaning;    //!< one line of documentation
+    bool required = false;  //!< every case needs it (per-species: "x_" columns)
+    bool uncertain = true;  //!< a _sigma or _lnsigma column may be given
+    double lower = 0.0;     //!< smallest allowed value
+    bool lower_open = true; //!< lower bound excluded
+    double upper = 0.0;     //!< largest allowed value (inf: none)
+};
+
 //! The uncertainty of one parameter of a case.
 struct Uncertainty {
     std::string parameter;                            //!< parameter name, e.g. "planet_mass"
     Distribution distribution = Distribution::Normal; //!< shape
     double width = 0.0;                               //!< sigma [SI] or sigma of ln X [1] (>= 0)
+    std::size_t slot = 0;                             //!< index of the value in CaseSpec::values
+    const CaseParameter* range = nullptr;             //!< the parameter's allowed range
 };
 
-//! One planet case: named SI parameters, its species and their uncertainties.
+//! One planet case: SI parameter values by slot, its species and their uncertainties.
+//! `values` holds case_parameters() in order (slots 0 .. P-1), then the mole fraction of each
+//! entry of `species` (slots P .. P+n-1), then its initial inventory (P+n .. P+2n-1); NaN where
+//! not given. Slots instead of names: a sweep reads, samples and builds every case without a
+//! string lookup.
 struct CaseSpec {
     std::string name;             //!< case label
     std::string label;            //!< where the case comes from, for messages (e.g. "line 7")
     std::uint64_t key = 0;        //!< index of the case in its full table; seeds its samples
     std::vector<Species> species; //!< species present (mole fraction > 0), in table order
-    std::map<std::string, double> values; //!< parameters present [SI] (see case_parameters())
+    std::vector<double> values;   //!< parameter values [SI] by slot (see above); NaN: not given
     DensityScaling scaling = DensityScaling::Inventory; //!< how exobase densities follow N_i
     std::vector<Uncertainty> uncertainties;             //!< uncertain parameters, in a fixed order
     std::string error; //!< non-empty: the case is invalid and is reported, not run
+
+    //! Mole fraction at the exobase [1] of species `i` of `species`.
+    double mole_fraction(std::size_t i) const;
+    //! Initial inventory [particles] of species `i` of `species`; NaN when not given.
+    double inventory(std::size_t i) const;
+    //! Value [SI] of parameter `name` (also "x_<species>", "inventory_<species>" of a present
+    //! species); NaN when not given.
+    double value(const std::string& name) const;
+    //! Every given parameter [SI] by name.
+    std::map<std::string, double> named_values() const;
 };
 
 //! What the batch asks of every case.
@@ -93,18 +121,6 @@ struct BatchOptions {
 
     //! Throw InputError naming the option and its value for anything that cannot run.
     void validate() const;
-};
-
-//! Parameters a case may carry: name, SI unit, and whether an uncertainty may be given.
-struct CaseParameter {
-    std::string name;       //!< e.g. "planet_mass"
-    std::string unit;       //!< SI unit, e.g. "kg"
-    std::string meaning;    //!< one line of documentation
-    bool required = false;  //!< every case needs it (per-species: "x_" columns)
-    bool uncertain = true;  //!< a _sigma or _lnsigma column may be given
-    double lower = 0.0;     //!< smallest allowed value
-    bool lower_open = true; //!< lower bound excluded
-    double upper = 0.0;     //!< largest allowed value (inf: none)
 };
 
 //! The parameters of a case, in documentation order. "x_<species>" (mole fraction at the

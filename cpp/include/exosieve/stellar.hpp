@@ -43,6 +43,8 @@ class Star {
 
     //! XUV luminosity [W] at stellar age t [s] (t > 0).
     double xuv_luminosity(double t) const;
+    //! ln of the XUV luminosity [ln W] at stellar age t [s] (t > 0): one logarithm, no power.
+    double log_xuv_luminosity(double t) const;
     //! The age [s] after saturation at which L_xuv equals `luminosity` [W] (the inverse of the
     //! decline; the saturation time when `luminosity` is at or above the saturated value).
     double age_at_xuv_luminosity(double luminosity) const;
@@ -51,6 +53,8 @@ class Star {
     double mass_;
     double luminosity_;
     XuvHistory xuv_;
+    double log_saturated_;       // ln(R_sat L_bol) [ln W]
+    double log_saturation_time_; // ln t_sat [ln s]
 };
 
 //! A planet: mass, radius and, for anything driven by its star, the orbit and the star.
@@ -74,6 +78,8 @@ class Planet {
 
     //! XUV flux at the planet [W m^-2] at stellar age t [s]; InputError when no star is set.
     double xuv_flux(double t) const;
+    //! ln of the XUV flux [ln(W m^-2)] at stellar age t [s]; InputError when no star is set.
+    double log_xuv_flux(double t) const;
     //! Surface gravity G M / R^2 [m s^-2].
     double surface_gravity() const;
 
@@ -81,6 +87,7 @@ class Planet {
     double mass_;
     double radius_;
     double semi_major_axis_ = 0.0;
+    double log_sphere_area_ = 0.0; // ln(4 pi a^2) [ln m^2]
     std::optional<Star> star_;
 };
 
