@@ -187,7 +187,15 @@ void bind_batch(py::module_& m) {
             std::unique_ptr<py::error_already_set> failure;
             BatchHooks hooks;
             hooks.progress_interval_ms = interval_ms;
+            // A sweep file takes the chunks' rows straight from C++, without the interpreter.
+            ResultAppender* file = py::isinstance<ResultAppender>(on_chunk)
+                                       ? &on_chunk.cast<ResultAppender&>()
+                                       : nullptr;
             hooks.on_chunk = [&](const BatchChunk& c) {
+                if (file) {
+                    file->append(chunk_rows(c));
+                    return;
+                }
                 py::gil_scoped_acquire gil;
                 try {
                     if (!on_chunk.is_none())
@@ -231,7 +239,10 @@ void bind_batch(py::module_& m) {
             return d;
         },
         py::arg("table"), py::arg("begin"), py::arg("end"), py::arg("options"), py::arg("on_chunk"),
-        py::arg("on_progress") = py::none(), py::arg("progress_interval_ms") = 100);
+        py::arg("on_progress") = py::none(), py::arg("progress_interval_ms") = 100,
+        "Run rows [begin, end) of a case table. `on_chunk` receives each finished chunk in table "
+        "order: a callable gets a dict of arrays, a ResultAppender gets the rows appended "
+        "directly. `on_progress(runs_done, runs_total)` returning False cancels.");
 }
 
 } // namespace exosieve::bindings

@@ -818,6 +818,38 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
     sample_error.assign(cases, std::string());
 }
 
+RowBlock chunk_rows(const BatchChunk& c) {
+    RowBlock b(c.count);
+    b.set("case", std::vector<std::int64_t>(c.key.begin(), c.key.end()));
+    b.set("case_name", c.name);
+    b.set("error", c.error);
+    b.set("steps", c.steps);
+    b.set("planet_mass", c.planet_mass);
+    b.set("planet_radius", c.planet_radius);
+    b.set("exobase_radius", c.exobase_radius);
+    b.set("escape_speed", c.escape_speed);
+    b.set("age_start", c.t_start);
+    b.set("age_end", c.t_end);
+    b.set("exobase_temperature_start", c.temperature_start);
+    b.set("mole_fraction", c.mole_fraction);
+    b.set("exobase_temperature", c.exobase_temperature);
+    b.set("retained_fraction", c.retained);
+    b.set("jeans_parameter", c.jeans_parameter);
+    b.set("final_retained_fraction", c.final_retained);
+    b.set("depletion_time", c.depletion_time);
+    b.set("efolding_time", c.efolding_time);
+    b.set("jeans_parameter_start", c.jeans_start);
+    b.set("jeans_parameter_end", c.jeans_end);
+    b.set("regime_start", c.regime_start);
+    if (c.samples > 0) {
+        b.set("sample_retained_fraction", c.sample_retained);
+        b.set("sample_depletion_time", c.sample_depletion_time);
+        b.set("sample_failed", c.sample_failed);
+        b.set("sample_error", c.sample_error);
+    }
+    return b;
+}
+
 namespace {
 
 // One evolution run of case `c` of a chunk: the nominal run (sample < 0) or a Monte Carlo one.

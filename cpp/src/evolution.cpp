@@ -40,6 +40,11 @@ std::string when(double t) {
     return format_value(t) + " s (" + format_value(t / constants::Myr) + " Myr)";
 }
 
+// Tolerance on y_i = ln N_i of the error test below.
+double checker_tolerance(double rtol, double log_atol, double y) {
+    return rtol + std::exp(log_atol - y);
+}
+
 // Error test in y = ln N equivalent to |err(N_i)| <= rtol N_i + atol_i, the test of a linear
 // integration: |err(y_i)| <= rtol + atol_i / N_i. Records the species that dominates.
 class LogErrorChecker {
@@ -57,7 +62,7 @@ class LogErrorChecker {
         double largest = 0.0;
         std::size_t index = 0;
         for (Eigen::Index i = 0; i < y_err.size(); ++i) {
-            const double tol = rtol_ + std::exp((*log_atol_)[i] - y_old[i]);
+            const double tol = checker_tolerance(rtol_, (*log_atol_)[i], y_old[i]);
             double ratio = std::abs(y_err[i]) / tol;
             if (std::isnan(ratio))
                 ratio = inf; // a NaN trial step must be rejected
@@ -857,15 +862,21 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         next_eval = 1;
     }
 
-    // First step: a small fraction of the time scale set by the stellar age (histories vary on
-    // it), the span and the fastest e-folding; the controller grows it by up to 5x per step.
+    // First step. In ln N a loss alone gives dy/dt = -k(t): the local error of a step h comes
+    // from how k varies, on the time scale T of the histories (the stellar age, or the span),
+    // and is about |dy/dt| T (h/T)^6 for the fifth-order pair. The first step is where that is
+    // a tenth of the tolerance for every species; the controller corrects it from there (a
+    // smaller fixed fraction of T cost ~4 steps of growth at up to 5x each).
     double scale = c.t_end - c.t_start;
     if (c.t_start > 0.0)
         scale = std::min(scale, c.t_start);
-    for (std::size_t i = 0; i < n; ++i)
-        if (dydt[i] != 0.0)
-            scale = std::min(scale, 1.0 / std::abs(dydt[i]));
-    double dt = 0.01 * std::pow(c.rtol, 0.2) * scale;
+    double dt = scale;
+    for (std::size_t i = 0; i < n; ++i) {
+        const double change = std::abs(dydt[i]) * scale; // e-folds over T
+        const double tol = checker_tolerance(c.rtol, log_atol[i], y[i]);
+        if (change > 0.0)
+            dt = std::min(dt, scale * std::pow(0.1 * tol / change, 1.0 / 6.0));
+    }
 
     std::size_t worst = 0;
     const LogErrorChecker checker(c.rtol, &log_atol, &worst);

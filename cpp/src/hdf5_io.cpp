@@ -393,15 +393,15 @@ void write_whole(hid_t dataset, const Payload& payload, const std::string& what)
 
 // Makes the dataset `rows` + `start` long along `case` and writes `payload` into rows
 // [start, start + rows).
-void write_rows(hid_t file, const std::string& name, const std::vector<hsize_t>& trailing,
+void write_rows(hid_t dataset_id, const std::string& name, const std::vector<hsize_t>& trailing,
                 std::size_t start, std::size_t rows, const Payload& payload,
                 const std::string& where) {
     const std::string what = "append to dataset " + in_quotes(name) + " in " + where;
-    Handle dataset = checked(H5Dopen2(file, name.c_str(), H5P_DEFAULT), H5Dclose, what);
+    const hid_t dataset = dataset_id;
     std::vector<hsize_t> extent{static_cast<hsize_t>(start + rows)};
     extent.insert(extent.end(), trailing.begin(), trailing.end());
-    check(H5Dset_extent(dataset.get(), extent.data()), what);
-    Handle file_space = checked(H5Dget_space(dataset.get()), H5Sclose, what);
+    check(H5Dset_extent(dataset, extent.data()), what);
+    Handle file_space = checked(H5Dget_space(dataset), H5Sclose, what);
     std::vector<hsize_t> offset(extent.size(), 0), count = extent;
     offset[0] = start;
     count[0] = rows;
@@ -411,7 +411,7 @@ void write_rows(hid_t file, const std::string& name, const std::vector<hsize_t>&
     Handle memory_space = checked(
         H5Screate_simple(static_cast<int>(count.size()), count.data(), nullptr), H5Sclose, what);
     Handle string_type = utf8_string_type();
-    check(H5Dwrite(dataset.get(), memory_type_of(payload.type, string_type), memory_space.get(),
+    check(H5Dwrite(dataset, memory_type_of(payload.type, string_type), memory_space.get(),
                    file_space.get(), H5P_DEFAULT, payload.data),
           what);
 }
@@ -930,6 +930,9 @@ struct ResultAppender::Impl {
         ValueType type;
         std::vector<hsize_t> trailing;
         std::size_t row_size;
+        // Open from the first append to close(): reopening a dataset for every block would
+        // drop its chunk cache, and the last, partly filled chunk would be read back each time.
+        Handle dataset;
     };
     std::string path;
     Handle file;
@@ -1040,7 +1043,7 @@ struct ResultAppender::Impl {
             }
             v.trailing.assign(shape.begin() + 1, shape.end());
             v.row_size = product(v.trailing);
-            variables[name] = v;
+            variables[name] = std::move(v);
             if (shape[0] < completed)
                 throw FileError(in_quotes(path) + " is damaged: case variable " + in_quotes(name) +
                                 " has " + std::to_string(shape[0]) + " rows but 'completed' is " +
@@ -1085,6 +1088,8 @@ ResultAppender::ResultAppender(const std::string& path) : impl_(std::make_unique
 ResultAppender::~ResultAppender() {
     if (impl_) {
         QuietHdf5 quiet;
+        for (auto& entry : impl_->variables)
+            entry.second.dataset.reset();
         impl_->file.reset();
     }
 }
@@ -1137,7 +1142,7 @@ void ResultAppender::append(const RowBlock& block) {
             numbers[i] = static_cast<std::int64_t>(a.completed + i);
     }
     QuietHdf5 quiet;
-    for (const auto& [name, v] : a.variables) {
+    for (auto& [name, v] : a.variables) {
         const auto column = block.columns_.find(name);
         Payload payload = Payload::of(numbers.data());
         if (column != block.columns_.end()) {
@@ -1146,7 +1151,12 @@ void ResultAppender::append(const RowBlock& block) {
                       : c.type == ValueType::int64 ? Payload::of(c.i.data())
                                                    : Payload::of(c.s);
         }
-        write_rows(a.file.get(), name, v.trailing, a.completed, rows, payload, in_quotes(a.path));
+        if (!v.dataset.valid())
+            v.dataset =
+                checked(H5Dopen2(a.file.get(), name.c_str(), H5P_DEFAULT), H5Dclose,
+                        "append to dataset " + in_quotes(name) + " in " + in_quotes(a.path));
+        write_rows(v.dataset.get(), name, v.trailing, a.completed, rows, payload,
+                   in_quotes(a.path));
     }
     a.durable_flush(); // the rows are on disk ...
     write_int_attribute(a.file.get(), completed_attr, static_cast<std::int64_t>(a.completed + rows),
@@ -1187,6 +1197,8 @@ void ResultAppender::close() {
     if (!impl_ || !impl_->file.valid())
         return;
     QuietHdf5 quiet;
+    for (auto& entry : impl_->variables)
+        check(entry.second.dataset.close(), "close " + in_quotes(impl_->path));
     check(impl_->file.close(), "close " + in_quotes(impl_->path));
     impl_->fd = -1;
 }

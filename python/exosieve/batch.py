@@ -567,6 +567,11 @@ class _MemorySink:
         self.chunks.append(chunk)
         self.completed += len(chunk["case"])
 
+    @property
+    def target(self) -> Any:
+        """What the batch engine hands its chunks to."""
+        return self.append
+
     def close(self) -> None:
         pass
 
@@ -630,11 +635,19 @@ class _FileSink:
         else:
             self.appender = _create_file(path, config, species, times, samples)
             self.resumed = False
-        self.completed = int(self.appender.completed)
+    @property
+    def completed(self) -> int:
+        """Rows in the file."""
+        return int(self.appender.completed)
 
     def append(self, chunk: dict[str, Any]) -> None:
         self.appender.append(chunk)
-        self.completed += len(chunk["case"])
+
+    @property
+    def target(self) -> Any:
+        """What the batch engine hands its chunks to: the file itself, so that the engine
+        appends each chunk's rows without building interpreter objects."""
+        return self.appender
 
     def close(self) -> None:
         self.appender.close()
@@ -796,8 +809,9 @@ def compare(
     block = chunk * max(1, 16384 // chunk)
     options["skip_invalid"] = True
     core_options = _core_options(options, threads=int(threads or 0), chunk_size=chunk)
+    checked = None
     if bad_rows == "raise":
-        _raise_for_rows(table, block, core_options)  # every row, before any run or file
+        checked = _raise_for_rows(table, block, core_options)  # every row, before any run or file
     sink: _FileSink | _MemorySink
     if output is not None:
         sink = _FileSink(Path(output), config, species, grid, int(samples), overwrite)
@@ -812,12 +826,15 @@ def compare(
             _run_distributed(client, table, begin, options, chunk, threads, sink, bar)
         for first in range(begin, len(table) if client is None else begin, block):
             last = min(first + block, len(table))
-            part = table.to_core(first_key=first, rows=slice(first, last))
+            if first == 0 and checked is not None:
+                part = checked  # the block the check read
+            else:
+                part = table.to_core(first_key=first, rows=slice(first, last))
 
             def on_progress(done: int, total: int, first: int = first) -> None:
                 bar.update(first + done // runs_per_case)
 
-            _core.run_batch(part, 0, last - first, core_options, sink.append, on_progress)
+            _core.run_batch(part, 0, last - first, core_options, sink.target, on_progress)
         bar.update(sink.completed)
     except KeyboardInterrupt:
         interrupted = True
@@ -839,12 +856,16 @@ def _core_options(options: dict[str, Any], threads: int, chunk_size: int) -> Any
     return _core.BatchOptions(threads=threads, chunk_size=chunk_size, chunks_in_flight=4, **kwargs)
 
 
-def _raise_for_rows(table: CaseTable, block: int, core_options: Any) -> None:
-    """ValueError listing the first ten invalid rows (row and column named) and their number."""
+def _raise_for_rows(table: CaseTable, block: int, core_options: Any) -> Any:
+    """ValueError listing the first ten invalid rows (row and column named) and their number.
+    Returns the engine's table of the first block, for the run to reuse."""
     listed: list[str] = []
     bad = 0
+    first_part = None
     for first in range(0, len(table), block):
         part = table.to_core(first_key=first, rows=slice(first, min(first + block, len(table))))
+        if first == 0:
+            first_part = part
         for error in _core.check_case_table(part, core_options):
             if error:
                 bad += 1
@@ -853,6 +874,7 @@ def _raise_for_rows(table: CaseTable, block: int, core_options: Any) -> None:
     if bad:
         text = "".join(f"\n  {e}" for e in listed) + ("\n  ..." if bad > 10 else "")
         raise ValueError(f"case table: {bad} invalid row{'s' if bad > 1 else ''}{text}")
+    return first_part
 
 
 # --- Dask -------------------------------------------------------------------------------------

@@ -253,12 +253,16 @@ class _Reader:
         for (name, unit), column in zip(self.parsed, cells, strict=True):
             raw = np.asarray(column, dtype=object) if not _is_float_array(column) else column
             if name in table.text_columns:
-                table.text_columns[name] = [
-                    value.strip()
-                    if type(value) is str and value.strip().lower() != "nan"
-                    else ("" if _is_missing(value) else str(value).strip())
-                    for value in raw
-                ]
+                stripped = [value.strip() if type(value) is str else None for value in raw]
+                distinct = set(stripped)
+                if None in distinct or any(len(v) == 3 and v.lower() == "nan" for v in distinct):
+                    stripped = [
+                        value.strip()
+                        if type(value) is str and value.strip().lower() != "nan"
+                        else ("" if _is_missing(value) else str(value).strip())
+                        for value in raw
+                    ]
+                table.text_columns[name] = stripped
                 continue
             values, bad = _numbers(raw)
             for i, value in bad.items():
@@ -268,7 +272,7 @@ class _Reader:
                     errors[i] = f"{self.source} {labels[i]} column '{name}': {shown} {what}"
             table.columns[name] = values * UNITS[unit or "1"][0]
         table.row_labels = list(labels)
-        table.row_errors = [errors.get(i, "") for i in range(n)]
+        table.row_errors = [errors.get(i, "") for i in range(n)] if errors else [""] * n
         if errors and not self.collect:
             raise ValueError(errors[min(errors)])
 

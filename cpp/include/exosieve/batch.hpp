@@ -26,6 +26,7 @@
 
 #include "exosieve/evolution.hpp"
 #include "exosieve/exobase_model.hpp"
+#include "exosieve/hdf5_io.hpp"
 #include "exosieve/hydrodynamic.hpp"
 #include "exosieve/species.hpp"
 
@@ -208,6 +209,15 @@ struct BatchChunk {
     void reset(std::size_t first_row, std::size_t cases, std::size_t species_count,
                std::size_t time_count, std::size_t sample_count);
 };
+
+//! A chunk as rows of a sweep file: the case variables `case` (key), case_name, error, steps,
+//! planet_mass, planet_radius, exobase_radius, escape_speed, age_start, age_end,
+//! exobase_temperature_start, mole_fraction, exobase_temperature, retained_fraction,
+//! jeans_parameter, final_retained_fraction, depletion_time, efolding_time,
+//! jeans_parameter_start, jeans_parameter_end, regime_start, and with samples
+//! sample_retained_fraction, sample_depletion_time, sample_failed, sample_error. Written
+//! straight from C++, a chunk costs the file no interpreter objects.
+RowBlock chunk_rows(const BatchChunk& chunk);
 
 //! Hooks of run_batch(), all called on the calling thread.
 struct BatchHooks {
