@@ -258,8 +258,16 @@ class Model {
         exobase_temperature_ = state_.temperature;
         const double kT = k_B * exobase_temperature_;
         const double gm_over_ktr = G * c_.planet.mass() / (kT * r);
-        const double log_area = log_area_factor_ + 2.0 * std::log(r);
-        const double half_log_2kT = 0.5 * std::log(2.0 * kT);
+        if (r != area_radius_) { // a prescribed exobase keeps its radius: one logarithm
+            area_radius_ = r;
+            log_area_ = log_area_factor_ + 2.0 * std::log(r);
+        }
+        const double log_area = log_area_;
+        if (kT != log_kT_at_) { // likewise a constant or clamped temperature
+            log_kT_at_ = kT;
+            half_log_2kT_ = 0.5 * std::log(2.0 * kT);
+        }
+        const double half_log_2kT = half_log_2kT_;
         std::size_t densest = 0;
         for (std::size_t i = 0; i < n_; ++i) {
             const double lambda = gm_over_ktr * mass_[i];
@@ -284,6 +292,8 @@ class Model {
         cached_ = true;
     }
 
+    double area_radius_ = 0.0, log_area_ = 0.0;   // ln(4 pi r^2) at radius area_radius_
+    double log_kT_at_ = 0.0, half_log_2kT_ = 0.0; // ln(2 kT) / 2 at kT = log_kT_at_
     bool cached_ = false;
     bool cached_energy_limited_ = false;
     double cached_t_ = 0.0;
