@@ -635,6 +635,7 @@ class _FileSink:
         else:
             self.appender = _create_file(path, config, species, times, samples)
             self.resumed = False
+
     @property
     def completed(self) -> int:
         """Rows in the file."""
