@@ -253,9 +253,12 @@ class _Reader:
         for (name, unit), column in zip(self.parsed, cells, strict=True):
             raw = np.asarray(column, dtype=object) if not _is_float_array(column) else column
             if name in table.text_columns:
+                # Texts as given, unless a cell is missing (not text, or the text "nan").
                 stripped = [value.strip() if type(value) is str else None for value in raw]
-                distinct = set(stripped)
-                if None in distinct or any(len(v) == 3 and v.lower() == "nan" for v in distinct):
+                missing = None in stripped
+                if not missing:  # one joined search instead of a comparison per cell
+                    missing = "\0nan\0" in ("\0" + "\0".join(stripped) + "\0").lower()
+                if missing:
                     stripped = [
                         value.strip()
                         if type(value) is str and value.strip().lower() != "nan"
