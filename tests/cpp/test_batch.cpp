@@ -166,6 +166,51 @@ TEST_CASE("samples: log-normal median and width, truncated normal stays in range
     CHECK(m0 > 0.0);
 }
 
+TEST_CASE("cases carry values by slot: species values follow the species present") {
+    CaseTable t = earthlike(2);
+    set_column(t, "x_He", {0.25, 0.0}); // row 2 has no helium
+    set_column(t, "x_He_sigma", {0.01, 0.01});
+    set_column(t, "inventory_H", {2e35, 3e35});
+    set_column(t, "inventory_H_lnsigma", {0.5, 0.5});
+    const CaseSpec with = case_from_table(t, 0), without = case_from_table(t, 1);
+    const std::size_t P = case_parameters().size();
+    REQUIRE(with.species.size() == 3);
+    REQUIRE(without.species.size() == 2);
+    CHECK(with.values.size() == P + 2 * 3);
+    CHECK(without.values.size() == P + 2 * 2);
+    CHECK(without.species[1].name == "H");
+    CHECK(without.mole_fraction(1) == 0.05);
+    CHECK(without.inventory(1) == 3e35);
+    CHECK(std::isnan(without.inventory(0))); // N2's comes from the total
+    CHECK(without.value("inventory_H") == 3e35);
+    CHECK(std::isnan(without.value("x_He")));
+    CHECK(without.named_values().count("x_He") == 0);
+    CHECK(with.named_values().at("x_He") == 0.25);
+    // The uncertainty of an absent species changes nothing and is not drawn.
+    REQUIRE(with.uncertainties.size() == 4);
+    REQUIRE(without.uncertainties.size() == 3);
+    // A sample moves exactly the slots of its uncertain parameters.
+    const CaseSpec drawn = sample_case(without, 11, 2);
+    for (std::size_t k = 0; k < drawn.values.size(); ++k) {
+        bool uncertain = false;
+        for (const Uncertainty& u : without.uncertainties)
+            uncertain = uncertain || u.slot == k;
+        if (std::isnan(without.values[k]))
+            CHECK(std::isnan(drawn.values[k]));
+        else if (!uncertain)
+            CHECK(drawn.values[k] == without.values[k]);
+        else
+            CHECK(drawn.values[k] != without.values[k]);
+    }
+    // The per-species inventory reaches the run; the others share the total by mole fraction.
+    BatchOptions o;
+    o.t_start = 10 * Myr;
+    o.t_end = 1 * Gyr;
+    const EvolutionConfig c = build_config(without, o);
+    CHECK(c.initial_inventory[1] == 3e35);
+    CHECK(c.initial_inventory[0] == doctest::Approx(1e37 * 0.7 / 0.75).epsilon(1e-15));
+}
+
 TEST_CASE("case tables: columns and rows are checked with the row and the column named") {
     CaseTable t = earthlike(3);
     t.row_labels = {"line 5", "line 6", "line 7"};
