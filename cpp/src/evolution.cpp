@@ -254,6 +254,13 @@ class Model {
         for (std::size_t i = 0; i < n_; ++i)
             log_fraction_[i] = y[i] - y0_[i];
         c_.exobase->evaluate(t, log_fraction_.data(), temperature_, state_);
+        // No exobase: the gas flows out. Energy-limited loss (regime hydrodynamic) takes over
+        // when the option is on; without it the model has nothing to say.
+        if (state_.outflow && !c_.hydrodynamic)
+            throw NumericalError(state_.outflow_reason +
+                                 " (a sign of hydrodynamic outflow: turn on energy-limited "
+                                 "escape (the hydrodynamic option), or give a larger "
+                                 "outer_radius)");
         const double r = state_.radius;
         exobase_temperature_ = state_.temperature;
         const double kT = k_B * exobase_temperature_;
@@ -283,7 +290,8 @@ class Model {
             if (state_.log_density[i] > state_.log_density[densest])
                 densest = i;
         }
-        bulk_regime_ = classify_regime(lambda_[densest], c_.thresholds);
+        bulk_regime_ = state_.outflow ? Regime::Hydrodynamic
+                                      : classify_regime(lambda_[densest], c_.thresholds);
         if (mode.energy_limited)
             apply_energy_limited(y);
         cached_t_ = t;

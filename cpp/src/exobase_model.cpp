@@ -202,6 +202,7 @@ void PrescribedExobase::evaluate(double, const double* log_fraction, double temp
     out.radius = radius_;
     out.temperature = temperature;
     out.has_escape_rates = false;
+    out.outflow = false;
     const std::size_t n = log_densities_.size();
     if (scaling_ == DensityScaling::Inventory)
         for (std::size_t i = 0; i < n; ++i)
@@ -317,10 +318,20 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
         if (used > 0.0)
             shift[i] = lx[i] - std::log(used);
     }
-    if (e.status == ExobaseStatus::none_below_outer_radius)
-        throw NumericalError("no exobase at t = " + format_value(t) + " s: " + e.message +
-                             " (a sign of hydrodynamic outflow: consider the energy-limited "
-                             "option, or a larger outer_radius)");
+    out.outflow = false;
+    if (e.status == ExobaseStatus::none_below_outer_radius) {
+        // Collisional out to the outer bound: the gas flows out. The evolution hands over to
+        // energy-limited loss, or stops with the reason; the state at the outer bound serves
+        // its regime and the Jeans rates of the species the outflow does not carry.
+        out.outflow = true;
+        out.outflow_reason = "no exobase at t = " + format_value(t) + " s: " + e.message;
+        out.radius = outer_radius_;
+        out.temperature = th.temperature(outer_radius_);
+        out.has_escape_rates = false;
+        for (std::size_t i = 0; i < n; ++i)
+            out.log_density[i] = th.log_density(i, out.radius) + shift[i];
+        return;
+    }
     if (e.status == ExobaseStatus::collisionless_at_homopause) {
         // Collisionless down to the homopause: particles escape from there.
         out.radius = homopause_radius_;

@@ -79,11 +79,13 @@ def evolve(
         are located to about ``rtol``.
     depletion_fraction : float, optional
         A species is depleted when its inventory falls below this share of its start
-        (default 1e-3); the time is located by bisection on the dense output.
+        (default 1e-3); the time is located on the dense output (TOMS 748).
     sources : mapping of str to float, TabulatedSource or (times, rates), optional
         Source of each named species [s^-1].
     hydrodynamic : EnergyLimitedEscape, optional
-        Energy-limited hydrodynamic escape with drag of heavier species.
+        Energy-limited hydrodynamic escape with drag of heavier species. It also takes over
+        while an evolving :class:`Thermosphere` has no exobase (collisional out to its outer
+        radius); without it such a run raises NumericalError saying why.
     thresholds : RegimeThresholds, optional
         Jeans-parameter thresholds between regimes (Volkov et al. 2011 defaults).
     tail_depletion : float, tuple or TailDepletion, optional

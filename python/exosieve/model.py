@@ -489,7 +489,8 @@ class EnergyLimitedEscape:
     activation : {"hydrodynamic", "transition", "always"}, optional
         When it replaces Jeans escape: while the bulk regime (by the Jeans parameter of the
         densest species at the exobase) is hydrodynamic (default), transition or hydrodynamic,
-        or throughout.
+        or throughout. An evolving thermosphere with no exobase (collisional out to its outer
+        radius) counts as hydrodynamic.
     diffusion : mapping of str to float or (float, float), optional
         Binary diffusion parameter ``b`` of each dragged species in the light gas
         [m^-1 s^-1]: a constant, or ``(A, s)`` for ``b = A (T / 1 K)^s``.

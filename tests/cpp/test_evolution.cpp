@@ -424,6 +424,67 @@ TEST_CASE("a thermosphere's minor species decays exponentially when its share fo
                                  << " evaluations");
 }
 
+TEST_CASE("no exobase in a hot thermosphere: energy-limited loss until an exobase forms") {
+    // The hot H/He envelope of the thermosphere tests (invented sub-Neptune: 5 Earth masses,
+    // 2.5 Earth radii), cooling from 5000 K to 300 K while its star is saturated. Down to about
+    // 600 K the gas is collisional out to the outer bound: no exobase, hydrodynamic outflow.
+    const double R = 2.5 * constants::R_earth, M = 5 * constants::M_earth;
+    XuvHistory x;
+    x.saturation_time = 100 * Myr;
+    const Star star(constants::M_sun, constants::L_sun, x);
+    const Planet planet(M, R, 0.1 * constants::au, star);
+    const Thermosphere th(M, R, R * 1.05, 1e18, {species("H"), species("He")}, {0.9, 0.1},
+                          TemperatureProfile::isothermal(5000.0));
+    REQUIRE(th.exobase().status == ExobaseStatus::none_below_outer_radius);
+    EvolutionConfig c(planet);
+    c.species = {species("H"), species("He")};
+    c.initial_inventory = {1e51, 1e50};
+    c.exobase =
+        std::make_shared<ThermosphereExobase>(th, std::vector<std::string>{"H", "He"}, false);
+    c.t_start = 10 * Myr;
+    c.t_end = 60 * Myr;
+    c.temperature = ExobaseTemperature::table({c.t_start, c.t_end}, {5000.0, 300.0});
+    c.t_eval = {10 * Myr, 60 * Myr};
+    c.rtol = 1e-8;
+
+    // Without energy-limited escape the model cannot go on, and says why.
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("no exobase at t ="), NumericalError);
+    CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains("energy-limited"), NumericalError);
+
+    HydrodynamicOptions h;
+    h.efficiency = 0.15;
+    h.roche_lobe = false;
+    h.drag = false;
+    c.hydrodynamic = h;
+    const EvolutionResult r = evolve(c);
+    CHECK(r.completed);
+    CHECK(r.regime[0] == static_cast<int>(Regime::Hydrodynamic));
+    CHECK(r.energy_limited[0] == 1);
+    // Watson et al. (1981) by hand, R_xuv = R, no Roche factor: dM/dt = eta pi R^3 F / (G M),
+    // all of it H (no drag); F = R_sat L_sun / (4 pi a^2) during saturation.
+    const double F = x.saturation_ratio * constants::L_sun /
+                     (4 * constants::pi * (0.1 * constants::au) * (0.1 * constants::au));
+    const double q = 0.15 * constants::pi * R * R * R * F / (constants::G * M) / species("H").mass;
+    CHECK(r.escape_rate[col(r, 0, 0)] == doctest::Approx(q).epsilon(1e-12));
+    // Cooling, an exobase forms below the outer bound: Jeans escape takes over from there.
+    REQUIRE(!r.regime_changes.empty());
+    CHECK(r.regime_changes.front().from == Regime::Hydrodynamic);
+    CHECK(r.regime_changes.front().time > c.t_start);
+    CHECK(r.regime_changes.front().time < c.t_end);
+    CHECK(r.energy_limited[1] == 0);
+    CHECK(r.regime[1] != static_cast<int>(Regime::Hydrodynamic));
+    CHECK(r.exobase_radius[1] < r.exobase_radius[0]); // below the outer bound now
+    CHECK(r.exobase_radius[0] == doctest::Approx(th.outer_radius()).epsilon(1e-12));
+    // H lost: at most the energy-limited rate over the whole span.
+    const double lost = c.initial_inventory[0] - r.inventory[col(r, 1, 0)];
+    CHECK(lost > 0.0);
+    CHECK(lost < q * (c.t_end - c.t_start));
+    MESSAGE("outflow ends at " << r.regime_changes.front().time / Myr << " Myr, T = "
+                               << 5000.0 - 4700.0 * (r.regime_changes.front().time - c.t_start) /
+                                               (c.t_end - c.t_start)
+                               << " K");
+}
+
 TEST_CASE("a thermosphere of one species loses it at a constant rate, held at depletion") {
     // With a single species its mole fraction stays 1, so the homopause density and the exobase
     // are fixed and the loss is constant: N(t) = N0 - Q t (worked analytic solution), and the

@@ -311,6 +311,40 @@ def test_energy_limited_worked_example():
     ) == pytest.approx(mdot / 0.3125)
 
 
+def test_no_exobase_hands_over_to_energy_limited_escape():
+    # An invented hot sub-Neptune (5 Earth masses, 2.5 Earth radii, H/He) around a Sun-like star
+    # at 0.1 au, its thermosphere cooling from 5000 K to 300 K while the star is saturated.
+    # While hot the gas is collisional out to the outer radius: no exobase.
+    star = exosieve.Star(c.M_SUN, c.L_SUN)
+    planet = exosieve.Planet(5 * c.M_EARTH, 2.5 * c.R_EARTH, 0.1 * c.AU, star)
+    thermo = exosieve.Thermosphere(planet, 1.05 * planet.radius, 1e18, {"H": 0.9, "He": 0.1}, 5e3)
+    assert not thermo.exobase().found
+    span = (10 * c.MYR, 60 * c.MYR)
+    cooling = exosieve.TabulatedTemperature(span, [5000.0, 300.0])
+    inventory = {"H": 1e51, "He": 1e50}
+    with pytest.raises(exosieve.NumericalError, match="no exobase at t =.*energy-limited"):
+        exosieve.evolve(planet, thermo, inventory, span, exobase_temperature=cooling)
+    hydro = exosieve.EnergyLimitedEscape(efficiency=0.15, roche_lobe=False, diffusion={"He": 0.0})
+    r = exosieve.evolve(
+        planet,
+        thermo,
+        inventory,
+        span,
+        t_eval=span,
+        exobase_temperature=cooling,
+        hydrodynamic=hydro,
+        rtol=1e-8,
+    )
+    # Watson et al. (1981) by hand, R_xuv = R, no Roche factor, He not dragged:
+    # dM/dt = eta pi R^3 F / (G M), all of it H.
+    flux = star.saturation_ratio * c.L_SUN / (4 * np.pi * (0.1 * c.AU) ** 2)
+    mdot = 0.15 * np.pi * planet.radius**3 * flux / (c.G * planet.mass)
+    assert r.escape_rate["H"][0] == pytest.approx(mdot / exosieve.species("H").mass, rel=1e-12)
+    assert r.energy_limited.tolist() == [1, 0]
+    assert r.regime_changes[0][1] == "hydrodynamic"
+    assert span[0] < r.regime_changes[0][0] < span[1]
+
+
 def test_energy_limited_evolution_is_linear_during_saturation():
     # Constant XUV flux during saturation: the light species loses dM/dt/m_H per second
     # (Watson et al. 1981 energy-limited rate with the Erkaev et al. 2007 factor; worked).

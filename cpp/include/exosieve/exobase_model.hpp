@@ -105,6 +105,11 @@ struct ExobaseState {
     bool has_escape_rates = false;
     //! ln of each species' global escape rate (ln of s^-1), used when has_escape_rates.
     std::vector<double> log_escape_rate;
+    //! True when the gas stays collisional out to the model's outer bound: no exobase, the
+    //! atmosphere flows out hydrodynamically. radius, temperature and log_density are then
+    //! those at the outer bound, and outflow_reason says what was found.
+    bool outflow = false;
+    std::string outflow_reason; //!< why there is no exobase (set with outflow)
 };
 
 //! An upper-atmosphere model: exobase radius and densities from the exobase temperature and the
@@ -170,7 +175,10 @@ class PrescribedExobase final : public ExobaseModel {
 //! T_inf = T(t) and its base temperature and shape held. Escape rates are the thermosphere's
 //! (Jeans, coupled to diffusion when asked) over the exobase sphere. Where the thermosphere is
 //! collisionless down to the homopause, the exobase is the homopause; where it is collisional up
-//! to the outer radius, the run stops with NumericalError (a sign of hydrodynamic outflow).
+//! to the outer radius there is no exobase: the state reports outflow (the gas flows out
+//! hydrodynamically), with the temperature and densities at the outer radius. evolve() then
+//! applies energy-limited loss when its hydrodynamic option is on, and stops with
+//! NumericalError saying why otherwise.
 class ThermosphereExobase final : public ExobaseModel {
   public:
     //! `initial` sets the planet, homopause, species, x_i0 and the profile's form (isothermal or

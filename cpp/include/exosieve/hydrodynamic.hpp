@@ -83,6 +83,8 @@ void partition_mass_loss(double mass_loss, double temperature, double planet_mas
                          const double* diffusion_parameter, std::size_t n, double* rates);
 
 //! When the energy-limited option replaces Jeans escape.
+//! The bulk regime is that of the densest species at the exobase; an exobase model with no
+//! exobase (ExobaseState::outflow) counts as hydrodynamic.
 enum class HydrodynamicActivation : int {
     Hydrodynamic = 0, //!< while the bulk regime is hydrodynamic
     Transition = 1,   //!< while the bulk regime is transition or hydrodynamic
