@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cctype>
 #include <cmath>
+#include <mutex>
 #include <sstream>
 
 #include "csv_text.hpp"
@@ -83,9 +84,12 @@ SpeciesRegistry SpeciesRegistry::from_csv(const std::string& csv_text, const std
 }
 
 const Species& SpeciesRegistry::get(const std::string& name) const {
-    const auto it = by_name_.find(name);
-    if (it != by_name_.end())
-        return it->second;
+    {
+        std::shared_lock<std::shared_mutex> reading(*lock_);
+        const auto it = by_name_.find(name);
+        if (it != by_name_.end())
+            return *it->second;
+    }
     std::string message = "unknown species '" + name + "'";
     const auto near = closest(name);
     if (!near.empty()) {
@@ -97,15 +101,19 @@ const Species& SpeciesRegistry::get(const std::string& name) const {
 }
 
 bool SpeciesRegistry::contains(const std::string& name) const {
+    std::shared_lock<std::shared_mutex> reading(*lock_);
     return by_name_.count(name) > 0;
 }
 
 void SpeciesRegistry::add(const Species& s) {
     validate(s);
-    by_name_[s.name] = s;
+    std::unique_lock<std::shared_mutex> writing(*lock_);
+    entries_.push_back(s);
+    by_name_[s.name] = &entries_.back();
 }
 
 std::vector<std::string> SpeciesRegistry::names() const {
+    std::shared_lock<std::shared_mutex> reading(*lock_);
     std::vector<std::string> out;
     out.reserve(by_name_.size());
     for (const auto& entry : by_name_)
@@ -116,6 +124,7 @@ std::vector<std::string> SpeciesRegistry::names() const {
 std::vector<std::string> SpeciesRegistry::closest(const std::string& name,
                                                   std::size_t count) const {
     std::vector<std::pair<std::size_t, std::string>> scored;
+    std::shared_lock<std::shared_mutex> reading(*lock_);
     for (const auto& entry : by_name_)
         scored.emplace_back(edit_distance(name, entry.first), entry.first);
     std::stable_sort(scored.begin(), scored.end(),

@@ -1,6 +1,9 @@
 #include <doctest/doctest.h>
 
+#include <atomic>
 #include <string>
+#include <thread>
+#include <vector>
 
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
@@ -52,6 +55,39 @@ TEST_CASE("user species are validated and registered") {
     CHECK(registry.contains("Xx"));
     s.mass = -1.0;
     CHECK_THROWS_AS(registry.add(s), InputError);
+}
+
+TEST_CASE("species can be replaced while other threads read the registry") {
+    SpeciesRegistry registry = SpeciesRegistry::from_csv(species_table_csv(), "table");
+    Species s;
+    s.name = "Yy";
+    s.mass = 1 * constants::amu;
+    registry.add(s);
+    const Species& before = registry.get("Yy"); // stays valid and unchanged
+    std::atomic<bool> stop{false};
+    std::atomic<long> odd{0}, reads{0};
+    std::vector<std::thread> readers;
+    for (int k = 0; k < 2; ++k)
+        readers.emplace_back([&] {
+            while (!stop.load()) {
+                const double m = registry.get("Yy").mass / constants::amu;
+                odd += (m != 1.0 && m != 2.0);
+                odd += registry.get("N2").name != "N2";
+                ++reads;
+            }
+        });
+    for (int k = 0; k < 2000; ++k) {
+        s.mass = (k % 2 ? 1.0 : 2.0) * constants::amu;
+        registry.add(s);
+    }
+    while (reads.load() < 1000)
+        std::this_thread::yield();
+    stop = true;
+    for (std::thread& t : readers)
+        t.join();
+    CHECK(odd.load() == 0);
+    CHECK(before.mass == 1 * constants::amu);
+    CHECK(registry.get("Yy").mass == 1 * constants::amu); // the last one added (k = 1999)
 }
 
 TEST_CASE("malformed tables are refused with the line named") {

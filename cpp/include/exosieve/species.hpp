@@ -2,7 +2,10 @@
 //! \file species.hpp
 //! Gas species properties and the registry loaded from data/species.csv.
 
+#include <deque>
 #include <map>
+#include <memory>
+#include <shared_mutex>
 #include <string>
 #include <vector>
 
@@ -28,6 +31,8 @@ struct Species {
 void validate(const Species& s);
 
 //! Name -> Species registry; unknown names raise InputError suggesting the closest names.
+//! Safe to read from many threads while another adds species: a reference from get() stays
+//! valid as long as the registry (a replaced species is kept, not overwritten).
 class SpeciesRegistry {
   public:
     //! Parse a registry from CSV text with the columns of data/species.csv.
@@ -45,7 +50,9 @@ class SpeciesRegistry {
     std::vector<std::string> closest(const std::string& name, std::size_t count = 3) const;
 
   private:
-    std::map<std::string, Species> by_name_;
+    std::map<std::string, const Species*> by_name_;
+    std::deque<Species> entries_; // every species ever added; a deque keeps them in place
+    std::unique_ptr<std::shared_mutex> lock_ = std::make_unique<std::shared_mutex>();
 };
 
 //! The process-wide registry, built from the species table compiled into the library.
