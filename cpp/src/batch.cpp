@@ -736,8 +736,10 @@ std::vector<std::string> check_rows(const CaseTable& table, const BatchOptions& 
     const std::size_t hardware = std::max(1u, std::thread::hardware_concurrency());
     const std::size_t threads = std::max<std::size_t>(
         1, std::min<std::size_t>(o.threads ? o.threads : hardware, (end - begin) / 256 + 1));
+    // One plan per thread (it holds scratch space), made here where a failure can still throw.
+    std::vector<TablePlan> plans(threads, plan_table(table));
     auto check = [&](std::size_t first, std::size_t stride) {
-        TablePlan plan = plan_table(table);
+        TablePlan& plan = plans[first];
         for (std::size_t i = begin + first; i < end; i += stride) {
             std::string& error = errors[i - begin];
             if (!table.row_errors.empty() && !table.row_errors[i].empty()) {
