@@ -393,11 +393,10 @@ void write_whole(hid_t dataset, const Payload& payload, const std::string& what)
 
 // Makes the dataset `rows` + `start` long along `case` and writes `payload` into rows
 // [start, start + rows).
-void write_rows(hid_t dataset_id, const std::string& name, const std::vector<hsize_t>& trailing,
+void write_rows(hid_t dataset, const std::string& name, const std::vector<hsize_t>& trailing,
                 std::size_t start, std::size_t rows, const Payload& payload,
                 const std::string& where) {
     const std::string what = "append to dataset " + in_quotes(name) + " in " + where;
-    const hid_t dataset = dataset_id;
     std::vector<hsize_t> extent{static_cast<hsize_t>(start + rows)};
     extent.insert(extent.end(), trailing.begin(), trailing.end());
     check(H5Dset_extent(dataset, extent.data()), what);

@@ -4,9 +4,9 @@
 (Jeans escape, or energy-limited hydrodynamic loss with drag) and ``S_i`` a source. The C++
 core integrates ``ln N_i`` with Boost.Odeint under step-size control (Dormand–Prince 5(4);
 Rosenbrock 4(3) when sources make the problem stiff), with dense output at ``t_eval`` and
-events (depletion, regime changes) located by bisection on the dense output. In ``ln N`` a
-species lost in 1e4 years beside one lasting 10 Gyr costs no extra steps, and inventories far
-below 1e-308 of their start stay representable.
+events located on the dense output (depletion by TOMS 748, regime changes by bisection). In
+``ln N`` a species lost in 1e4 years beside one lasting 10 Gyr costs no extra steps, and
+inventories far below 1e-308 of their start stay representable.
 """
 
 from __future__ import annotations
