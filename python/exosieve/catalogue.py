@@ -155,9 +155,9 @@ class CaseTable:
         table.first_key = first_key
         for name, values in self.columns.items():
             table.add_column(name, np.ascontiguousarray(values[rows], dtype=float))
-        for name, values in self.text_columns.items():
+        for name, texts in self.text_columns.items():
             if name != "case":
-                table.add_text(name, values[rows])
+                table.add_text(name, texts[rows])
         return table
 
 
@@ -207,7 +207,7 @@ class _Reader:
             if name in TEXT_COLUMNS:
                 self.table.text_columns[name] = []
             else:
-                self.table.columns[name] = []
+                self.table.columns[name] = np.zeros(0)
             if name.startswith("x_") and not name.endswith(("_sigma", "_lnsigma")):
                 try:
                     _species(name[2:])  # unknown species: ValueError with the closest names
@@ -254,8 +254,8 @@ class _Reader:
             raw = np.asarray(column, dtype=object) if not _is_float_array(column) else column
             if name in table.text_columns:
                 # Texts as given, unless a cell is missing (not text, or the text "nan").
-                stripped = [value.strip() if type(value) is str else None for value in raw]
-                missing = None in stripped
+                stripped = [value.strip() for value in raw if type(value) is str]
+                missing = len(stripped) != len(raw)
                 if not missing:  # one joined search instead of a comparison per cell
                     missing = "\0nan\0" in ("\0" + "\0".join(stripped) + "\0").lower()
                 if missing:
@@ -304,9 +304,9 @@ def _numbers(raw: Any) -> tuple[NDArray[np.float64], dict[int, Any]]:
                     values[i] = float(value)
                 except (TypeError, ValueError):
                     bad[i] = value
-            for i in np.nonzero(np.isinf(values))[0]:
-                bad[int(i)] = float(values[i])
-                values[i] = np.nan
+            for k in np.nonzero(np.isinf(values))[0]:
+                bad[int(k)] = float(values[k])
+                values[k] = np.nan
             return values, bad
     infinite = np.nonzero(np.isinf(values))[0]
     bad = {int(i): float(values[i]) for i in infinite}

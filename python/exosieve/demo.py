@@ -42,8 +42,8 @@ def snapshot(table: CaseTable) -> SnapshotTable:
     mass = np.array([species(s).mass for s in table.species])
     density = x * n_total[:, None]
     r, t, m, mp = radius[:, None], temperature[:, None], mass[None, :], planet_mass[:, None]
-    lam = jeans_parameter(t, m, mp, r)
-    flux = jeans_flux(density, t, m, mp, r)
+    lam = np.asarray(jeans_parameter(t, m, mp, r))
+    flux = np.asarray(jeans_flux(density, t, m, mp, r))
     rate = 4.0 * np.pi * r**2 * flux  # global rate [s^-1] from the flux just computed
     absent = x == 0.0
     for a in (density, flux, rate):

@@ -92,7 +92,7 @@ def jeans_flux_vs_temperature(
     ax = _axes(ax)
     t = np.asarray(temperatures, dtype=float)
     for gas in gases:
-        lam = jeans_parameter(t, gas, planet_mass, radius)
+        lam = np.asarray(jeans_parameter(t, gas, planet_mass, radius))
         ax.semilogy(
             t,
             jeans_flux(density, t, gas, planet_mass, radius),

@@ -54,11 +54,14 @@ VARIABLES: dict[str, tuple[str, str]] = {
 REGIME_FLAGS = {"flag_values": "0 1 2 3", "flag_meanings": " ".join(REGIMES)}
 
 
-class PerName(Mapping):  # type: ignore[type-arg]
+class PerName(Mapping[str, Any]):
     """Columns of a (time x name) array, looked up by species or ratio name.
 
     ``result.inventory["H"]`` is the time series of H; ``.values`` is the whole array.
     """
+
+    # The whole array, by its documented name; it shadows Mapping.values() on purpose.
+    values: NDArray[Any]  # type: ignore[assignment]
 
     def __init__(self, names: list[str], values: NDArray[Any]) -> None:
         self.names = list(names)
@@ -272,7 +275,7 @@ class EvolutionResult:
                 {"units": "1", "long_name": "species"},
             ),
         }
-        data = {}
+        data: dict[str, tuple[tuple[str, ...], Any, dict[str, str]]] = {}
         for name, (units, long_name) in SPECIES_VARIABLES.items():
             data[name] = (
                 ("time", "species"),

@@ -27,7 +27,8 @@ def species(name: str) -> Species:
         return name
     if not isinstance(name, str):
         raise ValueError(f"name must be a species name (str), got {name!r}")
-    return _core.species(name)
+    found: Species = _core.species(name)
+    return found
 
 
 def register_species(

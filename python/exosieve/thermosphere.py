@@ -402,7 +402,7 @@ class ThermosphereSolutions:
     @property
     def found(self) -> NDArray[np.bool_]:
         """True where an exobase was found."""
-        return self.status == 0
+        return np.asarray(self.status == 0, dtype=bool)
 
 
 def solve_thermospheres(

@@ -125,7 +125,7 @@ def test_sweep_summary_chart_and_columns(tmp_path, capsys):
 
 @pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM, signal.SIGKILL])
 def test_interrupted_sweep_resumes_to_the_same_file(tmp_path, sig):
-    total = 120  # enough that the run is still going when the signal arrives
+    total = 120  # with 800 samples each: still going when the signal arrives (~2 s in all)
     table = sweep_table(tmp_path, total)
     out, reference = tmp_path / "run.h5", tmp_path / "whole.h5"
     command = [
@@ -135,7 +135,7 @@ def test_interrupted_sweep_resumes_to_the_same_file(tmp_path, sig):
         "sweep",
         str(table),
         "--samples",
-        "300",
+        "800",
         "--threads",
         "1",
         "--chunk",
