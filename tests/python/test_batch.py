@@ -267,7 +267,8 @@ def test_template_and_demo_catalogue_run(tmp_path):
 
 
 def test_ctrl_c_keeps_the_finished_cases(tmp_path):
-    # Enough cases that the run cannot finish within the ~0.1 s between progress calls.
+    # Enough runs (96 cases of 401) that the run cannot finish within the ~0.1 s between
+    # progress calls: the signal sent at one is seen at the next.
     total = 96
     path = write(tmp_path, rows(total))
     out = tmp_path / "partial.h5"
@@ -280,16 +281,16 @@ def test_ctrl_c_keeps_the_finished_cases(tmp_path):
 
     with pytest.raises(Interrupted) as stopped:
         compare(
-            path, t_end=GYR_45, samples=200, threads=1, chunk_size=4, output=out, progress=progress
+            path, t_end=GYR_45, samples=400, threads=1, chunk_size=4, output=out, progress=progress
         )
     partial = stopped.value.result
     assert 8 <= len(partial) < total and len(partial) % 4 == 0
     on_disk = open_comparison(out)
     assert len(on_disk) == len(partial)
     # Rerunning resumes after the finished chunks and ends with the uninterrupted results.
-    resumed = compare(path, t_end=GYR_45, samples=200, threads=2, chunk_size=4, output=out)
+    resumed = compare(path, t_end=GYR_45, samples=400, threads=2, chunk_size=4, output=out)
     assert resumed.resumed_from == len(partial) and resumed.complete
-    whole = compare(path, t_end=GYR_45, samples=200, threads=2, chunk_size=6)
+    whole = compare(path, t_end=GYR_45, samples=400, threads=2, chunk_size=6)
     same_results(resumed, whole)
 
 
