@@ -37,12 +37,14 @@ pressure of 0.1-10 bar; rtol = 1e-6; 16 output ages.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import os
 import subprocess
 import sys
 import tempfile
 import time
+from collections.abc import Iterator
 from pathlib import Path
 
 import numpy as np
@@ -107,20 +109,27 @@ def machine_ceiling() -> float:
     return 2.0 * one / two
 
 
-def run(frame: pd.DataFrame, threads: int, output: Path | None, cores: int | None = None) -> float:
-    """Seconds of one compare() call; `cores`: on that many of this process's CPUs only (the
-    engine's threads, including the one writing the file, inherit the calling thread's set)."""
+@contextlib.contextmanager
+def on_cores(cores: int | None) -> Iterator[None]:
+    """Run the block on the first `cores` of this process's CPUs (None: all). Threads started
+    inside, the engine's workers and the one writing the file, inherit the set."""
     allowed = os.sched_getaffinity(0)
     if cores is not None:
         os.sched_setaffinity(0, sorted(allowed)[:cores])
     try:
+        yield
+    finally:
+        os.sched_setaffinity(0, allowed)
+
+
+def run(frame: pd.DataFrame, threads: int, output: Path | None, cores: int | None = None) -> float:
+    """Seconds of one compare() call, on `cores` CPUs (None: all)."""
+    with on_cores(cores):
         start = time.perf_counter()
         exosieve.compare(
             frame, t_start=T_START, t_end=T_END, threads=threads, output=output, overwrite=True
         )
         return time.perf_counter() - start
-    finally:
-        os.sched_setaffinity(0, allowed)
 
 
 def engine(frame: pd.DataFrame, threads: int, folder: Path, cores: int | None = None) -> float:
@@ -148,19 +157,15 @@ def engine(frame: pd.DataFrame, threads: int, folder: Path, cores: int | None = 
     }
     core = table.to_core(first_key=0, rows=slice(0, len(table)))
     sink = _create_file(folder / "engine.h5", {"kind": "bench"}, list(table.species), grid, 0)
-    allowed = os.sched_getaffinity(0)
-    if cores is not None:
-        os.sched_setaffinity(0, sorted(allowed)[:cores])
     try:
-        start = time.perf_counter()
-        _core.run_batch(
-            core, 0, len(table), _core_options(options, threads, _default_chunk(0)), sink
-        )
-        seconds = time.perf_counter() - start
+        with on_cores(cores):
+            start = time.perf_counter()
+            _core.run_batch(
+                core, 0, len(table), _core_options(options, threads, _default_chunk(0)), sink
+            )
+            return time.perf_counter() - start
     finally:
-        os.sched_setaffinity(0, allowed)
         sink.close()
-    return seconds
 
 
 # ---------------------------------------------------------------- memory, in a fresh process

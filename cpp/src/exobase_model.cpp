@@ -318,27 +318,25 @@ void ThermosphereExobase::evaluate(double t, const double* log_fraction, double 
         if (used > 0.0)
             shift[i] = lx[i] - std::log(used);
     }
-    out.outflow = false;
-    if (e.status == ExobaseStatus::none_below_outer_radius) {
+    // No exobase found: Jeans rates from the state at `radius`.
+    auto jeans_at = [&](double radius) {
+        out.radius = radius;
+        out.temperature = th.temperature(radius);
+        out.has_escape_rates = false;
+        for (std::size_t i = 0; i < n; ++i)
+            out.log_density[i] = th.log_density(i, radius) + shift[i];
+    };
+    out.outflow = e.status == ExobaseStatus::none_below_outer_radius;
+    if (out.outflow) {
         // Collisional out to the outer bound: the gas flows out. The evolution hands over to
         // energy-limited loss, or stops with the reason; the state at the outer bound serves
         // its regime and the Jeans rates of the species the outflow does not carry.
-        out.outflow = true;
         out.outflow_reason = "no exobase at t = " + format_value(t) + " s: " + e.message;
-        out.radius = outer_radius_;
-        out.temperature = th.temperature(outer_radius_);
-        out.has_escape_rates = false;
-        for (std::size_t i = 0; i < n; ++i)
-            out.log_density[i] = th.log_density(i, out.radius) + shift[i];
+        jeans_at(outer_radius_);
         return;
     }
     if (e.status == ExobaseStatus::collisionless_at_homopause) {
-        // Collisionless down to the homopause: particles escape from there.
-        out.radius = homopause_radius_;
-        out.temperature = th.temperature(homopause_radius_);
-        out.has_escape_rates = false;
-        for (std::size_t i = 0; i < n; ++i)
-            out.log_density[i] = th.log_density(i, out.radius) + shift[i];
+        jeans_at(homopause_radius_); // collisionless down to the homopause: escape from there
         return;
     }
     out.radius = e.radius;
