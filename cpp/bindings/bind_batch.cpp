@@ -32,38 +32,21 @@ py::array strings(const std::vector<std::string>& data) {
     return py::module_::import("numpy").attr("array")(items, py::arg("dtype") = "object");
 }
 
-// A chunk as the case variables of a result file (see exosieve.batch).
+// A chunk as the case variables of a result file, shaped (case, ...).
 py::dict chunk_dict(const BatchChunk& c) {
-    const auto n = static_cast<py::ssize_t>(c.count), s = static_cast<py::ssize_t>(c.species),
-               t = static_cast<py::ssize_t>(c.times), k = static_cast<py::ssize_t>(c.samples);
+    const auto n = static_cast<py::ssize_t>(c.count);
     py::dict d;
-    std::vector<std::int64_t> key(c.key.begin(), c.key.end());
-    d["case"] = shaped(key, {n});
-    d["case_name"] = strings(c.name);
-    d["error"] = strings(c.error);
-    d["steps"] = shaped(c.steps, {n});
-    d["planet_mass"] = shaped(c.planet_mass, {n});
-    d["planet_radius"] = shaped(c.planet_radius, {n});
-    d["exobase_radius"] = shaped(c.exobase_radius, {n});
-    d["escape_speed"] = shaped(c.escape_speed, {n});
-    d["age_start"] = shaped(c.t_start, {n});
-    d["age_end"] = shaped(c.t_end, {n});
-    d["exobase_temperature_start"] = shaped(c.temperature_start, {n});
-    d["mole_fraction"] = shaped(c.mole_fraction, {n, s});
-    d["exobase_temperature"] = shaped(c.exobase_temperature, {n, t});
-    d["retained_fraction"] = shaped(c.retained, {n, t, s});
-    d["jeans_parameter"] = shaped(c.jeans_parameter, {n, t, s});
-    d["final_retained_fraction"] = shaped(c.final_retained, {n, s});
-    d["depletion_time"] = shaped(c.depletion_time, {n, s});
-    d["efolding_time"] = shaped(c.efolding_time, {n, s});
-    d["jeans_parameter_start"] = shaped(c.jeans_start, {n, s});
-    d["jeans_parameter_end"] = shaped(c.jeans_end, {n, s});
-    d["regime_start"] = shaped(c.regime_start, {n, s});
-    if (k > 0) {
-        d["sample_retained_fraction"] = shaped(c.sample_retained, {n, k, s});
-        d["sample_depletion_time"] = shaped(c.sample_depletion_time, {n, k, s});
-        d["sample_failed"] = shaped(c.sample_failed, {n, k});
-        d["sample_error"] = strings(c.sample_error);
+    d["case"] = shaped(std::vector<std::int64_t>(c.key.begin(), c.key.end()), {n});
+    for (const ChunkVariable& v : chunk_variables(c)) {
+        std::vector<py::ssize_t> shape{n};
+        for (std::size_t size : v.trailing)
+            shape.push_back(static_cast<py::ssize_t>(size));
+        if (v.f)
+            d[v.name] = shaped(*v.f, shape);
+        else if (v.i)
+            d[v.name] = shaped(*v.i, shape);
+        else
+            d[v.name] = strings(*v.s);
     }
     return d;
 }

@@ -416,10 +416,11 @@ TablePlan plan_table(const CaseTable& table) {
         role.base = role.sigma     ? name.substr(0, name.size() - 6)
                     : role.lnsigma ? name.substr(0, name.size() - 8)
                                    : name;
-        role.parameter = find_case_parameter(role.base);
         for (std::size_t k = 0; k < params.size(); ++k)
             if (params[k].name == role.base)
                 role.global = k;
+        role.parameter =
+            role.global != none ? &params[role.global] : find_case_parameter(role.base);
         if (role.global == none && role.parameter) {
             role.inventory = starts_with(role.base, "inventory_");
             role.species = species_index(role.base.substr(role.inventory ? 10 : 2));
@@ -512,6 +513,19 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
     }
     s.label = table.row_label(row);
     return s;
+}
+
+// The output column (index in o.species) of each of the case's species; InputError for a
+// species the batch does not have.
+std::vector<std::size_t> output_columns(const CaseSpec& spec, const BatchOptions& o) {
+    std::vector<std::size_t> columns;
+    for (const Species& sp : spec.species) {
+        const auto at = std::find(o.species.begin(), o.species.end(), sp.name);
+        if (at == o.species.end())
+            throw InputError("species '" + sp.name + "' is not among the batch's species");
+        columns.push_back(static_cast<std::size_t>(at - o.species.begin()));
+    }
+    return columns;
 }
 
 } // namespace
@@ -749,11 +763,7 @@ std::vector<std::string> check_rows(const CaseTable& table, const BatchOptions& 
             try {
                 const CaseSpec s = read_case(table, plan, i);
                 try {
-                    for (const Species& sp : s.species)
-                        if (std::find(o.species.begin(), o.species.end(), sp.name) ==
-                            o.species.end())
-                            throw InputError("species '" + sp.name +
-                                             "' is not among the batch's species");
+                    output_columns(s, o);
                     build_config(s, o).validate();
                 } catch (const InputError& e) {
                     throw InputError(s.label + " (case '" + s.name + "'), " + e.what());
@@ -820,34 +830,49 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
     sample_error.assign(cases, std::string());
 }
 
+std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
+    const std::size_t S = c.species, T = c.times, N = c.samples;
+    std::vector<ChunkVariable> v{
+        {"case_name", {}, nullptr, nullptr, &c.name},
+        {"error", {}, nullptr, nullptr, &c.error},
+        {"steps", {}, nullptr, &c.steps},
+        {"planet_mass", {}, &c.planet_mass},
+        {"planet_radius", {}, &c.planet_radius},
+        {"exobase_radius", {}, &c.exobase_radius},
+        {"escape_speed", {}, &c.escape_speed},
+        {"age_start", {}, &c.t_start},
+        {"age_end", {}, &c.t_end},
+        {"exobase_temperature_start", {}, &c.temperature_start},
+        {"mole_fraction", {S}, &c.mole_fraction},
+        {"exobase_temperature", {T}, &c.exobase_temperature},
+        {"retained_fraction", {T, S}, &c.retained},
+        {"jeans_parameter", {T, S}, &c.jeans_parameter},
+        {"final_retained_fraction", {S}, &c.final_retained},
+        {"depletion_time", {S}, &c.depletion_time},
+        {"efolding_time", {S}, &c.efolding_time},
+        {"jeans_parameter_start", {S}, &c.jeans_start},
+        {"jeans_parameter_end", {S}, &c.jeans_end},
+        {"regime_start", {S}, nullptr, &c.regime_start},
+    };
+    if (N > 0) {
+        v.push_back({"sample_retained_fraction", {N, S}, &c.sample_retained});
+        v.push_back({"sample_depletion_time", {N, S}, &c.sample_depletion_time});
+        v.push_back({"sample_failed", {N}, nullptr, &c.sample_failed});
+        v.push_back({"sample_error", {}, nullptr, nullptr, &c.sample_error});
+    }
+    return v;
+}
+
 RowBlock chunk_rows(const BatchChunk& c) {
     RowBlock b(c.count);
     b.set("case", std::vector<std::int64_t>(c.key.begin(), c.key.end()));
-    b.set("case_name", c.name);
-    b.set("error", c.error);
-    b.set("steps", c.steps);
-    b.set("planet_mass", c.planet_mass);
-    b.set("planet_radius", c.planet_radius);
-    b.set("exobase_radius", c.exobase_radius);
-    b.set("escape_speed", c.escape_speed);
-    b.set("age_start", c.t_start);
-    b.set("age_end", c.t_end);
-    b.set("exobase_temperature_start", c.temperature_start);
-    b.set("mole_fraction", c.mole_fraction);
-    b.set("exobase_temperature", c.exobase_temperature);
-    b.set("retained_fraction", c.retained);
-    b.set("jeans_parameter", c.jeans_parameter);
-    b.set("final_retained_fraction", c.final_retained);
-    b.set("depletion_time", c.depletion_time);
-    b.set("efolding_time", c.efolding_time);
-    b.set("jeans_parameter_start", c.jeans_start);
-    b.set("jeans_parameter_end", c.jeans_end);
-    b.set("regime_start", c.regime_start);
-    if (c.samples > 0) {
-        b.set("sample_retained_fraction", c.sample_retained);
-        b.set("sample_depletion_time", c.sample_depletion_time);
-        b.set("sample_failed", c.sample_failed);
-        b.set("sample_error", c.sample_error);
+    for (const ChunkVariable& v : chunk_variables(c)) {
+        if (v.f)
+            b.set(v.name, *v.f);
+        else if (v.i)
+            b.set(v.name, *v.i);
+        else
+            b.set(v.name, *v.s);
     }
     return b;
 }
@@ -995,23 +1020,20 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
         }
         try {
             spec = read_case(table, plan, row);
-            for (const Species& sp : spec.species)
-                if (std::find(o.species.begin(), o.species.end(), sp.name) == o.species.end())
-                    throw InputError(spec.label + " (case '" + spec.name + "'), species '" +
-                                     sp.name + "' is not among the batch's species");
         } catch (const InputError& e) {
             spec = CaseSpec{};
             spec.error = e.what();
             return;
         }
-        std::fill_n(s.out.mole_fraction.begin() + static_cast<std::ptrdiff_t>(j * S), S, 0.0);
-        for (std::size_t i = 0; i < spec.species.size(); ++i) {
-            const auto column = static_cast<std::size_t>(
-                std::find(o.species.begin(), o.species.end(), spec.species[i].name) -
-                o.species.begin());
-            s.columns[j].push_back(column);
-            s.out.mole_fraction[j * S + column] = spec.mole_fraction(i);
+        try {
+            s.columns[j] = output_columns(spec, o);
+        } catch (const InputError& e) {
+            spec.error = spec.label + " (case '" + spec.name + "'), " + e.what();
+            return;
         }
+        std::fill_n(s.out.mole_fraction.begin() + static_cast<std::ptrdiff_t>(j * S), S, 0.0);
+        for (std::size_t i = 0; i < spec.species.size(); ++i)
+            s.out.mole_fraction[j * S + s.columns[j][i]] = spec.mole_fraction(i);
     };
 
     std::mutex m;

@@ -210,13 +210,27 @@ struct BatchChunk {
                std::size_t time_count, std::size_t sample_count);
 };
 
-//! A chunk as rows of a sweep file: the case variables `case` (key), case_name, error, steps,
-//! planet_mass, planet_radius, exobase_radius, escape_speed, age_start, age_end,
-//! exobase_temperature_start, mole_fraction, exobase_temperature, retained_fraction,
-//! jeans_parameter, final_retained_fraction, depletion_time, efolding_time,
-//! jeans_parameter_start, jeans_parameter_end, regime_start, and with samples
-//! sample_retained_fraction, sample_depletion_time, sample_failed, sample_error. Written
-//! straight from C++, a chunk costs the file no interpreter objects.
+//! One case variable of a chunk under its name in sweep files: `count` rows, each of shape
+//! `trailing` (e.g. {times, species}), row-major; exactly one of f, i, s is set.
+struct ChunkVariable {
+    const char* name;                             //!< e.g. "retained_fraction"
+    std::vector<std::size_t> trailing;            //!< shape of one row (empty: a scalar per case)
+    const std::vector<double>* f = nullptr;       //!< float64 values
+    const std::vector<std::int64_t>* i = nullptr; //!< int64 values
+    const std::vector<std::string>* s = nullptr;  //!< string values
+};
+
+//! The case variables of a chunk besides `case` (its keys), in one order for every consumer:
+//! case_name, error, steps, planet_mass, planet_radius, exobase_radius, escape_speed,
+//! age_start, age_end, exobase_temperature_start, mole_fraction, exobase_temperature,
+//! retained_fraction, jeans_parameter, final_retained_fraction, depletion_time,
+//! efolding_time, jeans_parameter_start, jeans_parameter_end, regime_start, and with samples
+//! sample_retained_fraction, sample_depletion_time, sample_failed, sample_error. They point
+//! into `chunk`.
+std::vector<ChunkVariable> chunk_variables(const BatchChunk& chunk);
+
+//! A chunk as rows of a sweep file: `case` (the keys) and chunk_variables(). Written straight
+//! from C++, a chunk costs the file no interpreter objects.
 RowBlock chunk_rows(const BatchChunk& chunk);
 
 //! Hooks of run_batch(), all called on the calling thread.
