@@ -869,9 +869,23 @@ EvolutionResult evolve(const EvolutionConfig& c) {
 
     Snapshot snap;
     std::size_t next_eval = 0;
+    // Without a source a species only loses: dy_i/dt <= 0, so its exact ln N never rises. The
+    // interpolant and (rarely) a step can overshoot by about their error; projecting them onto
+    // the non-increasing values (between the step's ends, and not above the previous output)
+    // keeps the outputs monotone and cannot move them further from the exact solution, which
+    // lies in that set.
+    std::vector<char> monotone(n, 1);
+    for (std::size_t i = 0; i < c.sources.size(); ++i)
+        monotone[i] = c.sources[i].is_zero() ? 1 : 0;
+    State y_recorded = y, y_out(n);
     auto record = [&](double time, const State& state) {
-        model.snapshot(time, state, mode, snap);
-        recorder.record(time, state, snap, mode.energy_limited);
+        y_out = state;
+        for (std::size_t i = 0; i < n; ++i)
+            if (monotone[i])
+                y_out[i] = std::min(y_out[i], y_recorded[i]);
+        y_recorded = y_out;
+        model.snapshot(time, y_out, mode, snap);
+        recorder.record(time, y_out, snap, mode.energy_limited);
     };
     if (c.t_eval.empty()) {
         record(t, y);
@@ -895,6 +909,33 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         if (change > 0.0)
             dt = std::min(dt, scale * std::pow(0.1 * tol / change, 1.0 / 6.0));
     }
+
+    // After a kink (and at the start) the rates may change on a time scale that the step-size
+    // controller has not seen: the step it proposes was sized on the smooth stretch before, and
+    // a Dormand–Prince error estimate on a step many times longer than that scale can be small
+    // while the step is wrong (measured: one step from 3.0 to 9.1 Gyr after the temperature left
+    // its upper clamp erred by 57x rtol). So the rate of change of each species' rate is
+    // measured on a short probe step, d ln|dy_i/dt| / dt = 1/tau_i, and the step is sized with
+    // the same error model as the first step, on the scale tau_i: |dy_i/dt| tau_i (h/tau_i)^6
+    // at a tenth of the tolerance. One right-hand-side evaluation per kink.
+    State y_kink(n), dydt_kink(n);
+    auto step_after_kink = [&](double proposal) {
+        const double delta = 1e-4 * proposal;
+        y_kink = y + delta * dydt;
+        model.rhs(y_kink, dydt_kink, t + delta);
+        double h = proposal;
+        for (std::size_t i = 0; i < n; ++i) {
+            const double rate = std::abs(dydt[i]);
+            const double change = std::abs(dydt_kink[i] - dydt[i]);
+            if (!(rate > 0.0) || !(change > 0.0) || !std::isfinite(change))
+                continue;
+            const double tau = delta * rate / change;
+            const double tol = checker_tolerance(c.rtol, log_atol[i], y[i]);
+            h = std::min(h, tau * std::pow(0.1 * tol / (rate * tau), 1.0 / 6.0));
+        }
+        return h;
+    };
+    dt = step_after_kink(dt);
 
     std::size_t worst = 0;
     const LogErrorChecker checker(c.rtol, &log_atol, &worst);
@@ -950,6 +991,14 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         }
         consecutive_rejections = 0;
         ++r.steps;
+        bool overshoot = false;
+        for (std::size_t i = 0; i < n; ++i)
+            if (monotone[i] && y_new[i] > y[i]) {
+                y_new[i] = y[i];
+                overshoot = true;
+            }
+        if (overshoot)
+            model.rhs(y_new, dydt_new, t + h_planned);
         const double t_step_end = t + h_planned; // the end used by the interpolant
         const double t_new = landing ? t_stop : t_step_end;
         // h now holds the controller's proposal; a step cut short to land on a stop keeps the
@@ -958,6 +1007,9 @@ EvolutionResult evolve(const EvolutionConfig& c) {
 
         auto dense = [&](double tq, State& out) {
             stepper->dense(tq, out, t, y, dydt, t_step_end, y_new, dydt_new);
+            for (std::size_t i = 0; i < n; ++i)
+                if (monotone[i])
+                    out[i] = std::clamp(out[i], y_new[i], y[i]);
         };
 
         // Events inside (t, t_new]: depletion (a mode change when the species' loss does not
@@ -1025,19 +1077,24 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             mode = next_mode;
             model.set_mode(mode);
             model.rhs(y, dydt, t);
+            dt = step_after_kink(dt);
         } else {
             y.swap(y_new);
             dydt.swap(dydt_new);
             t = t_new;
             if (c.t_eval.empty())
                 record(t, y);
+            bool kink = landing && t < c.t_end;
             if (landing)
                 ++stop_index;
             if (!(next_mode == mode)) {
                 mode = next_mode;
                 model.set_mode(mode);
                 model.rhs(y, dydt, t);
+                kink = true;
             }
+            if (kink)
+                dt = step_after_kink(dt);
         }
         if (c.progress && !c.progress(t)) {
             r.t_reached = t;
