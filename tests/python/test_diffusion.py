@@ -72,8 +72,22 @@ def test_measured_pairs_override_and_broadcast():
 # CRC Handbook of Chemistry and Physics, table "Diffusion in gases" (from Marrero & Mason 1972,
 # J. Phys. Chem. Ref. Data 1, 3): D [cm^2 s^-1] at 101.325 kPa of a gas in a large excess of air.
 CRC_IN_AIR = {
-    "H2": {273.15: 0.668, 293.15: 0.756, 373.15: 1.153, 473.15: 1.747, 573.15: 2.444, 673.15: 3.238},
-    "He": {273.15: 0.617, 293.15: 0.697, 373.15: 1.057, 473.15: 1.594, 573.15: 2.221, 673.15: 2.933},
+    "H2": {
+        273.15: 0.668,
+        293.15: 0.756,
+        373.15: 1.153,
+        473.15: 1.747,
+        573.15: 2.444,
+        673.15: 3.238,
+    },
+    "He": {
+        273.15: 0.617,
+        293.15: 0.697,
+        373.15: 1.057,
+        473.15: 1.594,
+        573.15: 2.221,
+        673.15: 2.933,
+    },
 }
 # Dry air by mole fraction, N2/O2/Ar (common practice).
 AIR = {"N2": 0.781, "O2": 0.210, "Ar": 0.009}

@@ -118,6 +118,7 @@ POLING_CAS = {
 @pytest.mark.parametrize(("name", "cas"), sorted(POLING_CAS.items()))
 def test_lennard_jones_parameters_match_poling_table_b1(name, cas):
     from chemicals import lennard_jones as lj
+
     s = exosieve.species(name)
     sigma = lj.molecular_diameter(cas, method=lj.POLING)  # [Angstrom]
     eps = lj.Stockmayer(cas, method=lj.POLING)  # [K]
@@ -130,6 +131,7 @@ def test_atoms_are_not_in_table_b1_and_stay_from_memory():
     # Atomic H, C, N, O are not in Poling et al. Table B-1 (nor in the chemicals package's copy
     # of it): their values (Svehla 1962) are marked from memory.
     from chemicals import lennard_jones as lj
+
     table = lj.LJ_data_Poling  # indexed by CAS number
     assert all(cas in table.index for cas in POLING_CAS.values())
     for name, cas in [("H", "12385-13-6"), ("N", "17778-88-0"), ("O", "17778-80-2")]:
@@ -147,7 +149,9 @@ def test_isotopes_share_the_parent_potential():
 # ---------------------------------------------------------------- thermal diffusion
 
 
-@pytest.mark.parametrize(("name", "alpha"), [("H", -0.25), ("D", -0.25), ("He", -0.38), ("3He", -0.38)])
+@pytest.mark.parametrize(
+    ("name", "alpha"), [("H", -0.25), ("D", -0.25), ("He", -0.38), ("3He", -0.38)]
+)
 def test_light_species_have_the_aeronomy_thermal_diffusion_factors(name, alpha):
     # from memory: Banks & Kockarts (1973, Aeronomy Part B) take alpha = -0.25 for H and -0.38
     # for He in d ln n/dr = -m g/(k T) - (1 + alpha) d ln T/dr; other compilations differ by a
