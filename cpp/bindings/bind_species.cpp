@@ -19,7 +19,8 @@ void bind_species(py::module_& m) {
                  s.lj_well_depth = lj_well_depth;
                  s.cross_section = cross_section;
                  s.thermal_diffusion_factor = thermal_diffusion_factor;
-                 s.mass_source = s.lj_source = s.cross_section_source = source;
+                 s.mass_source = s.lj_source = s.cross_section_source = s.thermal_diffusion_source =
+                     source;
                  validate(s);
                  return s;
              }),
@@ -38,6 +39,7 @@ void bind_species(py::module_& m) {
         .def_readonly("mass_source", &Species::mass_source)
         .def_readonly("lj_source", &Species::lj_source)
         .def_readonly("cross_section_source", &Species::cross_section_source)
+        .def_readonly("thermal_diffusion_source", &Species::thermal_diffusion_source)
         .def("__repr__",
              [](const Species& s) {
                  return "Species(name='" + s.name + "', mass=" + std::to_string(s.mass_u()) + " u)";
@@ -46,7 +48,8 @@ void bind_species(py::module_& m) {
             [](const Species& s) {
                 return py::make_tuple(s.name, s.mass, s.lj_diameter, s.lj_well_depth,
                                       s.cross_section, s.thermal_diffusion_factor, s.mass_source,
-                                      s.lj_source, s.cross_section_source);
+                                      s.lj_source, s.cross_section_source,
+                                      s.thermal_diffusion_source);
             },
             [](const py::tuple& t) {
                 Species s;
@@ -59,6 +62,7 @@ void bind_species(py::module_& m) {
                 s.mass_source = t[6].cast<std::string>();
                 s.lj_source = t[7].cast<std::string>();
                 s.cross_section_source = t[8].cast<std::string>();
+                s.thermal_diffusion_source = t[9].cast<std::string>();
                 return s;
             }));
 

@@ -11,6 +11,7 @@
 #include <mutex>
 #include <optional>
 #include <set>
+#include <sstream>
 #include <thread>
 #include <utility>
 
@@ -405,6 +406,7 @@ TablePlan plan_table(const CaseTable& table) {
             sp.mass_source.clear();
             sp.lj_source.clear();
             sp.cross_section_source.clear();
+            sp.thermal_diffusion_source.clear();
             plan.species.push_back(std::move(sp));
         }
     plan.x_column.assign(species_names.size(), none);
@@ -496,6 +498,17 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
         }
         if (n == 0)
             throw InputError("no species: every mole fraction 'x_<species>' is zero or empty");
+        double x_sum = 0.0;
+        for (std::size_t i = 0; i < n; ++i)
+            x_sum += s.values[P + i];
+        if (!(std::abs(x_sum - 1.0) <= mole_fraction_sum_tolerance)) {
+            std::ostringstream sum;
+            sum.precision(12);
+            sum << x_sum;
+            throw InputError("mole fractions 'x_<species>' sum to " + sum.str() +
+                             ", not 1 (allowed: within " +
+                             format_value(mole_fraction_sum_tolerance) + ")");
+        }
         s.species.reserve(n);
         for (std::size_t k : plan.present)
             s.species.push_back(plan.species[k]);
@@ -636,11 +649,11 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
     mean_mass /= x_sum;
     c.species = s.species;
 
-    // Exobase: prescribed radius and densities n_i = x_i n.
+    // Exobase: prescribed radius and densities n_i = x_i n (x_i normalised, as the inventories).
     const double n_exo = required(k.exobase_density);
     std::vector<double> densities(n);
     for (std::size_t i = 0; i < n; ++i)
-        densities[i] = s.mole_fraction(i) * n_exo;
+        densities[i] = s.mole_fraction(i) / x_sum * n_exo;
     c.exobase = std::make_shared<PrescribedExobase>(
         radius + required(k.exobase_altitude), std::move(names), std::move(densities), s.scaling);
 

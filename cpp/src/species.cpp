@@ -65,7 +65,8 @@ SpeciesRegistry SpeciesRegistry::from_csv(const std::string& csv_text, const std
                                                       "lj_source",
                                                       "cross_section_m2",
                                                       "cross_section_source",
-                                                      "thermal_diffusion_factor"};
+                                                      "thermal_diffusion_factor",
+                                                      "thermal_diffusion_source"};
     SpeciesRegistry registry;
     detail::for_each_csv_row(csv_text, origin, required, [&](const detail::CsvRow& row) {
         Species s;
@@ -78,6 +79,7 @@ SpeciesRegistry SpeciesRegistry::from_csv(const std::string& csv_text, const std
         s.cross_section = row.number("cross_section_m2");
         s.cross_section_source = row.field("cross_section_source");
         s.thermal_diffusion_factor = row.number("thermal_diffusion_factor");
+        s.thermal_diffusion_source = row.field("thermal_diffusion_source");
         registry.add(s);
     });
     return registry;

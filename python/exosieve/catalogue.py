@@ -81,7 +81,8 @@ def case_columns() -> list[tuple[str, str, str, bool, bool]]:
     list of (name, SI unit, meaning, required, may have an uncertainty)
         Besides these: ``case`` (label, first column), ``star``, ``comment`` (text, ignored),
         ``density_scaling`` (``inventory`` or ``fixed``), ``x_<species>`` mole fractions at the
-        exobase [1] and ``inventory_<species>`` initial inventories [particles].
+        exobase [1] (summing to 1 within 1e-3) and ``inventory_<species>`` initial inventories
+        [particles].
 
     Examples
     --------

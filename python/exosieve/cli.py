@@ -184,7 +184,10 @@ def _columns(args: argparse.Namespace) -> int:
             ", may have _sigma/_lnsigma" if uncertain else ""
         )
         print(f"  {name:28s} [{unit}]  {meaning} ({flags})")
-    print("  x_<species>                  [1]  mole fraction at the exobase (0: absent)")
+    print(
+        "  x_<species>                  [1]  mole fraction at the exobase (0: absent); a row's "
+        "fractions sum to 1 within 1e-3"
+    )
     print("  inventory_<species>          [particles]  initial inventory of that species")
     print(
         "  case, star, density_scaling, comment: text (case first; density_scaling is "

@@ -78,7 +78,7 @@ def jeans_parameter(temperature: Any, mass: Any, planet_mass: Any, radius: Any) 
     --------
     >>> from exosieve import constants as c
     >>> round(jeans_parameter(1000.0, "H", c.M_EARTH, c.R_EARTH + 500e3), 2)
-    7.03
+    7.02
     """
     return apply(_core.jeans_parameter, _flux_args(1.0, temperature, mass, planet_mass, radius)[1:])
 
@@ -106,7 +106,7 @@ def jeans_flux(
     --------
     >>> from exosieve import constants as c
     >>> f"{jeans_flux(1e11, 1000.0, 'H', c.M_EARTH, c.R_EARTH + 500e3):.3e}"
-    '8.172e+11'
+    '8.181e+11'
     """
     return apply(
         _core.jeans_flux,
@@ -177,7 +177,7 @@ def jeans_escape_rate(
     --------
     >>> from exosieve import constants as c
     >>> f"{jeans_escape_rate(1e11, 1000.0, 'H', c.M_EARTH, c.R_EARTH + 500e3):.3e}"
-    '4.858e+26'
+    '4.864e+26'
     """
     return apply(
         _core.jeans_escape_rate,

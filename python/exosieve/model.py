@@ -83,13 +83,16 @@ class Star:
     saturation_ratio : float, optional
         Saturated ``L_xuv / L_bol`` [1]. Default ``10**-3.5``: the X-ray saturation level
         ``log(L_X/L_bol) ~ -3 to -3.5`` of young Sun-like stars (Pizzolato et al. 2003;
-        Jackson et al. 2012), from memory, within a factor ~2.
+        Jackson et al. 2012), from memory; with the EUV the XUV level may be up to ~3 times
+        higher, so trust it to a factor ~3.
     saturation_time : float, optional
         End of saturation, as stellar age [s]. Default 100 Myr (Jackson et al. 2012, Sun-like
-        stars; from memory).
+        stars; from memory, within a factor ~2).
     decay_index : float, optional
         ``beta`` of the decline after saturation [1]. Default 1.23, the fit to the 1–1180 Å
-        flux of solar analogues by Ribas et al. (2005, ApJ 622, 680), from memory.
+        flux of solar analogues by Ribas et al. (2005, ApJ 622, 680), from memory; it
+        reproduces the ratios stated in that paper's abstract (2.5 times today's flux 2.5 Gyr
+        ago, 6 times 3.5 Gyr ago) to 7 %.
 
     Examples
     --------

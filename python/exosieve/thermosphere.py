@@ -1,7 +1,9 @@
 """A thermosphere in diffusive equilibrium above the homopause, its exobase and escape fluxes.
 
 Each species follows ``d ln n_i/dr = -m_i g/(k T) - (1 + alpha_i) d ln T/dr`` from its
-well-mixed homopause density ``x_i n_h``: in closed form where the temperature is constant,
+well-mixed homopause density ``x_i n_h``, with ``alpha_i`` the species' thermal-diffusion factor
+(``data/species.csv``: -0.25 for H and D, -0.38 for He and 3He, 0 for heavier species; negative
+values enrich a light gas where the gas is hot): in closed form where the temperature is constant,
 integrated with Boost.Odeint otherwise. Temperature profiles: isothermal, Bates (1959)
 ``T(r) = T_inf - (T_inf - T_h) exp(-s (r - r_h))``, or a table. The exobase is the lowest
 radius where the mean free path ``1 / sum_j n_j sigma_j`` equals the scale height

@@ -169,6 +169,7 @@ TEST_CASE("samples: log-normal median and width, truncated normal stays in range
 TEST_CASE("cases carry values by slot: species values follow the species present") {
     CaseTable t = earthlike(2);
     set_column(t, "x_He", {0.25, 0.0}); // row 2 has no helium
+    set_column(t, "x_N2", {0.7, 0.95});
     set_column(t, "x_He_sigma", {0.01, 0.01});
     set_column(t, "inventory_H", {2e35, 3e35});
     set_column(t, "inventory_H_lnsigma", {0.5, 0.5});
@@ -208,7 +209,66 @@ TEST_CASE("cases carry values by slot: species values follow the species present
     o.t_end = 1 * Gyr;
     const EvolutionConfig c = build_config(without, o);
     CHECK(c.initial_inventory[1] == 3e35);
-    CHECK(c.initial_inventory[0] == doctest::Approx(1e37 * 0.7 / 0.75).epsilon(1e-15));
+    CHECK(c.initial_inventory[0] == doctest::Approx(1e37 * 0.95).epsilon(1e-15));
+}
+
+TEST_CASE("case tables: mole fractions must sum to one; samples are renormalised") {
+    CaseTable t = earthlike(4);
+    t.row_labels = {"line 5", "line 6", "line 7", "line 8"};
+    // Row 2 sums to 0.95 (a species forgotten); row 3 to 1 + 5e-4, inside the tolerance;
+    // row 4 to 1.3.
+    set_column(t, "x_N2", {0.7, 0.65, 0.7005, 1.0});
+    CHECK_THROWS_WITH_AS(case_from_table(t, 1),
+                         doctest::Contains("line 6 (case 'case 1'), mole fractions 'x_<species>' "
+                                           "sum to 0.95, not 1 (allowed: within 0.001)"),
+                         InputError);
+    CHECK_NOTHROW(case_from_table(t, 2));
+    const auto errors = check_table(t, options(1));
+    REQUIRE(errors.size() == 4);
+    CHECK(errors[0].empty());
+    CHECK(errors[1].find("sum to 0.95") != std::string::npos);
+    CHECK(errors[2].empty());
+    CHECK(errors[3].find("line 8 (case 'case 3'), mole fractions 'x_<species>' sum to 1.3") !=
+          std::string::npos);
+    // Refused before any run, or reported in its chunk with skip_invalid.
+    int chunks = 0;
+    BatchHooks hooks;
+    hooks.on_chunk = [&](const BatchChunk&) { ++chunks; };
+    CHECK_THROWS_WITH_AS(run_batch(t, 0, 4, options(1), hooks),
+                         doctest::Contains("2 invalid rows\n  line 6"), InputError);
+    CHECK(chunks == 0);
+    BatchOptions skip = options(1);
+    skip.skip_invalid = true;
+    BatchStatus st;
+    const auto out = run(t, skip, &st);
+    CHECK(st.cases_failed == 2);
+    CHECK(out[0].error[1].find("sum to 0.95") != std::string::npos);
+    CHECK(out[0].error[2].empty());
+    // Inside the tolerance, densities and the shares of the total inventory use the same
+    // normalised fractions (x_i / sum x): both describe one mixture.
+    const EvolutionConfig c = build_config(case_from_table(t, 2), options(1));
+    const auto& exo = dynamic_cast<const PrescribedExobase&>(*c.exobase);
+    const double sum = 0.7005 + 0.25 + 0.05;
+    for (std::size_t i = 0; i < 3; ++i) {
+        CAPTURE(i);
+        CHECK(exo.densities()[i] / 1e13 ==
+              doctest::Approx(c.initial_inventory[i] / 1e37).epsilon(1e-14));
+    }
+    CHECK(exo.densities()[0] == doctest::Approx(1e13 * 0.7005 / sum).epsilon(1e-14));
+    // A sample's drawn fractions need not sum to one: they are renormalised the same way.
+    CaseTable u = earthlike(1);
+    set_column(u, "x_He_sigma", {0.05});
+    const CaseSpec drawn = sample_case(case_from_table(u, 0), 3, 1);
+    REQUIRE(drawn.value("x_He") != 0.25);
+    const EvolutionConfig cs = build_config(drawn, options(1));
+    const auto& exo_s = dynamic_cast<const PrescribedExobase&>(*cs.exobase);
+    double total = 0.0, shares = 0.0;
+    for (std::size_t i = 0; i < 3; ++i) {
+        total += exo_s.densities()[i];
+        shares += cs.initial_inventory[i];
+    }
+    CHECK(total == doctest::Approx(1e13).epsilon(1e-14));
+    CHECK(shares == doctest::Approx(1e37).epsilon(1e-14));
 }
 
 TEST_CASE("case tables: columns and rows are checked with the row and the column named") {

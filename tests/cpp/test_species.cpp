@@ -93,8 +93,8 @@ TEST_CASE("species can be replaced while other threads read the registry") {
 TEST_CASE("malformed tables are refused with the line named") {
     const std::string bad =
         "name,mass_u,mass_source,lj_diameter_angstrom,lj_well_depth_K,lj_source,"
-        "cross_section_m2,cross_section_source,thermal_diffusion_factor\n"
-        "A,abc,s,1,1,s,1e-19,s,0\n";
+        "cross_section_m2,cross_section_source,thermal_diffusion_factor,thermal_diffusion_source\n"
+        "A,abc,s,1,1,s,1e-19,s,0,s\n";
     CHECK_THROWS_WITH_AS(SpeciesRegistry::from_csv(bad, "bad.csv"),
                          doctest::Contains("bad.csv line 2 column mass_u"), InputError);
     CHECK_THROWS_AS(SpeciesRegistry::from_csv("name,mass_u\nA,1\n", "short.csv"), InputError);

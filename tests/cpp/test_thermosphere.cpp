@@ -120,7 +120,7 @@ TEST_CASE("Bates-profile densities equal a quadrature of the diffusive-equilibri
 
 TEST_CASE("thermal-diffusion factor enters as (T_h / T)^(1 + alpha)") {
     std::vector<Species> list = named({"N2", "He"});
-    list[1].thermal_diffusion_factor = -0.38; // the usual value for He (common practice)
+    list[1].thermal_diffusion_factor = -0.38; // He's value in data/species.csv (from memory)
     const double r_h = R_planet + 100e3;
     Thermosphere t(M_planet, R_planet, r_h, 1e19, list, {0.99, 0.01},
                    TemperatureProfile::bates(900.0, 190.0, 1.0 / 30e3, r_h));
@@ -129,13 +129,16 @@ TEST_CASE("thermal-diffusion factor enters as (T_h / T)^(1 + alpha)") {
         CHECK(t.density(1, r_h + z) ==
               doctest::Approx(density_by_quadrature(t, 1, r_h + z, 20000)).epsilon(1e-9));
     }
-    // Against alpha = 0, the ratio is (T / T_h)^0.38.
+    // Against alpha = 0, the ratio is (T / T_h)^0.38: a negative alpha enriches He where the
+    // gas is hotter, as thermal diffusion does for a light gas in a heavy one.
     std::vector<Species> plain = named({"N2", "He"});
+    plain[1].thermal_diffusion_factor = 0.0;
     Thermosphere u(M_planet, R_planet, r_h, 1e19, plain, {0.99, 0.01},
                    TemperatureProfile::bates(900.0, 190.0, 1.0 / 30e3, r_h));
     const double r = r_h + 300e3;
     CHECK(t.density(1, r) / u.density(1, r) ==
           doctest::Approx(std::pow(t.temperature(r) / 190.0, 0.38)).epsilon(1e-10));
+    CHECK(t.density(1, r) / u.density(1, r) > 1.7); // (900 K / 190 K)^0.38 = 1.81
 }
 
 TEST_CASE("tabulated profile: densities equal a quadrature over the same piecewise-linear T") {
@@ -164,8 +167,11 @@ TEST_CASE("tabulated profile: densities equal a quadrature over the same piecewi
                                (k_B * x * x * t.temperature(x));
                     },
                     cuts[c], cuts[c + 1], 4000);
+            // (T_h / T)^(1 + alpha): He carries its thermal-diffusion factor.
             const double expected = t.mole_fractions()[i] * 1e18 *
-                                    (t.temperature(r_h) / t.temperature(r)) * std::exp(-integral);
+                                    std::pow(t.temperature(r_h) / t.temperature(r),
+                                             1.0 + t.species()[i].thermal_diffusion_factor) *
+                                    std::exp(-integral);
             CHECK(t.density(i, r) == doctest::Approx(expected).epsilon(1e-9));
         }
 }

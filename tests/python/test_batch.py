@@ -109,6 +109,32 @@ def test_good_bad_and_failing_rows(tmp_path):
     )
 
 
+def test_mole_fractions_must_sum_to_one(tmp_path, capsys):
+    # x_N2 + x_He + x_H = 0.65 + 0.25 + 0.05 = 0.95: a species left out. Refused before any run
+    # or file, naming the row, the case and the sum; the tolerance is |sum - 1| <= 1e-3.
+    lines = rows(3)
+    lines[1] = lines[1].replace(",1e37,,0.7,", ",1e37,,0.65,")
+    lines[2] = lines[2].replace(",1e37,,0.7,", ",1e37,,0.7005,")  # 1.0005: accepted
+    path = write(tmp_path, lines)
+    with pytest.raises(
+        ValueError,
+        match=r"1 invalid row\n  line 3 \(case 'P1'\), mole fractions 'x_<species>' sum to "
+        r"0\.95, not 1 \(allowed: within 0\.001\)",
+    ):
+        compare(path, t_end=GYR_45, output=tmp_path / "no.h5", threads=1)
+    assert not (tmp_path / "no.h5").exists()
+    # The command line refuses it the same way.
+    assert main(["sweep", str(path), "-o", str(tmp_path / "cli.h5"), "--threads", "1"]) == 2
+    assert "(case 'P1'), mole fractions 'x_<species>' sum to 0.95" in capsys.readouterr().err
+    assert not (tmp_path / "cli.h5").exists()
+    # Reported instead, the other rows run.
+    result = compare(path, t_end=GYR_45, threads=1, bad_rows="report")
+    errors = result.errors.set_index("case")
+    assert set(errors.index) == {"P1"}
+    assert "sum to 0.95" in errors.loc["P1", "error"]
+    assert np.isfinite(result["final_retained_fraction"][[0, 2]]).all()
+
+
 def test_frames_and_csv_give_the_same_table(tmp_path):
     path = write(tmp_path, rows(4))
     frame = pd.read_csv(path)

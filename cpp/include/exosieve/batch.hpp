@@ -128,6 +128,12 @@ struct BatchOptions {
 //! exobase [1]) and "inventory_<species>" (initial inventory [particles]) are per species.
 const std::vector<CaseParameter>& case_parameters();
 
+//! Largest |sum - 1| of a case's mole fractions "x_<species>" [1]. A row whose fractions sum
+//! further from one is refused (InputError naming the row and the sum; with skip_invalid the
+//! row is reported instead): the exobase densities n_i = x_i n and the shares of a total
+//! inventory would otherwise describe different mixtures.
+constexpr double mole_fraction_sum_tolerance = 1e-3;
+
 //! The allowed range of parameter `name` (also "x_<species>", "inventory_<species>");
 //! nullptr when unknown.
 const CaseParameter* find_case_parameter(const std::string& name);
@@ -162,7 +168,9 @@ CaseSpec case_from_table(const CaseTable& table, std::size_t row);
 std::vector<std::string> check_table(const CaseTable& table, const BatchOptions& options);
 
 //! The evolution config of a case (parameters as given; no sampling). Throws InputError naming
-//! the parameter for missing or out-of-range values.
+//! the parameter for missing or out-of-range values. Exobase densities and shares of a total
+//! inventory both use the mole fractions divided by their sum (a sample's drawn fractions are
+//! renormalised this way).
 EvolutionConfig build_config(const CaseSpec& spec, const BatchOptions& options);
 
 //! Sample `sample` of `spec`: each uncertain parameter drawn in the order of

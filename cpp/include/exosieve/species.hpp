@@ -12,6 +12,9 @@
 namespace exosieve {
 
 //! Properties of one gas species (isotopes and isotopologues are species of their own).
+//! The thermal-diffusion factor follows the aeronomy convention (DESIGN 3.3): in diffusive
+//! equilibrium d ln n/dr = -m g/(k T) - (1 + alpha) d ln T/dr, so alpha < 0 pushes the species
+//! toward hot regions (light gases in a heavy background: H -0.25, He -0.38).
 struct Species {
     std::string name;                      //!< registry key, e.g. "H2", "36Ar"
     double mass = 0.0;                     //!< particle mass [kg]
@@ -22,6 +25,7 @@ struct Species {
     std::string mass_source;               //!< where the mass comes from
     std::string lj_source;                 //!< where the Lennard-Jones parameters come from
     std::string cross_section_source;      //!< where the cross-section comes from
+    std::string thermal_diffusion_source;  //!< where the thermal-diffusion factor comes from
 
     //! Mass in unified atomic mass units [u].
     double mass_u() const;

@@ -13,15 +13,18 @@ namespace exosieve {
 
 //! Parameters of the saturated-then-decaying XUV history; defaults and their sources below.
 struct XuvHistory {
-    //! Saturated L_xuv / L_bol [1]. Default 1e-3.5 ~ 3.16e-4: X-ray saturation level
+    //! Saturated L_xuv / L_bol [1]. Default 1e-3.5 ~ 3.16e-4: the X-ray saturation level
     //! log(L_X/L_bol) ~ -3 to -3.5 of young Sun-like stars (Pizzolato et al. 2003; Jackson et
-    //! al. 2012), from memory, within a factor ~2.
+    //! al. 2012), from memory. The EUV adds to the X-rays, so the XUV level may be up to ~3 times
+    //! higher: trust it to a factor ~3.
     double saturation_ratio = 3.1622776601683794e-4;
     //! End of saturation (star's age) [s]. Default 100 Myr (Jackson et al. 2012, Sun-like
     //! stars; from memory, within a factor ~2).
     double saturation_time = 3.15576e15;
     //! Power-law index beta of the decline after saturation [1]. Default 1.23: the fit to the
-    //! 1–1180 Angstrom flux of solar analogues by Ribas et al. (2005, ApJ 622, 680), from memory.
+    //! 1–1180 Angstrom flux of solar analogues by Ribas et al. (2005, ApJ 622, 680), the value
+    //! from memory; it reproduces that paper's abstract (the flux was ~2.5 times today's 2.5 Gyr
+    //! ago and ~6 times 3.5 Gyr ago) to 7 % (tests/cpp/test_stellar.cpp).
     double decay_index = 1.23;
 
     //! Throw InputError unless every parameter is finite and > 0.
