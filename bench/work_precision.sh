@@ -6,9 +6,9 @@
 # 1. creates a virtual environment of its own for the benchmark-only peers (default
 #    bench/.venv-peers, git-ignored; EXOSIEVE_PEERS_VENV=/path chooses another), apart from the
 #    project's .venv and its dependencies;
-# 2. installs into it numpy, scipy, numba, numbalsoda, jax and diffrax (the peers), mpmath,
-#    astropy and periodictable (the reference checks); a package that cannot be installed is
-#    named and the benchmark runs without it;
+# 2. installs into it numpy, scipy, numba, numbalsoda, jax and diffrax (the peers), mpmath and
+#    periodictable (the reference checks); a package that cannot be installed is named and the
+#    benchmark runs without it;
 # 3. builds and installs exosieve from this work tree (committed or not) into it, again only
 #    when a source file changed since the last build (the CMake build directory is kept in the
 #    environment, so a rebuild compiles only what changed);
@@ -36,7 +36,7 @@ mkdir -p "$logs"
 pip() { "$py" -m pip --disable-pip-version-check "$@"; }
 
 # Peers and reference libraries: "pip package:module to import".
-peers=(numpy:numpy scipy:scipy mpmath:mpmath astropy:astropy periodictable:periodictable
+peers=(numpy:numpy scipy:scipy mpmath:mpmath periodictable:periodictable
        numba:numba numbalsoda:numbalsoda jax:jax diffrax:diffrax)
 # Found without importing them (numbalsoda compiles for ~15 s when imported); the benchmark
 # names any that then fails to import.
