@@ -180,3 +180,75 @@ def test_retained_fractions_within_ten_times_rtol(cases, rtol):
             assert np.all(np.diff(got) <= 0.0), (case.kind, s, "an output rose without a source")
     # The family must exercise the bound, not pass trivially: some error is measurable.
     assert worst > 1e-3
+
+
+def test_hand_over_from_energy_limited_to_jeans_escape_is_exact():
+    # Hydrogen alone on a small, hot world: while its Jeans parameter is below the
+    # hydrodynamic threshold (2.1, Volkov et al. 2011) it is lost at the energy-limited rate
+    # dN/dt = -eta pi R^3 F_xuv(t) / (G M m) (Watson et al. 1981, R_xuv = R, no Roche-lobe
+    # factor), independent of N; once the cooling exobase lifts lambda above the threshold, at
+    # T* = G M m / (2.1 k r), Jeans escape takes over: d ln N/dt = -k(t). Both pieces are exact
+    # quadratures (scipy.integrate.quad), joined at the analytic hand-over time.
+    mass, radius = 0.1 * c.M_EARTH, 0.53 * c.R_EARTH
+    star = exosieve.Star(0.9 * c.M_SUN, 0.7 * c.L_SUN)
+    a = 0.8 * c.AU
+    planet = exosieve.Planet(mass, radius, a, star)
+    r_exo = radius + 500e3
+    m = exosieve.species("H").mass
+    f_ref = float(planet.xuv_flux(4.5 * c.GYR))
+    t_ref, gamma, t_min, t_max = 400.0, 0.6, 200.0, 1500.0
+    law = exosieve.XuvTemperature(t_ref, f_ref, gamma, t_min, t_max)
+    eta = 0.15
+    hydro = exosieve.EnergyLimitedEscape(efficiency=eta, roche_lobe=False)
+    t0, t1 = 10 * c.MYR, 10 * c.GYR
+    t_eval = np.geomspace(t0, t1, 40)
+
+    def flux(t: float) -> float:
+        return float(planet.xuv_flux(t))  # the star's history itself is tested in test_stellar
+
+    def temperature(t: float) -> float:
+        return min(max(t_ref * (flux(t) / f_ref) ** gamma, t_min), t_max)
+
+    t_star_temperature = sc.G * mass * m / (2.1 * sc.k * r_exo)
+    assert t_min < t_star_temperature < t_max
+    # The hand-over: F falls as (t / t_sat)^-beta after saturation.
+    f_star = f_ref * (t_star_temperature / t_ref) ** (1 / gamma)
+    t_sat, beta = star.saturation_time, star.decay_index
+    t_star = t_sat * (f_star / flux(t_sat)) ** (-1 / beta)
+    assert t0 < t_star < t1
+    t_clamp = t_sat * (f_ref * (t_max / t_ref) ** (1 / gamma) / flux(t_sat)) ** (-1 / beta)
+    kinks = [t_sat, t_clamp, t_star]
+
+    def integral(f, lo: float, hi: float) -> float:
+        points = [b for b in kinks if lo < b < hi] or None
+        return quad(f, lo, hi, points=points, epsabs=0, epsrel=1e-13, limit=400)[0]
+
+    mass_loss = eta * np.pi * radius**3 / (sc.G * mass * m)  # times F: particles s^-1
+    # The inventory loses 30 % while hydrodynamic, and the exobase density makes Jeans escape
+    # take about one e-fold after the hand-over: both regimes take a visible share.
+    hydrodynamic_loss = mass_loss * integral(flux, t0, t_star)
+    n0 = hydrodynamic_loss / 0.3
+    n_star = n0 - hydrodynamic_loss
+    jeans_effusion = integral(lambda s: _effusion(temperature(s), m, mass, r_exo), t_star, t1)
+    density = n0 / (4 * np.pi * r_exo**2 * jeans_effusion)
+    exobase = exosieve.PrescribedExobase(r_exo, law, {"H": density})
+    loss = 4 * np.pi * r_exo**2 * density / n0  # the density follows the inventory
+
+    def exact(t: float) -> float:
+        if t <= t_star:
+            return (n0 - mass_loss * integral(flux, t0, t)) / n0
+        jeans = integral(lambda s: loss * _effusion(temperature(s), m, mass, r_exo), t_star, t)
+        return n_star / n0 * np.exp(-jeans)
+
+    expected = np.array([exact(t) for t in t_eval])
+    assert expected[-1] == pytest.approx(0.7 * np.exp(-1.0), rel=1e-12)
+    for rtol in (1e-6, 1e-9):
+        run = exosieve.evolve(
+            planet, exobase, {"H": n0}, (t0, t1), t_eval=t_eval, rtol=rtol, hydrodynamic=hydro
+        )
+        assert [change[1:] for change in run.regime_changes][-1][1] != "hydrodynamic"
+        hand_over = [t for t, before, _ in run.regime_changes if before == "hydrodynamic"]
+        assert hand_over and abs(hand_over[0] - t_star) < 1e-9 * t_star
+        got = run.inventory["H"] / n0
+        np.testing.assert_array_less(np.abs(got - expected), 10 * rtol * (expected + DEPLETION))
+        assert np.all(np.diff(got) <= 0.0)
