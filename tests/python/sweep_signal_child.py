@@ -12,6 +12,7 @@ a test itself.
 from __future__ import annotations
 
 import os
+import signal
 import sys
 from typing import Any
 
@@ -20,6 +21,9 @@ from exosieve.cli import main
 
 
 def run(signum: int, cases: int, argv: list[str]) -> int:
+    # Ctrl-C raises KeyboardInterrupt, as in a terminal, even when this process was started
+    # from one that ignores SIGINT (a background job).
+    signal.signal(signal.SIGINT, signal.default_int_handler)
     compare = exosieve.batch.compare
     sent = []
 
