@@ -163,13 +163,17 @@ void bind_batch(py::module_& m) {
 
     // Runs without the GIL; the hooks take it. Every progress call also checks for signals, so
     // Ctrl-C cancels the batch: the chunks handed out stay handed out, then KeyboardInterrupt.
+    // Progress calls come about every `progress_interval_ms`, or after every
+    // `progress_every_chunks`-th chunk handed out when that is > 0 (a count-set schedule).
     m.def(
         "run_batch",
         [](const CaseTable& table, std::size_t begin, std::size_t end, const BatchOptions& o,
-           py::object on_chunk, py::object on_progress, unsigned interval_ms) {
+           py::object on_chunk, py::object on_progress, unsigned interval_ms,
+           std::size_t every_chunks) {
             std::unique_ptr<py::error_already_set> failure;
             BatchHooks hooks;
             hooks.progress_interval_ms = interval_ms;
+            hooks.progress_every_chunks = every_chunks;
             // A sweep file takes the chunks' rows straight from C++, without the interpreter.
             ResultAppender* file = py::isinstance<ResultAppender>(on_chunk)
                                        ? &on_chunk.cast<ResultAppender&>()
@@ -223,9 +227,13 @@ void bind_batch(py::module_& m) {
         },
         py::arg("table"), py::arg("begin"), py::arg("end"), py::arg("options"), py::arg("on_chunk"),
         py::arg("on_progress") = py::none(), py::arg("progress_interval_ms") = 100,
+        py::arg("progress_every_chunks") = 0,
         "Run rows [begin, end) of a case table. `on_chunk` receives each finished chunk in table "
         "order: a callable gets a dict of arrays, a ResultAppender gets the rows appended "
-        "directly. `on_progress(runs_done, runs_total)` returning False cancels.");
+        "directly. `on_progress(runs_done, runs_total)` is called about every "
+        "`progress_interval_ms` [ms] with the runs finished, or, when `progress_every_chunks` "
+        "> 0, after every such number of chunks handed out [chunks] with their runs; signals "
+        "are checked at each call, and returning False cancels.");
 }
 
 } // namespace exosieve::bindings

@@ -465,20 +465,31 @@ void bind_evolution(py::module_& m) {
         },
         py::arg("path"), py::arg("fields"));
 
-    // Runs without the GIL. Every ~50 ms it takes the GIL to check for signals (Ctrl-C stops
-    // the run and raises KeyboardInterrupt) and to call `progress(t)`, whose False stops it.
+    // Runs without the GIL. At every progress call it takes the GIL to check for signals
+    // (Ctrl-C stops the run and raises KeyboardInterrupt) and to call `progress(t)`, whose
+    // False stops it. Progress calls come about every 50 ms (progress_every = 0, for
+    // interactive use) or after every `progress_every`-th accepted step: a schedule set by the
+    // step count alone, the same on any machine.
     m.def(
         "evolve",
-        [](EvolutionConfig& config, py::object progress) {
+        [](EvolutionConfig& config, py::object progress, std::size_t progress_every) {
             using clock = std::chrono::steady_clock;
             auto last = clock::now();
+            std::size_t steps = 0;
+            auto due = [&]() {
+                if (progress_every > 0)
+                    return ++steps % progress_every == 0;
+                const auto now = clock::now();
+                if (now - last < std::chrono::milliseconds(50))
+                    return false;
+                last = now;
+                return true;
+            };
             bool interrupted = false;
             std::unique_ptr<py::error_already_set> progress_error;
             config.progress = [&](double t) {
-                const auto now = clock::now();
-                if (now - last < std::chrono::milliseconds(50))
+                if (!due())
                     return true;
-                last = now;
                 py::gil_scoped_acquire gil;
                 if (PyErr_CheckSignals() != 0) {
                     interrupted = true;
@@ -511,7 +522,10 @@ void bind_evolution(py::module_& m) {
                 throw std::move(*progress_error);
             return result;
         },
-        py::arg("config"), py::arg("progress") = py::none());
+        py::arg("config"), py::arg("progress") = py::none(), py::arg("progress_every") = 0,
+        "Run an evolution. `progress(t)` [s] is called about every 50 ms, or after every "
+        "`progress_every`-th accepted step when that is > 0 [steps]; signals are checked at "
+        "each call; returning False stops the run.");
 }
 
 } // namespace exosieve::bindings

@@ -1134,30 +1134,39 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
     try {
         for (std::size_t k = 0; k < threads; ++k)
             pool.emplace_back(worker, std::ref(plans[k]));
+        // Progress by time (about every `interval`, with the runs finished so far) or by count
+        // (after every `every`-th chunk handed out, with the runs of the chunks handed out).
+        const std::size_t every = hooks.progress_every_chunks;
         auto last_progress = std::chrono::steady_clock::now();
         const auto interval = std::chrono::milliseconds(hooks.progress_interval_ms);
-        auto report = [&]() {
+        auto report = [&](std::size_t done) {
             last_progress = std::chrono::steady_clock::now();
-            if (hooks.on_progress && !hooks.on_progress(runs_done.load(), total_runs)) {
+            if (hooks.on_progress && !hooks.on_progress(done, total_runs)) {
                 status.cancelled = true;
                 return false;
             }
             return true;
         };
+        std::size_t runs_handed_out = 0;
         for (std::size_t c = 0; c < chunks && !status.cancelled; ++c) {
             Slot& s = slots[c % window];
-            for (;;) {
-                {
-                    std::unique_lock<std::mutex> lock(m);
-                    if (done_cv.wait_until(lock, last_progress + interval,
-                                           [&] { return s.remaining == 0; }))
+            if (every > 0) {
+                std::unique_lock<std::mutex> lock(m);
+                done_cv.wait(lock, [&] { return s.remaining == 0; });
+            } else {
+                for (;;) {
+                    {
+                        std::unique_lock<std::mutex> lock(m);
+                        if (done_cv.wait_until(lock, last_progress + interval,
+                                               [&] { return s.remaining == 0; }))
+                            break;
+                    }
+                    if (!report(runs_done.load()))
                         break;
                 }
-                if (!report())
+                if (status.cancelled)
                     break;
             }
-            if (status.cancelled)
-                break;
             // A finished chunk: hand it out, then reuse its slot for the chunk `window` ahead.
             for (std::size_t j = 0; j < s.out.count; ++j) {
                 if (!s.out.error[j].empty())
@@ -1168,6 +1177,7 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
             if (hooks.on_chunk)
                 hooks.on_chunk(s.out);
             status.cases_done += s.out.count;
+            runs_handed_out += s.out.count * per_case;
             if (c + window < chunks) {
                 open_chunk(c + window);
                 {
@@ -1176,11 +1186,18 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
                 }
                 work_cv.notify_all();
             }
-            if (std::chrono::steady_clock::now() - last_progress >= interval)
-                report();
+            // The last chunk is reported by the call at the end.
+            if (c + 1 == chunks)
+                break;
+            if (every > 0) {
+                if ((c + 1) % every == 0)
+                    report(runs_handed_out);
+            } else if (std::chrono::steady_clock::now() - last_progress >= interval) {
+                report(runs_done.load());
+            }
         }
         if (!status.cancelled && hooks.on_progress)
-            hooks.on_progress(runs_done.load(), total_runs);
+            hooks.on_progress(every > 0 ? runs_handed_out : runs_done.load(), total_runs);
     } catch (...) {
         stop();
         throw;

@@ -461,6 +461,7 @@ class _Progress:
         self.start = _time.monotonic()
         self.initial = initial
         self.last_print = 0.0
+        self.reported: int | None = None
         if progress is True:
             try:
                 from tqdm import tqdm
@@ -476,6 +477,7 @@ class _Progress:
         if self.bar is not None:
             self.bar.update(done - self.done)
         self.done = done
+        self.reported = done
         if self.callback is not None:
             self.callback(done, self.total)
         if self.plain:
@@ -484,6 +486,11 @@ class _Progress:
                 self.last_print = now
                 sys.stderr.write("\r" + self.line(now))
                 sys.stderr.flush()
+
+    def finish(self, done: int) -> None:
+        """The count at the end, unless the last update already reported it."""
+        if self.reported != min(max(done, self.done), self.total):
+            self.update(done)
 
     def line(self, now: float) -> str:
         elapsed = max(now - self.start, 1e-9)
@@ -680,6 +687,7 @@ def compare(
     overwrite: bool = False,
     client: Any = None,
     progress: bool | Callable[[int, int], Any] = False,
+    progress_every: int | None = None,
 ) -> Comparison:
     """Evolve every case of a case table, with Monte Carlo over its uncertainties.
 
@@ -729,7 +737,13 @@ def compare(
         Run the chunks on this cluster's workers; results stream back in table order.
     progress : bool or callable, optional
         True: a progress bar (tqdm if installed) with rate and time left; a callable is called
-        as ``progress(cases_done, cases_total)``.
+        as ``progress(cases_done, cases_total)``. Updates come about every 0.1 s (or as
+        ``progress_every`` says), and at the end.
+    progress_every : int, optional
+        Update the progress after every this many finished chunks [chunks] (with the cases of
+        the chunks kept so far) instead of about every 0.1 s: a schedule set by counts alone,
+        the same on any machine and number of threads. Ctrl-C is then noticed at those
+        updates, so that an interrupted run keeps a whole number of such steps.
 
     Returns
     -------
@@ -756,6 +770,15 @@ def compare(
         raise ValueError(f"threads must be a whole number >= 1, got {threads!r}")
     if chunk_size is not None and (not isinstance(chunk_size, (int, np.integer)) or chunk_size < 1):
         raise ValueError(f"chunk_size must be a whole number >= 1 [cases], got {chunk_size!r}")
+    if progress_every is not None and (
+        isinstance(progress_every, bool)
+        or not isinstance(progress_every, (int, np.integer))
+        or progress_every < 1
+    ):
+        raise ValueError(
+            f"progress_every must be a whole number >= 1 [chunks], got {progress_every!r}"
+        )
+    every = int(progress_every or 0)
     table = load_cases(cases, errors="collect" if bad_rows == "report" else "raise")
     species = list(table.species)
     grid = _output_times(times, table, float(t_start), float(t_end))
@@ -807,7 +830,12 @@ def compare(
     }
     # The table goes to the engine in blocks of whole chunks, so that the engine's copy of it
     # stays small; the engine reports invalid rows (skip_invalid) and never checks twice.
-    block = chunk * max(1, 16384 // chunk)
+    # With a progress step of `every` chunks, a block holds a whole number of steps, so that the
+    # steps run on across blocks.
+    block_chunks = max(1, 16384 // chunk)
+    if every:
+        block_chunks = every * max(1, block_chunks // every)
+    block = chunk * block_chunks
     options["skip_invalid"] = True
     core_options = _core_options(options, threads=int(threads or 0), chunk_size=chunk)
     checked = None
@@ -824,7 +852,7 @@ def compare(
     interrupted = False
     try:
         if client is not None and begin < len(table):
-            _run_distributed(client, table, begin, options, chunk, threads, sink, bar)
+            _run_distributed(client, table, begin, options, chunk, threads, sink, bar, every)
         for first in range(begin, len(table) if client is None else begin, block):
             last = min(first + block, len(table))
             if first == 0 and checked is not None:
@@ -835,8 +863,10 @@ def compare(
             def on_progress(done: int, total: int, first: int = first) -> None:
                 bar.update(first + done // runs_per_case)
 
-            _core.run_batch(part, 0, last - first, core_options, sink.target, on_progress)
-        bar.update(sink.completed)
+            _core.run_batch(
+                part, 0, last - first, core_options, sink.target, on_progress, 100, every
+            )
+        bar.finish(sink.completed)
     except KeyboardInterrupt:
         interrupted = True
     finally:
@@ -920,9 +950,11 @@ def _run_distributed(
     threads: int | None,
     sink: _FileSink | _MemorySink,
     bar: _Progress,
+    every: int = 0,
 ) -> None:
     """Chunks on the workers of `client`, a bounded number in flight; results are written in
-    table order as soon as every earlier chunk is in."""
+    table order as soon as every earlier chunk is in. The progress is updated after each
+    chunk written, or after every `every`-th."""
     from distributed import as_completed
 
     options = dict(options)
@@ -934,6 +966,7 @@ def _run_distributed(
     where: dict[str, int] = {}
     finished: dict[int, dict[str, Any]] = {}
     next_row = begin
+    written = 0
 
     def submit() -> bool:
         start = next(starts, None)
@@ -959,7 +992,9 @@ def _run_distributed(
                 block = finished.pop(next_row)
                 sink.append(block)
                 next_row += len(block["case"])
-                bar.update(next_row)
+                written += 1
+                if not every or written % every == 0:
+                    bar.update(next_row)
             submit()
     except BaseException:
         client.cancel(list(pending.futures))

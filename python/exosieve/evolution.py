@@ -12,6 +12,7 @@ inventories far below 1e-308 of their start stay representable.
 from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
+from numbers import Integral
 from typing import Any
 
 from . import _core
@@ -51,6 +52,7 @@ def evolve(
     exobase_temperature: Any = None,
     limit_by_diffusion: bool = True,
     stepper: str = "auto",
+    progress_every: int | None = None,
 ) -> EvolutionResult:
     """Integrate the loss of each species' inventory over ``t_span``.
 
@@ -96,8 +98,10 @@ def evolve(
     max_steps : int, optional
         Steps (accepted and rejected) before the run gives up with NumericalError.
     progress : callable, optional
-        Called as ``progress(t)`` about every 50 ms; returning False stops the run early (the
-        result then has ``completed`` False). Ctrl-C stops a run with KeyboardInterrupt.
+        Called as ``progress(t)`` with the time reached [s], about every 50 ms (or as
+        ``progress_every`` says); returning False stops the run early (the result then has
+        ``completed`` False). Ctrl-C stops a run with KeyboardInterrupt: signals are checked
+        at the same moments, with or without ``progress``.
     exobase_temperature : float, TabulatedTemperature, XuvTemperature or callable, optional
         For a Thermosphere: the exobase temperature history [K] (default: its own exobase
         temperature, held). A PrescribedExobase carries its own.
@@ -110,6 +114,10 @@ def evolve(
         differences) for stiff balances, e.g. a source holding a fast-escaping species in
         steady state, where the explicit pair is held to steps of the relaxation time.
         ``"auto"`` (default) takes Rosenbrock 4(3) when any species has a source.
+    progress_every : int, optional
+        Call ``progress`` (and check for Ctrl-C) after every this many accepted steps [steps]
+        instead of about every 50 ms: a schedule set by the step count alone, the same on any
+        machine (e.g. to stop a run after a given number of steps, or in tests).
 
     Returns
     -------
@@ -179,6 +187,14 @@ def evolve(
     if stepper not in ("auto", "dopri5", "rosenbrock4"):
         raise ValueError(f"stepper must be 'auto', 'dopri5' or 'rosenbrock4', got {stepper!r}")
     config.stepper = getattr(_core.StepperKind, stepper)
+    if progress_every is not None and (
+        isinstance(progress_every, bool)
+        or not isinstance(progress_every, Integral)
+        or progress_every < 1
+    ):
+        raise ValueError(
+            f"progress_every must be a whole number >= 1 [steps], got {progress_every!r}"
+        )
     if sources:
         unknown = [_name(k) for k in sources if _name(k) not in names]
         if unknown:
@@ -200,7 +216,7 @@ def evolve(
         config.isotope_ratios = _core.default_isotope_ratios(names)
     else:
         config.isotope_ratios = [(str(a), str(b)) for a, b in isotope_ratios]
-    raw = _core.evolve(config, progress)
+    raw = _core.evolve(config, progress, int(progress_every or 0))
     return EvolutionResult._from_core(raw, [s.mass for s in species_objects], initial)
 
 

@@ -504,8 +504,47 @@ TEST_CASE("batch: a case that fails numerically is reported and the others compl
     CHECK(std::isfinite(out[2].final_retained[0]));
 }
 
-TEST_CASE("batch: cancelling keeps the chunks handed out and stops soon") {
+TEST_CASE("batch: progress by count comes after every k-th chunk and at the end") {
+    const CaseTable t = earthlike(40); // 8 chunks of 5 cases, 21 runs per case
+    const std::size_t per_chunk = 5 * 21;
+    for (std::size_t threads : {1, 2}) {
+        std::vector<std::size_t> reported, handed_at_call;
+        std::size_t handed = 0;
+        BatchHooks hooks;
+        hooks.progress_every_chunks = 3;
+        hooks.on_chunk = [&](const BatchChunk& c) { handed += c.count; };
+        hooks.on_progress = [&](std::size_t done, std::size_t total) {
+            CHECK(total == 40 * 21);
+            reported.push_back(done);
+            handed_at_call.push_back(handed);
+            return true;
+        };
+        const BatchStatus st = run_batch(t, 0, t.rows(), options(threads, 20, 5), hooks);
+        CAPTURE(threads);
+        CHECK(!st.cancelled);
+        CHECK(st.cases_done == 40);
+        CHECK(reported == std::vector<std::size_t>{3 * per_chunk, 6 * per_chunk, 8 * per_chunk});
+        CHECK(handed_at_call == std::vector<std::size_t>{15, 30, 40});
+    }
+}
+
+TEST_CASE("batch: cancelling keeps the chunks handed out") {
     const CaseTable t = earthlike(40);
+    for (std::size_t threads : {1, 2}) {
+        // By count: false at the 3rd call, made after every 2nd chunk, keeps exactly 6 chunks.
+        std::size_t handed = 0, calls = 0;
+        BatchHooks hooks;
+        hooks.progress_every_chunks = 2;
+        hooks.on_chunk = [&](const BatchChunk& c) { handed += c.count; };
+        hooks.on_progress = [&](std::size_t, std::size_t) { return ++calls < 3; };
+        const BatchStatus st = run_batch(t, 0, t.rows(), options(threads, 20, 5), hooks);
+        CAPTURE(threads);
+        CHECK(st.cancelled);
+        CHECK(calls == 3);
+        CHECK(st.cases_done == 30);
+        CHECK(handed == 30);
+    }
+    // By time: whenever the call that cancels comes, what was handed out stays handed out.
     std::size_t handed = 0, calls = 0;
     BatchHooks hooks;
     hooks.progress_interval_ms = 1;
@@ -513,14 +552,13 @@ TEST_CASE("batch: cancelling keeps the chunks handed out and stops soon") {
     hooks.on_progress = [&](std::size_t done, std::size_t total) {
         ++calls;
         CHECK(done <= total);
-        return handed < 10;
+        return false;
     };
     const BatchStatus st = run_batch(t, 0, t.rows(), options(2, 20, 5), hooks);
-    CHECK(st.cancelled);
+    CHECK(calls >= 1);
     CHECK(st.cases_done == handed);
-    CHECK(handed >= 10);
-    CHECK(handed < 40);
-    CHECK(calls > 0);
+    CHECK(handed % 5 == 0);
+    CHECK(st.cancelled == (handed < 40));
 
     BatchHooks failing;
     failing.on_chunk = [](const BatchChunk& c) {

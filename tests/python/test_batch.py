@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import json
 import os
-import re
 import signal
 import sys
+from itertools import count
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -292,32 +293,59 @@ def test_template_and_demo_catalogue_run(tmp_path):
     assert len(demo) == 8 and len(demo.errors) == 0
 
 
-def test_ctrl_c_keeps_the_finished_cases(tmp_path):
-    # Enough runs (96 cases of 401) that the run cannot finish within the ~0.1 s between
-    # progress calls: the signal sent at one is seen at the next.
-    total = 96
+def test_ctrl_c_keeps_the_finished_cases(tmp_path, ctrl_c):
+    # Progress after every chunk of 4 cases: the update that reports the second chunk sends
+    # SIGINT, as Ctrl-C does, and the run keeps exactly those two chunks, on any machine.
+    total = 24
     path = write(tmp_path, rows(total))
     out = tmp_path / "partial.h5"
-    sent = []
+    seen = []
 
     def progress(done, total):
-        if done >= 8 and not sent:
-            sent.append(done)
-            os.kill(os.getpid(), signal.SIGINT)  # as Ctrl-C does
+        seen.append(done)
+        if done == 8:
+            os.kill(os.getpid(), signal.SIGINT)
 
     with pytest.raises(Interrupted) as stopped:
         compare(
-            path, t_end=GYR_45, samples=400, threads=1, chunk_size=4, output=out, progress=progress
+            path,
+            t_end=GYR_45,
+            samples=20,
+            threads=2,
+            chunk_size=4,
+            output=out,
+            progress=progress,
+            progress_every=1,
         )
+    assert seen == [4, 8]
     partial = stopped.value.result
-    assert 8 <= len(partial) < total and len(partial) % 4 == 0
-    on_disk = open_comparison(out)
-    assert len(on_disk) == len(partial)
+    assert len(partial) == 8 and partial.total_cases == total
+    assert len(open_comparison(out)) == 8
     # Rerunning resumes after the finished chunks and ends with the uninterrupted results.
-    resumed = compare(path, t_end=GYR_45, samples=400, threads=2, chunk_size=4, output=out)
-    assert resumed.resumed_from == len(partial) and resumed.complete
-    whole = compare(path, t_end=GYR_45, samples=400, threads=2, chunk_size=6)
+    resumed = compare(path, t_end=GYR_45, samples=20, threads=2, chunk_size=4, output=out)
+    assert resumed.resumed_from == 8 and resumed.complete
+    whole = compare(path, t_end=GYR_45, samples=20, threads=2, chunk_size=6)
     same_results(resumed, whole)
+
+
+def test_progress_by_count_steps_through_the_chunks(tmp_path):
+    path = write(tmp_path, rows(10))  # chunks of 2 cases
+    for every, expected in [(1, [2, 4, 6, 8, 10]), (2, [4, 8, 10]), (3, [6, 10]), (5, [10])]:
+        for threads in (1, 2):
+            seen = []
+            compare(
+                path,
+                t_end=GYR_45,
+                samples=3,
+                threads=threads,
+                chunk_size=2,
+                progress=lambda d, t, seen=seen: seen.append((d, t)),
+                progress_every=every,
+            )
+            assert seen == [(d, 10) for d in expected], (every, threads)
+    for bad in (0, -2, 1.0, True):
+        with pytest.raises(ValueError, match=r"progress_every must be a whole number >= 1"):
+            compare(path, t_end=GYR_45, progress_every=bad)
 
 
 def test_dask_cluster_gives_the_local_results(tmp_path):
@@ -328,7 +356,7 @@ def test_dask_cluster_gives_the_local_results(tmp_path):
     local = compare(path, t_end=GYR_45, samples=6, seed=7, threads=2)
     with (
         LocalCluster(
-            n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None
+            n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0"
         ) as cluster,
         Client(cluster) as client,
     ):
@@ -352,12 +380,20 @@ def test_dask_cluster_gives_the_local_results(tmp_path):
 
 def test_progress_reports_cases_rate_and_time_left(tmp_path, monkeypatch, capsys):
     path = write(tmp_path, rows(6))
+    # By time (the default): whatever the machine's speed, the counts rise to 6 of 6.
     seen = []
     compare(path, t_end=GYR_45, threads=1, chunk_size=2, progress=lambda d, t: seen.append((d, t)))
     assert seen[-1] == (6, 6) and all(t == 6 for _, t in seen)
     assert [d for d, _ in seen] == sorted(d for d, _ in seen)
-    # Without tqdm: a plain line on stderr with the rate and the time left.
+    # Without tqdm: a plain line on stderr with the rate and the time left. Progress after
+    # every chunk of 2 cases, on a clock that moves on 1 s at every reading.
     monkeypatch.setitem(sys.modules, "tqdm", None)
-    compare(path, t_end=GYR_45, threads=1, progress=True)
-    line = capsys.readouterr().err.strip().split("\r")[-1]
-    assert re.fullmatch(r"6/6 cases \(100%\), [\d.]+ cases/s, 00:00 left, \d\d:\d\d elapsed", line)
+    monkeypatch.setattr("exosieve.batch._time", SimpleNamespace(monotonic=count(0.0).__next__))
+    compare(path, t_end=GYR_45, threads=2, chunk_size=2, progress=True, progress_every=1)
+    assert capsys.readouterr().err.split("\r") == [
+        "",
+        "2/6 cases (33%), 2.0 cases/s, 00:02 left, 00:01 elapsed",
+        "4/6 cases (67%), 2.0 cases/s, 00:01 left, 00:02 elapsed",
+        "6/6 cases (100%), 2.0 cases/s, 00:00 left, 00:03 elapsed",
+        "6/6 cases (100%), 1.5 cases/s, 00:00 left, 00:04 elapsed\n",
+    ]

@@ -1,10 +1,9 @@
 """The command line: the demo runs, prints a table and writes a file xarray opens."""
 
-import os
-import re
 import signal
 import subprocess
 import sys
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -123,53 +122,38 @@ def test_sweep_summary_chart_and_columns(tmp_path, capsys):
     assert "made with other options" in capsys.readouterr().err
 
 
+SIGNAL_CHILD = Path(__file__).with_name("sweep_signal_child.py")
+
+
 @pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM, signal.SIGKILL])
 def test_interrupted_sweep_resumes_to_the_same_file(tmp_path, sig):
-    total = 120  # with 800 samples each: still going when the signal arrives (~2 s in all)
+    # The child sweeps with progress after every chunk of 4 cases and sends itself the signal
+    # from the update that reports 12 cases: always mid-sweep, after exactly three chunks.
+    total, kept = 24, 12
     table = sweep_table(tmp_path, total)
     out, reference = tmp_path / "run.h5", tmp_path / "whole.h5"
-    command = [
-        sys.executable,
-        "-m",
-        "exosieve.cli",
-        "sweep",
-        str(table),
-        "--samples",
-        "800",
-        "--threads",
-        "1",
-        "--chunk",
-        "4",
-    ]
-    child = subprocess.Popen([*command, "-o", str(out)], stderr=subprocess.PIPE)
-    # Wait for the progress bar to pass a third of the cases, then send the signal.
-    seen = b""
-    while True:
-        data = os.read(child.stderr.fileno(), 4096)
-        assert data, seen.decode(errors="replace")
-        seen += data
-        counts = re.findall(rb"(\d+)/%d" % total, seen)
-        if counts and int(counts[-1]) >= total // 3:
-            break
-    child.send_signal(sig)
-    rest = child.stderr.read()
-    child.stderr.close()
-    child.wait(timeout=60)
-    if sig == signal.SIGKILL:
-        assert child.returncode == -signal.SIGKILL
-    else:
-        assert child.returncode == 130, rest.decode(errors="replace")
-        assert b"run the same command again to resume" in rest
-    # Resume (the appender cuts any block a kill left half-written), then compare with an
-    # uninterrupted run: the same numbers in every variable.
-    resumed = subprocess.run(
-        [*command, "-o", str(out)], capture_output=True, text=True, timeout=120
+    sweep = ["sweep", str(table), "--samples", "20", "--threads", "2", "--chunk", "4"]
+    command = [sys.executable, "-m", "exosieve.cli", *sweep]
+    child = subprocess.run(
+        [sys.executable, str(SIGNAL_CHILD), str(int(sig)), str(kept), *sweep, "-o", str(out)],
+        capture_output=True,
+        text=True,
     )
+    if sig == signal.SIGKILL:
+        assert child.returncode == -signal.SIGKILL, child.stderr
+    else:
+        assert child.returncode == 130, child.stderr
+        assert (
+            f"interrupted: {kept} of {total} cases are safe in {out}; run the same command "
+            "again to resume" in child.stderr
+        )
+    # Resume (the appender cuts any block a kill left half-written), with the progress bar,
+    # then compare with an uninterrupted run: the same numbers in every variable.
+    resumed = subprocess.run([*command, "-o", str(out)], capture_output=True, text=True)
     assert resumed.returncode == 0, resumed.stderr
-    assert "resumed after the" in resumed.stdout
-    kept = int(re.search(r"resumed after the (\d+) cases", resumed.stdout).group(1))
-    assert 12 <= kept < total
-    subprocess.run([*command, "-o", str(reference), "--quiet"], check=True, timeout=120)
+    assert f"resumed after the {kept} cases already in {out}" in resumed.stdout
+    assert f"{total}/{total}" in resumed.stderr  # the progress bar's last state
+    subprocess.run([*command, "-o", str(reference), "--quiet"], check=True)
     a, b = open_comparison(out), open_comparison(reference)
     assert a.complete and b.complete
     for name in ["case", *a.variables]:

@@ -450,37 +450,72 @@ def test_sources_balance_proportional_loss():
     np.testing.assert_allclose(r2.inventory["H"], r.inventory["H"], rtol=1e-12)
 
 
-def test_progress_false_stops_the_run_and_keeps_results():
+def stepwise_exobase(knots: int = 101):
+    """A temperature table whose every knot is a step boundary: a run of >= knots - 1 steps."""
     table = exosieve.TabulatedTemperature(
-        np.linspace(0, c.GYR, 200001), 900 + 100 * np.sin(np.arange(200001))
+        np.linspace(0, c.GYR, knots), 900 + 100 * np.sin(np.arange(knots))
     )
-    exo = exosieve.PrescribedExobase(R_EXO, table, {"H": 1e11})
+    return exosieve.PrescribedExobase(R_EXO, table, {"H": 1e11})
+
+
+def test_progress_every_k_accepted_steps():
     seen = []
     r = exosieve.evolve(
-        earth(), exo, {"H": 1e38}, (0.0, c.GYR), progress=lambda t: seen.append(t) or len(seen) < 2
+        earth(),
+        stepwise_exobase(),
+        {"H": 1e38},
+        (0.0, c.GYR),
+        progress=seen.append,
+        progress_every=2,
     )
-    assert not r.completed and r.t_reached < c.GYR and r.time[-1] == r.t_reached
+    # Without t_eval every step's end is an output time: the calls came at steps 2, 4, ...
+    assert r.completed and r.steps >= 100
+    assert len(seen) == r.steps // 2 and seen == list(r.time[2::2])
+    exo = exosieve.PrescribedExobase(R_EXO, 1000.0, {"H": 1e11, "He": 1e12})
+    for bad in (0, -1, 1.5, True, "3"):
+        with pytest.raises(ValueError, match=r"progress_every must be a whole number >= 1"):
+            exosieve.evolve(earth(), exo, {"H": 1e36, "He": 1e37}, (0.0, c.GYR), progress_every=bad)
 
 
-def test_ctrl_c_stops_a_long_run_with_keyboard_interrupt():
+def test_progress_false_stops_the_run_and_keeps_results():
+    seen = []
+    r = exosieve.evolve(
+        earth(),
+        stepwise_exobase(),
+        {"H": 1e38},
+        (0.0, c.GYR),
+        progress=lambda t: seen.append(t) or len(seen) < 2,
+        progress_every=3,
+    )
+    # False at the 2nd call, made after every 3rd accepted step: the run stops after step 6.
+    assert len(seen) == 2 and r.steps == 6
+    assert not r.completed and r.t_reached == seen[-1] == r.time[-1] < c.GYR
+    assert seen[0] == r.time[3]
+
+
+def test_ctrl_c_stops_a_long_run_with_keyboard_interrupt(ctrl_c):
     import os
     import signal
-    import threading
-    import time
 
-    # 2e6 table knots: every knot is a step boundary, so the run takes seconds.
-    n = 2_000_001
-    table = exosieve.TabulatedTemperature(
-        np.linspace(0, c.GYR, n), 900 + 100 * np.sin(np.arange(n))
-    )
-    exo = exosieve.PrescribedExobase(R_EXO, table, {"H": 1e11})
-    timer = threading.Timer(0.3, lambda: os.kill(os.getpid(), signal.SIGINT))
-    start = time.perf_counter()
-    timer.start()
+    # The 5th progress call (every 10 accepted steps) sends SIGINT to this process, as Ctrl-C
+    # does; KeyboardInterrupt is raised there, and the run stops at that call.
+    calls = []
+
+    def progress(t):
+        calls.append(t)
+        if len(calls) == 5:
+            os.kill(os.getpid(), signal.SIGINT)
+
     with pytest.raises(KeyboardInterrupt):
-        exosieve.evolve(earth(), exo, {"H": 1e38}, (0.0, c.GYR), max_steps=10**8)
-    assert time.perf_counter() - start < 3.0
-    timer.cancel()
+        exosieve.evolve(
+            earth(),
+            stepwise_exobase(),
+            {"H": 1e38},
+            (0.0, c.GYR),
+            progress=progress,
+            progress_every=10,
+        )
+    assert len(calls) == 5 and calls[-1] < c.GYR
 
 
 # --- results on disk ----------------------------------------------------------------------------

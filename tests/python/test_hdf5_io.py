@@ -7,7 +7,7 @@ tests also check that the two coexist in one interpreter.
 import json
 import os
 import threading
-from datetime import datetime, timezone
+from datetime import datetime, timedelta, timezone
 
 import h5py
 import numpy as np
@@ -92,9 +92,17 @@ def test_xarray_sees_named_dimensions_string_coordinates_and_float_time(result):
     assert ds.time.attrs["units"] == "s"
     assert json.loads(ds.attrs["config"]) == CONFIG
     assert ds.attrs["exosieve_version"] == exosieve.__version__
-    created = datetime.strptime(ds.attrs["created"], "%Y-%m-%dT%H:%M:%SZ")
-    age = datetime.now(timezone.utc).replace(tzinfo=None) - created
-    assert 0 <= age.total_seconds() < 120
+    datetime.strptime(ds.attrs["created"], "%Y-%m-%dT%H:%M:%SZ")  # UTC, to the second
+
+
+def test_created_is_the_utc_time_of_writing(tmp_path):
+    # Bracketed by readings of the clock before and after: true however long the write takes.
+    # The stamp is whole seconds of time(), which may lag the precise clock by a tick.
+    before = datetime.now(timezone.utc).replace(tzinfo=None, microsecond=0) - timedelta(seconds=1)
+    write_result(tmp_path / "stamped.h5")
+    after = datetime.now(timezone.utc).replace(tzinfo=None)
+    created = read_attribute(tmp_path / "stamped.h5", "", "created")
+    assert before <= datetime.strptime(created, "%Y-%m-%dT%H:%M:%SZ") <= after
 
 
 def test_core_readers_round_trip(result):

@@ -245,11 +245,17 @@ RowBlock chunk_rows(const BatchChunk& chunk);
 struct BatchHooks {
     //! Receives each finished chunk, in table order; may throw to stop the batch.
     std::function<void(const BatchChunk&)> on_chunk;
-    //! Called about every `progress_interval_ms` with evolution runs done and in total (one
-    //! run per case plus one per sample); returning false cancels. May throw to stop.
+    //! Called with evolution runs done and in total (one run per case plus one per sample),
+    //! on the schedule set by `progress_every_chunks`, and once at the end; returning false
+    //! cancels (the call at the end cannot). May throw to stop.
     std::function<bool(std::size_t runs_done, std::size_t runs_total)> on_progress;
-    //! Milliseconds between progress calls.
+    //! Milliseconds between progress calls while `progress_every_chunks` is 0 [ms].
     unsigned progress_interval_ms = 100;
+    //! 0: on_progress about every `progress_interval_ms`, with the runs finished so far.
+    //! k > 0: on_progress right after every k-th chunk handed to on_chunk instead, with the
+    //! runs of the chunks handed out: a schedule set by counts alone, the same on any machine
+    //! and thread count [chunks].
+    std::size_t progress_every_chunks = 0;
 };
 
 //! What run_batch() did.
@@ -267,8 +273,9 @@ struct BatchStatus {
 //! with a preset row error are always reported with it. A run that fails numerically is
 //! reported in its chunk and every other run completes.
 //! Cancelling (on_progress returns false) stops the workers within one integration step; the
-//! chunks handed out before stay handed out. An exception from a hook stops the batch and is
-//! rethrown after the workers have stopped.
+//! chunks handed out before stay handed out (with `progress_every_chunks` = k, cancelling at
+//! the m-th call keeps exactly the first k m chunks). An exception from a hook stops the batch
+//! and is rethrown after the workers have stopped.
 BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end,
                       const BatchOptions& options, const BatchHooks& hooks);
 
