@@ -125,6 +125,9 @@ class CaseTable:
     row_errors : list of str
         Per row: why it could not be read ("" when it could); filled when reading with
         ``errors="collect"``.
+    units : dict of str to str
+        The unit each numeric column was given in (its header's ``[unit]``), so that messages
+        show a bad value as the table gave it.
     """
 
     names: list[str]
@@ -134,6 +137,7 @@ class CaseTable:
     source: str = ""
     row_labels: Sequence[str] = field(default_factory=list)
     row_errors: list[str] = field(default_factory=list)
+    units: dict[str, str] = field(default_factory=dict)
 
     def __len__(self) -> int:
         return len(self.names)
@@ -167,6 +171,8 @@ class CaseTable:
         table.first_key = first_key
         for name, values in self.columns.items():
             table.add_column(name, np.ascontiguousarray(values[rows], dtype=float))
+        for name, unit in given_units(self.units).items():
+            table.set_given_unit(name, unit, UNITS[unit][0])
         for name, texts in self.text_columns.items():
             if name != "case":
                 table.add_text(name, texts[rows])
@@ -207,6 +213,11 @@ class LineLabels(Sequence[str]):
 
     def __repr__(self) -> str:
         return f"LineLabels({self.lines!r})"
+
+
+def given_units(units: dict[str, str]) -> dict[str, str]:
+    """The columns of `units` given in a unit other than SI (the ones messages convert)."""
+    return {name: unit for name, unit in units.items() if UNITS.get(unit, (1.0,))[0] != 1.0}
 
 
 def demo_catalogue_path() -> Path:
@@ -261,12 +272,13 @@ class _Reader:
         self.errors: dict[int, str] = {}  # by row
         self.numbers: dict[str, _Column] = {}
         self.texts: dict[str, dict[str, str]] = {}  # one copy of each repeated text, by column
-        for name, _ in self.parsed:
+        for name, unit in self.parsed:
             if name in TEXT_COLUMNS:
                 self.table.text_columns[name] = []
                 self.texts[name] = {}
             else:
                 self.numbers[name] = _Column(capacity)
+                self.table.units[name] = unit or "1"
             if name.startswith("x_") and not name.endswith(("_sigma", "_lnsigma")):
                 try:
                     _species(name[2:])  # unknown species: ValueError with the closest names
@@ -502,7 +514,9 @@ def _read_csv(handle: Any, source: str, collect: bool) -> CaseTable:
             except StopIteration:
                 return None
             except csv.Error as err:
-                raise ValueError(f"{source} line {lines.record_line}: {err}") from None
+                raise ValueError(
+                    f"{source} line {lines.record_line}: cannot read the CSV record ({err})"
+                ) from None
             if fields:
                 return fields
 

@@ -165,3 +165,51 @@ def test_reading_a_table_takes_memory_for_its_values_only(tmp_path):
     )
     bytes_per_row = float(out.stdout)
     assert bytes_per_row < 600, f"{bytes_per_row:.0f} B per row"
+
+
+@pytest.mark.parametrize(
+    ("column", "value", "shown"),
+    [
+        (
+            "planet_mass [M_earth]",
+            -1.0,
+            r"column 'planet_mass': must be > 0, got -1 M_earth \(-5.97",
+        ),
+        (
+            "exobase_altitude [km]",
+            -5.0,
+            r"column 'exobase_altitude': must be >= 0, got -5 km \(-5000 m\)",
+        ),
+        (
+            "exobase_density [cm-3]",
+            -2.0,
+            r"column 'exobase_density': must be > 0, got -2 cm-3 \(-2000000 m-3\)",
+        ),
+        (
+            "exobase_temperature [K]",
+            -3.0,
+            r"column 'exobase_temperature': must be > 0, got -3 K(?! \()",
+        ),
+    ],
+)
+def test_bad_value_is_shown_in_the_unit_the_table_gave(tmp_path, column, value, shown):
+    frame = pd.DataFrame(
+        {
+            "case": ["A"],
+            "planet_mass [M_earth]": [1.0],
+            "planet_radius [R_earth]": [1.0],
+            "exobase_altitude [km]": [500.0],
+            "exobase_density [cm-3]": [1e7],
+            "exobase_temperature [K]": [900.0],
+            "inventory [particles]": [1e37],
+            "x_N2": [1.0],
+        }
+    )
+    frame[column] = value
+    with pytest.raises(ValueError, match=shown):
+        compare(frame, times=[c.GYR])
+    # The same from a file.
+    path = tmp_path / "bad.csv"
+    frame.to_csv(path, index=False)
+    with pytest.raises(ValueError, match=r"line 2 \(case 'A'\), " + shown):
+        compare(path, times=[c.GYR])
