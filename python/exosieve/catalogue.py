@@ -67,6 +67,8 @@ MAX_TEXT_LENGTH = 10_000
 #: Rows converted at a time when reading a CSV file: bounds the memory of the raw text.
 _BLOCK_ROWS = 4096
 
+_CONTROL = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
+
 _HEADER = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[\s*([^\]]+?)\s*\])?\s*$")
 
 
@@ -346,6 +348,14 @@ class _Reader:
                                 f"{len(text)} characters, at most {MAX_TEXT_LENGTH} allowed"
                             )
                             stripped[i] = text[:40] + "..."
+                if _CONTROL.search("".join(stripped)):
+                    for i, text in enumerate(stripped):
+                        if (found := _CONTROL.search(text)) and i not in errors:
+                            errors[i] = (
+                                f"{self.source} {labels[i]} column '{name}': text holds the "
+                                f"control character {ascii(found.group())} at character "
+                                f"{found.start() + 1}"
+                            )
                 if name != "case":  # repeated texts (star, comment) share one string
                     seen = self.texts[name]
                     stripped = [seen.setdefault(text, text) for text in stripped]
@@ -503,7 +513,7 @@ class _Lines:
 def _read_csv(handle: Any, source: str, collect: bool) -> CaseTable:
     """A CaseTable from an open CSV file, read record by record and converted in blocks."""
     lines = _Lines(handle)
-    records = csv.reader(lines)
+    records = csv.reader(lines, strict=True)  # a quote left open is an error, not data
 
     def record() -> list[str] | None:
         """The next record that is not blank; None at the end of the file."""
@@ -515,7 +525,8 @@ def _read_csv(handle: Any, source: str, collect: bool) -> CaseTable:
                 return None
             except csv.Error as err:
                 raise ValueError(
-                    f"{source} line {lines.record_line}: cannot read the CSV record ({err})"
+                    f"{source} line {lines.record_line}: cannot read the CSV record ({err}); "
+                    "check its double quotes and length"
                 ) from None
             if fields:
                 return fields

@@ -213,3 +213,21 @@ def test_bad_value_is_shown_in_the_unit_the_table_gave(tmp_path, column, value, 
     frame.to_csv(path, index=False)
     with pytest.raises(ValueError, match=r"line 2 \(case 'A'\), " + shown):
         compare(path, times=[c.GYR])
+
+
+def test_quote_left_open_is_refused_not_swallowing_rows(tmp_path):
+    # Without the check the rest of the file became the text of the last field of line 3.
+    row_a = ROW.format(name="A", temperature=900)
+    path = write(tmp_path, f'{HEADER},comment\n{row_a},ok\n{row_a},"open\n{row_a},lost\n')
+    with pytest.raises(ValueError, match=r"cases\.csv line 3: cannot read the CSV record"):
+        read_case_table(path, errors="collect")
+    path = write(tmp_path, f'{HEADER}\n"A"x,1.0,1.0,500,1e13,900,1e37,0.9,0.1\n')
+    with pytest.raises(ValueError, match=r"cases\.csv line 2: cannot read the CSV record"):
+        read_case_table(path)
+
+
+def test_control_characters_in_texts_are_refused(tmp_path):
+    row = ROW.format(name="A\x00B", temperature=900)
+    path = write(tmp_path, f"{HEADER}\n{row}\n")
+    with pytest.raises(ValueError, match=r"line 2 column 'case': text holds the control char"):
+        read_case_table(path)
