@@ -71,6 +71,13 @@ void bind_batch(py::module_& m) {
             },
             py::arg("name"), py::arg("values"))
         .def(
+            "set_given_unit",
+            [](CaseTable& t, const std::string& name, const std::string& unit, double si) {
+                t.given_units[name] = {unit, si};
+            },
+            py::arg("name"), py::arg("unit"), py::arg("si_value"),
+            "Show the values of column `name` in messages in `unit`, worth `si_value` in SI")
+        .def(
             "add_text",
             [](CaseTable& t, const std::string& name, std::vector<std::string> values) {
                 t.text.emplace_back(name, std::move(values));

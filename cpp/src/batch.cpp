@@ -82,6 +82,18 @@ std::string range_text(const CaseParameter& p) {
     return s;
 }
 
+// A table value for messages: as given ("-1 M_earth (-5.97e+24 kg)") when the column has a
+// unit other than SI, else in SI ("-5.97e+24 kg"; a bare number for unit "1").
+std::string shown_value(const CaseTable& table, const std::string& column, const std::string& si,
+                        double v) {
+    const std::string in_si = format_value(v) + (si.empty() || si == "1" ? "" : " " + si);
+    const auto given = table.given_units.find(column);
+    if (given == table.given_units.end() || given->second.second == 1.0 ||
+        !(given->second.second > 0.0))
+        return in_si;
+    return format_value(v / given->second.second) + " " + given->second.first + " (" + in_si + ")";
+}
+
 bool in_range(const CaseParameter& p, double v) {
     if (!std::isfinite(v))
         return false;
@@ -476,7 +488,10 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
             if (r.sigma || r.lnsigma) {
                 if (!std::isfinite(v) || v < 0.0)
                     bad_value(name,
-                              "an uncertainty must be finite and >= 0, got " + format_value(v));
+                              "an uncertainty must be finite and >= 0, got " +
+                                  shown_value(table, name,
+                                              r.lnsigma || !r.parameter ? "1" : r.parameter->unit,
+                                              v));
                 if (r.value_column == none || std::isnan(table.columns[r.value_column].second[row]))
                     bad_value(r.base, "an uncertainty is given but no value");
                 const std::size_t k = slot(r);
@@ -489,7 +504,8 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
             if (!r.parameter)
                 bad_value(name, "unknown column");
             if (!in_range(*r.parameter, v))
-                bad_value(name, "must be " + range_text(*r.parameter) + ", got " + format_value(v));
+                bad_value(name, "must be " + range_text(*r.parameter) + ", got " +
+                                    shown_value(table, name, r.parameter->unit, v));
             if (r.global == slots().max_steps && v != std::floor(v))
                 bad_value(name, "must be a whole number, got " + format_value(v));
             const std::size_t k = slot(r);

@@ -55,7 +55,7 @@ from numpy.typing import NDArray
 
 from . import _core
 from . import constants as c
-from .catalogue import CaseTable, load_cases
+from .catalogue import UNITS, CaseTable, given_units, load_cases
 from .model import REGIMES
 
 __all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
@@ -922,6 +922,8 @@ def _run_chunk(payload: dict[str, Any], options: dict[str, Any], threads: int) -
         table.add_column(name, values)
     for name, values in payload["text"].items():
         table.add_text(name, values)
+    for name, unit in payload.get("units", {}).items():
+        table.set_given_unit(name, unit, UNITS[unit][0])
     rows = len(payload["names"])
     core_options = _core_options(options, threads=threads, chunk_size=max(rows, 1))
     chunks: list[dict[str, Any]] = []
@@ -938,6 +940,7 @@ def _payload(table: CaseTable, start: int, stop: int) -> dict[str, Any]:
         "first_key": start,
         "columns": {k: np.asarray(v, dtype=float)[rows] for k, v in table.columns.items()},
         "text": {k: v[rows] for k, v in table.text_columns.items() if k != "case"},
+        "units": given_units(table.units),
     }
 
 

@@ -3,20 +3,24 @@
 A header reads ``quantity [unit]`` (for example ``planet_mass [M_earth]``); ``_sigma`` columns
 hold one-standard-deviation uncertainties in the same unit (normal distribution),
 ``_lnsigma [1]`` columns the standard deviation of the natural logarithm (log-normal, the value
-being the median); ``x_<species>`` columns are mole fractions [1]. Lines starting with ``#``
-are comments; an empty cell means "not given" for that row. Values are converted to SI on
-reading. The quantities a case may carry are listed by :func:`case_columns` and in the README.
+being the median); ``x_<species>`` columns are mole fractions [1]. Files are CSV as RFC 4180
+describes it (UTF-8, a byte-order mark allowed): a double-quoted field is data, whatever it
+holds (commas, ``#``, line breaks); a line whose first character is ``#`` outside any quoted
+field is a comment. An empty cell means "not given" for that row. Values are converted to SI
+on reading. The quantities a case may carry are listed by :func:`case_columns` and in the README.
 """
 
 from __future__ import annotations
 
 import csv
 import hashlib
+import os
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
-from typing import Any
+from typing import Any, overload
 
 import numpy as np
 from numpy.typing import NDArray
@@ -56,6 +60,14 @@ UNITS: dict[str, tuple[float, str]] = {
 
 #: Columns that hold text rather than numbers.
 TEXT_COLUMNS = ("case", "star", "density_scaling", "comment")
+
+#: Longest text accepted in a cell [characters].
+MAX_TEXT_LENGTH = 10_000
+
+#: Rows converted at a time when reading a CSV file: bounds the memory of the raw text.
+_BLOCK_ROWS = 4096
+
+_CONTROL = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
 
 _HEADER = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[\s*([^\]]+?)\s*\])?\s*$")
 
@@ -109,11 +121,15 @@ class CaseTable:
         Species named by ``x_<species>`` columns, in column order.
     source : str
         Where the table came from.
-    row_labels : list of str
-        Where each row comes from, for messages ("line 7" of a file, "row 3" of a DataFrame).
+    row_labels : sequence of str
+        Where each row comes from, for messages ("line 7" of a file, "row 3" of a DataFrame);
+        for a file, a :class:`LineLabels`.
     row_errors : list of str
         Per row: why it could not be read ("" when it could); filled when reading with
         ``errors="collect"``.
+    units : dict of str to str
+        The unit each numeric column was given in (its header's ``[unit]``), so that messages
+        show a bad value as the table gave it.
     """
 
     names: list[str]
@@ -121,8 +137,9 @@ class CaseTable:
     text_columns: dict[str, list[str]] = field(default_factory=dict)
     species: list[str] = field(default_factory=list)
     source: str = ""
-    row_labels: list[str] = field(default_factory=list)
+    row_labels: Sequence[str] = field(default_factory=list)
     row_errors: list[str] = field(default_factory=list)
+    units: dict[str, str] = field(default_factory=dict)
 
     def __len__(self) -> int:
         return len(self.names)
@@ -156,10 +173,53 @@ class CaseTable:
         table.first_key = first_key
         for name, values in self.columns.items():
             table.add_column(name, np.ascontiguousarray(values[rows], dtype=float))
+        for name, unit in given_units(self.units).items():
+            table.set_given_unit(name, unit, UNITS[unit][0])
         for name, texts in self.text_columns.items():
             if name != "case":
                 table.add_text(name, texts[rows])
         return table
+
+
+class LineLabels(Sequence[str]):
+    """Row labels ``"line N"`` of a CSV table, held as line numbers (8 bytes a row).
+
+    Examples
+    --------
+    >>> labels = LineLabels(np.array([3, 5, 9]))
+    >>> labels[1], labels[1:]
+    ('line 5', ['line 5', 'line 9'])
+    """
+
+    def __init__(self, lines: NDArray[np.int64]):
+        self.lines = np.asarray(lines, dtype=np.int64)
+
+    def __len__(self) -> int:
+        return len(self.lines)
+
+    @overload
+    def __getitem__(self, index: int) -> str: ...
+    @overload
+    def __getitem__(self, index: slice) -> list[str]: ...
+    def __getitem__(self, index: int | slice) -> str | list[str]:
+        if isinstance(index, slice):
+            return [f"line {n}" for n in self.lines[index].tolist()]
+        return f"line {int(self.lines[index])}"
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, Sequence):
+            return len(other) == len(self) and list(other) == self[:]
+        return NotImplemented
+
+    __hash__ = None  # type: ignore[assignment]
+
+    def __repr__(self) -> str:
+        return f"LineLabels({self.lines!r})"
+
+
+def given_units(units: dict[str, str]) -> dict[str, str]:
+    """The columns of `units` given in a unit other than SI (the ones messages convert)."""
+    return {name: unit for name, unit in units.items() if UNITS.get(unit, (1.0,))[0] != 1.0}
 
 
 def demo_catalogue_path() -> Path:
@@ -182,16 +242,21 @@ def _data_path(name: str) -> Path:
 class _Reader:
     """Turns headers and rows of text or numbers into a CaseTable, one rule set for both."""
 
-    def __init__(self, source: str, header: list[str], header_where: str, collect: bool):
+    def __init__(
+        self, source: str, header: list[str], header_where: str, collect: bool, capacity: int
+    ):
         self.collect = collect
         self.source = source
         self.parsed: list[tuple[str, str | None]] = []
         for number, text in enumerate(header, start=1):
-            match = _HEADER.match(str(text))
+            text = str(text)
+            if number == 1:
+                text = text.removeprefix("\ufeff")  # a byte-order mark read as text
+            match = _HEADER.match(text)
             if not match:
                 raise ValueError(
                     f"{source} {header_where} column {number}: cannot read header "
-                    f"'{text}' (expected 'quantity [unit]')"
+                    f"{_shown(text)} (expected 'quantity [unit]')"
                 )
             name, unit = match.group(1), match.group(2)
             self._check_unit(name, unit, text, header_where)
@@ -204,11 +269,18 @@ class _Reader:
                 raise ValueError(f"{source} {header_where}: column '{name}' appears twice")
             seen.add(name)
         self.table = CaseTable(names=[], source=source)
-        for name, _ in self.parsed:
+        self.rows = 0  # rows read so far
+        self.labels: list[Sequence[str]] = []  # by block
+        self.errors: dict[int, str] = {}  # by row
+        self.numbers: dict[str, _Column] = {}
+        self.texts: dict[str, dict[str, str]] = {}  # one copy of each repeated text, by column
+        for name, unit in self.parsed:
             if name in TEXT_COLUMNS:
                 self.table.text_columns[name] = []
+                self.texts[name] = {}
             else:
-                self.table.columns[name] = np.zeros(0)
+                self.numbers[name] = _Column(capacity)
+                self.table.units[name] = unit or "1"
             if name.startswith("x_") and not name.endswith(("_sigma", "_lnsigma")):
                 try:
                     _species(name[2:])  # unknown species: ValueError with the closest names
@@ -238,11 +310,13 @@ class _Reader:
                 f"{name} (which is in {expected})"
             )
 
-    def read(self, labels: list[str], cells: list[Any], widths: list[int] | None = None) -> None:
-        """Convert whole columns at once: `cells[k]` holds column k's raw values, one per row;
-        `widths` (CSV) the number of fields each row had."""
+    def read(
+        self, labels: Sequence[str], cells: list[Any], widths: list[int] | None = None
+    ) -> None:
+        """Append rows, converting whole columns at once: `cells[k]` holds column k's raw
+        values, one per row; `widths` (CSV) the number of fields each row had."""
         table = self.table
-        n = len(labels)
+        first, n = self.rows, len(labels)
         errors: dict[int, str] = {}
         if widths is not None:
             for i, width in enumerate(widths):
@@ -266,23 +340,80 @@ class _Reader:
                         else ("" if _is_missing(value) else str(value).strip())
                         for value in raw
                     ]
-                table.text_columns[name] = stripped
+                if max(map(len, stripped), default=0) > MAX_TEXT_LENGTH:
+                    for i, text in enumerate(stripped):
+                        if len(text) > MAX_TEXT_LENGTH and i not in errors:
+                            errors[i] = (
+                                f"{self.source} {labels[i]} column '{name}': text of "
+                                f"{len(text)} characters, at most {MAX_TEXT_LENGTH} allowed"
+                            )
+                            stripped[i] = text[:40] + "..."
+                if _CONTROL.search("".join(stripped)):
+                    for i, text in enumerate(stripped):
+                        if (found := _CONTROL.search(text)) and i not in errors:
+                            errors[i] = (
+                                f"{self.source} {labels[i]} column '{name}': text holds the "
+                                f"control character {ascii(found.group())} at character "
+                                f"{found.start() + 1}"
+                            )
+                if name != "case":  # repeated texts (star, comment) share one string
+                    seen = self.texts[name]
+                    stripped = [seen.setdefault(text, text) for text in stripped]
+                table.text_columns[name].extend(stripped)
                 continue
             values, bad = _numbers(raw)
             for i, value in bad.items():
                 if i not in errors:
                     what = "is not finite" if isinstance(value, float) else "is not a number"
-                    shown = f"value {value}" if isinstance(value, float) else f"'{value}'"
+                    shown = f"value {value}" if isinstance(value, float) else _shown(str(value))
                     errors[i] = f"{self.source} {labels[i]} column '{name}': {shown} {what}"
-            table.columns[name] = values * UNITS[unit or "1"][0]
-        table.row_labels = list(labels)
-        table.row_errors = [errors.get(i, "") for i in range(n)] if errors else [""] * n
+            self.numbers[name].extend(values * UNITS[unit or "1"][0])
+        self.labels.append(labels)
+        self.errors.update((first + i, text) for i, text in errors.items())
+        self.rows += n
         if errors and not self.collect:
             raise ValueError(errors[min(errors)])
 
     def finish(self) -> CaseTable:
-        self.table.names = self.table.text_columns["case"]
-        return self.table
+        table = self.table
+        for name, column in self.numbers.items():
+            table.columns[name] = column.values()
+        table.row_errors = [self.errors.get(i, "") for i in range(self.rows)]
+        if self.labels and all(isinstance(block, LineLabels) for block in self.labels):
+            lines = [block.lines for block in self.labels if isinstance(block, LineLabels)]
+            table.row_labels = LineLabels(np.concatenate(lines))
+        else:
+            table.row_labels = [label for block in self.labels for label in block]
+        self.labels.clear()
+        table.names = table.text_columns["case"]
+        return table
+
+
+class _Column:
+    """A numeric column filled block by block. Its buffer is allocated at the largest size the
+    input can need and never touched beyond the rows written, so only those take memory and no
+    block is copied twice."""
+
+    def __init__(self, capacity: int):
+        self.data = np.empty(max(capacity, 1))
+        self.size = 0
+
+    def extend(self, values: NDArray[np.float64]) -> None:
+        end = self.size + len(values)
+        if end > len(self.data):  # more rows than foreseen (short, malformed rows)
+            grown = np.empty(max(end, 2 * len(self.data)))
+            grown[: self.size] = self.data[: self.size]
+            self.data = grown
+        self.data[self.size : end] = values
+        self.size = end
+
+    def values(self) -> NDArray[np.float64]:
+        return self.data[: self.size]
+
+
+def _shown(text: str) -> str:
+    """`text` quoted for a message, invisible and control characters escaped."""
+    return f"'{text}'" if text.isprintable() else ascii(text)
 
 
 def _is_float_array(column: Any) -> bool:
@@ -347,23 +478,97 @@ def read_case_table(path: str | Path, errors: str = "raise") -> CaseTable:
     _check_errors(errors)
     path = Path(path)
     source = str(path)
-    with path.open(newline="", encoding="utf-8") as handle:
-        lines = list(enumerate(handle, start=1))
-    rows = [
-        (n, r)
-        for n, r in ((n, next(csv.reader([line]), [])) for n, line in lines)
-        if r and not r[0].lstrip().startswith("#")
-    ]
-    if not rows:
+    try:
+        with path.open(newline="", encoding="utf-8-sig") as handle:
+            return _read_csv(handle, source, errors == "collect")
+    except UnicodeDecodeError:
+        raise ValueError(_decode_error(path)) from None
+
+
+class _Lines:
+    """The physical lines of a CSV file, as `csv.reader` asks for them: counts them and, at
+    the start of a record (`at_start`), skips comment lines (first character ``#``)."""
+
+    def __init__(self, handle: Any):
+        self.handle = handle
+        self.number = 0  # lines read
+        self.record_line = 0  # line where the current record starts
+        self.at_start = True
+
+    def __iter__(self) -> _Lines:
+        return self
+
+    def __next__(self) -> str:
+        while True:
+            line: str = next(self.handle)
+            self.number += 1
+            if not self.at_start:
+                return line
+            if not line.startswith("#"):
+                self.at_start = False
+                self.record_line = self.number
+                return line
+
+
+def _read_csv(handle: Any, source: str, collect: bool) -> CaseTable:
+    """A CaseTable from an open CSV file, read record by record and converted in blocks."""
+    lines = _Lines(handle)
+    records = csv.reader(lines, strict=True)  # a quote left open is an error, not data
+
+    def record() -> list[str] | None:
+        """The next record that is not blank; None at the end of the file."""
+        while True:
+            lines.at_start = True
+            try:
+                fields = next(records)
+            except StopIteration:
+                return None
+            except csv.Error as err:
+                raise ValueError(
+                    f"{source} line {lines.record_line}: cannot read the CSV record ({err}); "
+                    "check its double quotes and length"
+                ) from None
+            if fields:
+                return fields
+
+    header = record()
+    if header is None:
         raise ValueError(f"{source}: no header line")
-    header_line, header = rows[0]
-    reader = _Reader(source, header, f"line {header_line}", errors == "collect")
     width = len(header)
-    body = rows[1:]
-    padded = [(list(row) + [""] * width)[:width] for _, row in body]
-    cells = [list(column) for column in zip(*padded, strict=True)] if padded else [[]] * width
-    reader.read([f"line {line}" for line, _ in body], cells, [len(row) for _, row in body])
-    return reader.finish()
+    try:  # each data row takes at least its width - 1 separators
+        capacity = os.fstat(handle.fileno()).st_size // max(width - 1, 1) + 1
+    except (AttributeError, OSError):
+        capacity = _BLOCK_ROWS
+    reader = _Reader(source, header, f"line {lines.record_line}", collect, capacity)
+    while True:
+        starts: list[int] = []
+        rows: list[list[str]] = []
+        widths: list[int] = []
+        while len(rows) < _BLOCK_ROWS and (fields := record()) is not None:
+            starts.append(lines.record_line)
+            widths.append(len(fields))
+            rows.append(fields if len(fields) == width else (fields + [""] * width)[:width])
+        if rows or reader.rows == 0:
+            cells = [list(column) for column in zip(*rows, strict=True)] if rows else [[]] * width
+            del rows
+            reader.read(LineLabels(np.array(starts, dtype=np.int64)), cells, widths)
+        if len(starts) < _BLOCK_ROWS:
+            return reader.finish()
+
+
+def _decode_error(path: Path) -> str:
+    """Where `path` first fails to decode as UTF-8: its line and the offending byte."""
+    with path.open("rb") as handle:
+        for number, line in enumerate(handle, start=1):
+            try:
+                line.decode("utf-8-sig" if number == 1 else "utf-8")
+            except UnicodeDecodeError as err:
+                skip = 3 if number == 1 and line.startswith(b"\xef\xbb\xbf") else 0
+                return (
+                    f"{path} line {number}: not UTF-8 text (byte 0x{line[skip + err.start]:02x} "
+                    f"at byte {skip + err.start + 1} of the line); save the table as UTF-8"
+                )
+    return f"{path}: not UTF-8 text; save the table as UTF-8"
 
 
 def case_table_from_frame(
@@ -385,7 +590,9 @@ def case_table_from_frame(
     _check_errors(errors)
     if "case" not in frame.columns and frame.index.name == "case":
         frame = frame.reset_index()  # case labels kept as the index
-    reader = _Reader(source, [str(name) for name in frame.columns], "header", errors == "collect")
+    reader = _Reader(
+        source, [str(name) for name in frame.columns], "header", errors == "collect", len(frame)
+    )
     reader.read(
         [f"row {label}" for label in frame.index],
         [frame[name].to_numpy() for name in frame.columns],

@@ -306,6 +306,14 @@ TEST_CASE("case tables: columns and rows are checked with the row and the column
         case_from_table(bad, 1),
         doctest::Contains("line 6 (case 'case 1'), column 'planet_mass': must be > 0, got -2"),
         InputError);
+    // A column given in another unit shows the bad value in it, then in SI.
+    CaseTable given = bad;
+    given.columns[0].second[1] = -2.0 * constants::M_earth;
+    given.given_units["planet_mass"] = {"M_earth", constants::M_earth};
+    const std::string as_given = "column 'planet_mass': must be > 0, got -2 M_earth (" +
+                                 format_value(-2.0 * constants::M_earth) + " kg)";
+    CHECK_THROWS_WITH_AS(case_from_table(given, 1), doctest::Contains(as_given.c_str()),
+                         InputError);
     const auto errors = check_table(bad, options(2));
     REQUIRE(errors.size() == 3);
     CHECK(errors[0].empty());

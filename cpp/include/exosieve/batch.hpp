@@ -148,6 +148,10 @@ struct CaseTable {
     std::uint64_t first_key = 0;         //!< key of row 0 (its index in the full table)
     std::vector<std::pair<std::string, std::vector<double>>> columns;   //!< name -> SI values
     std::vector<std::pair<std::string, std::vector<std::string>>> text; //!< name -> text
+    //! Numeric column name -> the unit its values were given in and that unit's SI value
+    //! (e.g. "M_earth", 5.97e24 kg), so that messages show a bad value as given; without an
+    //! entry a column's values are shown in SI.
+    std::map<std::string, std::pair<std::string, double>> given_units;
 
     //! Number of rows.
     std::size_t rows() const { return names.size(); }
