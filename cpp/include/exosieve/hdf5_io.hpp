@@ -228,6 +228,9 @@ std::string read_attribute(const std::string& path, const std::string& object,
 //! Read an integer attribute of the file ("" or "/") or of a dataset.
 std::int64_t read_int_attribute(const std::string& path, const std::string& object,
                                 const std::string& name);
+//! True if another open file description holds a lock on `path` (HDF5 writers lock their file).
+bool file_is_locked(const std::string& path);
+
 //! Names of the dimension scales attached to each dimension of `dataset` ("" if none).
 std::vector<std::string> read_dimensions(const std::string& path, const std::string& dataset);
 
