@@ -510,8 +510,9 @@ def _check_values(
     if bad.any():
         where = tuple(int(i) for i in np.argwhere(bad)[0])
         allowed = "the row numbers" if name == "case" else "[{}, {}]".format(*_RANGES[name])
+        value = values[:rows][where].item()
         raise _damaged(
-            f"{path} is damaged: dataset '{name}' holds {values[:rows][where].item()!r} at {where}, "
+            f"{path} is damaged: dataset '{name}' holds {value!r} at {where}, "
             f"outside {allowed}; it was not used"
         )
 
@@ -534,7 +535,8 @@ def check_ranges(
 def _damaged(message: str) -> Exception:
     from .results import FileError
 
-    return FileError(message)
+    error: Exception = FileError(message)
+    return error
 
 
 def _create_file(
