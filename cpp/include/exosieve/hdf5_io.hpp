@@ -34,7 +34,7 @@
 //! An appender holds HDF5's file lock; the readers here open without it, so they read a file
 //! that a sweep is appending to (only its first `completed` rows; a read during an append may
 //! fail and can be repeated) and never block an appender. h5py needs `locking=False` for that.
-//! Numbers are stored with Fletcher32 checksums; variable-length strings have their heap
+//! Fixed-size numbers are stored with Fletcher32 checksums; variable-length strings have their heap
 //! references checked before they are read; text attributes are fixed-length (no heap).
 //! ResultWriter replaces only an empty file or an exosieve result that no process has locked.
 //! HDF5 1.10 has no crash-consistent metadata updates outside SWMR mode: a kill in the middle
