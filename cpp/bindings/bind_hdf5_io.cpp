@@ -426,6 +426,14 @@ void bind_hdf5_io(py::module_& m) {
         },
         py::arg("path"), py::arg("dataset"),
         "Names of the dimensions of `dataset` (from its attached dimension scales).");
+    m.def(
+        "file_is_locked",
+        [](const py::handle& path) {
+            const std::string p = fspath(path);
+            return file_is_locked(p);
+        },
+        py::arg("path"),
+        "True if another open file holds a lock on `path` (a sweep is writing it).");
 }
 
 } // namespace exosieve::bindings

@@ -16,6 +16,7 @@
 #include <sstream>
 
 #include <fcntl.h>
+#include <sys/file.h>
 #include <unistd.h>
 
 #include "exosieve/errors.hpp"
@@ -25,12 +26,28 @@
 #endif
 
 namespace exosieve {
+
+bool file_is_locked(const std::string& path) {
+    const int fd = ::open(path.c_str(), O_RDONLY);
+    if (fd < 0)
+        return false;
+    // HDF5 locks with flock(): exclusive for writers, shared for locking readers.
+    const bool locked = ::flock(fd, LOCK_EX | LOCK_NB) != 0 && errno == EWOULDBLOCK;
+    if (!locked)
+        ::flock(fd, LOCK_UN);
+    ::close(fd);
+    return locked;
+}
+
 namespace {
 
 namespace fs = std::filesystem;
 
 const char* const case_dim = "case";
 const char* const completed_attr = "completed";
+// Longer text attributes are stored as variable-length strings (in a global heap): an object
+// header message holds at most 64 KiB.
+const std::size_t max_inline_attribute = 32768;
 
 // ---------------------------------------------------------------- HDF5 errors and handles
 
@@ -125,11 +142,15 @@ Handle utf8_string_type() {
     return type;
 }
 
-Handle file_access() {
+// Writers lock the file (when the file system can; they carry on where it cannot, as on some
+// cluster file systems). Readers take no lock: they may read a file that a sweep is appending
+// to (only its first `completed` rows are trusted), and they never block a writer.
+Handle file_access(bool lock = true) {
     Handle fapl = checked(H5Pcreate(H5P_FILE_ACCESS), H5Pclose, "create a file-access list");
 #if H5_VERSION_GE(1, 10, 7)
-    // Lock when the file system can; carry on where it cannot (some cluster file systems).
-    check(H5Pset_file_locking(fapl.get(), true, true), "configure file locking");
+    check(H5Pset_file_locking(fapl.get(), lock, true), "configure file locking");
+#else
+    static_cast<void>(lock);
 #endif
     return fapl;
 }
@@ -220,7 +241,57 @@ std::string directory_of(const std::string& path) {
     return parent.empty() ? std::string(".") : parent.string();
 }
 
-// Checks the target before any work: a file name in an existing directory.
+std::string locked_message(const std::string& path) {
+    return in_quotes(path) +
+           " is locked: another process has it open for writing (a running sweep?); it "
+           "was left alone. Wait for that process to end, or write elsewhere";
+}
+
+// True if a file begins with the HDF5 signature and carries the root attribute
+// `exosieve_version` that every ResultWriter writes.
+bool is_exosieve_result(const std::string& path) {
+    {
+        const int fd = ::open(path.c_str(), O_RDONLY);
+        if (fd < 0)
+            return false;
+        unsigned char head[8] = {0};
+        const ssize_t n = ::pread(fd, head, sizeof head, 0);
+        ::close(fd);
+        static const unsigned char signature[8] = {0x89, 'H', 'D', 'F', '\r', '\n', 0x1a, '\n'};
+        if (n != 8 || std::memcmp(head, signature, 8) != 0)
+            return false;
+    }
+    QuietHdf5 quiet;
+    for (bool lock : {false, true}) { // locked: the file may be open in this process already
+        Handle fapl = file_access(lock);
+        const hid_t file = H5Fopen(path.c_str(), H5F_ACC_RDONLY, fapl.get());
+        if (file >= 0) {
+            Handle owner(file, H5Fclose);
+            return H5Aexists(file, "exosieve_version") > 0;
+        }
+    }
+    return false;
+}
+
+void check_replaceable(const std::string& path) {
+    std::error_code ec;
+    if (!fs::exists(path, ec))
+        return;
+    if (!fs::is_regular_file(path, ec))
+        throw InputError("path " + in_quotes(path) + " is not a regular file; it was left alone");
+    if (file_is_locked(path))
+        throw FileError(locked_message(path));
+    if (fs::file_size(path, ec) == 0 && !ec)
+        return;
+    if (!is_exosieve_result(path))
+        throw InputError(in_quotes(path) +
+                         " exists and is not an exosieve result file; it was left alone "
+                         "(only exosieve's own result files are ever replaced): choose another "
+                         "path");
+}
+
+// Checks the target before any work: a file name in an existing directory, and no file there
+// but an exosieve result that no other process is writing (an empty file holds nothing).
 void check_target(const std::string& path) {
     if (path.empty())
         throw InputError("path is empty");
@@ -234,6 +305,7 @@ void check_target(const std::string& path) {
                          in_quotes(directory_of(path)) + " does not exist");
     if (fs::is_directory(p, ec))
         throw InputError("path " + in_quotes(path) + " is a directory");
+    check_replaceable(path);
 }
 
 std::string temporary_beside(const std::string& target) {
@@ -263,13 +335,28 @@ void write_string_attribute(hid_t object, const std::string& name, const std::st
     check(exists, what);
     if (exists > 0)
         check(H5Adelete(object, name.c_str()), what);
-    Handle type = utf8_string_type();
     Handle space = checked(H5Screate(H5S_SCALAR), H5Sclose, what);
+    if (value.size() > max_inline_attribute) { // too long for the object header
+        Handle type = utf8_string_type();
+        Handle attribute = checked(
+            H5Acreate2(object, name.c_str(), type.get(), space.get(), H5P_DEFAULT, H5P_DEFAULT),
+            H5Aclose, what);
+        const char* text = value.c_str();
+        check(H5Awrite(attribute.get(), type.get(), &text), what);
+        return;
+    }
+    // Fixed-length text lives in the object header, not in a global heap, so reading it cannot
+    // follow a damaged heap reference (netCDF-C writes text attributes the same way).
+    Handle type = checked(H5Tcopy(H5T_C_S1), H5Tclose, what);
+    check(H5Tset_size(type.get(), std::max<std::size_t>(value.size(), 1)), what);
+    check(H5Tset_strpad(type.get(), H5T_STR_NULLPAD), what);
+    check(H5Tset_cset(type.get(), H5T_CSET_UTF8), what);
     Handle attribute =
         checked(H5Acreate2(object, name.c_str(), type.get(), space.get(), H5P_DEFAULT, H5P_DEFAULT),
                 H5Aclose, what);
-    const char* text = value.c_str();
-    check(H5Awrite(attribute.get(), type.get(), &text), what);
+    std::string padded = value;
+    padded.resize(std::max<std::size_t>(value.size(), 1), '\0');
+    check(H5Awrite(attribute.get(), type.get(), padded.data()), what);
 }
 
 // Writes in place when the attribute exists, so an update touches a single object header.
@@ -359,16 +446,30 @@ Handle create_dataset(hid_t file, const std::string& name, ValueType type,
     Handle string_type = utf8_string_type();
     Handle dcpl = checked(H5Pcreate(H5P_DATASET_CREATE), H5Pclose, what);
     std::vector<hsize_t> maximum = shape;
-    if (appendable) {
+    if (appendable)
         maximum[0] = H5S_UNLIMITED;
-        // Chunks of about 64 KiB; no compression, so rewriting a partly filled chunk puts
-        // back the committed rows byte for byte and cannot relocate them.
+    if (!shape.empty() && (appendable || product(shape) > 0)) {
+        // Chunks of about 64 KiB, fixed-size numbers with a Fletcher32 checksum, so that damaged
+        // bytes are refused on reading instead of read as values. No compression: rewriting a
+        // partly filled chunk gives a chunk of the same size, which stays where it is.
         std::size_t row_bytes = type == ValueType::string ? 16 : 8;
-        for (std::size_t i = 1; i < shape.size(); ++i)
-            row_bytes *= static_cast<std::size_t>(shape[i]);
         std::vector<hsize_t> chunk = shape;
-        chunk[0] = static_cast<hsize_t>(std::clamp<std::size_t>(65536 / row_bytes, 1, 65536));
+        for (std::size_t i = 1; i < shape.size(); ++i) {
+            chunk[i] = std::max<hsize_t>(shape[i], 1);
+            row_bytes *= static_cast<std::size_t>(chunk[i]);
+        }
+        const std::size_t rows = std::clamp<std::size_t>(65536 / row_bytes, 1, 65536);
+        chunk[0] = appendable ? static_cast<hsize_t>(rows)
+                              : std::clamp<hsize_t>(shape[0], 1, static_cast<hsize_t>(rows));
         check(H5Pset_chunk(dcpl.get(), static_cast<int>(chunk.size()), chunk.data()), what);
+        // HDF5 1.10 applies no filter to variable-length data; string references are checked
+        // on reading instead (check_string_heaps).
+        // Appendable datasets carry none: a kill while a chunk that holds committed rows is
+        // rewritten was seen to leave it failing its checksum (their rows are range-checked).
+        if (type != ValueType::string && !appendable)
+            check(H5Pset_fletcher32(dcpl.get()), what);
+    }
+    if (appendable) {
         if (type == ValueType::float64) {
             // Rows past `completed` read as NaN, not as plausible zeros.
             const double nan = std::numeric_limits<double>::quiet_NaN();
@@ -417,6 +518,191 @@ void write_rows(hid_t dataset, const std::string& name, const std::vector<hsize_
 
 // ---------------------------------------------------------------- reading
 
+// ---------------------------------------------------------------- variable-length strings
+
+// A variable-length string is stored as a 16-byte reference (length, address of a global heap
+// collection, object index) to an object in a global heap collection. HDF5 (1.10) follows such
+// a reference without checking the collection, so one damaged byte there can crash the reader.
+// check_string_heaps() reads the references of a dataset's elements and the collections they
+// point to straight from the file, and refuses the dataset unless every reference names an
+// object of exactly its length in a well-formed collection (the layout of HDF5's file-format
+// specification, version 3.0, section III.E, "Global Heap").
+
+std::uint64_t le_bytes(const unsigned char* p, int n) {
+    std::uint64_t v = 0;
+    for (int i = n - 1; i >= 0; --i)
+        v = (v << 8) | p[i];
+    return v;
+}
+
+struct HeapRef {
+    std::uint64_t length;
+    std::uint64_t collection;
+    std::uint64_t index;
+};
+
+class RawFile {
+  public:
+    explicit RawFile(const std::string& path) : fd_(::open(path.c_str(), O_RDONLY)) {
+        if (fd_ >= 0) {
+            const off_t end = ::lseek(fd_, 0, SEEK_END);
+            size_ = end < 0 ? 0 : static_cast<std::uint64_t>(end);
+        }
+    }
+    ~RawFile() {
+        if (fd_ >= 0)
+            ::close(fd_);
+    }
+    RawFile(const RawFile&) = delete;
+    RawFile& operator=(const RawFile&) = delete;
+    bool ok() const { return fd_ >= 0; }
+    std::uint64_t size() const { return size_; }
+    // Reads [offset, offset + n) or returns false if the file is shorter.
+    bool read(std::uint64_t offset, std::size_t n, std::vector<unsigned char>& out) const {
+        if (offset > size_ || n > size_ - offset)
+            return false;
+        out.resize(n);
+        std::size_t done = 0;
+        while (done < n) {
+            const ssize_t got =
+                ::pread(fd_, out.data() + done, n - done, static_cast<off_t>(offset + done));
+            if (got <= 0)
+                return false;
+            done += static_cast<std::size_t>(got);
+        }
+        return true;
+    }
+
+  private:
+    int fd_ = -1;
+    std::uint64_t size_ = 0;
+};
+
+// Collects the references of the elements of `raw` (a chunk at `origin` of extent `chunk`,
+// or the whole dataset) that lie inside the dataset's `shape`.
+void collect_refs(const std::vector<unsigned char>& raw, const std::vector<hsize_t>& origin,
+                  const std::vector<hsize_t>& chunk, const std::vector<hsize_t>& shape,
+                  std::vector<HeapRef>& refs) {
+    const std::size_t count = product(chunk);
+    std::vector<hsize_t> local(chunk.size(), 0);
+    for (std::size_t e = 0; e < count; ++e) {
+        bool inside = true;
+        for (std::size_t d = 0; d < chunk.size(); ++d)
+            inside = inside && origin[d] + local[d] < shape[d];
+        if (inside && (e + 1) * 16 <= raw.size()) {
+            const unsigned char* p = raw.data() + e * 16;
+            refs.push_back({le_bytes(p, 4), le_bytes(p + 4, 8), le_bytes(p + 12, 4)});
+        }
+        for (std::size_t d = chunk.size(); d-- > 0;) { // next element, row-major
+            if (++local[d] < chunk[d])
+                break;
+            local[d] = 0;
+        }
+    }
+}
+
+// Object index -> size of every object of the collection at `address`; empty if malformed.
+std::map<std::uint64_t, std::uint64_t> heap_objects(const RawFile& raw, std::uint64_t address) {
+    std::map<std::uint64_t, std::uint64_t> objects;
+    std::vector<unsigned char> head;
+    if (!raw.read(address, 16, head) || std::memcmp(head.data(), "GCOL", 4) != 0 || head[4] != 1)
+        return {};
+    const std::uint64_t size = le_bytes(head.data() + 8, 8);
+    std::vector<unsigned char> heap;
+    if (size < 4096 || !raw.read(address, static_cast<std::size_t>(size), heap))
+        return {};
+    std::uint64_t p = 16;
+    while (p < size) {
+        if (p + 16 > size)
+            break; // the end of the collection is free space too short for a header
+        const std::uint64_t index = le_bytes(heap.data() + p, 2);
+        const std::uint64_t length = le_bytes(heap.data() + p + 8, 8);
+        std::uint64_t need = 0;
+        if (index == 0) { // free space, header included
+            need = length;
+            if (need < 16)
+                return {};
+        } else {
+            if (length > size)
+                return {};
+            need = 16 + ((length + 7) / 8) * 8;
+            if (!objects.emplace(index, length).second)
+                return {}; // an index used twice
+        }
+        if (need > size - p)
+            return {};
+        p += need;
+    }
+    objects.emplace(0, 0); // marks a well-formed collection
+    return objects;
+}
+
+void check_string_heaps(hid_t file, hid_t dataset, const std::vector<hsize_t>& shape,
+                        const std::string& path, const std::string& name) {
+    const std::string damaged = "dataset " + in_quotes(name) + " in " + in_quotes(path) +
+                                " is damaged (its variable-length strings point outside "
+                                "well-formed heap objects); it was not read";
+    const std::string what = "check the strings of " + in_quotes(name) + " in " + in_quotes(path);
+    if (product(shape) == 0)
+        return;
+    Handle fcpl = checked(H5Fget_create_plist(file), H5Pclose, what);
+    std::size_t address_size = 0, length_size = 0;
+    check(H5Pget_sizes(fcpl.get(), &address_size, &length_size), what);
+    if (address_size != 8 || length_size != 8)
+        throw FileError(what + ": only files with 8-byte addresses and lengths are supported");
+    RawFile raw(path);
+    if (!raw.ok())
+        throw FileError("could not open " + in_quotes(path) + ": " + std::strerror(errno));
+    Handle dcpl = checked(H5Dget_create_plist(dataset), H5Pclose, what);
+    std::vector<HeapRef> refs;
+    std::vector<unsigned char> bytes;
+    const H5D_layout_t layout = H5Pget_layout(dcpl.get());
+    if (layout == H5D_CONTIGUOUS) {
+        const haddr_t offset = H5Dget_offset(dataset);
+        if (offset == HADDR_UNDEF)
+            return; // never written: every element is the empty fill value
+        if (!raw.read(offset, product(shape) * 16, bytes))
+            throw FileError(damaged);
+        collect_refs(bytes, std::vector<hsize_t>(shape.size(), 0), shape, shape, refs);
+    } else if (layout == H5D_CHUNKED) {
+        std::vector<hsize_t> chunk(shape.size());
+        if (H5Pget_chunk(dcpl.get(), static_cast<int>(chunk.size()), chunk.data()) !=
+            static_cast<int>(chunk.size()))
+            fail(what);
+        hsize_t chunks = 0;
+        Handle space = checked(H5Dget_space(dataset), H5Sclose, what);
+        check(H5Dget_num_chunks(dataset, space.get(), &chunks), what);
+        std::vector<hsize_t> origin(shape.size());
+        for (hsize_t k = 0; k < chunks; ++k) {
+            unsigned mask = 0;
+            haddr_t address = HADDR_UNDEF;
+            hsize_t size = 0;
+            check(H5Dget_chunk_info(dataset, space.get(), k, origin.data(), &mask, &address, &size),
+                  what);
+            if (address == HADDR_UNDEF)
+                continue;
+            if (size < product(chunk) * 16 || !raw.read(address, product(chunk) * 16, bytes))
+                throw FileError(damaged);
+            collect_refs(bytes, origin, chunk, shape, refs);
+        }
+    } else {
+        throw FileError(what + ": only contiguous and chunked datasets are supported");
+    }
+    std::map<std::uint64_t, std::map<std::uint64_t, std::uint64_t>> heaps;
+    for (const HeapRef& ref : refs) {
+        if (ref.collection == 0)
+            continue; // a null reference, read as an empty string without a heap
+        auto found = heaps.find(ref.collection);
+        if (found == heaps.end())
+            found = heaps.emplace(ref.collection, heap_objects(raw, ref.collection)).first;
+        const auto& objects = found->second;
+        const auto object = objects.find(ref.index);
+        if (objects.empty() || ref.index == 0 || object == objects.end() ||
+            object->second != ref.length)
+            throw FileError(damaged);
+    }
+}
+
 struct OpenRead {
     Handle file;
     Handle dataset;
@@ -429,7 +715,17 @@ Handle open_file(const std::string& path, unsigned flags) {
     std::error_code ec;
     if (!fs::is_regular_file(path, ec))
         throw InputError("file " + in_quotes(path) + " does not exist");
-    Handle fapl = file_access();
+    if (flags != H5F_ACC_RDONLY && file_is_locked(path))
+        throw FileError(locked_message(path));
+    if (flags == H5F_ACC_RDONLY) {
+        // Readers take no lock, unless this process has the file open already (an appender):
+        // HDF5 then shares that open file, which needs the same locking setting.
+        Handle unlocked = file_access(false);
+        const hid_t file = H5Fopen(path.c_str(), flags, unlocked.get());
+        if (file >= 0)
+            return Handle(file, H5Fclose);
+    }
+    Handle fapl = file_access(true);
     return checked(H5Fopen(path.c_str(), flags, fapl.get()), H5Fclose, "open " + in_quotes(path));
 }
 
@@ -845,6 +1141,13 @@ void ResultWriter::commit() {
     QuietHdf5 quiet;
     check(w.file.close(), "close " + w.where());
     sync_path(w.temporary, false);
+    try {
+        check_replaceable(w.target); // the target may have appeared since the start
+    } catch (...) {
+        std::remove(w.temporary.c_str());
+        w.committed = true; // nothing left to undo
+        throw;
+    }
     if (std::rename(w.temporary.c_str(), w.target.c_str()) != 0)
         throw FileError("could not rename " + in_quotes(w.temporary) + " to " +
                         in_quotes(w.target) + ": " + std::strerror(errno));
@@ -1228,6 +1531,10 @@ std::vector<std::string> read_strings(const std::string& path, const std::string
         throw InputError("dataset " + in_quotes(dataset) + " in " + in_quotes(path) +
                          " does not hold strings");
     const hid_t d = r.dataset.get();
+    const htri_t variable = H5Tis_variable_str(type.get());
+    check(variable, what);
+    if (variable > 0)
+        check_string_heaps(r.file.get(), d, r.shape, path, dataset);
     std::vector<std::string> values = read_text(
         type.get(), product(r.shape),
         [d](hid_t memory, void* buffer) {

@@ -411,7 +411,8 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
     return Comparison(None, species, times, samples, config, path=path, rows=rows)
 
 
-def _read_variable(path: Path, name: str, rows: int) -> NDArray[Any]:
+def _read_variable(path: Path, name: str, rows: int, checked: bool = True) -> NDArray[Any]:
+    """The first ``rows`` rows of ``name``; with ``checked``, refused if out of range."""
     from .results import read_doubles, read_int64s, read_strings
 
     kind = "int" if name == "case" else None
@@ -421,7 +422,121 @@ def _read_variable(path: Path, name: str, rows: int) -> NDArray[Any]:
     if kind == "str":
         return np.asarray(read_strings(path, name)[:rows], dtype=object)
     reader = read_int64s if kind == "int" else read_doubles
-    return np.asarray(reader(path, name)[:rows])
+    values = np.asarray(reader(path, name))
+    if checked:
+        _check_values(path, name, values, rows, values.shape[1:])
+    return values[:rows]
+
+
+def _existing_output(path: Path) -> tuple[dict[str, Any], int] | None:
+    """The configuration and completed rows of an existing sweep file at ``path``; None when
+    there is no file or an empty one. Raises for a file that is locked or not a sweep file."""
+    from .results import FileError, file_is_locked, read_attribute, read_int_attribute
+
+    if not path.exists():
+        return None
+    if path.is_file() and file_is_locked(path):
+        raise FileError(
+            f"output {path} is locked: another process has it open for writing (a running "
+            "sweep?); it was left alone. Wait for that process to end, or choose another path"
+        )
+    if path.is_file() and path.stat().st_size == 0:
+        return None
+    try:
+        read_attribute(path, "", "exosieve_version")
+        config = json.loads(read_attribute(path, "", "config"))
+        rows = int(read_int_attribute(path, "", "completed"))
+    except Exception:  # not HDF5, not ours, or not a sweep file
+        config, rows = {}, -1
+    if not isinstance(config, dict) or config.get("kind") != "exosieve.compare" or rows < 0:
+        raise ValueError(
+            f"output {path} exists and is not a sweep file of exosieve; it was left alone "
+            "(exosieve replaces only its own result files, with or without overwrite): "
+            "choose another path"
+        )
+    return config, rows
+
+
+def _summary_text(summary: dict[str, Any]) -> str:
+    retain = summary.get("retain")
+    percentiles = ", ".join(f"{float(q):g}" for q in summary.get("percentiles", []))
+    return f"retain={retain}, percentiles=({percentiles})"
+
+
+# Allowed range of every stored variable, checked on opening and on resuming a file: a value
+# outside it can only come from a damaged file. NaN marks a missing value and is allowed.
+# Retained fractions may exceed 1 by the integration tolerance (case tables have no sources).
+_RANGES: dict[str, tuple[float, float]] = {
+    "steps": (0, math.inf),
+    "planet_mass": (0, math.inf),
+    "planet_radius": (0, math.inf),
+    "exobase_radius": (0, math.inf),
+    "escape_speed": (0, math.inf),
+    "age_start": (0, math.inf),
+    "age_end": (0, math.inf),
+    "exobase_temperature_start": (0, math.inf),
+    "mole_fraction": (0, 1),
+    "exobase_temperature": (0, math.inf),
+    "retained_fraction": (0, 1.001),
+    "jeans_parameter": (0, math.inf),
+    "final_retained_fraction": (0, 1.001),
+    "depletion_time": (0, math.inf),
+    "efolding_time": (0, math.inf),
+    "jeans_parameter_start": (0, math.inf),
+    "jeans_parameter_end": (0, math.inf),
+    "regime_start": (-1, 3),
+    "sample_retained_fraction": (0, 1.001),
+    "sample_depletion_time": (0, math.inf),
+    "sample_failed": (0, 1),
+}
+
+
+def _check_values(
+    path: Path, name: str, values: NDArray[Any], rows: int, shape: tuple[int, ...]
+) -> None:
+    """Refuse ``values`` of ``name`` if their shape or range cannot be that of a sweep file."""
+    if values.shape[1:] != shape or values.shape[0] < rows:
+        raise _damaged(
+            f"{path} is damaged: dataset '{name}' has shape {values.shape}, expected "
+            f"({rows} or more, {', '.join(map(str, shape))})"
+        )
+    if name == "case":
+        bad = values[:rows] != np.arange(rows)
+    elif name in _RANGES:
+        low, high = _RANGES[name]
+        bad = (values[:rows] < low) | (values[:rows] > high)
+    else:
+        return
+    if bad.any():
+        where = tuple(int(i) for i in np.argwhere(bad)[0])
+        allowed = "the row numbers" if name == "case" else "[{}, {}]".format(*_RANGES[name])
+        value = values[:rows][where].item()
+        raise _damaged(
+            f"{path} is damaged: dataset '{name}' holds {value!r} at {where}, "
+            f"outside {allowed}; it was not used"
+        )
+
+
+def check_ranges(
+    path: Path, rows: int, samples: int, species: int, times: int | None = None
+) -> None:
+    """Read every variable of the first ``rows`` rows of a sweep file and check its range."""
+    from .results import read_doubles
+
+    if times is None:
+        times = len(read_doubles(path, "time"))
+    sizes = {"species": species, "time": times, "sample": samples}
+    _check_values(path, "case", _read_variable(path, "case", rows, checked=False), rows, ())
+    for name, _, dims, *_ in _VARIABLES + (_SAMPLE_VARIABLES if samples else []):
+        values = _read_variable(path, name, rows, checked=False)
+        _check_values(path, name, values, rows, tuple(sizes[d] for d in dims))
+
+
+def _damaged(message: str) -> Exception:
+    from .results import FileError
+
+    error: Exception = FileError(message)
+    return error
 
 
 def _create_file(
@@ -616,32 +731,42 @@ class _FileSink:
         times: Any,
         samples: int,
         overwrite: bool,
+        source: Path | None = None,
     ) -> None:
-        from .results import ResultAppender, read_attribute
+        from .results import ResultAppender
 
         self.path = path
-        if path.exists() and not overwrite:
-            try:
-                existing = json.loads(read_attribute(path, "", "config"))
-            except Exception as err:  # not an HDF5 file, or no config
-                raise ValueError(
-                    f"output {path} exists and is not a sweep file of exosieve ({err}); "
-                    "choose another path or overwrite it"
-                ) from None
-            if _run_key(existing) != _run_key(config):
+        self.resumed = False
+        if source is not None and path.exists() and path.samefile(source):
+            raise ValueError(f"output {path} is the case table itself; choose another path")
+        existing = _existing_output(path)
+        if existing is not None and not overwrite and existing[1] > 0:
+            old, rows = existing
+            if _run_key(old) != _run_key(config):
                 what = (
                     "of another case table"
-                    if existing.get("table", {}).get("sha256") != config["table"]["sha256"]
+                    if old.get("table", {}).get("sha256") != config["table"]["sha256"]
                     else "made with other options"
                 )
                 raise ValueError(
                     f"output {path} holds a sweep {what}; choose another path or overwrite it"
                 )
+            if old.get("summary") != config["summary"]:
+                raise ValueError(
+                    f"output {path} holds a sweep started with summary options "
+                    f"{_summary_text(old.get('summary', {}))}, and these cannot change when it "
+                    f"resumes (asked: {_summary_text(config['summary'])}); run again with the "
+                    "same retain and percentiles, then summarise with others "
+                    "('exosieve summary --retain ...', Comparison.summarize(retain=...))"
+                )
+            check_ranges(path, rows, int(samples), len(species))
             self.appender = ResultAppender(path)
             self.resumed = True
         else:
+            # A new file, or one that holds no results (an empty file, or a sweep that stopped
+            # before its first chunk); ResultWriter refuses to replace anything but an exosieve
+            # result, and a file another process has locked.
             self.appender = _create_file(path, config, species, times, samples)
-            self.resumed = False
 
     @property
     def completed(self) -> int:
@@ -843,7 +968,8 @@ def compare(
         checked = _raise_for_rows(table, block, core_options)  # every row, before any run or file
     sink: _FileSink | _MemorySink
     if output is not None:
-        sink = _FileSink(Path(output), config, species, grid, int(samples), overwrite)
+        source = Path(cases) if isinstance(cases, (str, os.PathLike)) else None
+        sink = _FileSink(Path(output), config, species, grid, int(samples), overwrite, source)
     else:
         sink = _MemorySink()
     begin = sink.completed

@@ -31,9 +31,12 @@
 //! in the superblock). Readers of a file that is still being written, or that was killed and
 //! not yet reopened by an appender, should use only the first `completed` rows and may fail.
 //! Each append costs two fsyncs, so append blocks of many rows rather than single rows.
-//! While an appender has the file open, HDF5's file lock keeps other processes from opening it
-//! (readers may set HDF5_USE_FILE_LOCKING=FALSE, at their own risk: HDF5 outside SWMR mode does
-//! not promise a consistent view during writes).
+//! An appender holds HDF5's file lock; the readers here open without it, so they read a file
+//! that a sweep is appending to (only its first `completed` rows; a read during an append may
+//! fail and can be repeated) and never block an appender. h5py needs `locking=False` for that.
+//! Fixed-size numbers are stored with Fletcher32 checksums; variable-length strings have their heap
+//! references checked before they are read; text attributes are fixed-length (no heap).
+//! ResultWriter replaces only an empty file or an exosieve result that no process has locked.
 //! HDF5 1.10 has no crash-consistent metadata updates outside SWMR mode: a kill in the middle
 //! of a flush can in principle damage the file's metadata; a flush per block keeps that window
 //! short.
@@ -228,6 +231,9 @@ std::string read_attribute(const std::string& path, const std::string& object,
 //! Read an integer attribute of the file ("" or "/") or of a dataset.
 std::int64_t read_int_attribute(const std::string& path, const std::string& object,
                                 const std::string& name);
+//! True if another open file description holds a lock on `path` (HDF5 writers lock their file).
+bool file_is_locked(const std::string& path);
+
 //! Names of the dimension scales attached to each dimension of `dataset` ("" if none).
 std::vector<std::string> read_dimensions(const std::string& path, const std::string& dataset);
 
