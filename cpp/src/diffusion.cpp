@@ -251,7 +251,7 @@ void coupled_escape_flux(ArrayArg jeans_flux_eq, ArrayArg b, ArrayArg mixing_rat
                          ArrayArg thickness, double* out, std::size_t count) {
     check_lengths(count, {jeans_flux_eq, b, mixing_ratio, beta, thickness});
     require_non_negative("jeans_flux_eq", jeans_flux_eq);
-    require_positive("b", b);
+    require_positive("diffusion_parameter", b);
     require_non_negative("mixing_ratio", mixing_ratio);
     for (std::size_t i = 0; i < beta.size; ++i)
         require_finite("beta", beta.data[i]);

@@ -34,6 +34,8 @@ TimeTable::TimeTable(std::vector<double> times, std::vector<double> values, cons
 }
 
 double TimeTable::operator()(double t) const {
+    if (std::isnan(t))
+        return t; // no interval holds NaN: a search would run past the end
     if (t <= times_.front())
         return values_.front();
     if (t >= times_.back())

@@ -105,6 +105,24 @@ void check_flux_arrays(ArrayArg density, ArrayArg temperature, ArrayArg mass, Ar
     require_positive("radius", radius);
 }
 
+// Jeans parameter G M m / (k T r) [1]; in logarithms where a product over- or underflows, so
+// that finite extreme inputs keep a finite parameter.
+double safe_lambda(double T, double m, double M, double r) {
+    const double num = G * M * m, den = k_B * T * r;
+    if (std::isnormal(num) && std::isnormal(den)) {
+        const double lambda = num / den;
+        if (std::isnormal(lambda))
+            return lambda;
+    }
+    return std::exp(std::log(G) + std::log(M) + std::log(m) - std::log(k_B) - std::log(T) -
+                    std::log(r));
+}
+
+// ln v0 = ln sqrt(2 k T / m), in logarithms so that 2 k T / m cannot overflow.
+double log_thermal_speed(double T, double m) {
+    return 0.5 * (std::log(2.0 * k_B) + std::log(T) - std::log(m));
+}
+
 // Jeans flux on a contiguous block without the tail factor; vectorises.
 void flux_block(const double* n, const double* T, const double* m, const double* M, const double* r,
                 double* out, std::size_t len) {
@@ -172,7 +190,7 @@ double escape_speed(double planet_mass, double radius) {
 
 double jeans_parameter(double temperature, double mass, double planet_mass, double radius) {
     check_lambda_args(temperature, mass, planet_mass, radius);
-    return G * planet_mass * mass / (k_B * temperature * radius);
+    return safe_lambda(temperature, mass, planet_mass, radius);
 }
 
 double jeans_flux_unchecked(double density, double v0, double lambda, const TailDepletion& tail) {
@@ -195,7 +213,9 @@ double log_jeans_flux_unchecked(double log_density, double log_v0, double lambda
     constexpr double log_inv_two_sqrt_pi = -1.2655121234846454; // ln(1 / (2 sqrt(pi)))
     // ln(1 + lambda), not log1p: its rounding error is below 2.3e-16 in absolute terms, which
     // the other terms of the sum (of order 1 and more) absorb, and log is the faster call.
-    double log_flux = log_density + log_v0 + log_inv_two_sqrt_pi + std::log(1.0 + lambda) - lambda;
+    // ln(1 + lambda) - lambda tends to -lambda: -inf for an infinite lambda, not inf - inf.
+    const double decay = lambda < 1e300 ? std::log(1.0 + lambda) - lambda : -lambda;
+    double log_flux = log_density + log_v0 + log_inv_two_sqrt_pi + decay;
     if (!tail.is_identity())
         log_flux += std::log(tail(lambda));
     return log_flux;
@@ -204,8 +224,8 @@ double log_jeans_flux_unchecked(double log_density, double log_v0, double lambda
 double log_jeans_flux(double density, double temperature, double mass, double planet_mass,
                       double radius, const TailDepletion& tail) {
     check_flux_args(density, temperature, mass, planet_mass, radius);
-    const double lambda = G * planet_mass * mass / (k_B * temperature * radius);
-    const double log_v0 = 0.5 * std::log(2.0 * k_B * temperature / mass);
+    const double lambda = safe_lambda(temperature, mass, planet_mass, radius);
+    const double log_v0 = log_thermal_speed(temperature, mass);
     return log_jeans_flux_unchecked(std::log(density), log_v0, lambda, tail);
 }
 
@@ -226,7 +246,7 @@ double jeans_escape_rate(double density, double temperature, double mass, double
 
 double log_jeans_escape_rate(double density, double temperature, double mass, double planet_mass,
                              double radius, const TailDepletion& tail) {
-    return std::log(4.0 * constants::pi * radius * radius) +
+    return std::log(4.0 * constants::pi) + 2.0 * std::log(radius) +
            log_jeans_flux(density, temperature, mass, planet_mass, radius, tail);
 }
 
@@ -252,7 +272,7 @@ void jeans_parameter(ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass, 
     require_positive("radius", radius);
     parallel_for(count, [&](std::size_t begin, std::size_t end) {
         for (std::size_t i = begin; i < end; ++i)
-            out[i] = G * planet_mass[i] * mass[i] / (k_B * temperature[i] * radius[i]);
+            out[i] = safe_lambda(temperature[i], mass[i], planet_mass[i], radius[i]);
     });
 }
 
@@ -271,8 +291,8 @@ void log_jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, Array
     check_flux_arrays(density, temperature, mass, planet_mass, radius, count);
     parallel_for(count, [&](std::size_t begin, std::size_t end) {
         for (std::size_t i = begin; i < end; ++i) {
-            const double lambda = G * planet_mass[i] * mass[i] / (k_B * temperature[i] * radius[i]);
-            const double log_v0 = 0.5 * std::log(2.0 * k_B * temperature[i] / mass[i]);
+            const double lambda = safe_lambda(temperature[i], mass[i], planet_mass[i], radius[i]);
+            const double log_v0 = log_thermal_speed(temperature[i], mass[i]);
             out[i] = log_jeans_flux_unchecked(std::log(density[i]), log_v0, lambda, tail);
         }
     });
@@ -304,7 +324,7 @@ void log_jeans_escape_rate(ArrayArg density, ArrayArg temperature, ArrayArg mass
                            const TailDepletion& tail) {
     log_jeans_flux(density, temperature, mass, planet_mass, radius, out, count, tail);
     for (std::size_t i = 0; i < count; ++i)
-        out[i] += std::log(4.0 * constants::pi * radius[i] * radius[i]);
+        out[i] += std::log(4.0 * constants::pi) + 2.0 * std::log(radius[i]);
 }
 
 } // namespace exosieve

@@ -56,7 +56,7 @@ TemperatureProfile TemperatureProfile::bates(double exobase_temperature, double 
     require_positive("exobase_temperature", exobase_temperature);
     require_positive("homopause_temperature", base_temperature);
     require_positive("shape", shape);
-    require_positive("base_radius", base_radius);
+    require_positive("homopause_radius", base_radius);
     TemperatureProfile p;
     p.kind_ = Kind::bates;
     p.asymptotic_ = exobase_temperature;
@@ -321,13 +321,18 @@ double Thermosphere::column(double r) const {
     if (profile_.kind() == TemperatureProfile::Kind::isothermal)
         return amu * G * planet_mass_ / (k_B * profile_.asymptotic_temperature()) *
                (1.0 / homopause_radius_ - 1.0 / r);
+    if (std::isnan(r))
+        return r;
     const Column& col = column_cache();
     if (r >= col.r_end)
         return col.u_end + col.c_over_T_end * (1.0 / col.r_end - 1.0 / r);
-    if (r <= col.nodes.front())
+    if (col.nodes.size() < 2 || r <= col.nodes.front())
         return 0.0;
-    const auto hi = static_cast<std::size_t>(
-        std::upper_bound(col.nodes.begin(), col.nodes.end(), r) - col.nodes.begin());
+    // nodes.front() < r < r_end = nodes.back(): 1 <= hi <= size - 1.
+    const auto hi = std::min(
+        col.nodes.size() - 1,
+        static_cast<std::size_t>(
+            std::upper_bound(col.nodes.begin(), col.nodes.end(), r) - col.nodes.begin()));
     const std::size_t k = hi - 1;
     const double t = (r - col.nodes[k]) / (col.nodes[hi] - col.nodes[k]);
     const auto& a = col.coeff[k];
@@ -484,6 +489,10 @@ Exobase Thermosphere::find_exobase() const {
         const double dT = std::fabs(profile_.slope(r_lo));
         if (dT > 0.0)
             step = std::min(step, 0.5 * T / dT);
+        // A scale height that over- or underflows (extreme masses and radii) falls back to the
+        // geometric step, so the scan never steps to a NaN radius.
+        if (!(step > 0.0) || !std::isfinite(step))
+            step = 0.1 * r_lo;
         r_hi = std::min(r_lo + step, outer_radius_);
         f_hi = evaluate(r_hi, &heaviest);
         if (f_hi >= 0.0)

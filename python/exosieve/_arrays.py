@@ -13,31 +13,78 @@ from . import _core
 FloatOrArray = float | NDArray[np.float64]
 
 
-def to_si(value: Any, name: str, unit: str) -> NDArray[np.float64]:
+def _refuse_kind(array: NDArray[Any], value: Any, name: str) -> None:
+    kind = array.dtype.kind
+    if kind == "b":
+        raise ValueError(f"{name} must be a number, got a bool ({value!r})")
+    if kind == "c":
+        raise ValueError(f"{name} must be real, got a complex value ({value!r})")
+    if kind in "USV":
+        raise ValueError(f"{name} must be a number or an array of numbers, got {value!r}")
+
+
+def _describe(value: Any) -> str:
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) > 10**20:
+        return f"an integer of {len(str(abs(value)))} digits"
+    text = repr(value)
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+def to_si(value: Any, name: str, unit: str, *, species_names: bool = False) -> NDArray[np.float64]:
     """Return ``value`` as a float64 array in SI ``unit``.
 
     Astropy ``Quantity`` objects are converted (temperatures with the temperature
-    equivalency, so degrees Celsius work); a :class:`exosieve.Species` or a species name
-    given for a mass becomes that species' mass [kg]. Plain numbers are taken as SI.
+    equivalency, so degrees Celsius work); a :class:`exosieve.Species` given for a mass becomes
+    that species' mass [kg]. A ``str`` is a species name only where ``species_names`` is set
+    (the ``mass`` argument of the functions documented to take species names); elsewhere it is
+    refused. Plain numbers are taken as SI; bools, complex numbers and integers beyond the
+    double range are refused with a ValueError naming ``name``.
     """
-    if unit == "kg" and isinstance(value, str):
-        value = _core.species(value)
+    if isinstance(value, str):
+        if not (species_names and unit == "kg"):
+            raise ValueError(f"{name} must be a number or an array of numbers, got {value!r}")
+        try:
+            value = _core.species(value)
+        except ValueError as err:
+            raise ValueError(f"{name} must be a mass [kg] or a species name: {err}") from err
     if isinstance(value, _core.Species):
         if unit != "kg":
             raise ValueError(f"{name}: a species stands for a mass, not for [{unit}]")
         return np.asarray(value.mass, dtype=np.float64)
+    if isinstance(value, (bool, np.bool_)):
+        raise ValueError(f"{name} must be a number, got a bool ({value!r})")
     if hasattr(value, "unit") and hasattr(value, "to_value"):
         import astropy.units as u  # only reached when astropy made the value
 
         equivalencies = u.temperature() if unit == "K" else []
         try:
-            return np.asarray(value.to_value(unit, equivalencies=equivalencies), dtype=np.float64)
+            converted = np.asarray(value.to_value(unit, equivalencies=equivalencies))
         except u.UnitConversionError as err:
             raise ValueError(f"{name}: cannot convert {value!r} to [{unit}]") from err
+        _refuse_kind(converted, value, name)
+        return np.asarray(converted, dtype=np.float64)
     try:
-        return np.asarray(value, dtype=np.float64)
+        raw = np.asarray(value)
+        _refuse_kind(raw, value, name)
+        if raw.dtype.kind == "O" or isinstance(value, (list, tuple)):
+            # a nested sequence may mix bools, strings or complex numbers into numbers
+            items = np.asarray(value, dtype=object).reshape(-1)
+            for item in items:
+                if isinstance(item, (bool, np.bool_, str, complex, np.complexfloating)):
+                    raise ValueError(
+                        f"{name} must be a number or an array of numbers, got {_describe(value)}"
+                    )
+        return np.asarray(raw, dtype=np.float64)
+    except OverflowError as err:
+        raise ValueError(
+            f"{name} must be finite, got {_describe(value)} (beyond the range of a double)"
+        ) from err
     except (TypeError, ValueError) as err:
-        raise ValueError(f"{name} must be a number or an array of numbers, got {value!r}") from err
+        if str(err).startswith(name):
+            raise
+        raise ValueError(
+            f"{name} must be a number or an array of numbers, got {_describe(value)}"
+        ) from err
 
 
 def flat_for_kernel(array: NDArray[np.float64], shape: tuple[int, ...]) -> NDArray[np.float64]:
@@ -54,9 +101,10 @@ def apply(
 ) -> FloatOrArray:
     """Call ``kernel(count, *flat_args, *extra)`` with numpy broadcasting of ``args``.
 
-    ``args`` holds ``(name, value, unit)``; returns a float for all-scalar input.
+    ``args`` holds ``(name, value, unit)``; returns a float for all-scalar input. A species
+    name is taken only for the argument called ``mass``.
     """
-    arrays = [to_si(value, name, unit) for name, value, unit in args]
+    arrays = [to_si(value, name, unit, species_names=name == "mass") for name, value, unit in args]
     try:
         shape = np.broadcast_shapes(*(a.shape for a in arrays))
     except ValueError as err:

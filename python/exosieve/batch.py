@@ -55,6 +55,7 @@ from numpy.typing import NDArray
 
 from . import _core
 from . import constants as c
+from ._arrays import to_si
 from .catalogue import UNITS, CaseTable, given_units, load_cases
 from .model import REGIMES
 
@@ -672,7 +673,27 @@ def _output_times(times: int | Any, table: CaseTable, t_start: float, t_end: flo
         grid = np.geomspace(lo, hi, times) if lo > 0 else np.linspace(lo, hi, times)
         grid[0], grid[-1] = lo, hi
         return grid
-    return np.asarray(times, dtype=float).reshape(-1)
+    expected = "a count >= 2 or a 1-D array of at least one output age [s] within the ages run"
+    if isinstance(times, (str, bytes, bool, np.bool_)) or np.ndim(times) == 0:
+        raise ValueError(f"times must be {expected}, got {times!r}")
+    try:
+        grid = to_si(times, "times", "s")
+    except ValueError as err:
+        raise ValueError(f"times must be {expected}, got {times!r}") from err
+    if grid.ndim != 1 or grid.size == 0:
+        raise ValueError(f"times must be {expected}, got shape {grid.shape}")
+    bad = np.flatnonzero(~np.isfinite(grid))
+    if bad.size:
+        raise ValueError(f"times must be finite, got {grid[bad[0]]} (element {bad[0]})")
+    lo, hi = _spans(table, t_start, t_end)
+    outside = np.flatnonzero((grid < lo * (1 - 1e-12)) | (grid > hi * (1 + 1e-12)))
+    if outside.size and math.isfinite(lo) and math.isfinite(hi):
+        k = int(outside[0])
+        raise ValueError(
+            f"times must lie within the ages run, {lo:g} s to {hi:g} s, got {grid[k]:g} s "
+            f"(element {k})"
+        )
+    return np.ascontiguousarray(grid)
 
 
 def _run_key(config: dict[str, Any]) -> Any:
@@ -904,6 +925,18 @@ def compare(
             f"progress_every must be a whole number >= 1 [chunks], got {progress_every!r}"
         )
     every = int(progress_every or 0)
+    if not isinstance(progress, bool) and not callable(progress):
+        raise ValueError(
+            f"progress must be True, False or a callable progress(done, total), got {progress!r}"
+        )
+    try:
+        if any(isinstance(v, (bool, np.bool_)) for v in percentiles):
+            raise TypeError("a bool is not a percentile")
+        q = [float(v) for v in percentiles]
+    except (TypeError, ValueError) as err:
+        raise ValueError(f"percentiles must be numbers in [0, 100], got {percentiles!r}") from err
+    if isinstance(percentiles, (str, bytes)) or not q or not all(0.0 <= v <= 100.0 for v in q):
+        raise ValueError(f"percentiles must be numbers in [0, 100], got {percentiles!r}")
     table = load_cases(cases, errors="collect" if bad_rows == "report" else "raise")
     species = list(table.species)
     grid = _output_times(times, table, float(t_start), float(t_end))

@@ -14,7 +14,7 @@ from collections.abc import Mapping
 from typing import Any, NamedTuple
 
 from . import _core
-from ._arrays import FloatOrArray, apply
+from ._arrays import FloatOrArray, apply, to_si
 from .species import Species, species
 
 SpeciesLike = str | Species
@@ -32,6 +32,10 @@ def as_species(value: Any, name: str) -> Species:
     raise ValueError(f"{name} must be a species name or a Species, got {value!r}")
 
 
+def _label(key: Any) -> str:
+    return repr(key.name if isinstance(key, Species) else key)
+
+
 def as_composition(value: Any, name: str) -> tuple[list[Species], list[float]]:
     """Species and mole fractions of a gas: one species, or a mapping species -> fraction.
 
@@ -44,12 +48,11 @@ def as_composition(value: Any, name: str) -> tuple[list[Species], list[float]]:
         members = [as_species(key, f"{name} key") for key in value]
         fractions = []
         for key, fraction in value.items():
-            try:
-                fractions.append(float(fraction))
-            except (TypeError, ValueError) as err:
-                raise ValueError(
-                    f"{name} mole fraction of {key!r} must be a number, got {fraction!r}"
-                ) from err
+            label = f"{name} mole fraction of {_label(key)}"
+            array = to_si(fraction, label, "")
+            if array.size != 1:
+                raise ValueError(f"{label} must be a single number, got shape {array.shape}")
+            fractions.append(float(array.reshape(())))
         return members, fractions
     raise ValueError(
         f"{name} must be a species name, a Species or a mapping of species to mole fractions, "

@@ -14,7 +14,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from . import _core
-from ._arrays import FloatOrArray, apply
+from ._arrays import FloatOrArray, apply, to_si
 
 TailDepletion = _core.TailDepletion
 TailLike = float | TailDepletion | tuple[Sequence[float], Sequence[float]]
@@ -25,8 +25,14 @@ def _tail(tail_depletion: TailLike) -> TailDepletion:
         return tail_depletion
     if isinstance(tail_depletion, tuple):
         lambdas, factors = tail_depletion
-        return TailDepletion(list(map(float, lambdas)), list(map(float, factors)))
-    return TailDepletion(float(tail_depletion))
+        return TailDepletion(
+            to_si(lambdas, "tail_depletion jeans_parameters", "1").reshape(-1).tolist(),
+            to_si(factors, "tail_depletion factors", "1").reshape(-1).tolist(),
+        )
+    factor = to_si(tail_depletion, "tail_depletion", "1")
+    if factor.size != 1:
+        raise ValueError(f"tail_depletion must be a single number, got shape {factor.shape}")
+    return TailDepletion(float(factor.reshape(())))
 
 
 def _flux_args(

@@ -42,8 +42,8 @@ _DEFAULT_XUV = _core.XuvHistory()
 
 
 def _scalar(value: Any, name: str, unit: str) -> float:
-    if type(value) is float or type(value) is int:  # the common case, no conversion needed
-        return float(value)
+    if type(value) is float:  # the common case, no conversion needed
+        return value
     array = to_si(value, name, unit)
     if array.ndim != 0 and array.size != 1:
         raise ValueError(f"{name} must be a single number, got an array of shape {array.shape}")
@@ -57,6 +57,21 @@ def _vector(value: Any, name: str, unit: str) -> NDArray[np.float64]:
     if array.ndim != 1:
         raise ValueError(f"{name} must be one-dimensional, got shape {array.shape}")
     return np.ascontiguousarray(array)
+
+
+def _finite(value: Any, name: str, unit: str) -> float:
+    number = _scalar(value, name, unit)
+    if not math.isfinite(number):
+        raise ValueError(f"{name} must be finite [{unit}], got {number!r}")
+    return number
+
+
+def _finite_vector(value: Any, name: str, unit: str) -> NDArray[np.float64]:
+    array = _vector(value, name, unit)
+    bad = np.flatnonzero(~np.isfinite(array))
+    if bad.size:
+        raise ValueError(f"{name} must be finite [{unit}], got {float(array[bad[0]])!r} (element {bad[0]})")
+    return array
 
 
 def _map(
@@ -257,13 +272,13 @@ class TabulatedTemperature:
     """
 
     def __init__(self, times: ArrayLike, temperatures: ArrayLike) -> None:
-        self.times = _vector(times, "times", "s")
-        self.temperatures = _vector(temperatures, "temperatures", "K")
+        self.times = _finite_vector(times, "times", "s")
+        self.temperatures = _finite_vector(temperatures, "temperatures", "K")
         self._core = _core.ExobaseTemperature.table(self.times, self.temperatures)
 
     def __call__(self, t: float) -> float:
         """Temperature [K] at time ``t`` [s]."""
-        return float(self._core(float(t)))
+        return float(self._core(_finite(t, "t", "s")))
 
     def __repr__(self) -> str:
         return f"TabulatedTemperature(times={self.times!r}, temperatures={self.temperatures!r})"
@@ -328,7 +343,10 @@ class XuvTemperature:
 
     def temperature(self, xuv_flux: float) -> float:
         """Temperature [K] at XUV flux ``xuv_flux`` [W m^-2]."""
-        return float(self._core(0.0, float(xuv_flux)))
+        flux = _finite(xuv_flux, "xuv_flux", "W m-2")
+        if flux < 0.0:
+            raise ValueError(f"xuv_flux must be finite and >= 0 [W m-2], got {flux!r}")
+        return float(self._core(0.0, flux))
 
     def __repr__(self) -> str:
         return (
@@ -438,13 +456,13 @@ class TabulatedSource:
     """
 
     def __init__(self, times: ArrayLike, rates: ArrayLike) -> None:
-        self.times = _vector(times, "times", "s")
-        self.rates = _vector(rates, "rates", "s-1")
+        self.times = _finite_vector(times, "times", "s")
+        self.rates = _finite_vector(rates, "rates", "s-1")
         self._core = _core.SourceRate(self.times, self.rates)
 
     def __call__(self, t: float) -> float:
         """Rate [s^-1] at time ``t`` [s]."""
-        return float(self._core(float(t)))
+        return float(self._core(_finite(t, "t", "s")))
 
     def __repr__(self) -> str:
         return f"TabulatedSource(times={self.times!r}, rates={self.rates!r})"
@@ -592,6 +610,12 @@ def classify_regime(jeans_parameter: Any, thresholds: Any = None) -> Any:
     ['jeans', 'enhanced_jeans', 'transition', 'hydrodynamic']
     """
     lam = to_si(jeans_parameter, "jeans_parameter", "1")
+    bad = np.flatnonzero(~(np.isfinite(lam) & (lam >= 0.0)).reshape(-1))
+    if bad.size:
+        where = f" (element {bad[0]})" if lam.ndim else ""
+        raise ValueError(
+            f"jeans_parameter must be finite and >= 0, got {float(lam.reshape(-1)[bad[0]])!r}{where}"
+        )
     codes = _core.classify_regime(
         np.ascontiguousarray(lam).reshape(-1), thresholds or _core.RegimeThresholds()
     ).reshape(lam.shape)
