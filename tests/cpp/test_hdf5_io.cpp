@@ -574,3 +574,62 @@ TEST_CASE("hdf5_io: a process killed while appending leaves every completed row 
                       << " left a torn block that reopening cut off, " << repaired
                       << " needed the end-of-allocation repair; up to " << most_rows << " rows");
 }
+
+TEST_CASE("hdf5_io: only an empty file or an exosieve result is replaced; locks are reported") {
+    TempDir dir;
+    const std::string notes = dir.file("notes.csv");
+    std::ofstream(notes) << "case,planet_mass [M_earth]\nA,1\n";
+    CHECK_THROWS_WITH_AS(ResultWriter(notes, "{}"),
+                         doctest::Contains("is not an exosieve result file; it was left alone"),
+                         InputError);
+    std::ifstream kept(notes);
+    CHECK(std::string(std::istreambuf_iterator<char>(kept), {}) ==
+          "case,planet_mass [M_earth]\nA,1\n");
+    const std::string empty = dir.file("empty.h5");
+    std::ofstream(empty).close();
+    {
+        ResultWriter writer(empty, "{}");
+        writer.add_case_variable("n", ValueType::int64, {}, "1", "count");
+        ResultAppender appender(std::move(writer));
+        CHECK(file_is_locked(empty));
+        CHECK_THROWS_WITH_AS(ResultWriter(empty, "{}"), doctest::Contains("is locked"), FileError);
+        CHECK_THROWS_WITH_AS(ResultAppender{empty}, doctest::Contains("is locked"), FileError);
+        CHECK(read_int_attribute(empty, "/", "completed") == 0); // readers take no lock
+    }
+    CHECK_FALSE(file_is_locked(empty));
+    ResultWriter again(empty, "{}"); // our own result: may be replaced
+    again.commit();
+}
+
+TEST_CASE("hdf5_io: damaged string heaps are refused, never followed") {
+    TempDir dir;
+    const std::string path = dir.file("strings.h5");
+    {
+        ResultWriter w(path, "{}");
+        w.add_coordinate("species", std::vector<std::string>{"H", "He", "N2"}, "species");
+        w.commit();
+    }
+    std::string bytes;
+    {
+        std::ifstream in(path, std::ios::binary);
+        bytes.assign(std::istreambuf_iterator<char>(in), {});
+    }
+    const std::size_t heap = bytes.find("GCOL");
+    REQUIRE(heap != std::string::npos);
+    int refused = 0;
+    // Each byte of the collection header and of the first objects (index, size, text).
+    for (std::size_t k = 0; k < 64; ++k) {
+        std::string bad = bytes;
+        bad[heap + k] = static_cast<char>(bad[heap + k] ^ 0xFF);
+        const std::string copy = dir.file("bad.h5");
+        std::ofstream(copy, std::ios::binary | std::ios::trunc) << bad;
+        try {
+            const std::vector<std::string> names = read_strings(copy, "species");
+            CHECK(names.size() == 3);
+        } catch (const FileError& e) {
+            ++refused;
+            CHECK(std::string(e.what()).find("'species'") != std::string::npos);
+        }
+    }
+    CHECK(refused >= 8); // the collection's signature, version, size and object headers
+}

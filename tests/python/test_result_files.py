@@ -208,9 +208,12 @@ def test_damaged_string_heaps_give_errors_never_a_crash(tmp_path):
 
 READ_LIVE = """
 import sys, h5py
+from exosieve.batch import open_comparison
+live = open_comparison(sys.argv[1])
 with h5py.File(sys.argv[1], "r", locking=False) as f:
     done = int(f.attrs["completed"])
-    print(done, list(f["steps"][:done]))
+    assert list(f["steps"][:done]) == list(live["steps"])
+    print(done, len(live))
 """
 
 
@@ -240,7 +243,7 @@ def test_a_running_sweep_can_be_read_by_open_comparison_h5py_and_xarray(tmp_path
             check=True,
             timeout=120,
         )
-        assert child.stdout.startswith(f"{rows} ")
+        assert child.stdout.split() == [str(rows), str(rows)]  # another process reads it too
         seen.append((rows, [int(v) for v in live["steps"]], from_h5py))
 
     result = compare(cases, output=out, threads=1, chunk_size=4, progress=progress)
