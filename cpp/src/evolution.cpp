@@ -863,7 +863,9 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     stops.push_back(c.t_end);
 
     double t = c.t_start;
-    State y(n), dydt(n), y_new(n), dydt_new(n), y_probe(n);
+    // Zero-filled: a step that fails part-way (non-finite rates) must not leave values unset.
+    State y = State::Zero(n), dydt = State::Zero(n), y_new = State::Zero(n),
+          dydt_new = State::Zero(n), y_probe = State::Zero(n);
     for (std::size_t i = 0; i < n; ++i)
         y[i] = model.y0()[i];
 
@@ -929,7 +931,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     // measured on a short probe step, d ln|dy_i/dt| / dt = 1/tau_i, and the step is sized with
     // the same error model as the first step, on the scale tau_i: |dy_i/dt| tau_i (h/tau_i)^6
     // at a tenth of the tolerance. One right-hand-side evaluation per kink.
-    State y_kink(n), dydt_kink(n);
+    State y_kink = State::Zero(n), dydt_kink = State::Zero(n);
     auto step_after_kink = [&](double proposal) {
         const double delta = 1e-4 * proposal;
         y_kink = y + delta * dydt;

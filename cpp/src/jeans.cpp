@@ -276,6 +276,18 @@ void jeans_parameter(ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass, 
     });
 }
 
+namespace {
+
+// ln of the Jeans flux of element i [ln(m^-2 s^-1)], every factor in logarithms.
+double log_flux_at(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
+                   ArrayArg radius, std::size_t i, const TailDepletion& tail) {
+    return log_jeans_flux_unchecked(
+        std::log(density[i]), log_thermal_speed(temperature[i], mass[i]),
+        safe_lambda(temperature[i], mass[i], planet_mass[i], radius[i]), tail);
+}
+
+} // namespace
+
 void jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
                 ArrayArg radius, double* out, std::size_t count, const TailDepletion& tail) {
     run_blocks({density, temperature, mass, planet_mass, radius}, out, count,
@@ -284,6 +296,12 @@ void jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg 
                    flux_block(n, T, m, M, r, o, len);
                    apply_tail(tail, T, m, M, r, o, len);
                });
+    // Where a product of the linear form over- or underflowed into inf or NaN (finite extreme
+    // inputs), the exponential of the log form: finite wherever the flux is.
+    for (std::size_t i = 0; i < count; ++i)
+        if (!std::isfinite(out[i]))
+            out[i] =
+                std::exp(log_flux_at(density, temperature, mass, planet_mass, radius, i, tail));
 }
 
 void log_jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
@@ -306,8 +324,14 @@ void jeans_energy_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, Ar
             if (out[i] == 0.0)
                 continue;
             const double kT = k_B * temperature[i];
-            const double lambda = G * planet_mass[i] * mass[i] / (kT * radius[i]);
-            out[i] *= kT * (lambda * lambda + 2.0 * lambda + 2.0) / (lambda + 1.0);
+            const double lambda = safe_lambda(temperature[i], mass[i], planet_mass[i], radius[i]);
+            // (lambda^2 + 2 lambda + 2) / (lambda + 1) = (lambda + 1) + 1 / (lambda + 1)
+            const double energy = kT * ((lambda + 1.0) + 1.0 / (lambda + 1.0));
+            out[i] *= energy;
+            if (!std::isfinite(out[i]))
+                out[i] =
+                    std::exp(log_flux_at(density, temperature, mass, planet_mass, radius, i, tail) +
+                             std::log(kT) + std::log((lambda + 1.0) + 1.0 / (lambda + 1.0)));
         }
     });
 }
@@ -315,8 +339,13 @@ void jeans_energy_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, Ar
 void jeans_escape_rate(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
                        ArrayArg radius, double* out, std::size_t count, const TailDepletion& tail) {
     jeans_flux(density, temperature, mass, planet_mass, radius, out, count, tail);
-    for (std::size_t i = 0; i < count; ++i)
+    for (std::size_t i = 0; i < count; ++i) {
         out[i] *= 4.0 * constants::pi * radius[i] * radius[i];
+        if (!std::isfinite(out[i]))
+            out[i] =
+                std::exp(log_flux_at(density, temperature, mass, planet_mass, radius, i, tail) +
+                         std::log(4.0 * constants::pi) + 2.0 * std::log(radius[i]));
+    }
 }
 
 void log_jeans_escape_rate(ArrayArg density, ArrayArg temperature, ArrayArg mass,

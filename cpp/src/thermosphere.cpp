@@ -329,10 +329,10 @@ double Thermosphere::column(double r) const {
     if (col.nodes.size() < 2 || r <= col.nodes.front())
         return 0.0;
     // nodes.front() < r < r_end = nodes.back(): 1 <= hi <= size - 1.
-    const auto hi = std::min(
-        col.nodes.size() - 1,
-        static_cast<std::size_t>(
-            std::upper_bound(col.nodes.begin(), col.nodes.end(), r) - col.nodes.begin()));
+    const auto hi =
+        std::min(col.nodes.size() - 1,
+                 static_cast<std::size_t>(std::upper_bound(col.nodes.begin(), col.nodes.end(), r) -
+                                          col.nodes.begin()));
     const std::size_t k = hi - 1;
     const double t = (r - col.nodes[k]) / (col.nodes[hi] - col.nodes[k]);
     const auto& a = col.coeff[k];

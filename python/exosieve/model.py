@@ -70,7 +70,9 @@ def _finite_vector(value: Any, name: str, unit: str) -> NDArray[np.float64]:
     array = _vector(value, name, unit)
     bad = np.flatnonzero(~np.isfinite(array))
     if bad.size:
-        raise ValueError(f"{name} must be finite [{unit}], got {float(array[bad[0]])!r} (element {bad[0]})")
+        raise ValueError(
+            f"{name} must be finite [{unit}], got {float(array[bad[0]])!r} (element {bad[0]})"
+        )
     return array
 
 
@@ -613,9 +615,8 @@ def classify_regime(jeans_parameter: Any, thresholds: Any = None) -> Any:
     bad = np.flatnonzero(~(np.isfinite(lam) & (lam >= 0.0)).reshape(-1))
     if bad.size:
         where = f" (element {bad[0]})" if lam.ndim else ""
-        raise ValueError(
-            f"jeans_parameter must be finite and >= 0, got {float(lam.reshape(-1)[bad[0]])!r}{where}"
-        )
+        value = float(lam.reshape(-1)[bad[0]])
+        raise ValueError(f"jeans_parameter must be finite and >= 0, got {value!r}{where}")
     codes = _core.classify_regime(
         np.ascontiguousarray(lam).reshape(-1), thresholds or _core.RegimeThresholds()
     ).reshape(lam.shape)

@@ -102,11 +102,12 @@ TEST_CASE("the exobase of extreme planets is found or refused, never read out of
                     try {
                         const TemperatureProfile profile =
                             kind == 0   ? TemperatureProfile::isothermal(1000.0)
-                            : kind == 1 ? TemperatureProfile::bates(1000.0, 200.0, 1.0 / (0.01 * radius),
-                                                                    radius)
+                            : kind == 1 ? TemperatureProfile::bates(1000.0, 200.0,
+                                                                    1.0 / (0.01 * radius), radius)
                                         : TemperatureProfile::table({radius, 1.5 * radius},
                                                                     {200.0, 1000.0});
-                        const Thermosphere t(mass, radius, radius, density, gas, fractions, profile);
+                        const Thermosphere t(mass, radius, radius, density, gas, fractions,
+                                             profile);
                         const Exobase& e = t.exobase();
                         if (e.found()) {
                             CHECK(std::isfinite(e.radius));

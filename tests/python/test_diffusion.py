@@ -303,7 +303,7 @@ def test_coupled_flux_matches_finite_differences_for_a_heavy_gas():
         ),
         (
             lambda: exosieve.coupled_escape_flux(1e8, -1e21, 1e-5, 1e-4, 1e5),
-            "b must be finite and > 0, got -1e",
+            "diffusion_parameter must be finite and > 0, got -1e",
         ),
     ],
 )

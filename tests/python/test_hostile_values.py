@@ -25,21 +25,34 @@ H = exosieve.species("H").mass
 # name -> (callable taking keyword arguments, valid keyword arguments, scalar-only names)
 Entry = tuple[Callable[..., Any], dict[str, Any], frozenset[str]]
 NONE: frozenset[str] = frozenset()
-FLUX = {"density": 1e12, "temperature": 1000.0, "mass": H, "planet_mass": M_EARTH,
-        "radius": R_EARTH}
+FLUX = {
+    "density": 1e12,
+    "temperature": 1000.0,
+    "mass": H,
+    "planet_mass": M_EARTH,
+    "radius": R_EARTH,
+}
 ENTRIES: dict[str, Entry] = {
     "most_probable_speed": (exosieve.most_probable_speed, {"temperature": 300.0, "mass": H}, NONE),
     "mean_speed": (exosieve.mean_speed, {"temperature": 300.0, "mass": H}, NONE),
     "rms_speed": (exosieve.rms_speed, {"temperature": 300.0, "mass": H}, NONE),
     "speed_pdf": (exosieve.speed_pdf, {"speed": 1e3, "temperature": 300.0, "mass": H}, NONE),
     "fraction_faster": (
-        exosieve.fraction_faster, {"speed": 1e3, "temperature": 300.0, "mass": H}, NONE),
+        exosieve.fraction_faster,
+        {"speed": 1e3, "temperature": 300.0, "mass": H},
+        NONE,
+    ),
     "log_fraction_faster": (
-        exosieve.log_fraction_faster, {"speed": 1e3, "temperature": 300.0, "mass": H}, NONE),
+        exosieve.log_fraction_faster,
+        {"speed": 1e3, "temperature": 300.0, "mass": H},
+        NONE,
+    ),
     "escape_speed": (exosieve.escape_speed, {"planet_mass": M_EARTH, "radius": R_EARTH}, NONE),
     "jeans_parameter": (
         exosieve.jeans_parameter,
-        {"temperature": 1000.0, "mass": H, "planet_mass": M_EARTH, "radius": R_EARTH}, NONE),
+        {"temperature": 1000.0, "mass": H, "planet_mass": M_EARTH, "radius": R_EARTH},
+        NONE,
+    ),
     "jeans_flux": (exosieve.jeans_flux, FLUX, NONE),
     "log_jeans_flux": (exosieve.log_jeans_flux, FLUX, NONE),
     "jeans_energy_flux": (exosieve.jeans_energy_flux, FLUX, NONE),
@@ -47,56 +60,105 @@ ENTRIES: dict[str, Entry] = {
     "log_jeans_escape_rate": (exosieve.log_jeans_escape_rate, FLUX, NONE),
     "binary_diffusion_parameter": (
         lambda **k: exosieve.binary_diffusion_parameter("H", "N2", **k),
-        {"temperature": 300.0}, NONE),
+        {"temperature": 300.0},
+        NONE,
+    ),
     "diffusion_limited_flux": (
         lambda **k: exosieve.diffusion_limited_flux("H2", "N2", **k),
-        {"mixing_ratio": 1e-5, "temperature": 200.0, "planet_mass": M_EARTH,
-         "radius": R_EARTH + 1e5}, NONE),
+        {
+            "mixing_ratio": 1e-5,
+            "temperature": 200.0,
+            "planet_mass": M_EARTH,
+            "radius": R_EARTH + 1e5,
+        },
+        NONE,
+    ),
     "coupled_escape_flux": (
         exosieve.coupled_escape_flux,
-        {"jeans_flux_eq": 1e10, "diffusion_parameter": 1e21, "mixing_ratio": 1e-5,
-         "beta": 1e-4, "thickness": 4e5}, NONE),
+        {
+            "jeans_flux_eq": 1e10,
+            "diffusion_parameter": 1e21,
+            "mixing_ratio": 1e-5,
+            "beta": 1e-4,
+            "thickness": 4e5,
+        },
+        NONE,
+    ),
     "classify_regime": (exosieve.classify_regime, {"jeans_parameter": 5.0}, NONE),
     "roche_lobe_factor": (exosieve.roche_lobe_factor, {"xi": 2.0}, NONE),
     "roche_lobe_ratio": (
         exosieve.roche_lobe_ratio,
-        {"planet_mass": M_EARTH, "star_mass": M_SUN, "semi_major_axis": 1.5e11,
-         "radius": R_EARTH}, None),
+        {"planet_mass": M_EARTH, "star_mass": M_SUN, "semi_major_axis": 1.5e11, "radius": R_EARTH},
+        None,
+    ),
     "energy_limited_mass_loss": (
         exosieve.energy_limited_mass_loss,
-        {"efficiency": 0.15, "planet_radius": R_EARTH, "xuv_radius": R_EARTH, "xuv_flux": 10.0,
-         "planet_mass": M_EARTH}, None),
-    "Star": (exosieve.Star, {"mass": M_SUN, "luminosity": 3.8e26, "saturation_time": 3e15,
-                             "decay_index": 1.2}, None),
+        {
+            "efficiency": 0.15,
+            "planet_radius": R_EARTH,
+            "xuv_radius": R_EARTH,
+            "xuv_flux": 10.0,
+            "planet_mass": M_EARTH,
+        },
+        None,
+    ),
+    "Star": (
+        exosieve.Star,
+        {"mass": M_SUN, "luminosity": 3.8e26, "saturation_time": 3e15, "decay_index": 1.2},
+        None,
+    ),
     "Planet": (exosieve.Planet, {"mass": M_EARTH, "radius": R_EARTH}, None),
     "XuvTemperature": (
         exosieve.XuvTemperature,
-        {"reference_temperature": 1000.0, "reference_flux": 1e-3, "exponent": 0.5,
-         "minimum": 500.0, "maximum": 5000.0}, None),
+        {
+            "reference_temperature": 1000.0,
+            "reference_flux": 1e-3,
+            "exponent": 0.5,
+            "minimum": 500.0,
+            "maximum": 5000.0,
+        },
+        None,
+    ),
     "XuvTemperature.temperature": (
         lambda **k: exosieve.XuvTemperature(1000.0, 1e-3, 0.5, 500.0, 5000.0).temperature(**k),
-        {"xuv_flux": 1e-3}, None),
+        {"xuv_flux": 1e-3},
+        None,
+    ),
     "TabulatedTemperature": (
-        exosieve.TabulatedTemperature, {"times": [0.0, 1e16], "temperatures": [900.0, 1000.0]},
-        NONE),
+        exosieve.TabulatedTemperature,
+        {"times": [0.0, 1e16], "temperatures": [900.0, 1000.0]},
+        NONE,
+    ),
     "TabulatedTemperature.__call__": (
         lambda **k: exosieve.TabulatedTemperature([0.0, 1e16], [900.0, 1000.0])(**k),
-        {"t": 5e15}, None),
+        {"t": 5e15},
+        None,
+    ),
     "TabulatedSource": (
-        exosieve.TabulatedSource, {"times": [0.0, 1e16], "rates": [1e20, 0.0]}, NONE),
+        exosieve.TabulatedSource,
+        {"times": [0.0, 1e16], "rates": [1e20, 0.0]},
+        NONE,
+    ),
     "TabulatedSource.__call__": (
-        lambda **k: exosieve.TabulatedSource([0.0, 1e16], [1e20, 0.0])(**k), {"t": 5e15}, None),
+        lambda **k: exosieve.TabulatedSource([0.0, 1e16], [1e20, 0.0])(**k),
+        {"t": 5e15},
+        None,
+    ),
     "Thermosphere": (
         lambda **k: exosieve.Thermosphere((M_EARTH, R_EARTH), composition={"N2": 1.0}, **k),
-        {"homopause_radius": R_EARTH + 1e5, "homopause_density": 1e19,
-         "exobase_temperature": 1000.0}, None),
+        {
+            "homopause_radius": R_EARTH + 1e5,
+            "homopause_density": 1e19,
+            "exobase_temperature": 1000.0,
+        },
+        None,
+    ),
 }
 
 
 def scalar_only(entry: Entry) -> frozenset[str]:
     _, valid, only = entry
     return frozenset(valid) if only is None else only
-
 
 
 # (class, value, text the message must hold besides the argument's name, or None)
@@ -205,8 +267,12 @@ def test_property_jeans_parameter_matches_its_logarithm(T, m, M, r):
     # lambda = G M m / (k T r): the kernel keeps products that over- or underflow in logs.
     lam = exosieve.jeans_parameter(T, m, M, r)
     log_lam = (
-        math.log(exosieve.constants.G) + math.log(M) + math.log(m)
-        - math.log(exosieve.constants.K_B) - math.log(T) - math.log(r)
+        math.log(exosieve.constants.G)
+        + math.log(M)
+        + math.log(m)
+        - math.log(exosieve.constants.K_B)
+        - math.log(T)
+        - math.log(r)
     )
     if -700 < log_lam < 700:
         assert math.isclose(math.log(lam), log_lam, rel_tol=1e-12, abs_tol=1e-12)
