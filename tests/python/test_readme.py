@@ -1,7 +1,8 @@
 """The README's examples run as written: every ```python block, and every ``exosieve`` command
 of the ```bash blocks, each block in a fresh directory holding ``cases.csv`` (a copy of
-``data/case_table_template.csv``, as the README says). Not run: the set-up commands
-(``bash .ci/...``) and the line that needs a Dask scheduler."""
+``data/case_table_template.csv``, as the README says). A block that reads ``sweep.h5`` without
+writing it finds the file the README's ``exosieve sweep cases.csv -o sweep.h5`` writes.
+Not run: the set-up commands (``bash .ci/...``) and the line that needs a Dask scheduler."""
 
 from __future__ import annotations
 
@@ -46,6 +47,8 @@ def workdir(tmp_path, monkeypatch):
 
 @pytest.mark.parametrize(("code", "line"), blocks("python"))
 def test_python_block_runs(code, line, workdir):
+    if "sweep.h5" in code and not re.search(r"""output=["']sweep\.h5""", code):
+        assert main(["sweep", "cases.csv", "-o", "sweep.h5", "--samples", "20"]) == 0
     exec(compile(code, f"{README}:{line}", "exec"), {"__name__": "__readme__"})
     for written in re.findall(r"""to_hdf5\(["']([^"']+)["']\)""", code):
         assert (workdir / written).stat().st_size > 0, written
