@@ -137,24 +137,18 @@ def engine(frame: pd.DataFrame, threads: int, folder: Path, cores: int | None = 
     streaming every chunk into an open sweep file (what compare() does after reading and
     checking the table and creating the file)."""
     from exosieve import _core
-    from exosieve.batch import _core_options, _create_file, _default_chunk, _output_times
+    from exosieve.batch import (
+        _core_options,
+        _create_file,
+        _default_chunk,
+        _engine_options,
+        _output_times,
+    )
     from exosieve.catalogue import load_cases
 
     table = load_cases(frame)
     grid = _output_times(16, table, T_START, T_END)
-    options = {
-        "species": list(table.species),
-        "times": grid,
-        "t_start": T_START,
-        "t_end": T_END,
-        "rtol": 1e-6,
-        "max_steps": 100_000,
-        "depletion_fraction": 1e-3,
-        "thresholds": (6.0, 3.0, 2.1),
-        "samples": 0,
-        "seed": 0,
-        "skip_invalid": True,
-    }
+    options = _engine_options(list(table.species), grid, T_START, T_END)
     core = table.to_core(first_key=0, rows=slice(0, len(table)))
     sink = _create_file(folder / "engine.h5", {"kind": "bench"}, list(table.species), grid, 0)
     try:

@@ -664,12 +664,7 @@ def build_numba_peers():
 
         @numba.cfunc(lsoda_sig)
         def lsoda_rhs(t, u, du, p):
-            raw = p[2] if t <= p[0] else p[2] * (t / p[0]) ** (-p[1])
-            temp = min(max(raw, p[3]), p[4])
-            root = math.sqrt(temp)
-            for s in range(4):
-                lam = p[9 + s] / temp
-                du[s] = -p[5 + s] * root * (1.0 + lam) * math.exp(-lam)
+            rhs(t, p, du)  # the same compiled model as the Dormand-Prince loop
 
         address = lsoda_rhs.address
 
@@ -1153,25 +1148,13 @@ def engine_runner(table: Any, grid: np.ndarray, t0: float, t1: float) -> Any:
     """The batch engine alone (what compare() runs after checking the table), or None."""
     try:
         from exosieve import _core
-        from exosieve.batch import _core_options
+        from exosieve.batch import _core_options, _engine_options
 
         core_table = table.to_core(first_key=0, rows=slice(0, len(table)))
         species = list(table.species)
 
         def run(rtol: float) -> tuple[np.ndarray, np.ndarray, list[str]]:
-            options = {
-                "species": species,
-                "times": grid,
-                "t_start": t0,
-                "t_end": t1,
-                "rtol": rtol,
-                "max_steps": 100_000,
-                "depletion_fraction": 1e-3,
-                "thresholds": (6.0, 3.0, 2.1),
-                "samples": 0,
-                "seed": 0,
-                "skip_invalid": True,
-            }
+            options = _engine_options(species, grid, t0, t1, rtol=rtol)
             chunks: list[dict[str, Any]] = []
             _core.run_batch(
                 core_table, 0, len(table), _core_options(options, 1, 256), chunks.append, None

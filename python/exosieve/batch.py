@@ -942,19 +942,18 @@ def compare(
     grid = _output_times(times, table, float(t_start), float(t_end))
     chunk = int(chunk_size or _default_chunk(int(samples)))
     enhanced, transition, hydrodynamic = (float(v) for v in thresholds)
-    options = {
-        "species": species,
-        "times": grid,
-        "t_start": float(t_start),
-        "t_end": float(t_end),
-        "rtol": float(rtol),
-        "max_steps": int(max_steps),
-        "depletion_fraction": float(depletion_fraction),
-        "thresholds": (enhanced, transition, hydrodynamic),
-        "samples": int(samples),
-        "seed": int(seed),
-        "skip_invalid": bad_rows == "report",
-    }
+    options = _engine_options(
+        species,
+        grid,
+        float(t_start),
+        float(t_end),
+        rtol=float(rtol),
+        max_steps=int(max_steps),
+        depletion_fraction=float(depletion_fraction),
+        thresholds=(enhanced, transition, hydrodynamic),
+        samples=int(samples),
+        seed=int(seed),
+    )
     config = {
         "kind": "exosieve.compare",
         "version": _core.__version__,
@@ -994,7 +993,6 @@ def compare(
     if every:
         block_chunks = every * max(1, block_chunks // every)
     block = chunk * block_chunks
-    options["skip_invalid"] = True
     core_options = _core_options(options, threads=int(threads or 0), chunk_size=chunk)
     checked = None
     if bad_rows == "raise":
@@ -1036,6 +1034,37 @@ def compare(
     if interrupted:
         raise Interrupted(result)
     return result
+
+
+def _engine_options(
+    species: list[str],
+    times: NDArray[np.float64],
+    t_start: float,
+    t_end: float,
+    *,
+    rtol: float = 1e-6,
+    max_steps: int = 100_000,
+    depletion_fraction: float = 1e-3,
+    thresholds: tuple[float, float, float] = (6.0, 3.0, 2.1),
+    samples: int = 0,
+    seed: int = 0,
+) -> dict[str, Any]:
+    """The batch engine's options as plain values (picklable, for Dask workers); defaults as
+    :func:`compare`'s. The engine reports invalid rows (skip_invalid); whether they stop the run
+    is decided before it (``bad_rows``)."""
+    return {
+        "species": species,
+        "times": times,
+        "t_start": t_start,
+        "t_end": t_end,
+        "rtol": rtol,
+        "max_steps": max_steps,
+        "depletion_fraction": depletion_fraction,
+        "thresholds": thresholds,
+        "samples": samples,
+        "seed": seed,
+        "skip_invalid": True,
+    }
 
 
 def _core_options(options: dict[str, Any], threads: int, chunk_size: int) -> Any:

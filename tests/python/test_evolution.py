@@ -458,16 +458,21 @@ def stepwise_exobase(knots: int = 101):
     return exosieve.PrescribedExobase(R_EXO, table, {"H": 1e11})
 
 
-def test_progress_every_k_accepted_steps():
-    seen = []
-    r = exosieve.evolve(
+def stepwise_run(progress, progress_every: int) -> exosieve.EvolutionResult:
+    """H over 1 Gyr on `stepwise_exobase`, without t_eval: every step's end is an output."""
+    return exosieve.evolve(
         earth(),
         stepwise_exobase(),
         {"H": 1e38},
         (0.0, c.GYR),
-        progress=seen.append,
-        progress_every=2,
+        progress=progress,
+        progress_every=progress_every,
     )
+
+
+def test_progress_every_k_accepted_steps():
+    seen = []
+    r = stepwise_run(seen.append, 2)
     # Without t_eval every step's end is an output time: the calls came at steps 2, 4, ...
     assert r.completed and r.steps >= 100
     assert len(seen) == r.steps // 2 and seen == list(r.time[2::2])
@@ -479,14 +484,7 @@ def test_progress_every_k_accepted_steps():
 
 def test_progress_false_stops_the_run_and_keeps_results():
     seen = []
-    r = exosieve.evolve(
-        earth(),
-        stepwise_exobase(),
-        {"H": 1e38},
-        (0.0, c.GYR),
-        progress=lambda t: seen.append(t) or len(seen) < 2,
-        progress_every=3,
-    )
+    r = stepwise_run(lambda t: seen.append(t) or len(seen) < 2, 3)
     # False at the 2nd call, made after every 3rd accepted step: the run stops after step 6.
     assert len(seen) == 2 and r.steps == 6
     assert not r.completed and r.t_reached == seen[-1] == r.time[-1] < c.GYR
