@@ -36,19 +36,24 @@ namespace {
 // A trial step over which a species' rate changes by more than this factor is retried shorter.
 constexpr double kRateChange = 100.0;
 constexpr double inf = std::numeric_limits<double>::infinity();
+constexpr double log_inv_two_sqrt_pi = -1.2655121234846454; // ln(1 / (2 sqrt(pi)))
 constexpr double nan = std::numeric_limits<double>::quiet_NaN();
 
 std::string when(double t) {
     return format_value(t) + " s (" + format_value(t / constants::Myr) + " Myr)";
 }
 
-// Tolerance on y_i = ln N_i of the error test below.
+// Tolerance on y_i = ln N_i of the error test below: ln(1 + rtol + atol_i / N_i), the change
+// of ln N that an error rtol N_i + atol_i in N_i makes. Not rtol + atol_i / N_i: that allows a
+// step of e^(atol_i / N_i) e-folds where N_i is far below atol_i, and an inventory fed by a
+// source from there could jump to e^(1e12) particles.
 double checker_tolerance(double rtol, double log_atol, double y) {
-    return rtol + std::exp(log_atol - y);
+    const double x = log_atol - y; // ln(atol_i / N_i)
+    return x > 40.0 ? x : std::log1p(rtol + std::exp(x));
 }
 
 // Error test in y = ln N equivalent to |err(N_i)| <= rtol N_i + atol_i, the test of a linear
-// integration: |err(y_i)| <= rtol + atol_i / N_i. Records the species that dominates.
+// integration. Records the species that dominates.
 class LogErrorChecker {
   public:
     using value_type = double;
@@ -118,7 +123,8 @@ class Model {
         state_.log_density.assign(n_, 0.0);
         state_.log_escape_rate.assign(n_, 0.0);
         log_fraction_.resize(n_);
-        log_rate_.resize(n_);
+        log_scaled_rate_.resize(n_);
+        rate_factor_.resize(n_);
         lambda_.resize(n_);
         needs_flux_ = c.temperature.needs_xuv_flux() || c.hydrodynamic.has_value();
         log_area_factor_ = std::log(4.0 * constants::pi);
@@ -133,7 +139,8 @@ class Model {
     void set_mode(const Mode& m) { mode_ = m; }
     std::size_t evaluations() const { return evaluations_; }
 
-    // dy_i/dt = S_i e^(-y_i) - Q_i e^(-y_i), Q_i from ln Q_i so that no rate overflows.
+    // dy_i/dt = S_i e^(-y_i) - Q_i e^(-y_i), with Q_i = f_i e^(ln q_i) (f_i = 1 + lambda_i for
+    // a Jeans flux): no rate overflows, and no logarithm of f_i is taken in the stepping loop.
     void rhs(const State& y, State& dydt, double t) {
         evaluate(t, y, mode_);
         for (std::size_t i = 0; i < n_; ++i) {
@@ -141,7 +148,7 @@ class Model {
                 dydt[i] = 0.0;
                 continue;
             }
-            double d = -std::exp(log_rate_[i] - y[i]);
+            double d = -rate_factor_[i] * std::exp(log_scaled_rate_[i] - y[i]);
             if (has_sources_) {
                 const double s = c_.sources[i](t);
                 if (s > 0.0)
@@ -164,7 +171,9 @@ class Model {
         s.flux = needs_flux_ ? std::exp(log_flux_) : nan;
         s.radius = state_.radius;
         s.regime = bulk_regime_;
-        s.log_rate = log_rate_;
+        s.log_rate.resize(n_);
+        for (std::size_t i = 0; i < n_; ++i)
+            s.log_rate[i] = log_rate(i);
         s.lambda = lambda_;
         s.source.resize(n_);
         for (std::size_t i = 0; i < n_; ++i)
@@ -204,7 +213,7 @@ class Model {
     std::string explain(std::size_t i, double t, const State& y) {
         evaluate(t, y, mode_);
         return "species " + c_.species[i].name + ": ln N = " + format_value(y[i]) +
-               ", ln Q = " + format_value(log_rate_[i]) +
+               ", ln Q = " + format_value(log_rate(i)) +
                ", Jeans parameter = " + format_value(lambda_[i]) +
                ", exobase temperature = " + format_value(exobase_temperature_) +
                " K, exobase radius = " + format_value(state_.radius) + " m";
@@ -282,12 +291,19 @@ class Model {
             const double lambda = gm_over_ktr * mass_[i];
             lambda_[i] = lambda;
             if (state_.has_escape_rates) {
-                log_rate_[i] = state_.log_escape_rate[i];
+                log_scaled_rate_[i] = state_.log_escape_rate[i];
+                rate_factor_[i] = 1.0;
             } else {
-                // ln(4 pi r^2 Phi_J), with ln v0 from per-step and per-species halves.
+                // 4 pi r^2 Phi_J = (1 + lambda) e^(ln q), with ln v0 from per-step and
+                // per-species halves; the form of log_jeans_flux_unchecked without ln(1 + lambda).
                 const double log_v0 = half_log_2kT - half_log_mass_[i];
-                log_rate_[i] = log_area + log_jeans_flux_unchecked(state_.log_density[i], log_v0,
-                                                                   lambda, c_.tail);
+                const bool finite = lambda < 1e300; // else (1 + lambda) e^(-lambda) is 0
+                double log_q =
+                    log_area + state_.log_density[i] + log_v0 + log_inv_two_sqrt_pi - lambda;
+                if (!c_.tail.is_identity())
+                    log_q += std::log(c_.tail(lambda));
+                log_scaled_rate_[i] = log_q;
+                rate_factor_[i] = finite ? 1.0 + lambda : 1.0;
             }
             if (state_.log_density[i] > state_.log_density[densest])
                 densest = i;
@@ -337,16 +353,21 @@ class Model {
                             partition_.data());
         for (std::size_t i = 0; i < n_; ++i) {
             const double lp = partition_[i] > 0.0 ? std::log(partition_[i]) : -inf;
-            log_rate_[i] = i == escaping_ ? lp : std::max(log_rate_[i], lp);
+            log_scaled_rate_[i] = i == escaping_ ? lp : std::max(log_rate(i), lp);
+            rate_factor_[i] = 1.0;
         }
         // A vanishing mole fraction makes the shared rate 0 * inf: rebuild it in logs.
         if (!(mole_fraction_[escaping_] > 0.0))
-            log_rate_[escaping_] = -inf;
+            log_scaled_rate_[escaping_] = -inf;
     }
+
+    // ln Q_i of the last evaluation.
+    double log_rate(std::size_t i) const { return log_scaled_rate_[i] + std::log(rate_factor_[i]); }
 
     const EvolutionConfig& c_;
     std::size_t n_;
-    std::vector<double> y0_, mass_, half_log_mass_, log_fraction_, log_rate_, lambda_;
+    std::vector<double> y0_, mass_, half_log_mass_, log_fraction_, lambda_;
+    std::vector<double> log_scaled_rate_, rate_factor_; // Q_i = rate_factor_i e^(log_scaled_i)
     ExobaseState state_;
     bool needs_flux_ = false;
     bool has_sources_ = false;
@@ -994,7 +1015,12 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         const bool landing = dt >= t_stop - t;
         const double h_planned = landing ? t_stop - t : dt;
         double h = h_planned;
-        if (!stepper->try_step(t, y, dydt, h_planned, y_new, dydt_new, h)) {
+        bool accepted = stepper->try_step(t, y, dydt, h_planned, y_new, dydt_new, h);
+        if (accepted && !(y_new.allFinite() && dydt_new.allFinite())) {
+            accepted = false; // an error estimate can pass a step that ran off to infinity
+            h = 0.2 * h_planned;
+        }
+        if (!accepted) {
             ++r.rejected_steps;
             ++consecutive_rejections;
             dt = h;

@@ -18,7 +18,13 @@ from hypothesis import strategies as st
 import exosieve
 from exosieve.constants import M_EARTH, M_SUN, R_EARTH
 
-SETTINGS = settings(max_examples=50, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+# derandomize: every machine draws the same examples, so a run here and in CI try the same.
+SETTINGS = settings(
+    max_examples=50,
+    deadline=None,
+    derandomize=True,
+    suppress_health_check=[HealthCheck.too_slow],
+)
 
 H = exosieve.species("H").mass
 
@@ -216,10 +222,19 @@ def test_hostile_value_is_refused_naming_the_argument(entry_name, arg, label, va
 
 # Property over every argument of every entry point: one hostile value drawn at random, in an
 # array of random length or alone; the others valid.
+def _is_species(text: str) -> bool:
+    try:
+        exosieve.species(text)
+    except ValueError:
+        return False
+    return True
+
+
 hostile_scalars = st.one_of(
     st.sampled_from([math.nan, -math.inf, math.inf, True, False, 10**400, -(10**309)]),
     st.complex_numbers(allow_nan=False, allow_infinity=False).filter(lambda z: z.imag != 0),
-    st.text(min_size=1, max_size=5),
+    # A string that names a species (e.g. "N") is a valid mass; any other string is not.
+    st.text(min_size=1, max_size=5).filter(lambda text: not _is_species(text)),
 )
 
 
