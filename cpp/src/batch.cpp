@@ -917,7 +917,8 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
         sample < 0 ? build_config(spec, o)
                    : build_config(sample_case(spec, o.seed, static_cast<std::uint64_t>(sample)), o);
     config.progress = [&cancel](double) { return !cancel.load(std::memory_order_relaxed); };
-    if (sample >= 0) // a Monte Carlo run reports its end only: no outputs in between
+    config.record_rates = false; // only the first output's rates are read (e-folding times)
+    if (sample >= 0)             // a Monte Carlo run reports its end only: no outputs between
         config.t_eval = {config.t_start, config.t_end};
     const EvolutionResult r = evolve(config);
     if (!r.completed)

@@ -49,7 +49,11 @@ std::string when(double t) {
 // source from there could jump to e^(1e12) particles.
 double checker_tolerance(double rtol, double log_atol, double y) {
     const double x = log_atol - y; // ln(atol_i / N_i)
-    return x > 40.0 ? x : std::log1p(rtol + std::exp(x));
+    if (x > 40.0)
+        return x;
+    const double z = rtol + std::exp(x);
+    // ln(1 + z) = z - z^2/2 + z^3/3 - ...: to 3e-7 relative below 1e-3, without a call.
+    return z < 1e-3 ? z * (1.0 - 0.5 * z) : std::log1p(z);
 }
 
 // Error test in y = ln N equivalent to |err(N_i)| <= rtol N_i + atol_i, the test of a linear
@@ -105,7 +109,7 @@ struct Mode {
 struct Snapshot {
     double temperature = 0.0, flux = nan, radius = 0.0;
     Regime regime = Regime::Jeans;
-    std::vector<double> log_rate, lambda, source;
+    std::vector<double> rate, lambda, source; // Q_i [s^-1], lambda_i [1], S_i [s^-1]
 };
 
 // The right-hand side and its diagnostics. One per run: scratch buffers make it not shareable.
@@ -165,22 +169,24 @@ class Model {
     }
 
     // All the diagnostics at (t, y) under `mode`.
-    void snapshot(double t, const State& y, const Mode& mode, Snapshot& s) {
+    // `rates`: false leaves the escape and source rates NaN (not recorded).
+    void snapshot(double t, const State& y, const Mode& mode, Snapshot& s, bool rates) {
         evaluate(t, y, mode);
         s.temperature = exobase_temperature_;
         s.flux = needs_flux_ ? std::exp(log_flux_) : nan;
         s.radius = state_.radius;
         s.regime = bulk_regime_;
-        s.log_rate.resize(n_);
-        for (std::size_t i = 0; i < n_; ++i)
-            s.log_rate[i] = log_rate(i);
+        s.rate.resize(n_);
         s.lambda = lambda_;
         s.source.resize(n_);
-        for (std::size_t i = 0; i < n_; ++i)
+        for (std::size_t i = 0; i < n_; ++i) {
+            if (!rates) {
+                s.rate[i] = s.source[i] = nan;
+                continue;
+            }
+            s.rate[i] = mode.frozen[i] ? 0.0 : rate_factor_[i] * std::exp(log_scaled_rate_[i]);
             s.source[i] = c_.sources.empty() ? 0.0 : c_.sources[i](t);
-        for (std::size_t i = 0; i < n_; ++i)
-            if (mode.frozen[i])
-                s.log_rate[i] = -inf;
+        }
     }
 
     // Whether energy-limited loss acts in `regime`.
@@ -261,7 +267,7 @@ class Model {
         // In logs: the saturated-then-decaying flux and the power-law temperature take one
         // logarithm and one exponential instead of two powers.
         log_flux_ = needs_flux_ ? c_.planet.log_xuv_flux(t) : nan;
-        temperature_ = c_.temperature.at_log_flux(t, log_flux_);
+        temperature_ = c_.temperature.at_log_flux(t, log_flux_, &log_temperature_);
         for (std::size_t i = 0; i < n_; ++i)
             log_fraction_[i] = y[i] - y0_[i];
         c_.exobase->evaluate(t, log_fraction_.data(), temperature_, state_);
@@ -283,7 +289,10 @@ class Model {
         const double log_area = log_area_;
         if (kT != log_kT_at_) { // likewise a constant or clamped temperature
             log_kT_at_ = kT;
-            half_log_2kT_ = 0.5 * std::log(2.0 * kT);
+            // The power law gives ln T itself where the exobase keeps its temperature.
+            half_log_2kT_ = exobase_temperature_ == temperature_ && !std::isnan(log_temperature_)
+                                ? 0.5 * (log_2k_ + log_temperature_)
+                                : 0.5 * std::log(2.0 * kT);
         }
         const double half_log_2kT = half_log_2kT_;
         std::size_t densest = 0;
@@ -372,7 +381,8 @@ class Model {
     bool needs_flux_ = false;
     bool has_sources_ = false;
     double log_area_factor_ = 0.0;
-    double log_flux_ = nan, temperature_ = 0.0, exobase_temperature_ = 0.0;
+    double log_flux_ = nan, temperature_ = 0.0, log_temperature_ = nan, exobase_temperature_ = 0.0;
+    const double log_2k_ = std::log(2.0 * k_B);
     Regime bulk_regime_ = Regime::Jeans;
     Mode mode_;
     std::size_t evaluations_ = 0;
@@ -540,7 +550,7 @@ class Recorder {
         r_.time.push_back(t);
         for (std::size_t i = 0; i < n_; ++i) {
             r_.inventory.push_back(std::exp(y[i]));
-            r_.escape_rate.push_back(std::exp(s.log_rate[i]));
+            r_.escape_rate.push_back(s.rate[i]);
             r_.source_rate.push_back(s.source[i]);
             r_.jeans_parameter.push_back(s.lambda[i]);
         }
@@ -918,7 +928,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             if (monotone[i])
                 y_out[i] = std::min(y_out[i], y_recorded[i]);
         y_recorded = y_out;
-        model.snapshot(time, y_out, mode, snap);
+        model.snapshot(time, y_out, mode, snap, c.record_rates || r.time.empty());
         recorder.record(time, y_out, snap, mode.energy_limited);
     };
     if (c.t_eval.empty()) {
@@ -989,19 +999,19 @@ EvolutionResult evolve(const EvolutionConfig& c) {
 
     // |ln(Q_i(t + h) / Q_i(t))| of the trial step, largest over the species without a source
     // whose ln N changes by more than its tolerance in it.
-    auto largest_rate_change = [&]() {
-        double largest = 0.0;
+    auto largest_rate_ratio = [&]() { // max over species of max(b/a, a/b), 1 for none
+        double largest = 1.0;
         for (std::size_t i = 0; i < n; ++i) {
             if (!monotone[i] ||
                 !(std::abs(y_new[i] - y[i]) > checker_tolerance(c.rtol, log_atol[i], y[i])))
                 continue;
             const double a = std::abs(dydt[i]), b = std::abs(dydt_new[i]);
             if (a > 0.0 && b > 0.0)
-                largest = std::max(largest, std::abs(std::log(b / a)));
+                largest = std::max(largest, std::max(b / a, a / b));
         }
         return largest;
     };
-    std::vector<double> depleted_at(n, nan);
+    std::vector<double> depleted_at(n, nan), step_tolerance(n, 0.0);
     std::vector<char> freeze(n, 0);
     while (t < c.t_end) {
         if (r.steps + r.rejected_steps >= c.max_steps)
@@ -1047,11 +1057,11 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         // solutions can be wrong alike (measured on steep temperature falls: up to 4x rtol in
         // one step that the estimate passed). Such a step is retried shorter; a rate that jumps
         // (no shorter step helps) is let through after a few tries.
-        const double rate_change = largest_rate_change();
-        if (rate_change > std::log(kRateChange) && consecutive_rejections < 8) {
+        const double rate_ratio = largest_rate_ratio();
+        if (rate_ratio > kRateChange && consecutive_rejections < 8) {
             ++r.rejected_steps;
             ++consecutive_rejections;
-            dt = h_planned * std::max(0.2, 0.7 * std::log(kRateChange) / rate_change);
+            dt = h_planned * std::max(0.2, 0.7 * std::log(kRateChange) / std::log(rate_ratio));
             continue;
         }
         consecutive_rejections = 0;
@@ -1083,7 +1093,16 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         // the tolerance, the output instead comes from one step of the method from the step's
         // start, as accurate as an accepted step; elsewhere the interpolant is kept (measured:
         // 2 such steps in 130 evaluations of a typical case).
+        // The tolerance of the Hermite test, once per step: the smaller of its ends' (it falls as
+        // N grows, and an output lies between the ends but for a source's rare overshoot).
+        bool step_tolerance_set = false;
         auto output = [&](double tq, State& out) {
+            if (!step_tolerance_set) {
+                for (std::size_t i = 0; i < n; ++i)
+                    step_tolerance[i] = std::min(checker_tolerance(c.rtol, log_atol[i], y[i]),
+                                                 checker_tolerance(c.rtol, log_atol[i], y_new[i]));
+                step_tolerance_set = true;
+            }
             dense(tq, out);
             const double span_h = t_step_end - t, s = (tq - t) / span_h;
             const double h00 = (2.0 * s - 3.0) * s * s + 1.0, h10 = ((s - 2.0) * s + 1.0) * s,
@@ -1092,8 +1111,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             for (std::size_t i = 0; i < n && !departs; ++i) {
                 const double hermite = h00 * y[i] + h10 * span_h * dydt[i] + h01 * y_new[i] +
                                        h11 * span_h * dydt_new[i];
-                departs =
-                    std::abs(hermite - out[i]) > checker_tolerance(c.rtol, log_atol[i], out[i]);
+                departs = std::abs(hermite - out[i]) > step_tolerance[i];
             }
             if (departs && stepper->direct(tq, out, t, y, dydt))
                 for (std::size_t i = 0; i < n; ++i)

@@ -82,6 +82,7 @@ ExobaseTemperature ExobaseTemperature::xuv_power_law(double reference_temperatur
     h.t_ref_ = reference_temperature;
     h.f_ref_ = reference_flux;
     h.log_f_ref_ = std::log(reference_flux);
+    h.log_t_ref_ = std::log(reference_temperature);
     h.gamma_ = exponent;
     h.t_min_ = minimum;
     h.t_max_ = maximum;
@@ -121,14 +122,25 @@ double ExobaseTemperature::operator()(double t, double xuv_flux) const {
     return constant_;
 }
 
-double ExobaseTemperature::at_log_flux(double t, double log_xuv_flux) const {
+double ExobaseTemperature::at_log_flux(double t, double log_xuv_flux,
+                                       double* log_temperature) const {
+    if (log_temperature)
+        *log_temperature = std::numeric_limits<double>::quiet_NaN();
     if (kind_ != Kind::XuvPowerLaw)
         return (*this)(t, std::exp(log_xuv_flux));
     // T_ref (F / F_ref)^gamma as T_ref exp(gamma (ln F - ln F_ref)); gamma = 0 stays T_ref
     // even for F = 0.
-    const double T =
-        gamma_ == 0.0 ? t_ref_ : t_ref_ * std::exp(gamma_ * (log_xuv_flux - log_f_ref_));
-    return std::min(t_max_, std::max(t_min_, T));
+    if (gamma_ == 0.0)
+        return std::min(t_max_, std::max(t_min_, t_ref_));
+    const double log_ratio = gamma_ * (log_xuv_flux - log_f_ref_);
+    const double T = t_ref_ * std::exp(log_ratio);
+    if (!(T > t_min_)) // as min(t_max, max(t_min, T)) before
+        return std::min(t_max_, t_min_);
+    if (T >= t_max_)
+        return t_max_;
+    if (log_temperature)
+        *log_temperature = log_t_ref_ + log_ratio;
+    return T;
 }
 
 std::vector<double> ExobaseTemperature::breakpoints(const Planet& planet, double t0,

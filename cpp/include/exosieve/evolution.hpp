@@ -88,6 +88,9 @@ struct EvolutionConfig {
     //! Put the model's JSON into EvolutionResult::config (batches that keep no per-run
     //! configuration switch it off: formatting it costs about as much as a short run).
     bool record_config = true;
+    //! Record the escape and source rates at every output time; false: at the first only, NaN
+    //! after (batches read no more).
+    bool record_rates = true;
     //! Called after every accepted step with the time [s]; returning false stops the run.
     std::function<bool(double)> progress;
 

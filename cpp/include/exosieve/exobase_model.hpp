@@ -64,7 +64,9 @@ class ExobaseTemperature {
     //! Kind::XuvPowerLaw). A callable's non-finite or non-positive value raises InputError.
     double operator()(double t, double xuv_flux) const;
     //! The same from ln of the XUV flux [ln(W m^-2)]: the power law is then one exponential.
-    double at_log_flux(double t, double log_xuv_flux) const;
+    //! When `log_temperature` is given, it receives ln T where the power law gives it without a
+    //! logarithm (inside its clamps), NaN otherwise.
+    double at_log_flux(double t, double log_xuv_flux, double* log_temperature = nullptr) const;
     //! Kind of history.
     Kind kind() const { return kind_; }
     //! True when the value depends on the XUV flux.
@@ -90,6 +92,7 @@ class ExobaseTemperature {
     TimeTable table_;
     double t_ref_ = 0.0, f_ref_ = 0.0, gamma_ = 0.0, t_min_ = 0.0, t_max_ = 0.0;
     double log_f_ref_ = 0.0;
+    double log_t_ref_ = 0.0;
     std::function<double(double)> function_;
     std::string description_;
 };
