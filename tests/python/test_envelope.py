@@ -186,3 +186,16 @@ def test_kept_envelope_and_outputs() -> None:
         es.envelope_loss(8 * c.M_EARTH, 0.05, 0.5 * c.AU, star, times, xuv_radius_factor=0.5)
     with pytest.raises(ValueError, match="star must be an exosieve.Star"):
         es.envelope_loss(8 * c.M_EARTH, 0.05, 0.5 * c.AU, None, times)  # type: ignore[arg-type]
+
+
+def test_roche_lobe_and_absorption_radius_speed_up_stripping() -> None:
+    # K < 1 (Erkaev et al. 2007) and R_xuv > R_p both raise the energy-limited rate, so the
+    # envelope goes sooner; with R_xuv = 1.2 R_p the rate is 1.44 times higher at every state.
+    star = es.Star(c.M_SUN, c.L_SUN, saturation_ratio=1e-3)
+    args = (4 * c.M_EARTH, 0.01, 0.03 * c.AU, star, [150 * c.MYR, 10 * c.GYR])
+    plain = es.envelope_loss(*args, efficiency=0.1)
+    roche = es.envelope_loss(*args, efficiency=0.1, roche_lobe=True)
+    wider = es.envelope_loss(*args, efficiency=0.1, xuv_radius_factor=1.2)
+    assert roche.stripping_time < plain.stripping_time
+    assert wider.stripping_time < plain.stripping_time
+    assert wider.mass_loss_rate[0] == pytest.approx(1.44 * plain.mass_loss_rate[0], rel=1e-14)
