@@ -36,6 +36,7 @@ void bind_constants(py::module_& m);
 void bind_species(py::module_& m);
 void bind_kernel(py::module_& m);
 void bind_evolution(py::module_& m);
+void bind_outflow(py::module_& m);
 void bind_thermosphere(py::module_& m);
 void bind_hdf5_io(py::module_& m);
 void bind_batch(py::module_& m);

@@ -10,6 +10,7 @@ PYBIND11_MODULE(_core, m) {
     b::bind_species(m);
     b::bind_kernel(m);
     b::bind_evolution(m);
+    b::bind_outflow(m);
     b::bind_thermosphere(m);
     b::bind_hdf5_io(m);
     b::bind_batch(m);

@@ -108,8 +108,11 @@ void check_flux_arrays(ArrayArg density, ArrayArg temperature, ArrayArg mass, Ar
 // Jeans parameter G M m / (k T r) [1]; in logarithms where a product over- or underflows, so
 // that finite extreme inputs keep a finite parameter.
 double safe_lambda(double T, double m, double M, double r) {
-    const double num = G * M * m, den = k_B * T * r;
-    if (std::isnormal(num) && std::isnormal(den)) {
+    // Every partial product normal: a subnormal k T (T ~ 1e-300 K) loses its digits even
+    // when k T r comes out normal again.
+    const double gm = G * M, kt = k_B * T;
+    const double num = gm * m, den = kt * r;
+    if (std::isnormal(gm) && std::isnormal(kt) && std::isnormal(num) && std::isnormal(den)) {
         const double lambda = num / den;
         if (std::isnormal(lambda))
             return lambda;

@@ -14,6 +14,14 @@ from .diffusion import (
     diffusion_limited_flux,
     diffusion_pairs,
 )
+from .envelope import (
+    SOLAR_IRRADIANCE,
+    EnvelopeLoss,
+    core_radius,
+    envelope_loss,
+    envelope_planet_radius,
+    envelope_radius,
+)
 from .evolution import evolve
 from .jeans import (
     TailDepletion,
@@ -49,6 +57,21 @@ from .model import (
     energy_limited_mass_loss,
     roche_lobe_factor,
     roche_lobe_ratio,
+)
+from .outflow import (
+    HYDROGEN_ATOM_MASS,
+    isothermal_sound_speed,
+    lambert_w,
+    parker_density,
+    parker_mach_number,
+    parker_mass_loss,
+    parker_wind_speed,
+    recombination_limited_mass_loss,
+    recombination_transition_flux,
+    scale_height,
+    sonic_radius,
+    xuv_absorption_radius,
+    xuv_driven_mass_loss,
 )
 from .result import EvolutionResult, open_result
 from .species import Species, register_species, species, species_names
@@ -105,6 +128,25 @@ __all__ = [
     "energy_limited_mass_loss",
     "crossover_mass",
     "dragged_flux",
+    "HYDROGEN_ATOM_MASS",
+    "lambert_w",
+    "isothermal_sound_speed",
+    "sonic_radius",
+    "parker_mach_number",
+    "parker_wind_speed",
+    "parker_density",
+    "parker_mass_loss",
+    "recombination_limited_mass_loss",
+    "xuv_driven_mass_loss",
+    "recombination_transition_flux",
+    "scale_height",
+    "xuv_absorption_radius",
+    "SOLAR_IRRADIANCE",
+    "core_radius",
+    "envelope_radius",
+    "envelope_planet_radius",
+    "EnvelopeLoss",
+    "envelope_loss",
     "evolve",
     "EvolutionResult",
     "open_result",

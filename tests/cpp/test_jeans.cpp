@@ -32,6 +32,15 @@ TEST_CASE("the Jeans parameter is (v_esc / v0)^2") {
     CHECK(lambda == doctest::Approx(7.0).epsilon(0.1));
 }
 
+TEST_CASE("the Jeans parameter through a subnormal k T keeps its digits") {
+    // T = 1e-300 K makes k T subnormal while k T r is normal again (found by the property test
+    // in tests/python/test_hostile_values.py); lambda must match its logarithm.
+    const double T = 1e-300, m = 1.0, M = 1.0, r = 1501199875790166.0;
+    const double log_lambda =
+        std::log(G) + std::log(M) + std::log(m) - std::log(k_B) - std::log(T) - std::log(r);
+    CHECK(std::log(jeans_parameter(T, m, M, r)) == doctest::Approx(log_lambda).epsilon(1e-13));
+}
+
 TEST_CASE("flux equals the closed form and the upward Maxwellian flux above v_esc") {
     const double n = 1e11, T = 1000.0;
     const double v0 = most_probable_speed(T, m_H);
