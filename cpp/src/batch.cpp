@@ -42,7 +42,8 @@ bool starts_with(const std::string& s, const std::string& head) {
 
 // Text columns a table may carry besides the numeric ones.
 const std::set<std::string>& text_columns() {
-    static const std::set<std::string> names{"star", "density_scaling", "comment"};
+    static const std::set<std::string> names{"star", "density_scaling", "diffusion_source",
+                                             "comment"};
     return names;
 }
 
@@ -104,9 +105,15 @@ bool in_range(const CaseParameter& p, double v) {
 
 // Per-species parameter templates.
 const CaseParameter& mole_fraction_parameter() {
-    static const CaseParameter p{"x_<species>", "1",  "mole fraction at the exobase (0: absent)",
-                                 false,         true, 0.0,
-                                 false,         inf};
+    static const CaseParameter p{"x_<species>",
+                                 "1",
+                                 "bulk (well-mixed) mole fraction, also the exobase fraction of "
+                                 "a prescribed exobase (0: absent)",
+                                 false,
+                                 true,
+                                 0.0,
+                                 false,
+                                 inf};
     return p;
 }
 const CaseParameter& species_inventory_parameter() {
@@ -159,9 +166,26 @@ const std::vector<CaseParameter>& case_parameters() {
     static const std::vector<CaseParameter> params{
         {"planet_mass", "kg", "planet mass", true, true, 0.0, true, inf},
         {"planet_radius", "m", "planet radius", true, true, 0.0, true, inf},
-        {"exobase_altitude", "m", "exobase height above the surface", true, true, 0.0, false, inf},
-        {"exobase_density", "m-3", "total number density at the exobase at the start", true, true,
-         0.0, true, inf},
+        {"exobase_altitude", "m",
+         "prescribed exobase: height above the surface (or give a thermosphere)", false, true, 0.0,
+         false, inf},
+        {"exobase_density", "m-3", "prescribed exobase: total number density at the start", false,
+         true, 0.0, true, inf},
+        {"homopause_altitude", "m",
+         "thermosphere: homopause height above the surface (the exobase is found each step)", false,
+         true, 0.0, false, inf},
+        {"homopause_density", "m-3", "thermosphere: total number density at the homopause", false,
+         true, 0.0, true, inf},
+        {"homopause_temperature", "K",
+         "thermosphere: Bates profile base temperature at the homopause (without: isothermal at "
+         "the exobase temperature)",
+         false, true, 0.0, true, inf},
+        {"bates_shape", "m-1", "thermosphere: Bates profile shape parameter s", false, true, 0.0,
+         true, inf},
+        {"diffusion_limited", "1",
+         "thermosphere: 1 (default) couples Jeans escape to diffusion from the homopause, 0 Jeans "
+         "only",
+         false, false, 0.0, false, 1.0},
         {"exobase_temperature", "K", "exobase temperature (constant, or at the start)", false, true,
          0.0, true, inf},
         {"exobase_temperature_end", "K",
@@ -323,7 +347,7 @@ void check_table_columns(const CaseTable& table) {
         if (!text_columns().count(name))
             throw InputError("case table: unknown text column '" + name +
                              "' (text columns: "
-                             "case, star, density_scaling, comment)");
+                             "case, star, density_scaling, diffusion_source, comment)");
         if (!text_seen.insert(name).second)
             throw InputError("case table: column '" + name + "' appears twice");
         if (seen.count(name))
@@ -355,6 +379,11 @@ struct Slots {
     std::size_t planet_mass = slot_of("planet_mass"), planet_radius = slot_of("planet_radius"),
                 exobase_altitude = slot_of("exobase_altitude"),
                 exobase_density = slot_of("exobase_density"),
+                homopause_altitude = slot_of("homopause_altitude"),
+                homopause_density = slot_of("homopause_density"),
+                homopause_temperature = slot_of("homopause_temperature"),
+                bates_shape = slot_of("bates_shape"),
+                diffusion_limited = slot_of("diffusion_limited"),
                 exobase_temperature = slot_of("exobase_temperature"),
                 exobase_temperature_end = slot_of("exobase_temperature_end"),
                 temperature_reference = slot_of("temperature_reference"),
@@ -396,6 +425,7 @@ struct TablePlan {
     std::vector<Species> species;        // table species (x_ columns), numbers only
     std::vector<std::size_t> x_column;   // per table species: its x_ column
     std::size_t density_scaling = none;  // text column, or none
+    std::size_t diffusion_source = none; // text column, or none
     std::vector<std::size_t> present;    // scratch: table species of the case
     std::vector<std::size_t> case_index; // scratch: table species -> case species, or none
 };
@@ -451,6 +481,8 @@ TablePlan plan_table(const CaseTable& table) {
     for (std::size_t c = 0; c < table.text.size(); ++c)
         if (table.text[c].first == "density_scaling")
             plan.density_scaling = c;
+        else if (table.text[c].first == "diffusion_source")
+            plan.diffusion_source = c;
     return plan;
 }
 
@@ -508,6 +540,8 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
                                     shown_value(table, name, r.parameter->unit, v));
             if (r.global == slots().max_steps && v != std::floor(v))
                 bad_value(name, "must be a whole number, got " + format_value(v));
+            if (r.global == slots().diffusion_limited && v != 0.0 && v != 1.0)
+                bad_value(name, "must be 0 or 1, got " + format_value(v));
             const std::size_t k = slot(r);
             if (k != none)
                 s.values[k] = v;
@@ -536,6 +570,17 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
                 s.scaling = DensityScaling::Fixed;
             else
                 bad_value("density_scaling", "'" + text + "' is neither 'inventory' nor 'fixed'");
+        }
+        if (plan.diffusion_source != none) {
+            const std::string& text = table.text[plan.diffusion_source].second[row];
+            s.diffusion_given = !text.empty();
+            if (text.empty() || text == "measured")
+                s.diffusion = DiffusionMethod::measured_first;
+            else if (text == "chapman_enskog")
+                s.diffusion = DiffusionMethod::chapman_enskog;
+            else
+                bad_value("diffusion_source",
+                          "'" + text + "' is neither 'measured' nor 'chapman_enskog'");
         }
     } catch (const InputError& e) {
         throw InputError(table.row_label(row) + " (case '" + s.name + "'), " + e.what());
@@ -665,13 +710,56 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
     mean_mass /= x_sum;
     c.species = s.species;
 
-    // Exobase: prescribed radius and densities n_i = x_i n (x_i normalised, as the inventories).
-    const double n_exo = required(k.exobase_density);
-    std::vector<double> densities(n);
-    for (std::size_t i = 0; i < n; ++i)
-        densities[i] = s.mole_fraction(i) / x_sum * n_exo;
-    c.exobase = std::make_shared<PrescribedExobase>(
-        radius + required(k.exobase_altitude), std::move(names), std::move(densities), s.scaling);
+    const bool thermosphere = has(k.homopause_altitude) || has(k.homopause_density);
+    if (thermosphere) {
+        // Thermosphere: x_i (normalised) are the well-mixed homopause fractions; the exobase is
+        // found from them at every step, exactly as evolve() does with a Thermosphere.
+        for (std::size_t slot : {k.exobase_altitude, k.exobase_density})
+            if (has(slot))
+                bad_value(params[slot].name,
+                          "give either a prescribed exobase ('exobase_altitude', "
+                          "'exobase_density') or a thermosphere ('homopause_altitude', "
+                          "'homopause_density'), not both");
+        if (s.scaling == DensityScaling::Fixed)
+            bad_value("density_scaling", "'fixed' is for a prescribed exobase; a thermosphere's "
+                                         "densities always follow the inventories");
+        const char* why = "a thermosphere needs both homopause columns";
+        const double r_h = radius + required(k.homopause_altitude, why);
+        const double n_h = required(k.homopause_density, why);
+        std::vector<double> fractions(n);
+        for (std::size_t i = 0; i < n; ++i)
+            fractions[i] = s.mole_fraction(i) / x_sum;
+        // The profile's form; its exobase temperature is replaced by the history at every step.
+        TemperatureProfile profile = TemperatureProfile::isothermal(1000.0);
+        if (has(k.homopause_temperature) || has(k.bates_shape)) {
+            const char* bates = "a Bates profile needs 'homopause_temperature' and 'bates_shape'";
+            const double t_h = required(k.homopause_temperature, bates);
+            profile = TemperatureProfile::bates(t_h, t_h, required(k.bates_shape, bates), r_h);
+        }
+        Thermosphere th(mass, radius, r_h, n_h, s.species, std::move(fractions),
+                        std::move(profile));
+        th.set_diffusion_method(s.diffusion);
+        c.exobase = std::make_shared<ThermosphereExobase>(
+            th, names, optional(k.diffusion_limited, 1.0) == 1.0, s.diffusion);
+    } else {
+        // Prescribed exobase: radius and densities n_i = x_i n (x_i normalised, as the
+        // inventories).
+        for (std::size_t slot : {k.homopause_temperature, k.bates_shape, k.diffusion_limited})
+            if (has(slot))
+                bad_value(params[slot].name, "is for a thermosphere ('homopause_altitude', "
+                                             "'homopause_density'); this row has none");
+        if (s.diffusion_given)
+            bad_value("diffusion_source", "is for a thermosphere ('homopause_altitude', "
+                                          "'homopause_density'); this row has none");
+        const char* why = "or describe a thermosphere ('homopause_altitude', 'homopause_density')";
+        const double n_exo = required(k.exobase_density, why);
+        std::vector<double> densities(n);
+        for (std::size_t i = 0; i < n; ++i)
+            densities[i] = s.mole_fraction(i) / x_sum * n_exo;
+        c.exobase =
+            std::make_shared<PrescribedExobase>(radius + required(k.exobase_altitude, why),
+                                                std::move(names), std::move(densities), s.scaling);
+    }
 
     // Inventories: per species, else the total shared by mole fraction. A surface pressure P
     // holds N = P 4 pi R^2 / (g m_mean) particles, g = G M / R^2 (hydrostatic column).
@@ -847,6 +935,8 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
                     &temperature_start})
         v->assign(cases, nan);
     exobase_temperature.assign(cases * time_count, nan);
+    bulk_jeans_start.assign(cases, nan);
+    hydrodynamic_unmodelled.assign(cases, -1);
     retained.assign(cts, nan);
     jeans_parameter.assign(cts, nan);
     for (auto* v : {&mole_fraction, &final_retained, &depletion_time, &efolding_time, &jeans_start,
@@ -882,6 +972,8 @@ std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
         {"jeans_parameter_start", {S}, &c.jeans_start},
         {"jeans_parameter_end", {S}, &c.jeans_end},
         {"regime_start", {S}, nullptr, &c.regime_start},
+        {"bulk_jeans_parameter_start", {}, &c.bulk_jeans_start},
+        {"hydrodynamic_unmodelled", {}, nullptr, &c.hydrodynamic_unmodelled},
     };
     if (N > 0) {
         v.push_back({"sample_retained_fraction", {N, S}, &c.sample_retained});
@@ -944,6 +1036,17 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
     out.t_start[c] = config.t_start;
     out.t_end[c] = config.t_end;
     out.temperature_start[c] = r.exobase_temperature[0];
+    // Bulk gas at the start: lambda is linear in the particle mass, so the Jeans parameter of
+    // the well-mixed mean mass is the mole-weighted mean of the species' values.
+    double x_sum = 0.0, lambda_bulk = 0.0;
+    for (std::size_t i = 0; i < n; ++i) {
+        x_sum += spec.mole_fraction(i);
+        lambda_bulk += spec.mole_fraction(i) * r.jeans_parameter[i];
+    }
+    lambda_bulk /= x_sum;
+    out.bulk_jeans_start[c] = lambda_bulk;
+    out.hydrodynamic_unmodelled[c] =
+        lambda_bulk <= o.thresholds.hydrodynamic && !config.hydrodynamic.has_value() ? 1 : 0;
     // Rows of r at the batch's output times (r holds t_start, the inner times, t_end).
     std::size_t k = 0;
     for (std::size_t j = 0; j < T; ++j) {

@@ -108,6 +108,21 @@ _VARIABLES: list[tuple[str, type, list[str], str, str]] = [
         "escape regime of the species at the start: 0 Jeans, 1 enhanced Jeans, "
         "2 transition, 3 hydrodynamic (-1: none)",
     ),
+    (
+        "bulk_jeans_parameter_start",
+        float,
+        [],
+        "1",
+        "Jeans parameter of the bulk (well-mixed) gas at the exobase at the start",
+    ),
+    (
+        "hydrodynamic_unmodelled",
+        int,
+        [],
+        "1",
+        "1: the bulk gas starts at or below the hydrodynamic threshold and the case has no "
+        "heating efficiency, so its Jeans results do not describe its loss (0: no; -1: not run)",
+    ),
 ]
 _SAMPLE_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
     (
@@ -287,7 +302,9 @@ class Comparison:
             Columns ``case``, ``row``, ``species``, ``final_retained_fraction`` [1],
             ``retained`` (bool), ``depletion_time`` [s] (NaN: never), ``efolding_time`` [s]
             (N/Q at the start), ``jeans_parameter_start`` and ``jeans_parameter_end`` [1],
-            ``regime_start`` (name), ``error``; with samples also ``probability_retained``
+            ``regime_start`` (name), ``hydrodynamic_unmodelled`` (bool: the case's bulk gas
+            starts at or below the hydrodynamic threshold and it has no heating efficiency, so
+            its Jeans-based retained fractions do not describe its loss), ``error``; with samples also ``probability_retained``
             (share of successful samples with more than ``retain`` left) [1],
             ``retained_fraction_p<q>`` [1] and ``samples_ok``. ``frame.attrs["units"]`` gives
             the unit of each numeric column.
@@ -334,6 +351,7 @@ class Comparison:
             "jeans_parameter_start": pick("jeans_parameter_start"),
             "jeans_parameter_end": pick("jeans_parameter_end"),
             "regime_start": names[np.where(valid, regime, -1) + 1],
+            "hydrodynamic_unmodelled": self["hydrodynamic_unmodelled"][ci] == 1,
             "error": np.asarray(self["error"], dtype=object)[ci],
         }
         units = dict(_UNITS)
@@ -486,6 +504,8 @@ _RANGES: dict[str, tuple[float, float]] = {
     "jeans_parameter_start": (0, math.inf),
     "jeans_parameter_end": (0, math.inf),
     "regime_start": (-1, 3),
+    "bulk_jeans_parameter_start": (0, math.inf),
+    "hydrodynamic_unmodelled": (-1, 1),
     "sample_retained_fraction": (0, 1.001),
     "sample_depletion_time": (0, math.inf),
     "sample_failed": (0, 1),

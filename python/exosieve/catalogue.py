@@ -49,6 +49,8 @@ UNITS: dict[str, tuple[float, str]] = {
     "yr": (c.YEAR, "s"),
     "Myr": (c.MYR, "s"),
     "Gyr": (c.GYR, "s"),
+    "m-1": (1.0, "m-1"),
+    "km-1": (1e-3, "m-1"),
     "m-3": (1.0, "m-3"),
     "cm-3": (1e6, "m-3"),
     "Pa": (1.0, "Pa"),
@@ -59,7 +61,7 @@ UNITS: dict[str, tuple[float, str]] = {
 }
 
 #: Columns that hold text rather than numbers.
-TEXT_COLUMNS = ("case", "star", "density_scaling", "comment")
+TEXT_COLUMNS = ("case", "star", "density_scaling", "diffusion_source", "comment")
 
 #: Longest text accepted in a cell [characters].
 MAX_TEXT_LENGTH = 10_000
@@ -92,9 +94,11 @@ def case_columns() -> list[tuple[str, str, str, bool, bool]]:
     -------
     list of (name, SI unit, meaning, required, may have an uncertainty)
         Besides these: ``case`` (label, first column), ``star``, ``comment`` (text, ignored),
-        ``density_scaling`` (``inventory`` or ``fixed``), ``x_<species>`` mole fractions at the
-        exobase [1] (summing to 1 within 1e-3) and ``inventory_<species>`` initial inventories
-        [particles].
+        ``density_scaling`` (``inventory`` or ``fixed``; prescribed exobase),
+        ``diffusion_source`` (``measured`` or ``chapman_enskog``; thermosphere),
+        ``x_<species>`` bulk (well-mixed) mole fractions [1] (summing to 1 within 1e-3; for a
+        prescribed exobase also its composition) and ``inventory_<species>`` initial
+        inventories [particles].
 
     Examples
     --------
@@ -116,7 +120,8 @@ class CaseTable:
         SI values per quantity (``planet_mass`` [kg], ``exobase_altitude`` [m], ...); NaN where
         a row gives no value.
     text_columns : dict of str to list of str
-        Columns that hold text (``case``, ``star``, ``density_scaling``, ``comment``).
+        Columns that hold text (``case``, ``star``, ``density_scaling``, ``diffusion_source``,
+        ``comment``).
     species : list of str
         Species named by ``x_<species>`` columns, in column order.
     source : str

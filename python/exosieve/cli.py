@@ -185,13 +185,20 @@ def _columns(args: argparse.Namespace) -> int:
         )
         print(f"  {name:28s} [{unit}]  {meaning} ({flags})")
     print(
-        "  x_<species>                  [1]  mole fraction at the exobase (0: absent); a row's "
-        "fractions sum to 1 within 1e-3"
+        "  x_<species>                  [1]  bulk (well-mixed) mole fraction (0: absent), also "
+        "the composition of a prescribed exobase; a row's fractions sum to 1 within 1e-3"
     )
     print("  inventory_<species>          [particles]  initial inventory of that species")
     print(
-        "  case, star, density_scaling, comment: text (case first; density_scaling is "
-        "'inventory' or 'fixed')"
+        "  case, star, density_scaling, diffusion_source, comment: text (case first; "
+        "density_scaling is 'inventory' or 'fixed' (prescribed exobase); diffusion_source is "
+        "'measured' or 'chapman_enskog' (thermosphere))"
+    )
+    print(
+        "Upper atmosphere, one per row: a prescribed exobase (exobase_altitude, "
+        "exobase_density) or a thermosphere (homopause_altitude, homopause_density; "
+        "homopause_temperature and bates_shape for a Bates profile; diffusion_limited), whose "
+        "exobase is found at every step."
     )
     by_unit: dict[str, list[str]] = {}
     for word, (_, si) in UNITS.items():

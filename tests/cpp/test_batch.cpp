@@ -590,3 +590,210 @@ TEST_CASE("batch: a block of rows keeps its keys, so a resumed sweep draws the s
     CHECK(same(tail[0].sample_retained, whole[1].sample_retained));
     CHECK_THROWS_AS(run_batch(t, 4, 7, options(1), hooks), InputError);
 }
+
+namespace {
+
+// `rows` invented planets with a thermosphere above a 100 km homopause: N2, O, He, H
+// well mixed; row 0 isothermal, row 1 Bates, row 2 Bates without diffusion limiting.
+CaseTable thermosphere_table() {
+    CaseTable t;
+    t.names = {"iso", "bates", "bates jeans only"};
+    const double M = 0.8 * constants::M_earth;
+    set_column(t, "planet_mass", {M, M, M});
+    set_column(t, "planet_radius",
+               {0.95 * constants::R_earth, 0.95 * constants::R_earth, 0.95 * constants::R_earth});
+    set_column(t, "homopause_altitude", {100e3, 100e3, 100e3});
+    set_column(t, "homopause_density", {1e19, 1e19, 1e19});
+    set_column(t, "homopause_temperature", {missing, 200.0, 200.0});
+    set_column(t, "bates_shape", {missing, 1.0 / 40e3, 1.0 / 40e3});
+    set_column(t, "diffusion_limited", {missing, 1.0, 0.0});
+    set_column(t, "exobase_temperature", {900.0, 1100.0, 1100.0});
+    set_column(t, "surface_pressure", {1e5, 1e5, 1e5});
+    set_column(t, "x_N2", {0.78, 0.78, 0.78});
+    set_column(t, "x_O", {0.219989, 0.219989, 0.219989});
+    set_column(t, "x_He", {1e-5, 1e-5, 1e-5});
+    set_column(t, "x_H", {1e-6, 1e-6, 1e-6});
+    return t;
+}
+
+} // namespace
+
+TEST_CASE("thermosphere rows: the exobase model evolve() builds from the same Thermosphere") {
+    const CaseTable t = thermosphere_table();
+    const BatchOptions o = options(1);
+    const std::vector<std::string> names{"N2", "O", "He", "H"};
+    const std::vector<Species> sp{species("N2"), species("O"), species("He"), species("H")};
+    const std::vector<double> x{0.78, 0.219989, 1e-5, 1e-6};
+    const double M = 0.8 * constants::M_earth, R = 0.95 * constants::R_earth;
+    for (std::size_t row = 0; row < 3; ++row) {
+        CAPTURE(row);
+        const EvolutionConfig c = build_config(case_from_table(t, row), o);
+        REQUIRE(dynamic_cast<const ThermosphereExobase*>(c.exobase.get()) != nullptr);
+        const TemperatureProfile profile =
+            row == 0 ? TemperatureProfile::isothermal(900.0)
+                     : TemperatureProfile::bates(1100.0, 200.0, 1.0 / 40e3, R + 100e3);
+        const Thermosphere th(M, R, R + 100e3, 1e19, sp, x, profile);
+        const ThermosphereExobase direct(th, names, row != 2);
+        ExobaseState a, b;
+        for (ExobaseState* s : {&a, &b}) {
+            s->log_density.assign(4, 0.0);
+            s->log_escape_rate.assign(4, 0.0);
+        }
+        const std::vector<double> lf{0.0, -0.1, -0.5, -2.0};
+        const double T = row == 0 ? 900.0 : 1100.0;
+        c.exobase->evaluate(o.t_start, lf.data(), T, a);
+        direct.evaluate(o.t_start, lf.data(), T, b);
+        CHECK(a.radius == b.radius);
+        CHECK(a.has_escape_rates == b.has_escape_rates);
+        CHECK(same(a.log_density, b.log_density));
+        CHECK(same(a.log_escape_rate, b.log_escape_rate));
+        CHECK(c.exobase->to_json() == direct.to_json());
+    }
+    // The batch's retained fractions are those of evolve() with the hand-built model.
+    const std::vector<BatchChunk> chunks = run(t, o);
+    REQUIRE(chunks.size() == 1);
+    const BatchChunk& out = chunks[0];
+    for (std::size_t row = 0; row < 3; ++row) {
+        CAPTURE(row);
+        INFO(out.error[row]);
+        REQUIRE(out.error[row].empty());
+        EvolutionConfig c{Planet(M, R)};
+        c.species = sp;
+        const double g = constants::G * M / (R * R);
+        double m_mean = 0.0;
+        for (std::size_t i = 0; i < 4; ++i)
+            m_mean += x[i] * sp[i].mass;
+        const double N = 1e5 * 4 * constants::pi * R * R / (g * m_mean);
+        for (std::size_t i = 0; i < 4; ++i)
+            c.initial_inventory.push_back(N * x[i]);
+        const TemperatureProfile profile =
+            row == 0 ? TemperatureProfile::isothermal(900.0)
+                     : TemperatureProfile::bates(1100.0, 200.0, 1.0 / 40e3, R + 100e3);
+        c.exobase = std::make_shared<ThermosphereExobase>(
+            Thermosphere(M, R, R + 100e3, 1e19, sp, x, profile), names, row != 2);
+        c.temperature = ExobaseTemperature::constant(row == 0 ? 900.0 : 1100.0);
+        c.t_start = o.t_start;
+        c.t_end = o.t_end;
+        c.t_eval = o.times;
+        c.rtol = o.rtol;
+        const EvolutionResult r = evolve(c);
+        REQUIRE(r.time_count() == 4);
+        for (std::size_t j = 0; j < 4; ++j)
+            for (std::size_t i = 0; i < 4; ++i)
+                CHECK(out.retained[(row * 4 + j) * 4 + i] ==
+                      doctest::Approx(r.inventory[j * 4 + i] / r.inventory[i]).epsilon(1e-14));
+        CHECK(out.exobase_radius[row] == r.exobase_radius[0]);
+    }
+    // Diffusion limiting slows the loss of hydrogen (the supply from below caps it).
+    INFO(out.depletion_time[1 * 4 + 3], " ", out.depletion_time[2 * 4 + 3]);
+    CHECK(out.depletion_time[1 * 4 + 3] > out.depletion_time[2 * 4 + 3]);
+}
+
+TEST_CASE("thermosphere rows: isothermal exobase altitude as the analytic scale-height result") {
+    // Worked analytic solution, one gas, isothermal, g = G M / r^2:
+    // n(r) = n_h exp(-(G M m / k T) (1/r_h - 1/r)), H(r) = k T r^2 / (G M m); the exobase is
+    // where the mean free path 1 / (n sigma) equals H, solved here by bisection.
+    CaseTable t;
+    t.names = {"nitrogen"};
+    const double M = constants::M_earth, R = constants::R_earth, T = 1000.0, n_h = 1e19;
+    const double r_h = R + 100e3;
+    set_column(t, "planet_mass", {M});
+    set_column(t, "planet_radius", {R});
+    set_column(t, "homopause_altitude", {100e3});
+    set_column(t, "homopause_density", {n_h});
+    set_column(t, "exobase_temperature", {T});
+    set_column(t, "inventory", {1e40});
+    set_column(t, "x_N2", {1.0});
+    const std::vector<BatchChunk> chunks = run(t, options(1));
+    REQUIRE(chunks[0].error[0].empty());
+    const Species& n2 = species("N2");
+    const double a = constants::G * M * n2.mass / (constants::k_B * T);
+    auto f = [&](double r) {
+        return std::log(n_h * n2.cross_section) - a * (1.0 / r_h - 1.0 / r) + std::log(r * r / a);
+    };
+    double lo = r_h, hi = 2.0 * r_h;
+    REQUIRE(f(lo) > 0.0);
+    REQUIRE(f(hi) < 0.0);
+    for (int k = 0; k < 200; ++k) {
+        const double mid = 0.5 * (lo + hi);
+        (f(mid) > 0.0 ? lo : hi) = mid;
+    }
+    CHECK(chunks[0].exobase_radius[0] == doctest::Approx(0.5 * (lo + hi)).epsilon(1e-9));
+    CHECK(chunks[0].hydrodynamic_unmodelled[0] == 0);
+    CHECK(chunks[0].bulk_jeans_start[0] ==
+          doctest::Approx(chunks[0].jeans_start[0]).epsilon(1e-15));
+}
+
+TEST_CASE("thermosphere rows: refused with the columns named") {
+    const BatchOptions o = options(1);
+    CaseTable both = thermosphere_table();
+    set_column(both, "exobase_altitude", {500e3, missing, missing});
+    CHECK_THROWS_WITH_AS(
+        build_config(case_from_table(both, 0), o),
+        doctest::Contains("column 'exobase_altitude': give either a prescribed exobase "
+                          "('exobase_altitude', 'exobase_density') or a thermosphere"),
+        InputError);
+    CHECK_NOTHROW(build_config(case_from_table(both, 1), o));
+    CaseTable half = thermosphere_table();
+    set_column(half, "homopause_density", {missing, 1e19, 1e19});
+    CHECK_THROWS_WITH_AS(build_config(case_from_table(half, 0), o),
+                         doctest::Contains("column 'homopause_density': no value given"),
+                         InputError);
+    CaseTable shape = thermosphere_table();
+    set_column(shape, "bates_shape", {missing, missing, 1.0 / 40e3});
+    CHECK_THROWS_WITH_AS(build_config(case_from_table(shape, 1), o),
+                         doctest::Contains("column 'bates_shape': no value given"), InputError);
+    CaseTable flag = thermosphere_table();
+    set_column(flag, "diffusion_limited", {0.5, 1.0, 0.0});
+    CHECK_THROWS_WITH_AS(case_from_table(flag, 0),
+                         doctest::Contains("column 'diffusion_limited': must be 0 or 1, got 0.5"),
+                         InputError);
+    CaseTable source = thermosphere_table();
+    source.text.push_back({"diffusion_source", {"chapman_enskog", "", "guess"}});
+    CHECK(case_from_table(source, 0).diffusion == DiffusionMethod::chapman_enskog);
+    CHECK(case_from_table(source, 1).diffusion == DiffusionMethod::measured_first);
+    CHECK_THROWS_WITH_AS(case_from_table(source, 2),
+                         doctest::Contains("'guess' is neither 'measured' nor 'chapman_enskog'"),
+                         InputError);
+    // Thermosphere columns on a prescribed row.
+    CaseTable prescribed = earthlike(1);
+    set_column(prescribed, "diffusion_limited", {1.0});
+    CHECK_THROWS_WITH_AS(build_config(case_from_table(prescribed, 0), o),
+                         doctest::Contains("column 'diffusion_limited': is for a thermosphere"),
+                         InputError);
+    CaseTable neither = earthlike(1);
+    neither.columns.erase(std::find_if(neither.columns.begin(), neither.columns.end(),
+                                       [](const auto& c) { return c.first == "exobase_density"; }));
+    CHECK_THROWS_WITH_AS(build_config(case_from_table(neither, 0), o),
+                         doctest::Contains("column 'exobase_density': no value given (or describe "
+                                           "a thermosphere"),
+                         InputError);
+}
+
+TEST_CASE("batch: bulk gas at or below the hydrodynamic threshold without a heating efficiency is "
+          "flagged") {
+    // lambda = G M m / (k T r) of pure H at 2000 K at 1.5 Earth radii of an Earth mass:
+    // about 2.1 * (1.5e3 K / T) ... worked here instead of recalled.
+    CaseTable t;
+    t.names = {"hot hydrogen", "hot hydrogen, energy limited", "cool"};
+    const double M = constants::M_earth, R = constants::R_earth;
+    const double r = R + 0.5 * R, m = species("H").mass;
+    const double T_hot = constants::G * M * m / (constants::k_B * r) / 1.5; // lambda = 1.5
+    set_column(t, "planet_mass", {M, M, M});
+    set_column(t, "planet_radius", {R, R, R});
+    set_column(t, "exobase_altitude", {0.5 * R, 0.5 * R, 0.5 * R});
+    set_column(t, "exobase_density", {1e12, 1e12, 1e12});
+    set_column(t, "exobase_temperature", {T_hot, T_hot, 800.0});
+    set_column(t, "heating_efficiency", {missing, 0.15, missing});
+    set_column(t, "semi_major_axis", {constants::au, constants::au, constants::au});
+    set_column(t, "star_mass", {constants::M_sun, constants::M_sun, constants::M_sun});
+    set_column(t, "star_luminosity", {constants::L_sun, constants::L_sun, constants::L_sun});
+    set_column(t, "inventory", {1e40, 1e40, 1e40});
+    set_column(t, "x_H", {1.0, 1.0, 1.0});
+    const std::vector<BatchChunk> chunks = run(t, options(1));
+    const BatchChunk& c = chunks[0];
+    for (std::size_t k = 0; k < 3; ++k)
+        REQUIRE(c.error[k].empty());
+    CHECK(c.bulk_jeans_start[0] == doctest::Approx(1.5).epsilon(1e-12));
+    CHECK(c.hydrodynamic_unmodelled == std::vector<std::int64_t>{1, 0, 0});
+}

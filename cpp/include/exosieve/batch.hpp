@@ -87,7 +87,10 @@ struct CaseSpec {
     std::vector<Species> species; //!< species present (mole fraction > 0), in table order
     std::vector<double> values;   //!< parameter values [SI] by slot (see above); NaN: not given
     DensityScaling scaling = DensityScaling::Inventory; //!< how exobase densities follow N_i
-    std::vector<Uncertainty> uncertainties;             //!< uncertain parameters, in a fixed order
+    //! Binary diffusion parameters of a thermosphere (text column "diffusion_source").
+    DiffusionMethod diffusion = DiffusionMethod::measured_first;
+    bool diffusion_given = false;           //!< the row names a diffusion source
+    std::vector<Uncertainty> uncertainties; //!< uncertain parameters, in a fixed order
     std::string error; //!< non-empty: the case is invalid and is reported, not run
 
     //! Mole fraction at the exobase [1] of species `i` of `species`.
@@ -125,7 +128,8 @@ struct BatchOptions {
 };
 
 //! The parameters of a case, in documentation order. "x_<species>" (mole fraction at the
-//! exobase [1]) and "inventory_<species>" (initial inventory [particles]) are per species.
+//! exobase of a prescribed exobase, the well-mixed homopause fraction of a thermosphere [1]) and
+//! "inventory_<species>" (initial inventory [particles]) are per species.
 const std::vector<CaseParameter>& case_parameters();
 
 //! Largest |sum - 1| of a case's mole fractions "x_<species>" [1]. A row whose fractions sum
@@ -172,7 +176,12 @@ CaseSpec case_from_table(const CaseTable& table, std::size_t row);
 std::vector<std::string> check_table(const CaseTable& table, const BatchOptions& options);
 
 //! The evolution config of a case (parameters as given; no sampling). Throws InputError naming
-//! the parameter for missing or out-of-range values. Exobase densities and shares of a total
+//! the parameter for missing or out-of-range values. The upper atmosphere is either a
+//! PrescribedExobase (exobase_altitude, exobase_density) or, when homopause_altitude or
+//! homopause_density is given, a ThermosphereExobase built as evolve() builds it from a
+//! Thermosphere: x_i the homopause fractions, isothermal or (homopause_temperature,
+//! bates_shape) Bates, diffusion_limited (default 1) and diffusion_source; giving both kinds
+//! is refused. Exobase densities and shares of a total
 //! inventory both use the mole fractions divided by their sum (a sample's drawn fractions are
 //! renormalised this way).
 EvolutionConfig build_config(const CaseSpec& spec, const BatchOptions& options);
@@ -211,7 +220,14 @@ struct BatchChunk {
     std::vector<double> jeans_start;         //!< lambda_i(t_start) [1] [case x species]
     std::vector<double> jeans_end;           //!< lambda_i(t_end) [1] [case x species]
     std::vector<std::int64_t>
-        regime_start;                    //!< Regime of lambda_i(t_start), -1: none [case x species]
+        regime_start; //!< Regime of lambda_i(t_start), -1: none [case x species]
+    //! Jeans parameter of the bulk (well-mixed) gas at the exobase at t_start: the mean
+    //! particle mass of the x_i mixture [1] [case]
+    std::vector<double> bulk_jeans_start;
+    //! 1 where the bulk gas starts at or below the hydrodynamic threshold and the case has no
+    //! energy-limited model (no heating efficiency): its Jeans results do not describe its loss;
+    //! 0 otherwise; -1 where the nominal run did not finish [case]
+    std::vector<std::int64_t> hydrodynamic_unmodelled;
     std::vector<double> sample_retained; //!< N_i(t_end)/N_i(t_start) [1] [case x sample x species]
     std::vector<double> sample_depletion_time; //!< [s] [case x sample x species]
     std::vector<std::int64_t> sample_failed;   //!< 1 where the sample run failed [case x sample]
@@ -236,7 +252,8 @@ struct ChunkVariable {
 //! case_name, error, steps, planet_mass, planet_radius, exobase_radius, escape_speed,
 //! age_start, age_end, exobase_temperature_start, mole_fraction, exobase_temperature,
 //! retained_fraction, jeans_parameter, final_retained_fraction, depletion_time,
-//! efolding_time, jeans_parameter_start, jeans_parameter_end, regime_start, and with samples
+//! efolding_time, jeans_parameter_start, jeans_parameter_end, regime_start,
+//! bulk_jeans_parameter_start, hydrodynamic_unmodelled, and with samples
 //! sample_retained_fraction, sample_depletion_time, sample_failed, sample_error. They point
 //! into `chunk`.
 std::vector<ChunkVariable> chunk_variables(const BatchChunk& chunk);
