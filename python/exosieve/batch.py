@@ -304,7 +304,8 @@ class Comparison:
             (N/Q at the start), ``jeans_parameter_start`` and ``jeans_parameter_end`` [1],
             ``regime_start`` (name), ``hydrodynamic_unmodelled`` (bool: the case's bulk gas
             starts at or below the hydrodynamic threshold and it has no heating efficiency, so
-            its Jeans-based retained fractions do not describe its loss), ``error``; with samples also ``probability_retained``
+            its Jeans-based retained fractions do not describe its loss), ``error``; with
+            samples also ``probability_retained``
             (share of successful samples with more than ``retain`` left) [1],
             ``retained_fraction_p<q>`` [1] and ``samples_ok``. ``frame.attrs["units"]`` gives
             the unit of each numeric column.

@@ -95,7 +95,31 @@ def _sweep(args: argparse.Namespace) -> int:
         print(f"  {row['case']} (row {row['row']}): {text}")
     if len(errors) > 10:
         print(f"  ... and {len(errors) - 10} more (see 'exosieve summary')")
+    _print_hydrodynamic(result)
     return 0
+
+
+def _print_hydrodynamic(result: Any, limit: int = 10) -> None:
+    """Name the cases whose bulk gas starts hydrodynamic without an energy-limited model."""
+    import numpy as np
+
+    flagged = np.nonzero(np.asarray(result["hydrodynamic_unmodelled"]) == 1)[0]
+    if not len(flagged):
+        return
+    names, rows = result["case_name"], result["case"]
+    lam = result["bulk_jeans_parameter_start"]
+    print(
+        f"{len(flagged)} case{'s start' if len(flagged) > 1 else ' starts'} with the bulk gas "
+        "at or below the hydrodynamic threshold of the Jeans parameter and have no "
+        "heating_efficiency: their loss is not Jeans escape and their retained fractions do "
+        "not describe it"
+    )
+    for k in flagged[:limit]:
+        print(
+            f"  {names[k]} (row {rows[k]}): bulk Jeans parameter {float(lam[k]):.3g} at the start"
+        )
+    if len(flagged) > limit:
+        print(f"  ... and {len(flagged) - limit} more (column hydrodynamic_unmodelled)")
 
 
 def _summary(args: argparse.Namespace) -> int:
@@ -121,6 +145,7 @@ def _summary(args: argparse.Namespace) -> int:
             "jeans_parameter_start": "lambda0 [1]",
             "jeans_parameter_end": "lambda1 [1]",
             "regime_start": "regime",
+            "hydrodynamic_unmodelled": "hydro?",
             "probability_retained": "P(kept) [1]",
             "samples_ok": "samples",
         }
@@ -146,6 +171,7 @@ def _summary(args: argparse.Namespace) -> int:
     for _, row in errors.iterrows():
         text = row["error"] or f"{row['samples_failed']} failed samples; {row['sample_error']}"
         print(f"error: {row['case']} (row {row['row']}): {text}")
+    _print_hydrodynamic(result)
     if args.csv:
         print(f"wrote {Path(args.csv).resolve()}")
     return 0
