@@ -593,8 +593,8 @@ TEST_CASE("batch: a block of rows keeps its keys, so a resumed sweep draws the s
 
 namespace {
 
-// `rows` invented planets with a thermosphere above a 100 km homopause: N2, O, He, H
-// well mixed; row 0 isothermal, row 1 Bates, row 2 Bates without diffusion limiting.
+// Three invented planets with a thermosphere above a 100 km homopause, N2, O, He and H well
+// mixed: row 0 isothermal, row 1 Bates, row 2 Bates without diffusion limiting.
 CaseTable thermosphere_table() {
     CaseTable t;
     t.names = {"iso", "bates", "bates jeans only"};
@@ -772,8 +772,8 @@ TEST_CASE("thermosphere rows: refused with the columns named") {
 
 TEST_CASE("batch: bulk gas at or below the hydrodynamic threshold without a heating efficiency is "
           "flagged") {
-    // lambda = G M m / (k T r) of pure H at 2000 K at 1.5 Earth radii of an Earth mass:
-    // about 2.1 * (1.5e3 K / T) ... worked here instead of recalled.
+    // lambda = G M m / (k T r) of pure H at 1.5 Earth radii of an Earth mass, the temperature
+    // worked by hand for lambda = 1.5: below the hydrodynamic threshold 2.1 (Volkov et al. 2011).
     CaseTable t;
     t.names = {"hot hydrogen", "hot hydrogen, energy limited", "cool"};
     const double M = constants::M_earth, R = constants::R_earth;
