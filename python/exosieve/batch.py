@@ -780,8 +780,14 @@ class _FileSink:
                     "same retain and percentiles, then summarise with others "
                     "('exosieve summary --retain ...', Comparison.summarize(retain=...))"
                 )
-            check_ranges(path, rows, int(samples), len(species))
+            # Reopening first repairs a last chunk whose checksum a kill left stale (and
+            # refuses a damaged one); then every variable is read and range-checked.
             self.appender = ResultAppender(path)
+            try:
+                check_ranges(path, rows, int(samples), len(species))
+            except BaseException:
+                self.appender.close()
+                raise
             self.resumed = True
         else:
             # A new file, or one that holds no results (an empty file, or a sweep that stopped
