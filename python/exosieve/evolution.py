@@ -189,6 +189,8 @@ def evolve(
     config.stepper = getattr(_core.StepperKind, stepper)
     if progress_every is not None:
         progress_every = whole_number(progress_every, "progress_every", 1, " [steps]")
+    if progress is not None and not callable(progress):
+        raise ValueError(f"progress must be a callable progress(t) or None, got {progress!r}")
     if sources:
         unknown = [_name(k) for k in sources if _name(k) not in names]
         if unknown:

@@ -8,6 +8,7 @@ value is either used without giving NaN or refused by name.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from typing import Any
 from unittest import mock
@@ -63,6 +64,7 @@ def _evolve(**k: Any) -> Any:
         depletion_fraction=k["depletion_fraction"],
         max_steps=k["max_steps"],
         progress_every=k["progress_every"],
+        progress=k.get("progress"),
     )
 
 
@@ -337,3 +339,66 @@ def test_tiny_values_give_no_nan_or_are_refused_by_name(entry_name):
                 continue
             if isinstance(value, (float, np.ndarray)):
                 assert not np.any(np.isnan(value)), (entry_name, arg, tiny)
+
+
+def test_evolve_refuses_a_progress_that_is_not_callable_before_running(monkeypatch):
+    from exosieve import evolution
+
+    runs: list[Any] = []
+    monkeypatch.setattr(evolution._core, "evolve", lambda *a, **k: runs.append(a))
+    for progress in ("yes", 1, True, [print]):
+        with pytest.raises(ValueError, match="progress must be a callable progress"):
+            _evolve(**{**ENTRIES["evolve"][1], "progress_every": None}, progress=progress)
+    assert runs == []  # refused before any step
+
+
+@pytest.mark.parametrize(
+    ("call", "public", "internal"),
+    [
+        (
+            lambda: exosieve.crossover_mass(H, 1000.0, 1e12, -1.0, 9.8, 0.1),
+            "diffusion_parameter",
+            "b ",
+        ),
+        (
+            lambda: exosieve.coupled_escape_flux(1e10, -1.0, 1e-5, 1e-4, 4e5),
+            "diffusion_parameter",
+            "b ",
+        ),
+        (
+            lambda: exosieve.Thermosphere(
+                (M_EARTH, R_EARTH),
+                -1.0,
+                1e19,
+                {"N2": 1.0},
+                exobase_temperature=1000.0,
+                homopause_temperature=200.0,
+                shape=2e-5,
+            ),
+            "homopause_radius",
+            "base_radius",
+        ),
+        (
+            lambda: exosieve.TabulatedTemperature([math.nan, 1e16], [900.0, 1000.0]),
+            "times must be finite",
+            "times[0]",
+        ),
+        (
+            lambda: _compare(TABLE)(t_start=1e15, t_end=GYR, times=[math.nan, 1e16]),
+            "times must be finite",
+            "times[0]",
+        ),
+    ],
+    ids=[
+        "crossover_mass",
+        "coupled_escape_flux",
+        "Thermosphere",
+        "TabulatedTemperature",
+        "compare",
+    ],
+)
+def test_messages_name_the_argument_the_caller_gave(call, public, internal):
+    with pytest.raises(ValueError) as caught:
+        call()
+    message = str(caught.value)
+    assert public in message and internal not in message, message
