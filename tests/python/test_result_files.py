@@ -354,3 +354,15 @@ def test_a_running_sweep_can_be_read_by_open_comparison_h5py_and_xarray(tmp_path
     final = [int(v) for v in result["steps"]]
     for rows, from_ours, from_h5py in seen:
         assert from_ours == from_h5py == final[:rows]
+
+
+def test_retain_changed_on_resume_is_refused_by_the_command_line(tmp_path, capsys):
+    cases = table(tmp_path)
+    out = tmp_path / "cli.h5"
+    assert main(["sweep", str(cases), "-o", str(out), "--quiet", "--retain", "0.5"]) == 0
+    before = out.read_bytes()
+    assert main(["sweep", str(cases), "-o", str(out), "--quiet", "--retain", "0.9"]) != 0
+    err = capsys.readouterr().err
+    assert "retain=0.9" in err and "cannot change" in err and "Traceback" not in err
+    assert out.read_bytes() == before  # the file is left as it was
+    assert main(["sweep", str(cases), "-o", str(out), "--quiet", "--retain", "0.5"]) == 0
