@@ -108,8 +108,11 @@ void check_flux_arrays(ArrayArg density, ArrayArg temperature, ArrayArg mass, Ar
 // Jeans parameter G M m / (k T r) [1]; in logarithms where a product over- or underflows, so
 // that finite extreme inputs keep a finite parameter.
 double safe_lambda(double T, double m, double M, double r) {
-    const double num = G * M * m, den = k_B * T * r;
-    if (std::isnormal(num) && std::isnormal(den)) {
+    // Every intermediate product must be a normal number: a subnormal one (k T at T ~ 1e-300 K)
+    // has lost digits even when the next product is normal again.
+    const double GM = G * M, kT = k_B * T;
+    const double num = GM * m, den = kT * r;
+    if (std::isnormal(GM) && std::isnormal(kT) && std::isnormal(num) && std::isnormal(den)) {
         const double lambda = num / den;
         if (std::isnormal(lambda))
             return lambda;

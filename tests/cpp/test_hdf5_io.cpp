@@ -558,7 +558,7 @@ TEST_CASE("hdf5_io: every numeric dataset, appendable ones too, carries a Fletch
     H5Fclose(file);
 }
 
-TEST_CASE("hdf5_io: a last chunk torn by a kill is repaired on reopening; damage is refused") {
+TEST_CASE("hdf5_io: a last chunk torn by a kill is repaired on reopening, other damage refused") {
     // An append rewrites the last, partly filled chunk of every numeric case variable (rows 8
     // and 9 of `flux` here share chunk 0 with rows 0-7; `profile` has 4 rows a chunk). A kill
     // during that write leaves new bytes in part of the chunk and the old checksum after it,
@@ -702,7 +702,7 @@ TEST_CASE("hdf5_io: a process killed while appending leaves every completed row 
                       << most_rows << " rows");
 }
 
-TEST_CASE("hdf5_io: only an empty file or an exosieve result is replaced; locks are reported") {
+TEST_CASE("hdf5_io: only an empty file or an exosieve result is replaced, locks are reported") {
     TempDir dir;
     const std::string notes = dir.file("notes.csv");
     std::ofstream(notes) << "case,planet_mass [M_earth]\nA,1\n";

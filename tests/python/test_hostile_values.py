@@ -332,3 +332,19 @@ def test_compare_refuses_bad_output_times_percentiles_and_progress(tmp_path, mon
         with pytest.raises(ValueError, match=message):
             exosieve.compare(path, t_start=1e15, t_end=gyr, **kwargs)
     assert runs == []  # refused before any run
+
+
+def test_jeans_parameter_keeps_its_digits_where_k_t_is_subnormal():
+    # k T = 1.4e-323 J at T = 1e-300 K is subnormal (3 significant digits); lambda itself,
+    # ~ e^685, is an ordinary double. Closed form in logarithms.
+    T, m, M, r = 1.0000000000000002e-300, 1.0, 1.0, 1501199875790166.0
+    log_lam = (
+        math.log(exosieve.constants.G)
+        + math.log(M)
+        + math.log(m)
+        - math.log(exosieve.constants.K_B)
+        - math.log(T)
+        - math.log(r)
+    )
+    lam = exosieve.jeans_parameter(T, m, M, r)
+    assert math.isclose(math.log(lam), log_lam, rel_tol=1e-12, abs_tol=1e-12)
