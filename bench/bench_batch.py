@@ -32,6 +32,11 @@ pressure of 0.1-10 bar; rtol = 1e-6; 16 output ages.
    peer on the model as written (N); the ln N peer shows what the reformulation alone gives.
    Accuracy of each: the largest error of the final N/N0, where a species keeps more than 1e-3,
    against DOP853 on ln(N/N0) at rtol = atol = 1e-12.
+4. File appends (--append, alone): the cost per case of appending blocks of rows to an open
+   sweep file (5 species, 16 output ages; blocks of 1024 cases without samples, of 64 cases,
+   and of 655 cases with 99 samples: compare()'s chunk sizes), wall clock and CPU time (the
+   CPU part excludes the two fsyncs per append, so it shows checksums and hashing), best of
+   --repeat.
 """
 
 from __future__ import annotations
@@ -162,6 +167,49 @@ def engine(frame: pd.DataFrame, threads: int, folder: Path, cores: int | None = 
         sink.close()
 
 
+# ---------------------------------------------------------------- file appends
+
+
+def append_cost(rows: int, samples: int, repeat: int, blocks: int = 20) -> tuple[float, float]:
+    """Best wall-clock and CPU seconds per case of appending `blocks` blocks of `rows` cases
+    to an open sweep file."""
+    from exosieve.batch import _SAMPLE_VARIABLES, _VARIABLES, _create_file
+
+    sizes = {"species": len(SPECIES), "time": 16, "sample": samples}
+    random = np.random.default_rng(1)
+    data = []
+    for k in range(blocks):
+        block: dict[str, object] = {}
+        for name, dtype, dims, *_ in _VARIABLES + (_SAMPLE_VARIABLES if samples else []):
+            shape = (rows, *(sizes[d] for d in dims))
+            if dtype is str:
+                block[name] = [
+                    f"P{k * rows + i}" if name == "case_name" else "" for i in range(rows)
+                ]
+            elif dtype is int:
+                block[name] = np.zeros(shape, dtype=np.int64)
+            else:
+                block[name] = random.random(shape)
+        data.append(block)
+    wall = cpu = float("inf")
+    with tempfile.TemporaryDirectory() as folder:
+        for r in range(repeat):
+            sink = _create_file(
+                Path(folder) / f"append{r}.h5",
+                {"kind": "bench"},
+                list(SPECIES),
+                np.linspace(T_START, T_END, 16),
+                samples,
+            )
+            start, start_cpu = time.perf_counter(), time.process_time()
+            for block in data:
+                sink.append(block)
+            wall = min(wall, time.perf_counter() - start)
+            cpu = min(cpu, time.process_time() - start_cpu)
+            sink.close()
+    return wall / (rows * blocks), cpu / (rows * blocks)
+
+
 # ---------------------------------------------------------------- memory, in a fresh process
 
 
@@ -273,9 +321,18 @@ def main() -> None:
     parser.add_argument("--repeat", type=int, default=3)
     parser.add_argument("--child", type=int, default=None, help=argparse.SUPPRESS)
     parser.add_argument("--in-memory", action="store_true", help=argparse.SUPPRESS)
+    parser.add_argument("--append", action="store_true", help="only the file-append cost")
     args = parser.parse_args()
     if args.child is not None:
         memory_child(args.child, args.in_memory)
+        return
+    if args.append:
+        for rows, samples in ((1024, 0), (64, 0), (655, 99)):
+            wall, cpu = append_cost(rows, samples, max(args.repeat, 5))
+            print(
+                f"append blocks of {rows:4d} cases, {samples:2d} samples: "
+                f"{wall * 1e6:6.1f} us per case, {cpu * 1e6:5.1f} us of it CPU"
+            )
         return
 
     frame = make_cases(args.cases)

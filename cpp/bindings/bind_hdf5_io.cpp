@@ -334,8 +334,9 @@ void bind_hdf5_io(py::module_& m) {
         .def_property_readonly("discarded_rows", &ResultAppender::discarded_rows,
                                "Rows of an interrupted block cut off on reopening [cases]")
         .def_property_readonly("repaired", &ResultAppender::repaired,
-                               "True if reopening had to extend the file's end of allocation "
-                               "(left by a kill during a flush)")
+                               "True if reopening repaired what a kill left: the file's end "
+                               "of allocation, or a last chunk failing its checksum whose "
+                               "finished rows match the hash stored with 'completed'")
         .def_property_readonly("case_variables", &ResultAppender::case_variables,
                                "Names of the case variables ('case' included)")
         .def(

@@ -4,6 +4,7 @@
 #include <hdf5_hl.h>
 
 #include <algorithm>
+#include <array>
 #include <atomic>
 #include <cerrno>
 #include <cstdio>
@@ -45,6 +46,9 @@ namespace fs = std::filesystem;
 
 const char* const case_dim = "case";
 const char* const completed_attr = "completed";
+// [completed, tail hash]: vouches for the committed rows of each case variable's last, partly
+// filled chunk (see ResultAppender::Impl::check_tails).
+const char* const tail_check_attr = "completed_check";
 // Longer text attributes are stored as variable-length strings (in a global heap): an object
 // header message holds at most 64 KiB.
 const std::size_t max_inline_attribute = 32768;
@@ -377,6 +381,24 @@ void write_int_attribute(hid_t object, const std::string& name, std::int64_t val
     check(H5Awrite(attribute.get(), H5T_NATIVE_INT64, &value), what);
 }
 
+void write_int_pair_attribute(hid_t object, const std::string& name,
+                              const std::array<std::int64_t, 2>& values, const std::string& where) {
+    const std::string what = "write attribute " + in_quotes(name) + " of " + where;
+    const htri_t exists = H5Aexists(object, name.c_str());
+    check(exists, what);
+    Handle attribute;
+    if (exists > 0) {
+        attribute = checked(H5Aopen(object, name.c_str(), H5P_DEFAULT), H5Aclose, what);
+    } else {
+        const hsize_t two = 2;
+        Handle space = checked(H5Screate_simple(1, &two, nullptr), H5Sclose, what);
+        attribute = checked(
+            H5Acreate2(object, name.c_str(), H5T_STD_I64LE, space.get(), H5P_DEFAULT, H5P_DEFAULT),
+            H5Aclose, what);
+    }
+    check(H5Awrite(attribute.get(), H5T_NATIVE_INT64, values.data()), what);
+}
+
 void describe(hid_t dataset, const std::string& name, const std::string& units,
               const std::string& long_name) {
     write_string_attribute(dataset, "units", units, "dataset " + in_quotes(name));
@@ -449,9 +471,9 @@ Handle create_dataset(hid_t file, const std::string& name, ValueType type,
     if (appendable)
         maximum[0] = H5S_UNLIMITED;
     if (!shape.empty() && (appendable || product(shape) > 0)) {
-        // Chunks of about 64 KiB, fixed-size numbers with a Fletcher32 checksum, so that damaged
-        // bytes are refused on reading instead of read as values. No compression: rewriting a
-        // partly filled chunk gives a chunk of the same size, which stays where it is.
+        // Chunks of about 64 KiB, numbers with a Fletcher32 checksum, so that damaged bytes are
+        // refused on reading instead of read as values. No compression: rewriting a partly
+        // filled chunk gives a chunk of the same size, which stays where it is.
         std::size_t row_bytes = type == ValueType::string ? 16 : 8;
         std::vector<hsize_t> chunk = shape;
         for (std::size_t i = 1; i < shape.size(); ++i) {
@@ -463,10 +485,10 @@ Handle create_dataset(hid_t file, const std::string& name, ValueType type,
                               : std::clamp<hsize_t>(shape[0], 1, static_cast<hsize_t>(rows));
         check(H5Pset_chunk(dcpl.get(), static_cast<int>(chunk.size()), chunk.data()), what);
         // HDF5 1.10 applies no filter to variable-length data; string references are checked
-        // on reading instead (check_string_heaps).
-        // Appendable datasets carry none: a kill while a chunk that holds committed rows is
-        // rewritten was seen to leave it failing its checksum (their rows are range-checked).
-        if (type != ValueType::string && !appendable)
+        // on reading instead (check_string_heaps). A kill while an appendable dataset's last
+        // chunk is rewritten can leave that chunk failing its checksum with its committed rows
+        // intact: ResultAppender::Impl::check_tails recognises and repairs that case.
+        if (type != ValueType::string)
             check(H5Pset_fletcher32(dcpl.get()), what);
     }
     if (appendable) {
@@ -496,7 +518,7 @@ void write_whole(hid_t dataset, const Payload& payload, const std::string& what)
 // [start, start + rows).
 void write_rows(hid_t dataset, const std::string& name, const std::vector<hsize_t>& trailing,
                 std::size_t start, std::size_t rows, const Payload& payload,
-                const std::string& where) {
+                const std::string& where, hid_t transfer = H5P_DEFAULT) {
     const std::string what = "append to dataset " + in_quotes(name) + " in " + where;
     std::vector<hsize_t> extent{static_cast<hsize_t>(start + rows)};
     extent.insert(extent.end(), trailing.begin(), trailing.end());
@@ -512,8 +534,50 @@ void write_rows(hid_t dataset, const std::string& name, const std::vector<hsize_
         H5Screate_simple(static_cast<int>(count.size()), count.data(), nullptr), H5Sclose, what);
     Handle string_type = utf8_string_type();
     check(H5Dwrite(dataset, memory_type_of(payload.type, string_type), memory_space.get(),
-                   file_space.get(), H5P_DEFAULT, payload.data),
+                   file_space.get(), transfer, payload.data),
           what);
+}
+
+// Reads rows [start, start + rows) of a numeric dataset as raw 8-byte words (float64 and
+// int64 alike) through `transfer`; returns false if HDF5 fails (e.g. a checksum).
+bool read_rows(hid_t dataset, ValueType type, const std::vector<hsize_t>& trailing,
+               std::size_t start, std::size_t rows, std::vector<std::uint64_t>& out,
+               hid_t transfer) {
+    std::vector<hsize_t> offset(trailing.size() + 1, 0), count{static_cast<hsize_t>(rows)};
+    count.insert(count.end(), trailing.begin(), trailing.end());
+    offset[0] = start;
+    out.assign(product(count), 0);
+    if (out.empty())
+        return true;
+    const hid_t file_space = H5Dget_space(dataset);
+    if (file_space < 0)
+        return false;
+    Handle file_handle(file_space, H5Sclose);
+    if (H5Sselect_hyperslab(file_space, H5S_SELECT_SET, offset.data(), nullptr, count.data(),
+                            nullptr) < 0)
+        return false;
+    const hid_t memory_space =
+        H5Screate_simple(static_cast<int>(count.size()), count.data(), nullptr);
+    if (memory_space < 0)
+        return false;
+    Handle memory_handle(memory_space, H5Sclose);
+    return H5Dread(dataset, type == ValueType::float64 ? H5T_NATIVE_DOUBLE : H5T_NATIVE_INT64,
+                   memory_space, file_space, transfer, out.data()) >= 0;
+}
+
+// A transfer list that skips checksum verification (to read a chunk whose checksum a kill
+// left stale, after its rows were vouched for otherwise).
+Handle unverified_transfer(const std::string& what) {
+    Handle dxpl = checked(H5Pcreate(H5P_DATASET_XFER), H5Pclose, what);
+    check(H5Pset_edc_check(dxpl.get(), H5Z_DISABLE_EDC), what);
+    return dxpl;
+}
+
+// Running hash of 8-byte words (FNV-style multiply-xor: each step is a bijection of the state,
+// so any single changed word changes the result).
+constexpr std::uint64_t hash_seed = 0xcbf29ce484222325ULL;
+inline std::uint64_t hash_word(std::uint64_t h, std::uint64_t word) {
+    return (h ^ word) * 0x100000001b3ULL;
 }
 
 // ---------------------------------------------------------------- reading
@@ -707,9 +771,11 @@ struct OpenRead {
     Handle file;
     Handle dataset;
     std::vector<hsize_t> shape;
+    bool shared = false; // this process has the file open already (an appender)
 };
 
-Handle open_file(const std::string& path, unsigned flags) {
+// `shared` (if given) is set when a reader shares a file that this process has open already.
+Handle open_file(const std::string& path, unsigned flags, bool* shared = nullptr) {
     if (path.empty())
         throw InputError("path is empty");
     std::error_code ec;
@@ -724,6 +790,8 @@ Handle open_file(const std::string& path, unsigned flags) {
         const hid_t file = H5Fopen(path.c_str(), flags, unlocked.get());
         if (file >= 0)
             return Handle(file, H5Fclose);
+        if (shared != nullptr)
+            *shared = true;
     }
     Handle fapl = file_access(true);
     return checked(H5Fopen(path.c_str(), flags, fapl.get()), H5Fclose, "open " + in_quotes(path));
@@ -737,7 +805,7 @@ bool link_exists(hid_t file, const std::string& name) {
 
 OpenRead open_dataset(const std::string& path, const std::string& name) {
     OpenRead r;
-    r.file = open_file(path, H5F_ACC_RDONLY);
+    r.file = open_file(path, H5F_ACC_RDONLY, &r.shared);
     if (!link_exists(r.file.get(), name))
         throw InputError("no dataset " + in_quotes(name) + " in " + in_quotes(path));
     const std::string what = "read dataset " + in_quotes(name) + " of " + in_quotes(path);
@@ -769,17 +837,31 @@ template <class T>
 std::vector<T> read_numbers(const std::string& path, const std::string& name, H5T_class_t want,
                             hid_t memory_type, std::vector<std::size_t>* shape) {
     QuietHdf5 quiet;
-    OpenRead r = open_dataset(path, name);
     const std::string what = "read dataset " + in_quotes(name) + " of " + in_quotes(path);
-    if (class_of(r.dataset.get(), what) != want)
-        throw InputError("dataset " + in_quotes(name) + " in " + in_quotes(path) + " is not " +
-                         (want == H5T_FLOAT ? "floating point" : "integer"));
-    std::vector<T> values(product(r.shape));
-    if (!values.empty())
-        check(H5Dread(r.dataset.get(), memory_type, H5S_ALL, H5S_ALL, H5P_DEFAULT, values.data()),
-              what);
-    store_shape(r.shape, shape);
-    return values;
+    // A chunk that fails its checksum while another process holds the file (a sweep appending
+    // to it) may be the block being written: it is read again, from a fresh open, a few times.
+    for (int attempt = 0;; ++attempt) {
+        OpenRead r = open_dataset(path, name);
+        if (class_of(r.dataset.get(), what) != want)
+            throw InputError("dataset " + in_quotes(name) + " in " + in_quotes(path) + " is not " +
+                             (want == H5T_FLOAT ? "floating point" : "integer"));
+        std::vector<T> values(product(r.shape));
+        if (values.empty() || H5Dread(r.dataset.get(), memory_type, H5S_ALL, H5S_ALL, H5P_DEFAULT,
+                                      values.data()) >= 0) {
+            store_shape(r.shape, shape);
+            return values;
+        }
+        const std::string detail = hdf5_detail();
+        if (detail.find("Fletcher32") == std::string::npos)
+            throw FileError("HDF5 could not " + what + ": " + detail);
+        if (r.shared || !file_is_locked(path))
+            throw FileError(in_quotes(path) + " is damaged: dataset " + in_quotes(name) +
+                            " fails its Fletcher32 checksum; it was not read");
+        if (attempt == 4)
+            throw FileError("dataset " + in_quotes(name) + " in " + in_quotes(path) +
+                            " failed its Fletcher32 checksum while another process is writing "
+                            "the file (a block being written); read again");
+    }
 }
 
 // Reads `count` strings of `type` (variable- or fixed-length) through `read`.
@@ -1121,7 +1203,7 @@ void ResultWriter::set_attribute(const std::string& dataset, const std::string& 
     const bool root = dataset.empty() || dataset == "/";
     static const std::set<std::string> reserved = {"CLASS", "NAME", "REFERENCE_LIST",
                                                    "DIMENSION_LIST"};
-    if (reserved.count(name) != 0 || (root && name == completed_attr))
+    if (reserved.count(name) != 0 || (root && (name == completed_attr || name == tail_check_attr)))
         throw InputError("attribute name " + in_quotes(name) + " is reserved for the file layout");
     if (!root && w.datasets.count(dataset) == 0)
         throw InputError("cannot set attribute " + in_quotes(name) + ": no dataset " +
@@ -1235,6 +1317,11 @@ struct ResultAppender::Impl {
         // Open from the first append to close(): reopening a dataset for every block would
         // drop its chunk cache, and the last, partly filled chunk would be read back each time.
         Handle dataset;
+        // Numbers: rows per HDF5 chunk along `case`, and the committed rows of the last, partly
+        // filled chunk (the one the next append rewrites) with the running hash of their words.
+        std::size_t chunk_rows = 1;
+        std::size_t tail_rows = 0;
+        std::uint64_t tail_hash = hash_seed;
     };
     std::string path;
     Handle file;
@@ -1273,6 +1360,7 @@ struct ResultAppender::Impl {
                             std::to_string(done));
         completed = static_cast<std::size_t>(done);
         find_variables();
+        check_tails();
         cut_back();
         void* handle = nullptr;
         Handle fapl =
@@ -1355,6 +1443,106 @@ struct ResultAppender::Impl {
         if (variables.count(case_dim) == 0 || variables[case_dim].type != ValueType::int64)
             throw InputError(in_quotes(path) + " is not an appendable result file ('case' is not "
                                                "an appendable int64 coordinate)");
+    }
+
+    // The hash that `completed_check` records beside `completed`: every numeric case
+    // variable's committed rows in its last, partly filled chunk.
+    // With `next`, the tails it gives replace the current ones.
+    using Tails = std::map<std::string, std::pair<std::size_t, std::uint64_t>>;
+    std::uint64_t combined_hash(const Tails* next = nullptr) const {
+        std::uint64_t h = hash_seed;
+        for (const auto& [name, v] : variables) {
+            if (v.type == ValueType::string)
+                continue;
+            std::pair<std::size_t, std::uint64_t> tail{v.tail_rows, v.tail_hash};
+            if (next != nullptr && next->count(name) != 0)
+                tail = next->at(name);
+            h = hash_word(hash_word(h, tail.second), tail.first);
+        }
+        return h;
+    }
+
+    // Each append rewrites the last, partly filled chunk of every numeric case variable, which
+    // holds committed rows too; a kill during that write can leave the chunk failing its
+    // Fletcher32 checksum although its committed rows are the bytes they were (only the rows
+    // of the interrupted block differ). Such a chunk is read without verification, and
+    // rewritten with a fresh checksum only if its committed rows match the hash recorded with
+    // `completed`; otherwise the file is refused as damaged, naming the dataset.
+    void check_tails() {
+        std::vector<std::string> stale;
+        std::map<std::string, std::vector<std::uint64_t>> unverified;
+        for (auto& [name, v] : variables) {
+            if (v.type == ValueType::string)
+                continue;
+            const std::string what =
+                "read the last chunk of " + in_quotes(name) + " in " + in_quotes(path);
+            Handle dataset =
+                checked(H5Dopen2(file.get(), name.c_str(), H5P_DEFAULT), H5Dclose, what);
+            Handle dcpl = checked(H5Dget_create_plist(dataset.get()), H5Pclose, what);
+            const int rank = static_cast<int>(v.trailing.size() + 1);
+            std::vector<hsize_t> chunk(static_cast<std::size_t>(rank));
+            if (H5Pget_chunk(dcpl.get(), rank, chunk.data()) != rank || chunk[0] == 0)
+                fail(what);
+            v.chunk_rows = static_cast<std::size_t>(chunk[0]);
+            const std::size_t start = completed - completed % v.chunk_rows;
+            v.tail_rows = completed - start;
+            std::vector<std::uint64_t> words;
+            if (!read_rows(dataset.get(), v.type, v.trailing, start, v.tail_rows, words,
+                           H5P_DEFAULT)) {
+                Handle dxpl = unverified_transfer(what);
+                if (!read_rows(dataset.get(), v.type, v.trailing, start, v.tail_rows, words,
+                               dxpl.get()))
+                    fail(what);
+                stale.push_back(name);
+            }
+            v.tail_hash = hash_seed;
+            for (const std::uint64_t w : words)
+                v.tail_hash = hash_word(v.tail_hash, w);
+            if (!stale.empty() && stale.back() == name)
+                unverified[name] = std::move(words);
+        }
+        if (stale.empty())
+            return;
+        std::array<std::int64_t, 2> vouched{-1, 0};
+        if (H5Aexists(file.get(), tail_check_attr) > 0) {
+            Handle attribute =
+                checked(H5Aopen(file.get(), tail_check_attr, H5P_DEFAULT), H5Aclose,
+                        "read attribute " + in_quotes(tail_check_attr) + " of " + in_quotes(path));
+            Handle space = checked(H5Aget_space(attribute.get()), H5Sclose, "read " + path);
+            if (H5Sget_simple_extent_npoints(space.get()) != 2 ||
+                H5Aread(attribute.get(), H5T_NATIVE_INT64, vouched.data()) < 0)
+                vouched = {-1, 0};
+        }
+        if (vouched[0] != static_cast<std::int64_t>(completed) ||
+            static_cast<std::uint64_t>(vouched[1]) != combined_hash())
+            throw FileError(in_quotes(path) + " is damaged: dataset " + in_quotes(stale.front()) +
+                            " fails its Fletcher32 checksum; it was not used");
+        for (const std::string& name : stale) {
+            const Variable& v = variables[name];
+            const std::string what =
+                "rewrite the last chunk of " + in_quotes(name) + " in " + in_quotes(path);
+            Handle dataset =
+                checked(H5Dopen2(file.get(), name.c_str(), H5P_DEFAULT), H5Dclose, what);
+            Handle dxpl = unverified_transfer(what);
+            const std::vector<std::uint64_t>& words = unverified[name];
+            std::vector<hsize_t> offset(v.trailing.size() + 1, 0),
+                count{static_cast<hsize_t>(v.tail_rows)};
+            count.insert(count.end(), v.trailing.begin(), v.trailing.end());
+            offset[0] = completed - v.tail_rows;
+            Handle file_space = checked(H5Dget_space(dataset.get()), H5Sclose, what);
+            check(H5Sselect_hyperslab(file_space.get(), H5S_SELECT_SET, offset.data(), nullptr,
+                                      count.data(), nullptr),
+                  what);
+            Handle memory_space =
+                checked(H5Screate_simple(static_cast<int>(count.size()), count.data(), nullptr),
+                        H5Sclose, what);
+            check(H5Dwrite(dataset.get(),
+                           v.type == ValueType::float64 ? H5T_NATIVE_DOUBLE : H5T_NATIVE_INT64,
+                           memory_space.get(), file_space.get(), dxpl.get(), words.data()),
+                  what);
+            check(dataset.close(), what); // writes the chunk with a fresh checksum
+        }
+        repaired = true;
     }
 
     // Recovery rule: rows past `completed` belong to an interrupted block; drop them.
@@ -1460,11 +1648,48 @@ void ResultAppender::append(const RowBlock& block) {
         write_rows(v.dataset.get(), name, v.trailing, a.completed, rows, payload,
                    in_quotes(a.path));
     }
+    // The committed rows of each last, partly filled chunk once this block is in.
+    Impl::Tails tails;
+    for (const auto& [name, v] : a.variables) {
+        if (v.type == ValueType::string)
+            continue;
+        const auto column = block.columns_.find(name);
+        const void* data = column == block.columns_.end() ? static_cast<const void*>(numbers.data())
+                           : v.type == ValueType::float64
+                               ? static_cast<const void*>(column->second.f.data())
+                               : static_cast<const void*>(column->second.i.data());
+        // Only the rows after the last chunk boundary the block reaches end up in the tail.
+        const std::size_t end = a.completed + rows;
+        const std::size_t boundary = end - end % v.chunk_rows;
+        std::size_t first = 0, tail_rows = v.tail_rows;
+        std::uint64_t hash = v.tail_hash;
+        if (boundary > a.completed) {
+            first = boundary - a.completed;
+            tail_rows = 0;
+            hash = hash_seed;
+        }
+        const unsigned char* bytes = static_cast<const unsigned char*>(data);
+        for (std::size_t k = first * v.row_size; k < rows * v.row_size; ++k) {
+            std::uint64_t word = 0;
+            std::memcpy(&word, bytes + 8 * k, 8);
+            hash = hash_word(hash, word);
+        }
+        tails[name] = {tail_rows + (rows - first), hash};
+    }
     a.durable_flush(); // the rows are on disk ...
+    const std::uint64_t vouch = a.combined_hash(&tails);
     write_int_attribute(a.file.get(), completed_attr, static_cast<std::int64_t>(a.completed + rows),
                         in_quotes(a.path));
+    write_int_pair_attribute(
+        a.file.get(), tail_check_attr,
+        {static_cast<std::int64_t>(a.completed + rows), static_cast<std::int64_t>(vouch)},
+        in_quotes(a.path));
     a.durable_flush(); // ... before the counter that vouches for them
     a.completed += rows;
+    for (const auto& [name, tail] : tails) {
+        a.variables[name].tail_rows = tail.first;
+        a.variables[name].tail_hash = tail.second;
+    }
 }
 
 std::size_t ResultAppender::completed() const {

@@ -1,6 +1,7 @@
 #include "exosieve/maxwell.hpp"
 
 #include <cmath>
+#include <limits>
 
 #include <boost/math/special_functions/gamma.hpp>
 
@@ -16,6 +17,31 @@ constexpr double sqrt_pi = 1.7724538509055160273;
 
 inline double v0_of(double temperature, double mass) {
     return std::sqrt(2.0 * constants::k_B * temperature / mass);
+}
+
+// x = v / v0, in logarithms where 2 k T / m under- or overflows (extreme temperatures and
+// masses), so that a finite closed form never comes out NaN.
+inline double speed_ratio(double speed, double temperature, double mass) {
+    const double v0 = v0_of(temperature, mass);
+    if (v0 > 0.0 && std::isfinite(v0))
+        return speed / v0;
+    if (speed == 0.0)
+        return 0.0;
+    return std::exp(std::log(speed) - 0.5 * (std::log(2.0 * constants::k_B) +
+                                             std::log(temperature) - std::log(mass)));
+}
+
+// 4/sqrt(pi) x^2 / v0 exp(-x^2) = 4/sqrt(pi) x^3 exp(-x^2) / v; 0 where exp(-x^2) underflows.
+inline double pdf_of(double speed, double temperature, double mass) {
+    const double v0 = v0_of(temperature, mass);
+    if (v0 > 0.0 && std::isfinite(v0)) {
+        const double x = speed / v0;
+        return x > 28.0 ? 0.0 : 2.0 * two_over_sqrt_pi * x * x / v0 * std::exp(-x * x);
+    }
+    if (speed == 0.0)
+        return 0.0;
+    const double x = speed_ratio(speed, temperature, mass);
+    return x > 28.0 ? 0.0 : 2.0 * two_over_sqrt_pi * x * x * x * std::exp(-x * x) / speed;
 }
 
 void check_tm(double temperature, double mass) {
@@ -47,10 +73,14 @@ template <class F> void fill(std::size_t count, double* out, F f) {
 double tail_fraction(double x) {
     if (x <= 0.0)
         return 1.0;
+    if (x >= 28.0) // both terms underflow to 0 (and x exp(-x^2) would be NaN at x = inf)
+        return 0.0;
     return std::erfc(x) + two_over_sqrt_pi * x * std::exp(-x * x);
 }
 
 double log_tail_fraction(double x) {
+    if (std::isinf(x))
+        return -std::numeric_limits<double>::infinity();
     if (x < 25.0)
         return std::log(tail_fraction(x));
     return -x * x + std::log(scaled_erfc_asymptotic(x) + two_over_sqrt_pi * x);
@@ -71,19 +101,20 @@ double rms_speed(double temperature, double mass) {
 
 double speed_pdf(double speed, double temperature, double mass) {
     require_non_negative("speed", speed);
-    const double v0 = most_probable_speed(temperature, mass);
-    const double x = speed / v0;
-    return 2.0 * two_over_sqrt_pi * x * x / v0 * std::exp(-x * x);
+    check_tm(temperature, mass);
+    return pdf_of(speed, temperature, mass);
 }
 
 double fraction_faster(double speed, double temperature, double mass) {
     require_non_negative("speed", speed);
-    return tail_fraction(speed / most_probable_speed(temperature, mass));
+    check_tm(temperature, mass);
+    return tail_fraction(speed_ratio(speed, temperature, mass));
 }
 
 double log_fraction_faster(double speed, double temperature, double mass) {
     require_non_negative("speed", speed);
-    return log_tail_fraction(speed / most_probable_speed(temperature, mass));
+    check_tm(temperature, mass);
+    return log_tail_fraction(speed_ratio(speed, temperature, mass));
 }
 
 void most_probable_speed(ArrayArg temperature, ArrayArg mass, double* out, std::size_t count) {
@@ -117,25 +148,22 @@ void check_speed_args(ArrayArg speed, ArrayArg temperature, ArrayArg mass, std::
 void speed_pdf(ArrayArg speed, ArrayArg temperature, ArrayArg mass, double* out,
                std::size_t count) {
     check_speed_args(speed, temperature, mass, count);
-    fill(count, out, [&](std::size_t i) {
-        const double v0 = v0_of(temperature[i], mass[i]);
-        const double x = speed[i] / v0;
-        return 2.0 * two_over_sqrt_pi * x * x / v0 * std::exp(-x * x);
-    });
+    fill(count, out, [&](std::size_t i) { return pdf_of(speed[i], temperature[i], mass[i]); });
 }
 
 void fraction_faster(ArrayArg speed, ArrayArg temperature, ArrayArg mass, double* out,
                      std::size_t count) {
     check_speed_args(speed, temperature, mass, count);
-    fill(count, out,
-         [&](std::size_t i) { return tail_fraction(speed[i] / v0_of(temperature[i], mass[i])); });
+    fill(count, out, [&](std::size_t i) {
+        return tail_fraction(speed_ratio(speed[i], temperature[i], mass[i]));
+    });
 }
 
 void log_fraction_faster(ArrayArg speed, ArrayArg temperature, ArrayArg mass, double* out,
                          std::size_t count) {
     check_speed_args(speed, temperature, mass, count);
     fill(count, out, [&](std::size_t i) {
-        return log_tail_fraction(speed[i] / v0_of(temperature[i], mass[i]));
+        return log_tail_fraction(speed_ratio(speed[i], temperature[i], mass[i]));
     });
 }
 

@@ -87,6 +87,34 @@ def to_si(value: Any, name: str, unit: str, *, species_names: bool = False) -> N
         ) from err
 
 
+def real_number(value: Any, name: str, unit: str) -> float:
+    """``value`` as one finite float in SI ``unit``; a ValueError naming ``name`` otherwise."""
+    array = to_si(value, name, unit)
+    if array.size != 1:
+        raise ValueError(f"{name} must be a single number, got an array of shape {array.shape}")
+    number = float(array.reshape(()))
+    if not np.isfinite(number):
+        raise ValueError(f"{name} must be finite [{unit}], got {number!r}")
+    return number
+
+
+def whole_number(value: Any, name: str, minimum: int, what: str = "") -> int:
+    """``value`` as an int >= ``minimum`` (and within int64); a ValueError naming ``name``
+    and the value otherwise. ``what`` is the unit shown, e.g. " [cases]"."""
+    need = f"{name} must be a whole number >= {minimum}{what}"
+    if isinstance(value, (bool, np.bool_)):
+        raise ValueError(f"{need}, got a bool ({value!r})")
+    if isinstance(value, (complex, np.complexfloating)):
+        raise ValueError(f"{need}, got a complex value ({value!r})")
+    if not isinstance(value, (int, np.integer)):
+        raise ValueError(f"{need}, got {_describe(value)}")
+    if value < minimum:
+        raise ValueError(f"{need}, got {value!r}")
+    if value > np.iinfo(np.int64).max:
+        raise ValueError(f"{need}, got {_describe(value)} (beyond the range of int64)")
+    return int(value)
+
+
 def flat_for_kernel(array: NDArray[np.float64], shape: tuple[int, ...]) -> NDArray[np.float64]:
     """A contiguous 1-D view (or a length-1 array) that the C++ kernel can broadcast."""
     if array.size == 1:

@@ -55,7 +55,7 @@ from numpy.typing import NDArray
 
 from . import _core
 from . import constants as c
-from ._arrays import to_si
+from ._arrays import real_number, to_si, whole_number
 from .catalogue import UNITS, CaseTable, given_units, load_cases
 from .model import REGIMES
 
@@ -313,9 +313,7 @@ class Comparison:
         import pandas as pd
 
         summary = self.config.get("summary", {})
-        retain = float(summary.get("retain", 0.5) if retain is None else retain)
-        if not 0.0 <= retain < 1.0:
-            raise ValueError(f"retain must be in [0, 1), got {retain}")
+        retain = _retain(summary.get("retain", 0.5) if retain is None else retain)
         q = list(summary.get("percentiles", [5, 50, 95]) if percentiles is None else percentiles)
         for value in q:
             if not 0.0 <= float(value) <= 100.0:
@@ -405,6 +403,14 @@ def _nanpercentile_rows(
     if rows.any():
         out[rows] = np.nanpercentile(values[rows], q, axis=1)
     return out
+
+
+def _retain(value: Any) -> float:
+    """The ``retain`` threshold, a number in [0, 1) (ValueError naming it otherwise)."""
+    retain = real_number(value, "retain", "1")
+    if not 0.0 <= retain < 1.0:
+        raise ValueError(f"retain must be in [0, 1), got {retain}")
+    return retain
 
 
 def open_comparison(path: str | os.PathLike[str]) -> Comparison:
@@ -801,8 +807,14 @@ class _FileSink:
                     "same retain and percentiles, then summarise with others "
                     "('exosieve summary --retain ...', Comparison.summarize(retain=...))"
                 )
-            check_ranges(path, rows, int(samples), len(species))
+            # Reopening first repairs a last chunk whose checksum a kill left stale (and
+            # refuses a damaged one); then every variable is read and range-checked.
             self.appender = ResultAppender(path)
+            try:
+                check_ranges(path, rows, int(samples), len(species))
+            except BaseException:
+                self.appender.close()
+                raise
             self.resumed = True
         else:
             # A new file, or one that holds no results (an empty file, or a sweep that stopped
@@ -928,23 +940,20 @@ def compare(
     """
     if bad_rows not in ("raise", "report"):
         raise ValueError(f"bad_rows must be 'raise' or 'report', got {bad_rows!r}")
-    for name, value in (("samples", samples), ("seed", seed), ("max_steps", max_steps)):
-        if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 0:
-            raise ValueError(f"{name} must be a whole number >= 0, got {value!r}")
-    if not 0.0 <= float(retain) < 1.0:
-        raise ValueError(f"retain must be in [0, 1), got {retain}")
-    if threads is not None and (not isinstance(threads, (int, np.integer)) or threads < 1):
-        raise ValueError(f"threads must be a whole number >= 1, got {threads!r}")
-    if chunk_size is not None and (not isinstance(chunk_size, (int, np.integer)) or chunk_size < 1):
-        raise ValueError(f"chunk_size must be a whole number >= 1 [cases], got {chunk_size!r}")
-    if progress_every is not None and (
-        isinstance(progress_every, bool)
-        or not isinstance(progress_every, (int, np.integer))
-        or progress_every < 1
-    ):
-        raise ValueError(
-            f"progress_every must be a whole number >= 1 [chunks], got {progress_every!r}"
-        )
+    samples = whole_number(samples, "samples", 0)
+    seed = whole_number(seed, "seed", 0)
+    max_steps = whole_number(max_steps, "max_steps", 0)
+    retain = _retain(retain)
+    t_start = real_number(t_start, "t_start", "s")
+    t_end = real_number(t_end, "t_end", "s")
+    rtol = real_number(rtol, "rtol", "1")
+    depletion_fraction = real_number(depletion_fraction, "depletion_fraction", "1")
+    if threads is not None:
+        threads = whole_number(threads, "threads", 1)
+    if chunk_size is not None:
+        chunk_size = whole_number(chunk_size, "chunk_size", 1, " [cases]")
+    if progress_every is not None:
+        progress_every = whole_number(progress_every, "progress_every", 1, " [chunks]")
     every = int(progress_every or 0)
     if not isinstance(progress, bool) and not callable(progress):
         raise ValueError(

@@ -124,9 +124,12 @@ def _print_hydrodynamic(result: Any, limit: int = 10) -> None:
 
 def _summary(args: argparse.Namespace) -> int:
     from . import constants as c
-    from .batch import open_comparison
+    from .batch import check_ranges, open_comparison
 
     result = open_comparison(args.result)
+    # Every stored variable is read (checksums) and range-checked, not only those summarised,
+    # so that a damaged file is refused rather than summarised in part.
+    check_ranges(Path(args.result), len(result), result.samples, len(result.species))
     frame = result.summarize(retain=args.retain, percentiles=args.percentiles)
     if args.species:
         frame = frame[frame["species"].isin(args.species) | (frame["species"] == "")]

@@ -12,10 +12,10 @@ inventories far below 1e-308 of their start stay representable.
 from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
-from numbers import Integral
 from typing import Any
 
 from . import _core
+from ._arrays import real_number, whole_number
 from .model import (
     EnergyLimitedEscape,
     Planet,
@@ -169,7 +169,7 @@ def evolve(
         if times.size == 0:
             raise ValueError("t_eval must hold at least one time")
         config.t_eval = times
-    config.rtol = _scalar(rtol, "rtol", "1")
+    config.rtol = real_number(rtol, "rtol", "1")
     if atol is not None:
         if isinstance(atol, Mapping):
             unknown = [k for k in atol if k not in names]
@@ -180,21 +180,17 @@ def evolve(
             config.atol = [_scalar(atol[n], f"atol of {n}", "1") for n in names]
         else:
             config.atol = [_scalar(atol, "atol", "1")] * len(names)
-    config.depletion_fraction = _scalar(depletion_fraction, "depletion_fraction", "1")
-    if int(max_steps) != max_steps or max_steps <= 0:
-        raise ValueError(f"max_steps must be a positive integer, got {max_steps!r}")
-    config.max_steps = int(max_steps)
+    config.depletion_fraction = real_number(depletion_fraction, "depletion_fraction", "1")
+    if isinstance(max_steps, float) and float(max_steps).is_integer():
+        max_steps = int(max_steps)  # e.g. 1e5
+    config.max_steps = whole_number(max_steps, "max_steps", 1)
     if stepper not in ("auto", "dopri5", "rosenbrock4"):
         raise ValueError(f"stepper must be 'auto', 'dopri5' or 'rosenbrock4', got {stepper!r}")
     config.stepper = getattr(_core.StepperKind, stepper)
-    if progress_every is not None and (
-        isinstance(progress_every, bool)
-        or not isinstance(progress_every, Integral)
-        or progress_every < 1
-    ):
-        raise ValueError(
-            f"progress_every must be a whole number >= 1 [steps], got {progress_every!r}"
-        )
+    if progress_every is not None:
+        progress_every = whole_number(progress_every, "progress_every", 1, " [steps]")
+    if progress is not None and not callable(progress):
+        raise ValueError(f"progress must be a callable progress(t) or None, got {progress!r}")
     if sources:
         unknown = [_name(k) for k in sources if _name(k) not in names]
         if unknown:

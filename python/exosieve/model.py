@@ -409,11 +409,17 @@ class PrescribedExobase:
             raise ValueError(
                 f"densities must be a non-empty mapping of species to m^-3, got {densities!r}"
             )
-        self.radius = _scalar(radius, "exobase radius", "m")
+        self.radius = _finite(radius, "exobase radius", "m")
+        if not self.radius > 0.0:
+            raise ValueError(f"exobase radius must be > 0 [m], got {self.radius!r}")
         self.temperature = temperature
-        self.densities = {
-            _name(k): _scalar(v, f"density of {_name(k)}", "m-3") for k, v in densities.items()
-        }
+        self.densities = {}
+        for key, value in densities.items():
+            label = f"density of {_name(key)}"
+            density = _finite(value, label, "m-3")
+            if density < 0.0:
+                raise ValueError(f"{label} must be >= 0 [m-3], got {density!r}")
+            self.densities[_name(key)] = density
         self.scaling = scaling
         self._history = temperature_history(temperature)
 
@@ -599,7 +605,11 @@ def RegimeThresholds(
     >>> RegimeThresholds().transition
     3.0
     """
-    return _core.RegimeThresholds(enhanced, transition, hydrodynamic)
+    return _core.RegimeThresholds(
+        _finite(enhanced, "enhanced", "1"),
+        _finite(transition, "transition", "1"),
+        _finite(hydrodynamic, "hydrodynamic", "1"),
+    )
 
 
 def classify_regime(jeans_parameter: Any, thresholds: Any = None) -> Any:

@@ -63,9 +63,19 @@ def register_species(
     >>> register_species("Xx", 7.0 * AMU).mass_u
     7.0
     """
-    s = Species(
-        name, mass, lj_diameter, lj_well_depth, cross_section, thermal_diffusion_factor, source
-    )
+    from ._arrays import real_number
+
+    numbers = [
+        real_number(value, label, unit)
+        for value, label, unit in (
+            (mass, "mass", "kg"),
+            (lj_diameter, "lj_diameter", "m"),
+            (lj_well_depth, "lj_well_depth", "K"),
+            (cross_section, "cross_section", "m2"),
+            (thermal_diffusion_factor, "thermal_diffusion_factor", "1"),
+        )
+    ]
+    s = Species(name, *numbers, source)
     _core.register_species(s)
     return s
 

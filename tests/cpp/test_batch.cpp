@@ -212,7 +212,7 @@ TEST_CASE("cases carry values by slot: species values follow the species present
     CHECK(c.initial_inventory[0] == doctest::Approx(1e37 * 0.95).epsilon(1e-15));
 }
 
-TEST_CASE("case tables: mole fractions must sum to one; samples are renormalised") {
+TEST_CASE("case tables: mole fractions must sum to one, samples are renormalised") {
     CaseTable t = earthlike(4);
     t.row_labels = {"line 5", "line 6", "line 7", "line 8"};
     // Row 2 sums to 0.95 (a species forgotten); row 3 to 1 + 5e-4, inside the tolerance;

@@ -13,6 +13,7 @@
 #include "exosieve/errors.hpp"
 #include "exosieve/evolution.hpp"
 #include "exosieve/exobase_model.hpp"
+#include "exosieve/maxwell.hpp"
 #include "exosieve/species.hpp"
 #include "exosieve/thermosphere.hpp"
 
@@ -120,4 +121,111 @@ TEST_CASE("the exobase of extreme planets is found or refused, never read out of
             }
         }
     }
+}
+
+TEST_CASE("exobase() at extreme temperatures, masses, densities and homopause heights") {
+    // The exobase scan evaluates the column integral (Thermosphere::column) at every radius it
+    // tries; where a scale height over- or underflows the scan once stepped to a NaN radius,
+    // and the column's node search then read past the end of its node table. Each case must
+    // find an exobase with finite values or report why not (or refuse the input), and stay
+    // inside its buffers (checked by the ASan + UBSan run).
+    Species light = species("H"), heavy = species("N2");
+    std::size_t tried = 0, found = 0, not_found = 0, scanned = 0, refused = 0;
+    for (const double mass_factor : {1e-30, 1.0, 1e30}) {
+        Species a = light, b = heavy;
+        a.mass *= mass_factor;
+        b.mass *= mass_factor;
+        const std::vector<Species> gas{b, a};
+        for (const double temperature : {1e-300, 1e-20, 3.0, 1e3, 1e20, 1e300}) {
+            for (const double planet_mass : {1e-300, 1e-20, 6e24, 1e300}) {
+                for (const double density : {1e-300, 1e10, 1e300}) {
+                    for (const double radius : {1e-200, 6.4e6, 1e200}) {
+                        for (const double lift : {1.0, 1.0 + 1e-15, 1e6}) {
+                            const double homopause = radius * lift;
+                            // Here the scan runs up to its million steps (~0.1 s each
+                            // case): only the Earth-mass planet at the surface is kept.
+                            if ((temperature < 1e-200 || density > 1e200) &&
+                                !(mass_factor == 1.0 && planet_mass == 6e24 && lift == 1.0))
+                                continue;
+                            for (int kind = 0; kind < 3; ++kind) {
+                                CAPTURE(mass_factor);
+                                CAPTURE(temperature);
+                                CAPTURE(planet_mass);
+                                CAPTURE(density);
+                                CAPTURE(radius);
+                                CAPTURE(lift);
+                                CAPTURE(kind);
+                                ++tried;
+                                try {
+                                    const TemperatureProfile profile =
+                                        kind == 0 ? TemperatureProfile::isothermal(temperature)
+                                        : kind == 1
+                                            ? TemperatureProfile::bates(
+                                                  temperature, 0.5 * temperature,
+                                                  1.0 / (0.01 * homopause), homopause)
+                                            : TemperatureProfile::table(
+                                                  {homopause, 1.5 * homopause, 3.0 * homopause},
+                                                  {0.2 * temperature, temperature, temperature});
+                                    const Thermosphere t(planet_mass, radius, homopause, density,
+                                                         gas, {0.9, 0.1}, profile);
+                                    const Exobase& e = t.exobase();
+                                    if (e.found()) {
+                                        ++found;
+                                        CHECK(std::isfinite(e.radius));
+                                        CHECK(e.radius >= homopause);
+                                        CHECK(e.radius <= t.outer_radius());
+                                        CHECK(std::isfinite(e.temperature));
+                                        CHECK(e.temperature > 0.0);
+                                        REQUIRE(e.densities.size() == 2);
+                                        for (double n : e.densities)
+                                            CHECK((std::isfinite(n) && n >= 0.0));
+                                    } else {
+                                        ++not_found;
+                                        scanned +=
+                                            e.status == ExobaseStatus::none_below_outer_radius;
+                                        CHECK_FALSE(e.message.empty());
+                                        CHECK(std::isnan(e.radius));
+                                    }
+                                } catch (const InputError&) {
+                                    ++refused;
+                                } catch (const NumericalError&) {
+                                    ++refused;
+                                }
+                            }
+                        }
+                    }
+                }
+            }
+        }
+    }
+    MESSAGE("extreme thermospheres: " << tried << " tried, " << found << " exobases found, "
+                                      << not_found << " reported as not found (" << scanned
+                                      << " after scanning to the outer radius), " << refused
+                                      << " refused");
+    CHECK(found > 0);
+    CHECK(scanned > 0);
+    CHECK(found + not_found + refused == tried);
+}
+
+TEST_CASE("Maxwell tail and pdf where 2 k T / m under- or overflows give no NaN") {
+    // v0 = sqrt(2 k T / m) underflows to 0 at T = 5e-324 K: x = v / v0 is then taken in
+    // logarithms; the fraction faster and the pdf underflow to 0, the log fraction to -inf
+    // (its closed form, -x^2 with x ~ 4e162, is beyond the double range).
+    const double m = species("H").mass;
+    for (const double T : {5e-324, 1e-310, 1e-300}) {
+        CAPTURE(T);
+        CHECK(fraction_faster(1e3, T, m) == 0.0);
+        CHECK(speed_pdf(1e3, T, m) == 0.0);
+        CHECK(speed_pdf(0.0, T, m) == 0.0);
+        CHECK_FALSE(std::isnan(log_fraction_faster(1e3, T, m)));
+        CHECK(log_fraction_faster(1e3, T, m) < -1e300);
+        CHECK(fraction_faster(0.0, T, m) == 1.0);
+    }
+    // A speed so high that x^2 overflows at an ordinary temperature.
+    CHECK(speed_pdf(1e300, 1000.0, m) == 0.0);
+    CHECK(fraction_faster(1e300, 1000.0, m) == 0.0);
+    CHECK(log_fraction_faster(1e300, 1000.0, m) == -pinf);
+    // Huge temperatures: v0 overflows, x is tiny and the tail is all the gas.
+    CHECK(fraction_faster(1e3, 1e300, 1e-300) == 1.0);
+    CHECK(std::isfinite(speed_pdf(1e3, 1e300, 1e-300)));
 }

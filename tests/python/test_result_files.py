@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import fcntl
 import json
 import os
 import shutil
@@ -16,7 +17,14 @@ import pytest
 import exosieve
 from exosieve.batch import compare, open_comparison
 from exosieve.cli import main
-from exosieve.results import FileError, ResultAppender, ResultWriter, file_is_locked, read_strings
+from exosieve.results import (
+    FileError,
+    ResultAppender,
+    ResultWriter,
+    file_is_locked,
+    read_doubles,
+    read_strings,
+)
 
 HEADER = (
     "case,planet_mass [M_earth],planet_radius [R_earth],exobase_altitude [km],"
@@ -136,10 +144,14 @@ def flipped(path: Path, offset: int, to: Path) -> Path:
     return to
 
 
-def test_every_fixed_numeric_dataset_carries_a_fletcher32_checksum(tmp_path):
+def test_every_numeric_dataset_appendable_ones_too_carries_a_fletcher32_checksum(tmp_path):
     out = sweep(tmp_path)
     with h5py.File(out, "r") as f:
         for name in ("time", "sample"):
+            assert f[name].fletcher32 and f[name].chunks, name
+        numeric = [name for name, d in f.items() if d.dtype.kind in "fi" and d.ndim > 0]
+        assert {"case", "steps", "retained_fraction", "sample_failed"} <= set(numeric)
+        for name in numeric:
             assert f[name].fletcher32 and f[name].chunks, name
 
 
@@ -156,6 +168,97 @@ def test_a_flipped_byte_in_numbers_is_refused_naming_the_dataset(tmp_path, name,
     # Resuming refuses the file too, rather than appending to altered values.
     with pytest.raises(FileError, match=f"'{name}'"):
         compare(table(tmp_path), output=bad, threads=1, samples=3)
+
+
+@pytest.mark.parametrize(
+    "name", ["case", "steps", "planet_mass", "retained_fraction", "sample_failed", "regime_start"]
+)
+def test_a_flipped_byte_in_an_appended_chunk_is_refused_by_every_reader(tmp_path, capsys, name):
+    # A low-order byte of the first row: a value still in range, so only the checksum can tell.
+    out = sweep(tmp_path)
+    offset, _ = chunk_offset(out, name)
+    bad = flipped(out, offset + 1, tmp_path / "bad.h5")
+    message = f"dataset '{name}' fails its Fletcher32 checksum"
+    with pytest.raises(FileError, match=message):
+        assert open_comparison(bad)[name] is None
+    assert main(["summary", str(bad)]) != 0
+    err = capsys.readouterr().err
+    assert message in err and "Traceback" not in err
+    with pytest.raises(FileError, match=message):  # resuming appends to no altered value
+        compare(table(tmp_path), output=bad, threads=1, samples=3)
+    with h5py.File(bad, "r") as f, pytest.raises(OSError):
+        assert f[name][...] is None  # h5py refuses the chunk too
+
+
+def _schema_with_full_chunks(out: Path) -> ResultAppender:
+    # Rows of 32 KiB: two rows a chunk, so five rows fill chunks 0 and 1.
+    writer = ResultWriter(out, {"kind": "test"})
+    writer.add_coordinate("level", np.arange(4096.0), units="1", long_name="level")
+    writer.add_case_variable("x", float, ["level"], units="1", long_name="x")
+    appender = ResultAppender(writer)
+    appender.append({"x": np.arange(5 * 4096.0).reshape(5, 4096)})
+    return appender
+
+
+def test_a_checksum_failure_while_another_process_writes_the_file_says_read_again(tmp_path):
+    out = tmp_path / "x.h5"
+    _schema_with_full_chunks(out).close()
+    offset, _ = chunk_offset(out, "x")  # chunk 0: full, not rewritten by later appends
+    bad = flipped(out, offset + 9, tmp_path / "bad.h5")
+    with pytest.raises(FileError, match="is damaged: dataset 'x' fails its Fletcher32 checksum"):
+        read_doubles(bad, "x")
+    # Another process appending (here: holding the lock as HDF5's writers do): the damaged
+    # chunk may be a block being written, so the reader says to read again.
+    with open(bad, "rb") as holder:
+        fcntl.flock(holder, fcntl.LOCK_EX)
+        with pytest.raises(
+            FileError, match="while another process is writing the file.*read again"
+        ):
+            read_doubles(bad, "x")
+    # This process's own appender holds the file: no other writer, so it is damage.
+    appender = ResultAppender(bad)
+    try:
+        with pytest.raises(FileError, match="is damaged: dataset 'x'"):
+            read_doubles(bad, "x")
+    finally:
+        appender.close()
+
+
+def test_a_last_chunk_torn_by_a_kill_is_repaired_when_the_sweep_resumes(tmp_path):
+    # A kill while an append rewrites the last, partly filled chunks (which hold committed rows
+    # too) leaves the new bytes written and the old checksums: built here from the file after
+    # its first chunk of 4 cases and the finished file, whose chunk 0 was rewritten in place.
+    cases = table(tmp_path)
+    out = tmp_path / "run.h5"
+    first = tmp_path / "first.h5"
+
+    def progress(done: int, total: int) -> None:
+        if done == 4:
+            shutil.copy(out, first)
+
+    full = compare(
+        cases, output=out, threads=1, samples=3, chunk_size=4, progress=progress, progress_every=1
+    )
+    with h5py.File(first, "r") as f:
+        assert int(f.attrs["completed"]) == 4
+        names = [name for name, d in f.items() if d.dtype.kind in "fi" and d.ndim > 0]
+    old, new = bytearray(first.read_bytes()), out.read_bytes()
+    torn = 0
+    for name in names:
+        offset, size = chunk_offset(first, name)
+        if name in ("time", "sample"):
+            continue
+        assert chunk_offset(out, name) == (offset, size), name
+        old[offset : offset + size - 4] = new[offset : offset + size - 4]
+        torn += 1
+    damaged = tmp_path / "torn.h5"
+    damaged.write_bytes(bytes(old))
+    with pytest.raises(FileError, match="fails its Fletcher32 checksum"):
+        assert open_comparison(damaged)["steps"] is None
+    resumed = compare(cases, output=damaged, threads=1, samples=3, chunk_size=4)
+    assert torn > 20 and resumed.resumed_from == 4 and len(resumed) == 6
+    for name in ("steps", "retained_fraction", "sample_retained_fraction", "case_name"):
+        np.testing.assert_array_equal(resumed[name], full[name])
 
 
 def test_values_outside_their_range_are_refused_on_open_and_on_resume(tmp_path):
@@ -251,3 +354,15 @@ def test_a_running_sweep_can_be_read_by_open_comparison_h5py_and_xarray(tmp_path
     final = [int(v) for v in result["steps"]]
     for rows, from_ours, from_h5py in seen:
         assert from_ours == from_h5py == final[:rows]
+
+
+def test_retain_changed_on_resume_is_refused_by_the_command_line(tmp_path, capsys):
+    cases = table(tmp_path)
+    out = tmp_path / "cli.h5"
+    assert main(["sweep", str(cases), "-o", str(out), "--quiet", "--retain", "0.5"]) == 0
+    before = out.read_bytes()
+    assert main(["sweep", str(cases), "-o", str(out), "--quiet", "--retain", "0.9"]) != 0
+    err = capsys.readouterr().err
+    assert "retain=0.9" in err and "cannot change" in err and "Traceback" not in err
+    assert out.read_bytes() == before  # the file is left as it was
+    assert main(["sweep", str(cases), "-o", str(out), "--quiet", "--retain", "0.5"]) == 0

@@ -34,8 +34,14 @@
 //! An appender holds HDF5's file lock; the readers here open without it, so they read a file
 //! that a sweep is appending to (only its first `completed` rows; a read during an append may
 //! fail and can be repeated) and never block an appender. h5py needs `locking=False` for that.
-//! Fixed-size numbers are stored with Fletcher32 checksums; variable-length strings have their heap
-//! references checked before they are read; text attributes are fixed-length (no heap).
+//! Numbers, appended rows too, are stored with Fletcher32 checksums; variable-length strings have
+//! their heap references checked before they are read; text attributes are fixed-length (no
+//! heap). Each append also records `completed_check` = [completed, hash of the committed rows in
+//! the last, partly filled chunk of every numeric case variable]: a kill while such a chunk is
+//! rewritten leaves it failing its checksum, and reopening rewrites it with a fresh checksum
+//! when its committed rows match that hash, and refuses the file (naming the dataset) otherwise.
+//! A reader whose chunk fails its checksum while another process holds the file lock reads it
+//! again a few times, then throws FileError saying "read again".
 //! ResultWriter replaces only an empty file or an exosieve result that no process has locked.
 //! HDF5 1.10 has no crash-consistent metadata updates outside SWMR mode: a kill in the middle
 //! of a flush can in principle damage the file's metadata; a flush per block keeps that window
@@ -195,8 +201,9 @@ class ResultAppender {
     std::size_t completed() const;
     //! Rows of an interrupted block that reopening cut off (0 for a new file) [cases].
     std::size_t discarded_rows() const;
-    //! True if reopening found the file longer than its recorded end of allocation (left by a
-    //! kill during a flush) and extended the allocation to keep what was written.
+    //! True if reopening repaired what a kill left: a file longer than its recorded end of
+    //! allocation (the allocation is extended to keep what was written), or a last chunk that
+    //! fails its checksum while its committed rows match `completed_check` (rewritten).
     bool repaired() const;
     //! Trailing shape (without `case`) of a case variable; InputError if unknown.
     std::vector<std::size_t> row_shape(const std::string& name) const;
