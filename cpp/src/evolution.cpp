@@ -53,7 +53,9 @@ double checker_tolerance(double rtol, double log_atol, double y) {
         return x;
     const double z = rtol + std::exp(x);
     // ln(1 + z) = z - z^2/2 + z^3/3 - ...: to 3e-7 relative below 1e-3, without a call.
-    return z < 1e-3 ? z * (1.0 - 0.5 * z) : std::log1p(z);
+    const double tol = z < 1e-3 ? z * (1.0 - 0.5 * z) : std::log1p(z);
+    // Never below what a double resolves in y itself (|y| ~ 1e12 long after depletion).
+    return std::max(tol, 8.0 * std::numeric_limits<double>::epsilon() * std::abs(y));
 }
 
 // Error test in y = ln N equivalent to |err(N_i)| <= rtol N_i + atol_i, the test of a linear
@@ -872,9 +874,10 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     State log_atol(n);
     std::vector<double> log_depleted(n);
     for (std::size_t i = 0; i < n; ++i) {
-        const double a =
-            c.atol.empty() ? c.rtol * c.depletion_fraction * c.initial_inventory[i] : c.atol[i];
-        log_atol[i] = std::log(a);
+        // In logs: rtol * depletion_fraction * N0 can underflow to 0 for tiny factors.
+        log_atol[i] = c.atol.empty()
+                          ? std::log(c.rtol) + std::log(c.depletion_fraction) + model.y0()[i]
+                          : std::log(c.atol[i]);
         log_depleted[i] = std::log(c.depletion_fraction) + model.y0()[i];
     }
 
