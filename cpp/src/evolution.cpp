@@ -436,6 +436,21 @@ class Model {
 
   public:
     void enable_sources(bool on) { has_sources_ = on; }
+
+    // XUV flux [W m^-2] where the recombination limit takes over from the energy-limited rate,
+    // where both are fixed functions of the flux (no absorption layer at the evolving exobase
+    // temperature); NaN otherwise.
+    double recombination_switch_flux() const {
+        if (!c_.hydrodynamic || !c_.hydrodynamic->recombination)
+            return nan;
+        const HydrodynamicOptions& h = *c_.hydrodynamic;
+        if (h.absorption && !(h.absorption->temperature > 0.0))
+            return nan;
+        const RecombinationLimit& r = *h.recombination;
+        return recombination_transition_flux(h.efficiency, c_.planet.radius(), xuv_radius_,
+                                             c_.planet.mass(), roche_, r.temperature,
+                                             r.recombination_coefficient, r.photon_energy);
+    }
 };
 
 // The system functor handed to odeint: a pointer, so that copies are cheap.
@@ -1024,6 +1039,16 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         c.planet.has_star()) {
         const double ts = c.planet.star().xuv().saturation_time;
         if (ts > c.t_start && ts < c.t_end)
+            stops.push_back(ts);
+    }
+    // The recombination limit switches the rate's law in the flux: a kink where the flux
+    // crosses the switch (once, after saturation, the flux falling monotonically).
+    const double switch_flux = model.recombination_switch_flux();
+    if (switch_flux > 0.0 && std::isfinite(switch_flux)) {
+        const double a = c.planet.semi_major_axis();
+        const double ts = c.planet.star().age_at_xuv_luminosity(switch_flux * 4.0 *
+                                                                constants::pi * a * a);
+        if (ts > c.t_start && ts < c.t_end && ts > c.planet.star().xuv().saturation_time)
             stops.push_back(ts);
     }
     std::sort(stops.begin(), stops.end());

@@ -158,7 +158,8 @@ void require_depletion(const char* what, double factor, bool enhancement) {
     if (factor > 1.0 && !enhancement)
         throw InputError(std::string(what) + " must be <= 1 (a depletion of the Jeans flux), got " +
                          format_value(factor) +
-                         "; a factor above 1 is an enhancement: pass enhancement=True to allow it");
+                         "; a factor above 1 is an enhancement: give TailDepletion(..., "
+                         "enhancement=True) to allow it");
 }
 } // namespace
 
