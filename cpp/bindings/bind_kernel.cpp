@@ -43,9 +43,8 @@ void bind_kernel(py::module_& m) {
         .def(py::init<>())
         .def(py::init<double, bool>(), py::arg("factor"), py::kw_only(),
              py::arg("enhancement") = false)
-        .def(py::init<std::vector<double>, std::vector<double>, bool>(),
-             py::arg("jeans_parameter"), py::arg("factor"), py::kw_only(),
-             py::arg("enhancement") = false)
+        .def(py::init<std::vector<double>, std::vector<double>, bool>(), py::arg("jeans_parameter"),
+             py::arg("factor"), py::kw_only(), py::arg("enhancement") = false)
         .def("__call__", &TailDepletion::operator(), py::arg("jeans_parameter"))
         .def_property_readonly("is_identity", &TailDepletion::is_identity)
         .def_property_readonly("constant", &TailDepletion::constant)

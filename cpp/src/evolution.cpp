@@ -198,9 +198,8 @@ class Model {
             }
             s.rate[i] = mode.frozen[i] ? 0.0 : rate_factor_[i] * std::exp(log_scaled_rate_[i]);
             s.source[i] = c_.sources.empty() ? 0.0 : c_.sources[i](t);
-            s.given[i] = mode.frozen[i] || c_.given_losses.empty()
-                             ? 0.0
-                             : c_.given_losses[i](t, log_flux_);
+            s.given[i] =
+                mode.frozen[i] || c_.given_losses.empty() ? 0.0 : c_.given_losses[i](t, log_flux_);
         }
     }
 
@@ -707,8 +706,7 @@ GivenLoss::GivenLoss(std::vector<double> times, std::vector<double> rates) : kin
     table_ = TimeTable(std::move(times), std::move(rates), "given loss table");
 }
 
-GivenLoss GivenLoss::xuv_power_law(double reference_rate, double reference_flux,
-                                   double exponent) {
+GivenLoss GivenLoss::xuv_power_law(double reference_rate, double reference_flux, double exponent) {
     require_finite("given loss reference_rate", reference_rate);
     require_non_negative("given loss reference_rate", reference_rate);
     require_finite("given loss reference_flux", reference_flux);
@@ -1046,8 +1044,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     const double switch_flux = model.recombination_switch_flux();
     if (switch_flux > 0.0 && std::isfinite(switch_flux)) {
         const double a = c.planet.semi_major_axis();
-        const double ts = c.planet.star().age_at_xuv_luminosity(switch_flux * 4.0 *
-                                                                constants::pi * a * a);
+        const double ts =
+            c.planet.star().age_at_xuv_luminosity(switch_flux * 4.0 * constants::pi * a * a);
         if (ts > c.t_start && ts < c.t_end && ts > c.planet.star().xuv().saturation_time)
             stops.push_back(ts);
     }

@@ -171,8 +171,7 @@ TailDepletion::TailDepletion(double factor, bool enhancement)
 
 TailDepletion::TailDepletion(std::vector<double> jeans_parameter, std::vector<double> factor,
                              bool enhancement)
-    : enhancement_(enhancement), lambdas_(std::move(jeans_parameter)),
-      factors_(std::move(factor)) {
+    : enhancement_(enhancement), lambdas_(std::move(jeans_parameter)), factors_(std::move(factor)) {
     if (lambdas_.size() != factors_.size() || lambdas_.empty())
         throw InputError("tail_depletion table: jeans_parameter and factor must be non-empty and "
                          "of equal length, got " +
@@ -181,8 +180,8 @@ TailDepletion::TailDepletion(std::vector<double> jeans_parameter, std::vector<do
     for (std::size_t i = 0; i < lambdas_.size(); ++i) {
         require_finite("tail_depletion jeans_parameter", lambdas_[i]);
         require_positive("tail_depletion factor", factors_[i]);
-        require_depletion(("tail_depletion factor[" + std::to_string(i) + "]").c_str(),
-                          factors_[i], enhancement);
+        require_depletion(("tail_depletion factor[" + std::to_string(i) + "]").c_str(), factors_[i],
+                          enhancement);
         if (i > 0 && !(lambdas_[i] > lambdas_[i - 1]))
             throw InputError("tail_depletion jeans_parameter must be strictly increasing, got " +
                              format_value(lambdas_[i]) + " after " + format_value(lambdas_[i - 1]));

@@ -682,7 +682,8 @@ class EnergyLimitedEscape:
             unknown = sorted(set(recombination_limit) - known)
             if unknown:
                 raise ValueError(
-                    f"recombination_limit: unknown keys {unknown}; known: {', '.join(sorted(known))}"
+                    f"recombination_limit: unknown keys {unknown}; "
+                    f"known: {', '.join(sorted(known))}"
                 )
             units = {
                 "temperature": "K",

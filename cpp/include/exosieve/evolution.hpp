@@ -92,9 +92,7 @@ class GivenLoss {
     //! The kind of loss.
     Kind kind() const { return kind_; }
     //! True when the rate is zero at all times.
-    bool is_zero() const {
-        return kind_ == Kind::None || (kind_ != Kind::Table && rate_ == 0.0);
-    }
+    bool is_zero() const { return kind_ == Kind::None || (kind_ != Kind::Table && rate_ == 0.0); }
     //! True when the rate depends on the XUV flux.
     bool needs_xuv_flux() const { return kind_ == Kind::XuvPowerLaw; }
     //! The table (empty unless tabulated).
@@ -123,10 +121,10 @@ struct EvolutionConfig {
     Planet planet;                         //!< the planet (and its star, for XUV-driven models)
     std::vector<Species> species;          //!< the species, in the exobase model's order
     std::vector<double> initial_inventory; //!< N_i(t_start) [particles] (> 0)
-    std::shared_ptr<const ExobaseModel> exobase;     //!< exobase radius and densities
-    ExobaseTemperature temperature;                  //!< exobase temperature history
-    std::vector<SourceRate> sources;                 //!< empty or one per species [s^-1]
-    std::vector<GivenLoss> given_losses; //!< empty or one per species: losses given [s^-1]
+    std::shared_ptr<const ExobaseModel> exobase; //!< exobase radius and densities
+    ExobaseTemperature temperature;              //!< exobase temperature history
+    std::vector<SourceRate> sources;             //!< empty or one per species [s^-1]
+    std::vector<GivenLoss> given_losses;         //!< empty or one per species: losses given [s^-1]
     std::optional<HydrodynamicOptions> hydrodynamic; //!< energy-limited loss with drag
     RegimeThresholds thresholds;                     //!< Jeans-parameter regime thresholds
     TailDepletion tail;                              //!< factor on every Jeans flux
@@ -207,12 +205,12 @@ default_isotope_ratios(const std::vector<std::string>& species);
 
 //! Write a result to an HDF5 file at `path` (atomically: temporary file, then rename).
 //! Dimensions `time` [s], `species` and (when there are isotope ratios) `ratio`; variables
-//! inventory, escape_rate, source_rate, given_loss_rate, jeans_parameter (time x species), exobase_radius,
-//! exobase_temperature, xuv_flux, regime (flag_values / flag_meanings), energy_limited (time),
-//! isotope_ratio (time x ratio), depletion_time (NaN where not reached), initial_inventory,
-//! species_mass (species), and the scalars steps, rejected_steps, rhs_evaluations, completed,
-//! t_reached; units and long_name on every variable; global attributes `config` (model JSON)
-//! and `regime_changes` (JSON list).
+//! inventory, escape_rate, source_rate, given_loss_rate, jeans_parameter (time x species),
+//! exobase_radius, exobase_temperature, xuv_flux, regime (flag_values / flag_meanings),
+//! energy_limited (time), isotope_ratio (time x ratio), depletion_time (NaN where not reached),
+//! initial_inventory, species_mass (species), and the scalars steps, rejected_steps,
+//! rhs_evaluations, completed, t_reached; units and long_name on every variable; global attributes
+//! `config` (model JSON) and `regime_changes` (JSON list).
 void write_result(const EvolutionResult& result, const std::string& path);
 
 } // namespace exosieve

@@ -110,8 +110,8 @@ struct XuvAbsorption {
 //! Cap of the energy-limited rate by the recombination-limited rate (Murray-Clay, Chiang &
 //! Murray 2009; recombination_limited_mass_loss, outflow.hpp).
 struct RecombinationLimit {
-    double temperature = 1e4; //!< wind temperature [K] (RecombinationDefaults)
-    double recombination_coefficient = 2.59e-19; //!< case B alpha_B [m^3 s^-1]
+    double temperature = 1e4;                      //!< wind temperature [K] (RecombinationDefaults)
+    double recombination_coefficient = 2.59e-19;   //!< case B alpha_B [m^3 s^-1]
     double photon_energy = 20.0 * 1.602176634e-19; //!< mean ionising photon energy [J]
 
     //! Throw InputError for a value out of range.
