@@ -290,3 +290,35 @@ def test_recombination_limited_loss_integrated_matches_quadrature():
         np.testing.assert_allclose(run.inventory["H"], expected, rtol=5 * rtol)
     assert run.config["hydrodynamic"]["recombination_limit"]["temperature_K"] == 1e4
     assert run.config["hydrodynamic"]["absorption"]["cross_section_m2"] == sigma
+
+
+def test_hand_over_jump_between_energy_limited_and_jeans_escape():
+    # The README's case: hydrogen on a small world whose exobase cools through lambda = 2.1.
+    # Just before the hand-over the loss is the energy-limited rate (Watson et al. 1981,
+    # R_xuv = R_p, no Roche factor), just after it the Jeans rate at lambda = 2.1 (formula with
+    # scipy.constants): two separate models, so the rate jumps (here by a factor ~40); between
+    # transition and enhanced Jeans the same Jeans formula holds and the rate is continuous.
+    star = exosieve.Star(0.9 * c.M_SUN, 0.7 * c.L_SUN)
+    mass, radius = 0.1 * c.M_EARTH, 0.53 * c.R_EARTH
+    planet = exosieve.Planet(mass, radius, 0.8 * c.AU, star)
+    f_ref = float(planet.xuv_flux(4.5 * c.GYR))
+    law = exosieve.XuvTemperature(400.0, f_ref, 0.6, 200.0, 1500.0)
+    r_exo, n_exo, n0 = radius + 500e3, 1e12, 1e49
+    exobase = exosieve.PrescribedExobase(r_exo, law, {"H": n_exo})
+    hydro = exosieve.EnergyLimitedEscape(efficiency=0.15, roche_lobe=False)
+    span = (10 * c.MYR, 10 * c.GYR)
+    run = exosieve.evolve(planet, exobase, {"H": n0}, span, hydrodynamic=hydro)
+    changes = {(a, b): t for t, a, b in run.regime_changes}
+    m = exosieve.species("H").mass
+    t_h = changes[("hydrodynamic", "transition")]
+    t_e = changes[("transition", "enhanced_jeans")]
+    times = [t_h * (1 - 1e-9), t_h * (1 + 1e-9), t_e * (1 - 1e-9), t_e * (1 + 1e-9)]
+    near = exosieve.evolve(planet, exobase, {"H": n0}, span, hydrodynamic=hydro, t_eval=times)
+    q, n = near.escape_rate["H"], near.inventory["H"]
+    energy_limited = 0.15 * np.pi * radius**3 * float(planet.xuv_flux(times[0])) / (sc.G * mass)
+    assert q[0] == pytest.approx(energy_limited / m, rel=1e-6)
+    temperature = sc.G * mass * m / (2.1 * sc.k * r_exo)
+    jeans = 4 * np.pi * r_exo**2 * n_exo * n[1] / n0 * _effusion(temperature, m, mass, r_exo)
+    assert q[1] == pytest.approx(jeans, rel=1e-6)
+    assert q[1] / q[0] == pytest.approx(0.0241, rel=0.01)  # the jump the README states
+    assert q[3] == pytest.approx(q[2], rel=1e-6)  # continuous into enhanced Jeans
