@@ -153,6 +153,14 @@ class Model {
     // a Jeans flux): no rate overflows, and no logarithm of f_i is taken in the stepping loop.
     void rhs(const State& y, State& dydt, double t) {
         evaluate(t, y, mode_);
+        // Without given losses the loop is the one it was before they existed.
+        if (has_given_)
+            derivatives<true>(y, dydt, t);
+        else
+            derivatives<false>(y, dydt, t);
+    }
+
+    template <bool Given> void derivatives(const State& y, State& dydt, double t) {
         for (std::size_t i = 0; i < n_; ++i) {
             if (mode_.frozen[i]) {
                 dydt[i] = 0.0;
@@ -164,7 +172,7 @@ class Model {
                 if (s > 0.0)
                     d += std::exp(std::log(s) - y[i]);
             }
-            if (has_given_) {
+            if constexpr (Given) {
                 const double g = c_.given_losses[i](t, log_flux_);
                 if (g > 0.0)
                     d -= std::exp(std::log(g) - y[i]);
@@ -198,8 +206,7 @@ class Model {
             }
             s.rate[i] = mode.frozen[i] ? 0.0 : rate_factor_[i] * std::exp(log_scaled_rate_[i]);
             s.source[i] = c_.sources.empty() ? 0.0 : c_.sources[i](t);
-            s.given[i] =
-                mode.frozen[i] || c_.given_losses.empty() ? 0.0 : c_.given_losses[i](t, log_flux_);
+            s.given[i] = mode.frozen[i] || !has_given_ ? 0.0 : c_.given_losses[i](t, log_flux_);
         }
     }
 
