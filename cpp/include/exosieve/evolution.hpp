@@ -54,7 +54,7 @@ class SourceRate {
     TimeTable table_;
 };
 
-//! A loss of one species that the user gives [s^-1 particles], beyond thermal escape: non-thermal
+//! A loss of one species that the user gives [particles s^-1], beyond thermal escape: non-thermal
 //! (photochemical escape, ion pick-up, sputtering) or external (measured or modelled elsewhere).
 //! Added to the thermal escape rate: dN_i/dt = S_i - Q_i - L_i(t). Constant, a table against
 //! time (linear, held at the ends) or a power law in the planet's XUV flux,
