@@ -101,7 +101,8 @@ def evolve(
     thresholds : RegimeThresholds, optional
         Jeans-parameter thresholds between regimes (Volkov et al. 2011 defaults).
     tail_depletion : float, tuple or TailDepletion, optional
-        Factor on every Jeans flux (default 1).
+        Factor on every Jeans flux (default 1), at most 1 unless given as
+        ``TailDepletion(factor, enhancement=True)``.
     isotope_ratios : sequence of (str, str), optional
         (numerator, denominator) pairs to report; default the known pairs present among the
         species (D/H, HD/H2, 3He/He, 36Ar/38Ar, 40Ar/36Ar).
