@@ -136,6 +136,14 @@ def test_tabulated_given_loss_is_kept_apart_in_every_output(tmp_path):
     run.to_hdf5(path)
     back = exosieve.open_result(path)
     np.testing.assert_array_equal(back.given_loss_rate.values, run.given_loss_rate.values)
+    # A file written before given losses existed reads back with none.
+    import h5py
+
+    old = tmp_path / "old.h5"
+    run.to_hdf5(old)
+    with h5py.File(old, "a") as f:
+        del f["given_loss_rate"]
+    assert np.all(exosieve.open_result(old).given_loss_rate.values == 0.0)
     ds = run.to_xarray()
     assert ds["given_loss_rate"].attrs["units"] == "s-1"
     assert ds["given_loss_rate"].dims == ("time", "species")
