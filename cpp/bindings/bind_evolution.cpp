@@ -4,8 +4,11 @@
 #include <pybind11/stl.h>
 
 #include <chrono>
+#include <cmath>
 #include <cstdint>
+#include <limits>
 #include <memory>
+#include <optional>
 
 #include "exosieve/errors.hpp"
 #include "exosieve/evolution.hpp"
@@ -191,11 +194,52 @@ void bind_evolution(py::module_& m) {
         .def_readonly("exponent", &DiffusionLaw::exponent)
         .def("__call__", &DiffusionLaw::operator(), py::arg("temperature"));
 
+    py::class_<XuvAbsorption>(m, "XuvAbsorption",
+                              "Radius of XUV optical depth one of an exponential atmosphere [SI]")
+        .def(py::init([](double n0, double sigma, double mu, double temperature, bool chord) {
+                 XuvAbsorption a;
+                 a.base_density = n0;
+                 a.cross_section = sigma;
+                 a.mean_molecular_mass = mu;
+                 a.temperature = temperature;
+                 a.chord = chord;
+                 a.validate();
+                 return a;
+             }),
+             py::arg("base_density"), py::arg("cross_section"), py::arg("mean_molecular_mass"),
+             py::arg("temperature") = 0.0, py::arg("chord") = false)
+        .def_readonly("base_density", &XuvAbsorption::base_density)
+        .def_readonly("cross_section", &XuvAbsorption::cross_section)
+        .def_readonly("mean_molecular_mass", &XuvAbsorption::mean_molecular_mass)
+        .def_readonly("temperature", &XuvAbsorption::temperature)
+        .def_readonly("chord", &XuvAbsorption::chord);
+
+    py::class_<RecombinationLimit>(m, "RecombinationLimit",
+                                   "Recombination-limited cap on energy-limited loss [SI]")
+        .def(py::init([](double temperature, double alpha, double photon_energy) {
+                 RecombinationLimit r;
+                 r.temperature = temperature;
+                 r.recombination_coefficient = alpha;
+                 r.photon_energy = photon_energy;
+                 r.validate();
+                 return r;
+             }),
+             py::arg("temperature") = RecombinationLimit{}.temperature,
+             py::arg("recombination_coefficient") = RecombinationLimit{}.recombination_coefficient,
+             py::arg("photon_energy") = RecombinationLimit{}.photon_energy)
+        .def_readonly("temperature", &RecombinationLimit::temperature)
+        .def_readonly("recombination_coefficient", &RecombinationLimit::recombination_coefficient)
+        .def_readonly("photon_energy", &RecombinationLimit::photon_energy);
+
     py::class_<HydrodynamicOptions>(m, "HydrodynamicOptions")
         .def(py::init([](double efficiency, double xuv_radius, bool roche_lobe,
                          const std::string& escaping, HydrodynamicActivation activation,
-                         std::vector<std::pair<std::string, DiffusionLaw>> diffusion) {
+                         std::vector<std::pair<std::string, DiffusionLaw>> diffusion,
+                         std::optional<XuvAbsorption> absorption,
+                         std::optional<RecombinationLimit> recombination) {
                  HydrodynamicOptions h;
+                 h.absorption = absorption;
+                 h.recombination = recombination;
                  h.efficiency = efficiency;
                  h.xuv_radius = xuv_radius;
                  h.roche_lobe = roche_lobe;
@@ -206,13 +250,16 @@ void bind_evolution(py::module_& m) {
                  return h;
              }),
              py::arg("efficiency"), py::arg("xuv_radius"), py::arg("roche_lobe"),
-             py::arg("escaping_species"), py::arg("activation"), py::arg("diffusion"))
+             py::arg("escaping_species"), py::arg("activation"), py::arg("diffusion"),
+             py::arg("absorption") = py::none(), py::arg("recombination") = py::none())
         .def_readonly("efficiency", &HydrodynamicOptions::efficiency)
         .def_readonly("xuv_radius", &HydrodynamicOptions::xuv_radius)
         .def_readonly("roche_lobe", &HydrodynamicOptions::roche_lobe)
         .def_readonly("escaping_species", &HydrodynamicOptions::escaping_species)
         .def_readonly("activation", &HydrodynamicOptions::activation)
-        .def_readonly("diffusion", &HydrodynamicOptions::diffusion);
+        .def_readonly("diffusion", &HydrodynamicOptions::diffusion)
+        .def_readonly("absorption", &HydrodynamicOptions::absorption)
+        .def_readonly("recombination", &HydrodynamicOptions::recombination);
 
     // --- exobase models and histories -----------------------------------------------------------
     py::class_<ExobaseTemperature>(m, "ExobaseTemperature", "Exobase temperature history")
@@ -304,6 +351,26 @@ void bind_evolution(py::module_& m) {
         .def("__call__", &SourceRate::operator(), py::arg("t"))
         .def("to_json", &SourceRate::to_json);
 
+    py::class_<GivenLoss>(m, "GivenLoss", "A loss of one species given by the user [s^-1]")
+        .def(py::init<>())
+        .def(py::init<double>(), py::arg("rate"))
+        .def(py::init([](const DoubleArray& times, const DoubleArray& rates) {
+                 return GivenLoss(to_vector(times), to_vector(rates));
+             }),
+             py::arg("times"), py::arg("rates"))
+        .def_static("xuv_power_law", &GivenLoss::xuv_power_law, py::arg("reference_rate"),
+                    py::arg("reference_flux"), py::arg("exponent"))
+        .def(
+            "__call__",
+            [](const GivenLoss& g, double t, double xuv_flux) {
+                return g(t, xuv_flux > 0.0 ? std::log(xuv_flux)
+                                           : -std::numeric_limits<double>::infinity());
+            },
+            py::arg("t"), py::arg("xuv_flux") = 0.0)
+        .def_property_readonly("needs_xuv_flux", &GivenLoss::needs_xuv_flux)
+        .def_property_readonly("is_zero", &GivenLoss::is_zero)
+        .def("to_json", &GivenLoss::to_json);
+
     // --- evolution ---------------------------------------------------------------------------
     py::enum_<StepperKind>(m, "StepperKind")
         .value("auto", StepperKind::Auto)
@@ -323,6 +390,7 @@ void bind_evolution(py::module_& m) {
             [](EvolutionConfig& c, std::shared_ptr<ExobaseModel> e) { c.exobase = std::move(e); })
         .def_readwrite("temperature", &EvolutionConfig::temperature)
         .def_readwrite("sources", &EvolutionConfig::sources)
+        .def_readwrite("given_losses", &EvolutionConfig::given_losses)
         .def_readwrite("hydrodynamic", &EvolutionConfig::hydrodynamic)
         .def_readwrite("thresholds", &EvolutionConfig::thresholds)
         .def_readwrite("tail", &EvolutionConfig::tail)
@@ -366,6 +434,11 @@ void bind_evolution(py::module_& m) {
         .def_property_readonly("source_rate",
                                [](const EvolutionResult& r) {
                                    return matrix(r.source_rate, r.time_count(), r.species_count());
+                               })
+        .def_property_readonly("given_loss_rate",
+                               [](const EvolutionResult& r) {
+                                   return matrix(r.given_loss_rate, r.time_count(),
+                                                 r.species_count());
                                })
         .def_property_readonly("jeans_parameter",
                                [](const EvolutionResult& r) {
@@ -432,6 +505,7 @@ void bind_evolution(py::module_& m) {
             r.inventory = doubles("inventory");
             r.escape_rate = doubles("escape_rate");
             r.source_rate = doubles("source_rate");
+            r.given_loss_rate = doubles("given_loss_rate");
             r.jeans_parameter = doubles("jeans_parameter");
             r.isotope_ratio = doubles("isotope_ratio");
             r.exobase_radius = doubles("exobase_radius");

@@ -41,23 +41,27 @@ void bind_kernel(py::module_& m) {
                               "Multiplier on the Jeans flux: constant, or a table against the "
                               "Jeans parameter (linear, held at the ends)")
         .def(py::init<>())
-        .def(py::init<double>(), py::arg("factor"))
-        .def(py::init<std::vector<double>, std::vector<double>>(), py::arg("jeans_parameter"),
-             py::arg("factor"))
+        .def(py::init<double, bool>(), py::arg("factor"), py::kw_only(),
+             py::arg("enhancement") = false)
+        .def(py::init<std::vector<double>, std::vector<double>, bool>(), py::arg("jeans_parameter"),
+             py::arg("factor"), py::kw_only(), py::arg("enhancement") = false)
         .def("__call__", &TailDepletion::operator(), py::arg("jeans_parameter"))
         .def_property_readonly("is_identity", &TailDepletion::is_identity)
         .def_property_readonly("constant", &TailDepletion::constant)
         .def_property_readonly("table_jeans_parameter", &TailDepletion::table_jeans_parameter)
         .def_property_readonly("table_factor", &TailDepletion::table_factor)
+        .def_property_readonly("enhancement", &TailDepletion::enhancement)
         .def(py::pickle(
             [](const TailDepletion& t) {
-                return py::make_tuple(t.constant(), t.table_jeans_parameter(), t.table_factor());
+                return py::make_tuple(t.constant(), t.table_jeans_parameter(), t.table_factor(),
+                                      t.enhancement());
             },
             [](const py::tuple& s) {
                 auto lambdas = s[1].cast<std::vector<double>>();
+                const bool enhancement = s.size() > 3 && s[3].cast<bool>();
                 if (lambdas.empty())
-                    return TailDepletion(s[0].cast<double>());
-                return TailDepletion(lambdas, s[2].cast<std::vector<double>>());
+                    return TailDepletion(s[0].cast<double>(), enhancement);
+                return TailDepletion(lambdas, s[2].cast<std::vector<double>>(), enhancement);
             }));
 
     def_plain<X, X>(m, "most_probable_speed", &exosieve::most_probable_speed);

@@ -18,6 +18,7 @@
 #include "exosieve/diffusion.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/hdf5_io.hpp"
+#include "exosieve/outflow.hpp"
 #include "json_text.hpp"
 
 namespace exosieve {
@@ -112,6 +113,7 @@ struct Snapshot {
     double temperature = 0.0, flux = nan, radius = 0.0;
     Regime regime = Regime::Jeans;
     std::vector<double> rate, lambda, source; // Q_i [s^-1], lambda_i [1], S_i [s^-1]
+    std::vector<double> given;                // L_i [s^-1], the given losses
 };
 
 // The right-hand side and its diagnostics. One per run: scratch buffers make it not shareable.
@@ -133,6 +135,10 @@ class Model {
         rate_factor_.resize(n_);
         lambda_.resize(n_);
         needs_flux_ = c.temperature.needs_xuv_flux() || c.hydrodynamic.has_value();
+        for (const GivenLoss& g : c.given_losses) {
+            has_given_ = has_given_ || !g.is_zero();
+            needs_flux_ = needs_flux_ || g.needs_xuv_flux();
+        }
         log_area_factor_ = std::log(4.0 * constants::pi);
         if (c.hydrodynamic)
             setup_hydrodynamic(*c.hydrodynamic);
@@ -149,6 +155,14 @@ class Model {
     // a Jeans flux): no rate overflows, and no logarithm of f_i is taken in the stepping loop.
     void rhs(const State& y, State& dydt, double t) {
         evaluate(t, y, mode_);
+        // Without given losses the loop is the one it was before they existed.
+        if (has_given_)
+            derivatives<true>(y, dydt, t);
+        else
+            derivatives<false>(y, dydt, t);
+    }
+
+    template <bool Given> void derivatives(const State& y, State& dydt, double t) {
         for (std::size_t i = 0; i < n_; ++i) {
             if (mode_.frozen[i]) {
                 dydt[i] = 0.0;
@@ -159,6 +173,11 @@ class Model {
                 const double s = c_.sources[i](t);
                 if (s > 0.0)
                     d += std::exp(std::log(s) - y[i]);
+            }
+            if constexpr (Given) {
+                const double g = c_.given_losses[i](t, log_flux_);
+                if (g > 0.0)
+                    d -= std::exp(std::log(g) - y[i]);
             }
             dydt[i] = d;
         }
@@ -181,13 +200,15 @@ class Model {
         s.rate.resize(n_);
         s.lambda = lambda_;
         s.source.resize(n_);
+        s.given.resize(n_);
         for (std::size_t i = 0; i < n_; ++i) {
             if (!rates) {
-                s.rate[i] = s.source[i] = nan;
+                s.rate[i] = s.source[i] = s.given[i] = nan;
                 continue;
             }
             s.rate[i] = mode.frozen[i] ? 0.0 : rate_factor_[i] * std::exp(log_scaled_rate_[i]);
             s.source[i] = c_.sources.empty() ? 0.0 : c_.sources[i](t);
+            s.given[i] = mode.frozen[i] || !has_given_ ? 0.0 : c_.given_losses[i](t, log_flux_);
         }
     }
 
@@ -214,6 +235,8 @@ class Model {
             log_fraction_[j] = y[j] - y0_[j];
         if (!c_.exobase->loss_follows_inventory(i, log_fraction_.data()))
             return false;
+        if (!c_.given_losses.empty() && !c_.given_losses[i].is_zero())
+            return false; // a given loss does not vanish with the inventory
         return !(mode.energy_limited && i == escaping_);
     }
 
@@ -231,6 +254,9 @@ class Model {
     void setup_hydrodynamic(const HydrodynamicOptions& h) {
         const Planet& p = c_.planet;
         xuv_radius_ = h.xuv_radius > 0.0 ? h.xuv_radius : p.radius();
+        // An absorbing layer at a fixed temperature has a fixed radius: found once.
+        if (h.absorption && h.absorption->temperature > 0.0)
+            xuv_radius_ = absorption_radius(h.absorption->temperature);
         roche_ = 1.0;
         if (h.roche_lobe)
             roche_ = roche_lobe_factor(
@@ -336,13 +362,33 @@ class Model {
     double cached_t_ = 0.0;
     State cached_y_;
 
+    // Radius of XUV optical depth one of the absorption model at temperature T [K].
+    double absorption_radius(double temperature) const {
+        const XuvAbsorption& a = *c_.hydrodynamic->absorption;
+        const Planet& p = c_.planet;
+        const double h = scale_height(temperature, a.mean_molecular_mass, p.mass(), p.radius());
+        return xuv_absorption_radius(p.radius(), a.base_density, h, a.cross_section, a.chord);
+    }
+
     // Energy-limited loss of the light species, shared with the species it drags; a dragged
-    // species keeps its Jeans rate where that is larger.
+    // species keeps its Jeans rate where that is larger. With the absorption model the XUV is
+    // absorbed at its radius (at the exobase temperature unless a temperature is given); with
+    // the recombination limit the smaller of the energy-limited and recombination-limited
+    // rates applies (xuv_driven_mass_loss, Murray-Clay et al. 2009).
     void apply_energy_limited(const State& y) {
         const HydrodynamicOptions& h = *c_.hydrodynamic;
+        const double xuv_radius = h.absorption && !(h.absorption->temperature > 0.0)
+                                      ? absorption_radius(exobase_temperature_)
+                                      : xuv_radius_;
+        const double flux = std::exp(log_flux_);
         const double mass_loss =
-            energy_limited_mass_loss(h.efficiency, c_.planet.radius(), xuv_radius_,
-                                     std::exp(log_flux_), c_.planet.mass(), roche_);
+            h.recombination
+                ? xuv_driven_mass_loss(h.efficiency, c_.planet.radius(), xuv_radius, flux,
+                                       c_.planet.mass(), roche_, h.recombination->temperature,
+                                       h.recombination->recombination_coefficient,
+                                       h.recombination->photon_energy)
+                : energy_limited_mass_loss(h.efficiency, c_.planet.radius(), xuv_radius, flux,
+                                           c_.planet.mass(), roche_);
         double y_max = -inf;
         for (std::size_t i = 0; i < n_; ++i)
             y_max = std::max(y_max, y[i]);
@@ -382,6 +428,7 @@ class Model {
     ExobaseState state_;
     bool needs_flux_ = false;
     bool has_sources_ = false;
+    bool has_given_ = false; // any species has a given loss
     double log_area_factor_ = 0.0;
     double log_flux_ = nan, temperature_ = 0.0, log_temperature_ = nan, exobase_temperature_ = 0.0;
     const double log_2k_ = std::log(2.0 * k_B);
@@ -397,6 +444,21 @@ class Model {
 
   public:
     void enable_sources(bool on) { has_sources_ = on; }
+
+    // XUV flux [W m^-2] where the recombination limit takes over from the energy-limited rate,
+    // where both are fixed functions of the flux (no absorption layer at the evolving exobase
+    // temperature); NaN otherwise.
+    double recombination_switch_flux() const {
+        if (!c_.hydrodynamic || !c_.hydrodynamic->recombination)
+            return nan;
+        const HydrodynamicOptions& h = *c_.hydrodynamic;
+        if (h.absorption && !(h.absorption->temperature > 0.0))
+            return nan;
+        const RecombinationLimit& r = *h.recombination;
+        return recombination_transition_flux(h.efficiency, c_.planet.radius(), xuv_radius_,
+                                             c_.planet.mass(), roche_, r.temperature,
+                                             r.recombination_coefficient, r.photon_energy);
+    }
 };
 
 // The system functor handed to odeint: a pointer, so that copies are cheap.
@@ -539,7 +601,8 @@ class Recorder {
 
     void reserve(std::size_t times) {
         r_.time.reserve(times);
-        for (auto* v : {&r_.inventory, &r_.escape_rate, &r_.source_rate, &r_.jeans_parameter})
+        for (auto* v : {&r_.inventory, &r_.escape_rate, &r_.source_rate, &r_.given_loss_rate,
+                        &r_.jeans_parameter})
             v->reserve(times * n_);
         for (auto* v : {&r_.exobase_radius, &r_.exobase_temperature, &r_.xuv_flux})
             v->reserve(times);
@@ -554,6 +617,7 @@ class Recorder {
             r_.inventory.push_back(std::exp(y[i]));
             r_.escape_rate.push_back(s.rate[i]);
             r_.source_rate.push_back(s.source[i]);
+            r_.given_loss_rate.push_back(s.given[i]);
             r_.jeans_parameter.push_back(s.lambda[i]);
         }
         r_.exobase_radius.push_back(s.radius);
@@ -638,6 +702,57 @@ std::string SourceRate::to_json() const {
         .str();
 }
 
+GivenLoss::GivenLoss(double rate) : kind_(Kind::Constant), rate_(rate) {
+    require_finite("given loss rate", rate);
+    require_non_negative("given loss rate", rate);
+}
+
+GivenLoss::GivenLoss(std::vector<double> times, std::vector<double> rates) : kind_(Kind::Table) {
+    for (std::size_t i = 0; i < rates.size(); ++i)
+        if (!std::isfinite(rates[i]) || !(rates[i] >= 0.0))
+            throw InputError("given loss table: rates[" + std::to_string(i) +
+                             "] must be finite and >= 0 [s^-1], got " + format_value(rates[i]));
+    table_ = TimeTable(std::move(times), std::move(rates), "given loss table");
+}
+
+GivenLoss GivenLoss::xuv_power_law(double reference_rate, double reference_flux, double exponent) {
+    require_finite("given loss reference_rate", reference_rate);
+    require_non_negative("given loss reference_rate", reference_rate);
+    require_finite("given loss reference_flux", reference_flux);
+    require_positive("given loss reference_flux", reference_flux);
+    require_finite("given loss exponent", exponent);
+    GivenLoss g;
+    g.kind_ = Kind::XuvPowerLaw;
+    g.rate_ = reference_rate;
+    g.log_rate_ = reference_rate > 0.0 ? std::log(reference_rate) : 0.0;
+    g.log_flux_ref_ = std::log(reference_flux);
+    g.exponent_ = exponent;
+    return g;
+}
+
+std::string GivenLoss::to_json() const {
+    switch (kind_) {
+    case Kind::None:
+        return JsonObject().string("kind", "none").str();
+    case Kind::Constant:
+        return JsonObject().string("kind", "constant").number("rate_s-1", rate_).str();
+    case Kind::Table:
+        return JsonObject()
+            .string("kind", "table")
+            .add("times_s", json_array(table_.times()))
+            .add("rates_s-1", json_array(table_.values()))
+            .str();
+    case Kind::XuvPowerLaw:
+        return JsonObject()
+            .string("kind", "xuv_power_law")
+            .number("reference_rate_s-1", rate_)
+            .number("reference_flux_W_m-2", std::exp(log_flux_ref_))
+            .number("exponent", exponent_)
+            .str();
+    }
+    return "null";
+}
+
 void EvolutionConfig::validate() const {
     const std::size_t n = species.size();
     if (n == 0)
@@ -707,13 +822,22 @@ void EvolutionConfig::validate() const {
     if (!sources.empty() && sources.size() != n)
         throw InputError("sources: need one per species or none, got " +
                          std::to_string(sources.size()) + " for " + std::to_string(n));
+    if (!given_losses.empty() && given_losses.size() != n)
+        throw InputError("given_losses: need one per species or none, got " +
+                         std::to_string(given_losses.size()) + " for " + std::to_string(n));
+    bool given_needs_flux = false;
+    for (const GivenLoss& g : given_losses)
+        given_needs_flux = given_needs_flux || g.needs_xuv_flux();
     thresholds.validate();
     exobase->check(planet);
-    const bool needs_flux = temperature.needs_xuv_flux() || hydrodynamic.has_value();
+    const bool needs_flux =
+        temperature.needs_xuv_flux() || hydrodynamic.has_value() || given_needs_flux;
     if (needs_flux && !planet.has_star())
         throw InputError(std::string(temperature.needs_xuv_flux() ? "an XUV-driven exobase "
                                                                     "temperature"
-                                                                  : "the hydrodynamic option") +
+                                     : hydrodynamic.has_value()
+                                         ? "the hydrodynamic option"
+                                         : "a given loss following the XUV flux") +
                          " needs the planet's semi_major_axis and star");
     if (needs_flux && !(t_start > 0.0))
         throw InputError("t_span start must be > 0 (a stellar age) when the XUV flux is used, "
@@ -768,6 +892,13 @@ std::string EvolutionConfig::to_json() const {
         .add("initial_inventory", json_array(initial_inventory))
         .add("exobase", exobase ? exobase->to_json() : "null")
         .add("exobase_temperature", temperature.to_json());
+    if (!given_losses.empty()) {
+        JsonObject given;
+        for (std::size_t i = 0; i < given_losses.size(); ++i)
+            if (!given_losses[i].is_zero())
+                given.add(species[i].name, given_losses[i].to_json());
+        o.add("given_losses", given.str());
+    }
     if (!sources.empty()) {
         JsonObject src;
         for (std::size_t i = 0; i < sources.size(); ++i)
@@ -786,16 +917,34 @@ std::string EvolutionConfig::to_json() const {
         const char* act = h.activation == HydrodynamicActivation::Always       ? "always"
                           : h.activation == HydrodynamicActivation::Transition ? "transition"
                                                                                : "hydrodynamic";
-        o.add("hydrodynamic",
-              JsonObject()
-                  .number("efficiency", h.efficiency)
-                  .number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius : planet.radius())
-                  .add("roche_lobe", h.roche_lobe ? "true" : "false")
-                  .add("drag", h.drag ? "true" : "false")
-                  .string("escaping_species", h.escaping_species)
-                  .string("activation", act)
-                  .add("diffusion", diff.str())
-                  .str());
+        JsonObject hj;
+        hj.number("efficiency", h.efficiency);
+        if (h.absorption) {
+            const XuvAbsorption& a = *h.absorption;
+            hj.add("absorption", JsonObject()
+                                     .number("base_density_m-3", a.base_density)
+                                     .number("cross_section_m2", a.cross_section)
+                                     .number("mean_molecular_mass_kg", a.mean_molecular_mass)
+                                     .number("temperature_K", a.temperature)
+                                     .add("chord", a.chord ? "true" : "false")
+                                     .str());
+        } else {
+            hj.number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius : planet.radius());
+        }
+        if (h.recombination)
+            hj.add("recombination_limit",
+                   JsonObject()
+                       .number("temperature_K", h.recombination->temperature)
+                       .number("recombination_coefficient_m3_s-1",
+                               h.recombination->recombination_coefficient)
+                       .number("photon_energy_J", h.recombination->photon_energy)
+                       .str());
+        hj.add("roche_lobe", h.roche_lobe ? "true" : "false")
+            .add("drag", h.drag ? "true" : "false")
+            .string("escaping_species", h.escaping_species)
+            .string("activation", act)
+            .add("diffusion", diff.str());
+        o.add("hydrodynamic", hj.str());
     }
     o.add("regime_thresholds", JsonObject()
                                    .number("enhanced", thresholds.enhanced)
@@ -887,9 +1036,27 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         for (double t : s.table().times())
             if (t > c.t_start && t < c.t_end)
                 stops.push_back(t);
-    if ((c.temperature.needs_xuv_flux() || c.hydrodynamic) && c.planet.has_star()) {
+    bool given_needs_flux = false;
+    for (const GivenLoss& g : c.given_losses) {
+        given_needs_flux = given_needs_flux || g.needs_xuv_flux();
+        for (double t : g.table().times())
+            if (t > c.t_start && t < c.t_end)
+                stops.push_back(t);
+    }
+    if ((c.temperature.needs_xuv_flux() || c.hydrodynamic || given_needs_flux) &&
+        c.planet.has_star()) {
         const double ts = c.planet.star().xuv().saturation_time;
         if (ts > c.t_start && ts < c.t_end)
+            stops.push_back(ts);
+    }
+    // The recombination limit switches the rate's law in the flux: a kink where the flux
+    // crosses the switch (once, after saturation, the flux falling monotonically).
+    const double switch_flux = model.recombination_switch_flux();
+    if (switch_flux > 0.0 && std::isfinite(switch_flux)) {
+        const double a = c.planet.semi_major_axis();
+        const double ts =
+            c.planet.star().age_at_xuv_luminosity(switch_flux * 4.0 * constants::pi * a * a);
+        if (ts > c.t_start && ts < c.t_end && ts > c.planet.star().xuv().saturation_time)
             stops.push_back(ts);
     }
     std::sort(stops.begin(), stops.end());
@@ -1229,6 +1396,7 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     need("inventory", r.inventory.size(), nt * ns);
     need("escape_rate", r.escape_rate.size(), nt * ns);
     need("source_rate", r.source_rate.size(), nt * ns);
+    need("given_loss_rate", r.given_loss_rate.size(), nt * ns);
     need("jeans_parameter", r.jeans_parameter.size(), nt * ns);
     need("isotope_ratio", r.isotope_ratio.size(), nt * nr);
     for (const auto* v : {&r.exobase_radius, &r.exobase_temperature, &r.xuv_flux})
@@ -1248,6 +1416,8 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     w.add_variable("inventory", ts, r.inventory, "1", "number of particles in the inventory");
     w.add_variable("escape_rate", ts, r.escape_rate, "s-1", "global escape rate");
     w.add_variable("source_rate", ts, r.source_rate, "s-1", "source rate");
+    w.add_variable("given_loss_rate", ts, r.given_loss_rate, "s-1",
+                   "given (non-thermal or external) loss rate");
     w.add_variable("jeans_parameter", ts, r.jeans_parameter, "1", "Jeans parameter at the exobase");
     w.add_variable("exobase_radius", t, r.exobase_radius, "m",
                    "exobase radius from the planet's centre");

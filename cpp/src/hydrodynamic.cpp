@@ -6,6 +6,7 @@
 
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
+#include "exosieve/outflow.hpp"
 
 namespace exosieve {
 
@@ -165,6 +166,25 @@ void partition_mass_loss(double mass_loss, double temperature, double planet_mas
             mole_fraction[dragged[j].index] / x1 * std::max(0.0, light - dragged[j].threshold);
 }
 
+void XuvAbsorption::validate() const {
+    require_positive("absorption base_density", base_density);
+    require_positive("absorption cross_section", cross_section);
+    require_positive("absorption mean_molecular_mass", mean_molecular_mass);
+    require_non_negative("absorption temperature", temperature);
+}
+
+void RecombinationLimit::validate() const {
+    require_positive("recombination temperature", temperature);
+    require_positive("recombination_coefficient", recombination_coefficient);
+    require_positive("photon_energy", photon_energy);
+}
+
+// The defaults of RecombinationLimit are those of the standalone functions.
+static_assert(RecombinationLimit{}.temperature == RecombinationDefaults::temperature);
+static_assert(RecombinationLimit{}.recombination_coefficient ==
+              RecombinationDefaults::recombination_coefficient);
+static_assert(RecombinationLimit{}.photon_energy == RecombinationDefaults::photon_energy);
+
 void HydrodynamicOptions::validate() const {
     require_positive("efficiency", efficiency);
     if (efficiency > 1.0)
@@ -176,6 +196,14 @@ void HydrodynamicOptions::validate() const {
                              format_value(law.coefficient));
         require_finite(("diffusion exponent of " + name).c_str(), law.exponent);
     }
+    if (absorption) {
+        absorption->validate();
+        if (xuv_radius > 0.0)
+            throw InputError("xuv_radius " + format_value(xuv_radius) +
+                             " m and an absorption model are both given: choose one");
+    }
+    if (recombination)
+        recombination->validate();
 }
 
 } // namespace exosieve

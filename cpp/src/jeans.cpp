@@ -5,6 +5,7 @@
 #include <atomic>
 #include <cmath>
 #include <limits>
+#include <string>
 
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
@@ -152,12 +153,25 @@ void apply_tail(const TailDepletion& tail, const double* T, const double* m, con
 
 } // namespace
 
-TailDepletion::TailDepletion(double factor) : constant_(factor) {
+namespace {
+void require_depletion(const char* what, double factor, bool enhancement) {
+    if (factor > 1.0 && !enhancement)
+        throw InputError(std::string(what) + " must be <= 1 (a depletion of the Jeans flux), got " +
+                         format_value(factor) +
+                         "; a factor above 1 is an enhancement: give TailDepletion(..., "
+                         "enhancement=True) to allow it");
+}
+} // namespace
+
+TailDepletion::TailDepletion(double factor, bool enhancement)
+    : constant_(factor), enhancement_(enhancement) {
     require_positive("tail_depletion", factor);
+    require_depletion("tail_depletion", factor, enhancement);
 }
 
-TailDepletion::TailDepletion(std::vector<double> jeans_parameter, std::vector<double> factor)
-    : lambdas_(std::move(jeans_parameter)), factors_(std::move(factor)) {
+TailDepletion::TailDepletion(std::vector<double> jeans_parameter, std::vector<double> factor,
+                             bool enhancement)
+    : enhancement_(enhancement), lambdas_(std::move(jeans_parameter)), factors_(std::move(factor)) {
     if (lambdas_.size() != factors_.size() || lambdas_.empty())
         throw InputError("tail_depletion table: jeans_parameter and factor must be non-empty and "
                          "of equal length, got " +
@@ -166,6 +180,8 @@ TailDepletion::TailDepletion(std::vector<double> jeans_parameter, std::vector<do
     for (std::size_t i = 0; i < lambdas_.size(); ++i) {
         require_finite("tail_depletion jeans_parameter", lambdas_[i]);
         require_positive("tail_depletion factor", factors_[i]);
+        require_depletion(("tail_depletion factor[" + std::to_string(i) + "]").c_str(), factors_[i],
+                          enhancement);
         if (i > 0 && !(lambdas_[i] > lambdas_[i - 1]))
             throw InputError("tail_depletion jeans_parameter must be strictly increasing, got " +
                              format_value(lambdas_[i]) + " after " + format_value(lambdas_[i - 1]));

@@ -44,6 +44,7 @@ from .maxwell import (
 from .model import (
     REGIMES,
     EnergyLimitedEscape,
+    GivenLoss,
     Planet,
     PrescribedExobase,
     RegimeThresholds,
@@ -120,6 +121,7 @@ __all__ = [
     "PrescribedExobase",
     "TabulatedSource",
     "EnergyLimitedEscape",
+    "GivenLoss",
     "RegimeThresholds",
     "REGIMES",
     "classify_regime",

@@ -23,6 +23,7 @@ from .model import (
     _name,
     _scalar,
     _vector,
+    given_loss,
     source_rate,
     temperature_history,
 )
@@ -53,6 +54,7 @@ def evolve(
     limit_by_diffusion: bool = True,
     stepper: str = "auto",
     progress_every: int | None = None,
+    given_losses: Mapping[str, Any] | None = None,
 ) -> EvolutionResult:
     """Integrate the loss of each species' inventory over ``t_span``.
 
@@ -84,6 +86,14 @@ def evolve(
         (default 1e-3); the time is located on the dense output (TOMS 748).
     sources : mapping of str to float, TabulatedSource or (times, rates), optional
         Source of each named species [s^-1].
+    given_losses : mapping of str to float, GivenLoss or (times, rates), optional
+        Loss of each named species given by the user [particles s^-1], beyond thermal escape:
+        non-thermal (photochemical escape, ion pick-up, sputtering; not modelled by exosieve)
+        or external. A constant, a :class:`GivenLoss` (constant, table against time, or power
+        law in the XUV flux) or a ``(times, rates)`` table. Added to the thermal loss and
+        reported apart in ``result.given_loss_rate`` (``escape_rate`` stays thermal). A species
+        with a given loss is held at its depletion level once it reaches it (the loss does not
+        vanish with the inventory, which would reach zero in a finite time).
     hydrodynamic : EnergyLimitedEscape, optional
         Energy-limited hydrodynamic escape with drag of heavier species. It also takes over
         while an evolving :class:`Thermosphere` has no exobase (collisional out to its outer
@@ -91,7 +101,8 @@ def evolve(
     thresholds : RegimeThresholds, optional
         Jeans-parameter thresholds between regimes (Volkov et al. 2011 defaults).
     tail_depletion : float, tuple or TailDepletion, optional
-        Factor on every Jeans flux (default 1).
+        Factor on every Jeans flux (default 1), at most 1 unless given as
+        ``TailDepletion(factor, enhancement=True)``.
     isotope_ratios : sequence of (str, str), optional
         (numerator, denominator) pairs to report; default the known pairs present among the
         species (D/H, HD/H2, 3He/He, 36Ar/38Ar, 40Ar/36Ar).
@@ -198,6 +209,14 @@ def evolve(
         by_name = {_name(k): v for k, v in sources.items()}
         config.sources = [
             source_rate(by_name[n], n) if n in by_name else _core.SourceRate() for n in names
+        ]
+    if given_losses:
+        unknown = [_name(k) for k in given_losses if _name(k) not in names]
+        if unknown:
+            raise ValueError(f"given_losses: {', '.join(unknown)} not in the inventory")
+        given = {_name(k): v for k, v in given_losses.items()}
+        config.given_losses = [
+            given_loss(given[n], n) if n in given else _core.GivenLoss() for n in names
         ]
     if hydrodynamic is not None:
         if not isinstance(hydrodynamic, EnergyLimitedEscape):

@@ -5,7 +5,9 @@
 like numpy ufuncs, return a float for scalar input, and release the GIL while they compute.
 The flux functions take an optional ``tail_depletion``: a constant factor, a
 ``(jeans_parameters, factors)`` table (linear in lambda, held at the ends), or a
-:class:`TailDepletion`.
+:class:`TailDepletion`. Factors are at most 1 (a depleted tail); a factor above 1 is an
+enhancement and is refused unless given as ``TailDepletion(factor, enhancement=True)`` (or a
+table with ``enhancement=True``).
 """
 
 from __future__ import annotations

@@ -491,6 +491,88 @@ def source_rate(value: Any, name: str) -> Any:
     return _core.SourceRate(rate)
 
 
+class GivenLoss:
+    """A loss of one species that the user gives [particles s^-1], beyond thermal escape.
+
+    For non-thermal escape (photochemical escape, ion pick-up, sputtering), which exosieve does
+    not model, or any loss measured or modelled elsewhere. :func:`exosieve.evolve` adds it to the
+    thermal (Jeans or hydrodynamic) loss, ``dN/dt = S - Q - L``, and reports it apart, as
+    ``result.given_loss_rate``. It does not vanish with the inventory, so a species with a given
+    loss is held at its depletion level once it reaches it.
+
+    Build one with ``GivenLoss(rate)`` (constant [s^-1]), :meth:`table` or :meth:`xuv_power_law`.
+
+    Examples
+    --------
+    >>> GivenLoss(1e25)(0.0)
+    1e+25
+    >>> GivenLoss.table([0.0, 1e16], [1e26, 0.0])(5e15)
+    5e+25
+    >>> f"{GivenLoss.xuv_power_law(1e26, 1.0, 0.5)(0.0, xuv_flux=4.0):.6g}"
+    '2e+26'
+    """
+
+    def __init__(self, rate: float) -> None:
+        value = _finite(rate, "given loss rate", "s-1")
+        if not value >= 0.0:
+            raise ValueError(f"given loss rate must be >= 0 [s^-1], got {value!r}")
+        self.kind = "constant"
+        self.parameters: dict[str, Any] = {"rate": value}
+        self._core = _core.GivenLoss(value)
+
+    @classmethod
+    def table(cls, times: ArrayLike, rates: ArrayLike) -> GivenLoss:
+        """Rates [s^-1] (>= 0) against strictly increasing times [s], linear between points and
+        held at the ends."""
+        t = _finite_vector(times, "times", "s")
+        r = _finite_vector(rates, "rates", "s-1")
+        self = cls.__new__(cls)
+        self.kind = "table"
+        self.parameters = {"times": t, "rates": r}
+        self._core = _core.GivenLoss(t, r)
+        return self
+
+    @classmethod
+    def xuv_power_law(
+        cls, reference_rate: float, reference_flux: float, exponent: float
+    ) -> GivenLoss:
+        """``L = reference_rate (F_xuv / reference_flux)^exponent``: reference_rate [s^-1]
+        (>= 0) at reference_flux [W m^-2] (> 0), exponent [1]. Needs the planet's star."""
+        rate = _finite(reference_rate, "reference_rate", "s-1")
+        flux = _finite(reference_flux, "reference_flux", "W m-2")
+        p = _finite(exponent, "exponent", "1")
+        self = cls.__new__(cls)
+        self.kind = "xuv_power_law"
+        self.parameters = {"reference_rate": rate, "reference_flux": flux, "exponent": p}
+        self._core = _core.GivenLoss.xuv_power_law(rate, flux, p)
+        return self
+
+    def __call__(self, t: float, xuv_flux: float = 0.0) -> float:
+        """Rate [s^-1] at time ``t`` [s] and XUV flux ``xuv_flux`` [W m^-2] (power law only)."""
+        return float(self._core(_finite(t, "t", "s"), _finite(xuv_flux, "xuv_flux", "W m-2")))
+
+    def __repr__(self) -> str:
+        args = ", ".join(f"{k}={v!r}" for k, v in self.parameters.items())
+        return f"GivenLoss.{self.kind}({args})" if self.kind != "constant" else f"GivenLoss({args})"
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        if self.kind == "constant":
+            return (GivenLoss, (self.parameters["rate"],))
+        return (getattr(GivenLoss, self.kind), tuple(self.parameters.values()))
+
+
+def given_loss(value: Any, name: str) -> Any:
+    """The core given loss for a float rate [s^-1], a GivenLoss or a (times, rates) pair."""
+    if isinstance(value, GivenLoss):
+        return value._core
+    if isinstance(value, tuple) and len(value) == 2:
+        return GivenLoss.table(*value)._core
+    rate = _scalar(value, f"given loss of {name}", "s-1")
+    if not (math.isfinite(rate) and rate >= 0.0):
+        raise ValueError(f"given loss of {name} must be finite and >= 0 [s^-1], got {rate!r}")
+    return _core.GivenLoss(rate)
+
+
 DiffusionLike = float | tuple[float, float]
 
 
@@ -523,6 +605,19 @@ class EnergyLimitedEscape:
     diffusion : mapping of str to float or (float, float), optional
         Binary diffusion parameter ``b`` of each dragged species in the light gas
         [m^-1 s^-1]: a constant, or ``(A, s)`` for ``b = A (T / 1 K)^s``.
+    absorption : mapping, optional
+        Absorb the XUV at the radius where its optical depth is one in an isothermal,
+        exponential atmosphere above the planet radius (``exosieve.xuv_absorption_radius``),
+        instead of at ``xuv_radius`` (give one or the other): keys ``base_density`` [m^-3] at
+        the planet radius, ``cross_section`` [m^2], ``mean_molecular_mass`` [kg] and optionally
+        ``temperature`` [K] (default: the exobase temperature at each instant) and ``chord``
+        (optical depth along a grazing chord, default False). The scale height is taken at the
+        planet radius.
+    recombination_limit : bool or mapping, optional
+        Cap the energy-limited rate by the recombination-limited rate of Murray-Clay, Chiang &
+        Murray (2009) (``exosieve.xuv_driven_mass_loss``: the smaller of the two, with the
+        planet radius as the wind base). True takes its defaults; a mapping may set
+        ``temperature`` [K], ``recombination_coefficient`` [m^3 s^-1] and ``photon_energy`` [J].
 
     Examples
     --------
@@ -538,6 +633,8 @@ class EnergyLimitedEscape:
         escaping_species: str | None = None,
         activation: str = "hydrodynamic",
         diffusion: Mapping[str, DiffusionLike] | None = None,
+        absorption: Mapping[str, Any] | None = None,
+        recombination_limit: bool | Mapping[str, float] = False,
     ) -> None:
         if activation not in ("hydrodynamic", "transition", "always"):
             raise ValueError(
@@ -558,6 +655,58 @@ class EnergyLimitedEscape:
                 _scalar(a, f"diffusion coefficient of {name}", "m-1 s-1"),
                 float(s),
             )
+        self.absorption: dict[str, Any] | None = None
+        core_absorption = None
+        if absorption is not None:
+            if not isinstance(absorption, Mapping):
+                raise ValueError(f"absorption must be a mapping, got {absorption!r}")
+            known = {"base_density", "cross_section", "mean_molecular_mass", "temperature", "chord"}
+            unknown = sorted(set(absorption) - known)
+            if unknown:
+                raise ValueError(
+                    f"absorption: unknown keys {unknown}; known: {', '.join(sorted(known))}"
+                )
+            missing = sorted(
+                {"base_density", "cross_section", "mean_molecular_mass"} - set(absorption)
+            )
+            if missing:
+                raise ValueError(f"absorption: missing {', '.join(missing)}")
+            self.absorption = {
+                "base_density": _scalar(absorption["base_density"], "base_density", "m-3"),
+                "cross_section": _scalar(absorption["cross_section"], "cross_section", "m2"),
+                "mean_molecular_mass": _scalar(
+                    absorption["mean_molecular_mass"], "mean_molecular_mass", "kg"
+                ),
+                "temperature": _scalar(absorption.get("temperature", 0.0), "temperature", "K"),
+                "chord": bool(absorption.get("chord", False)),
+            }
+            core_absorption = _core.XuvAbsorption(**self.absorption)
+        self.recombination_limit: dict[str, float] | None = None
+        core_recombination = None
+        if isinstance(recombination_limit, Mapping):
+            known = {"temperature", "recombination_coefficient", "photon_energy"}
+            unknown = sorted(set(recombination_limit) - known)
+            if unknown:
+                raise ValueError(
+                    f"recombination_limit: unknown keys {unknown}; "
+                    f"known: {', '.join(sorted(known))}"
+                )
+            units = {
+                "temperature": "K",
+                "recombination_coefficient": "m3 s-1",
+                "photon_energy": "J",
+            }
+            self.recombination_limit = {
+                k: _scalar(v, k, units[k]) for k, v in recombination_limit.items()
+            }
+            core_recombination = _core.RecombinationLimit(**self.recombination_limit)
+        elif recombination_limit is True:
+            self.recombination_limit = {}
+            core_recombination = _core.RecombinationLimit()
+        elif recombination_limit is not False:
+            raise ValueError(
+                f"recombination_limit must be True, False or a mapping, got {recombination_limit!r}"
+            )
         self._core = _core.HydrodynamicOptions(
             self.efficiency,
             0.0 if self.xuv_radius is None else self.xuv_radius,
@@ -565,6 +714,8 @@ class EnergyLimitedEscape:
             escaping_species or "",
             getattr(_core.HydrodynamicActivation, activation),
             [(k, _core.DiffusionLaw(a, s)) for k, (a, s) in self.diffusion.items()],
+            core_absorption,
+            core_recombination,
         )
 
     def __reduce__(self) -> tuple[Any, ...]:
@@ -577,6 +728,8 @@ class EnergyLimitedEscape:
                 self.escaping_species,
                 self.activation,
                 self.diffusion,
+                self.absorption,
+                False if self.recombination_limit is None else self.recombination_limit or True,
             ),
         )
 
@@ -585,7 +738,8 @@ class EnergyLimitedEscape:
             f"EnergyLimitedEscape(efficiency={self.efficiency!r}, "
             f"xuv_radius={self.xuv_radius!r}, roche_lobe={self.roche_lobe!r}, "
             f"escaping_species={self.escaping_species!r}, activation={self.activation!r}, "
-            f"diffusion={self.diffusion!r})"
+            f"diffusion={self.diffusion!r}, absorption={self.absorption!r}, "
+            f"recombination_limit={self.recombination_limit!r})"
         )
 
 

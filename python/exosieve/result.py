@@ -27,6 +27,7 @@ SPECIES_VARIABLES: dict[str, tuple[str, str]] = {
     "inventory": ("1", "number of particles in the inventory"),
     "escape_rate": ("s-1", "global escape rate"),
     "source_rate": ("s-1", "source rate"),
+    "given_loss_rate": ("s-1", "given (non-thermal or external) loss rate"),
     "jeans_parameter": ("1", "Jeans parameter at the exobase"),
 }
 #: Per-time variables: name -> (units, long_name).
@@ -93,9 +94,11 @@ class EvolutionResult:
         Output times (stellar age) [s].
     species : list of str
         Species names.
-    inventory, escape_rate, source_rate, jeans_parameter : PerName
-        Per species: particles [1], escape rate [s^-1], source rate [s^-1], Jeans parameter at
-        the exobase [1]; ``result.inventory["H"]`` is an array over time.
+    inventory, escape_rate, source_rate, given_loss_rate, jeans_parameter : PerName
+        Per species: particles [1], thermal escape rate [s^-1], source rate [s^-1], the given
+        (non-thermal or external) loss rate [s^-1], Jeans parameter at the exobase [1];
+        ``result.inventory["H"]`` is an array over time. The total loss is
+        ``escape_rate + given_loss_rate``.
     isotope_ratio : PerName
         Ratios such as ``"D/H"`` over time [1].
     exobase_radius, exobase_temperature, xuv_flux : ndarray
@@ -156,6 +159,7 @@ class EvolutionResult:
     inventory: PerName
     escape_rate: PerName
     source_rate: PerName
+    given_loss_rate: PerName
     jeans_parameter: PerName
     exobase_radius: NDArray[np.float64]
     exobase_temperature: NDArray[np.float64]
@@ -171,6 +175,7 @@ class EvolutionResult:
                 "inventory": raw.inventory,
                 "escape_rate": raw.escape_rate,
                 "source_rate": raw.source_rate,
+                "given_loss_rate": raw.given_loss_rate,
                 "jeans_parameter": raw.jeans_parameter,
                 "isotope_ratio": raw.isotope_ratio,
                 "exobase_radius": raw.exobase_radius,
@@ -378,7 +383,10 @@ def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
                 "t_reached",
             ]
         ):
-            data[name] = f[name][()]
+            if name == "given_loss_rate" and name not in f:
+                data[name] = np.zeros(f["inventory"].shape)  # files from before given losses
+            else:
+                data[name] = f[name][()]
         data["isotope_ratio"] = f["isotope_ratio"][()] if ratios else np.empty((len(time), 0))
         data["config"] = text(f.attrs["config"])
         data["stepper"] = text(f.attrs.get("stepper", ""))

@@ -10,7 +10,9 @@
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/evolution.hpp"
+#include "exosieve/hydrodynamic.hpp"
 #include "exosieve/jeans.hpp"
+#include "exosieve/outflow.hpp"
 #include "exosieve/thermosphere.hpp"
 
 using namespace exosieve;
@@ -582,4 +584,99 @@ TEST_CASE("Rosenbrock4 reproduces the analytic solutions of Dopri5's tests") {
     CHECK(r.inventory[0] == doctest::Approx(Q0 * Gyr).epsilon(1e-8));
     CHECK(r.depletion_time[0] == doctest::Approx((1 - 1e-3) * 2 * Gyr).epsilon(1e-8));
     CHECK(r.inventory[1] == doctest::Approx(1e-3 * 2 * Q0 * Gyr).epsilon(1e-9));
+}
+
+TEST_CASE("a constant given loss on top of a proportional loss: the exact solution") {
+    // Worked analytic solution: dN/dt = -k N - G gives N(t) = (N0 + G/k) e^(-k t) - G/k,
+    // depleted (N = f N0) at t_d = ln((N0 + G/k) / (f N0 + G/k)) / k and held there after.
+    const double T = 1000.0, n0 = 1e11, f = 1e-3;
+    const double Q0 = rate("H", n0, T);
+    const double N0 = Q0 * 1.0 * Gyr;
+    const double k = Q0 / N0, G = 0.5 * Q0;
+    auto c = prescribed({"H"}, {n0}, {N0}, DensityScaling::Inventory, T);
+    c.given_losses = {GivenLoss(G)};
+    c.t_end = 10 * Gyr;
+    c.rtol = 1e-10;
+    c.depletion_fraction = f;
+    for (int i = 0; i <= 20; ++i)
+        c.t_eval.push_back(0.5 * i * Gyr);
+    const auto r = evolve(c);
+    const double t_d = std::log((N0 + G / k) / (f * N0 + G / k)) / k;
+    CHECK(r.depletion_time[0] == doctest::Approx(t_d).epsilon(1e-8));
+    for (std::size_t i = 0; i < r.time_count(); ++i) {
+        const double t = r.time[i];
+        if (t < t_d) {
+            const double exact = (N0 + G / k) * std::exp(-k * t) - G / k;
+            CHECK(std::abs(r.inventory[i] - exact) < 1e-9 * (exact + G / k));
+            CHECK(r.escape_rate[i] == doctest::Approx(k * r.inventory[i]).epsilon(1e-9));
+            CHECK(r.given_loss_rate[i] == G);
+        } else {
+            CHECK(r.inventory[i] == doctest::Approx(f * N0).epsilon(1e-8));
+            CHECK(r.given_loss_rate[i] == 0.0);
+        }
+    }
+}
+
+TEST_CASE("given losses: bad input and their forms") {
+    CHECK_THROWS_AS(GivenLoss(-1.0), InputError);
+    CHECK_THROWS_AS(GivenLoss({0.0, 1.0}, {1.0, -1.0}), InputError);
+    CHECK_THROWS_AS(GivenLoss::xuv_power_law(1.0, 0.0, 1.0), InputError);
+    CHECK(GivenLoss({0.0, 2.0}, {0.0, 4.0})(1.0, 0.0) == doctest::Approx(2.0));
+    // L_ref (F / F_ref)^p at F = 4 F_ref, p = 1.5: 8 L_ref (worked by hand).
+    const auto law = GivenLoss::xuv_power_law(3.0, 2.0, 1.5);
+    CHECK(law(0.0, std::log(8.0)) == doctest::Approx(24.0).epsilon(1e-14));
+    CHECK(law.needs_xuv_flux());
+    CHECK(GivenLoss().is_zero());
+    auto c = prescribed({"H"}, {1e11}, {1e30}, DensityScaling::Inventory, 1000.0);
+    c.t_end = Gyr;
+    c.given_losses = {GivenLoss(1.0), GivenLoss(1.0)};
+    CHECK_THROWS_WITH_AS(c.validate(), doctest::Contains("given_losses"), InputError);
+    c.given_losses = {law};
+    CHECK_THROWS_WITH_AS(c.validate(), doctest::Contains("needs the planet's semi_major_axis"),
+                         InputError);
+}
+
+TEST_CASE("energy-limited loss at the XUV absorption radius, capped by recombination") {
+    // During saturation the flux is constant, so the light species loses Mdot / m_H per second
+    // with Mdot the standalone xuv_driven_mass_loss at the radius of xuv_absorption_radius
+    // (outflow.hpp; worked: linear loss).
+    XuvHistory x;
+    x.saturation_time = 100 * Myr;
+    const Star star(constants::M_sun, constants::L_sun, x);
+    const Planet planet(5 * constants::M_earth, 2.5 * constants::R_earth, 0.02 * constants::au,
+                        star);
+    EvolutionConfig c(planet);
+    c.species = {species("H")};
+    c.initial_inventory = {1e52};
+    c.exobase =
+        std::make_shared<PrescribedExobase>(1.1 * planet.radius(), std::vector<std::string>{"H"},
+                                            std::vector<double>{1e13}, DensityScaling::Inventory);
+    c.temperature = ExobaseTemperature::constant(3000.0);
+    HydrodynamicOptions h;
+    h.activation = HydrodynamicActivation::Always;
+    h.roche_lobe = false;
+    XuvAbsorption a;
+    a.base_density = 1e17;
+    a.cross_section = 2e-22;
+    a.mean_molecular_mass = 2.3 * 1.66053906660e-27;
+    h.absorption = a; // at the exobase temperature, 3000 K
+    h.recombination = RecombinationLimit{};
+    c.hydrodynamic = h;
+    c.t_start = 10 * Myr;
+    c.t_end = 90 * Myr;
+    c.rtol = 1e-10;
+    c.t_eval = {10 * Myr, 90 * Myr};
+    const auto r = evolve(c);
+    const double H = scale_height(3000.0, a.mean_molecular_mass, planet.mass(), planet.radius());
+    const double r_xuv = xuv_absorption_radius(planet.radius(), a.base_density, H, a.cross_section);
+    CHECK(r_xuv > 1.05 * planet.radius());
+    const double F = planet.xuv_flux(50 * Myr);
+    const double mdot = xuv_driven_mass_loss(0.15, planet.radius(), r_xuv, F, planet.mass(), 1.0);
+    const double limited = energy_limited_mass_loss(0.15, planet.radius(), r_xuv, F, planet.mass());
+    CHECK(mdot < 0.9 * limited); // the cap acts
+    const double q = mdot / species("H").mass;
+    CHECK(r.escape_rate[0] == doctest::Approx(q).epsilon(1e-12));
+    CHECK(r.inventory[1] == doctest::Approx(1e52 - q * 80 * Myr).epsilon(1e-9));
+    h.xuv_radius = 2.0 * planet.radius();
+    CHECK_THROWS_AS(h.validate(), InputError); // a radius and an absorption model
 }

@@ -117,6 +117,11 @@ TEST_CASE("tail depletion: constant and tabulated factors") {
     CHECK(jeans_flux(n, T, m_H, M_planet, r_exo, table) == doctest::Approx(table(lambda) * plain));
     CHECK_THROWS_AS(TailDepletion({2.0, 1.0}, {0.5, 0.9}), InputError);
     CHECK_THROWS_AS(TailDepletion(0.0), InputError);
+    // A factor above 1 is an enhancement, refused unless said so.
+    CHECK_THROWS_WITH_AS(TailDepletion(1.5), doctest::Contains("got 1.5"), InputError);
+    CHECK_THROWS_AS(TailDepletion({2.0, 10.0}, {0.5, 1.2}), InputError);
+    CHECK(TailDepletion(1.5, true)(3.0) == 1.5);
+    CHECK(TailDepletion({2.0, 10.0}, {1.0, 2.0}, true)(6.0) == doctest::Approx(1.5));
 }
 
 TEST_CASE("array kernels: equal to scalar forms, broadcast, threaded for long arrays") {

@@ -12,6 +12,7 @@
 //! the one of a linear-N integration with tolerances (rtol, atol_i):
 //! |err(y_i)| <= rtol + atol_i / N_i.
 
+#include <cmath>
 #include <cstddef>
 #include <functional>
 #include <limits>
@@ -53,6 +54,58 @@ class SourceRate {
     TimeTable table_;
 };
 
+//! A loss of one species that the user gives [particles s^-1], beyond thermal escape: non-thermal
+//! (photochemical escape, ion pick-up, sputtering) or external (measured or modelled elsewhere).
+//! Added to the thermal escape rate: dN_i/dt = S_i - Q_i - L_i(t). Constant, a table against
+//! time (linear, held at the ends) or a power law in the planet's XUV flux,
+//! L = L_ref (F_xuv / F_ref)^p. It does not vanish with the inventory, so a species with a given
+//! loss is held at its depletion level once it reaches it.
+class GivenLoss {
+  public:
+    //! The kind of loss.
+    enum class Kind { None, Constant, Table, XuvPowerLaw };
+
+    //! No loss.
+    GivenLoss() = default;
+    //! Constant rate [s^-1] (finite, >= 0).
+    explicit GivenLoss(double rate);
+    //! Rates [s^-1] (finite, >= 0) against strictly increasing times [s].
+    GivenLoss(std::vector<double> times, std::vector<double> rates);
+    //! L_ref (F_xuv / F_ref)^p: reference_rate L_ref [s^-1] (>= 0), reference_flux F_ref
+    //! [W m^-2] (> 0), exponent p [1] (finite). Needs the planet's star.
+    static GivenLoss xuv_power_law(double reference_rate, double reference_flux, double exponent);
+
+    //! Rate [s^-1] at time t [s], with ln F_xuv [ln W m^-2] at t (used by the power law only).
+    double operator()(double t, double log_flux) const {
+        switch (kind_) {
+        case Kind::None:
+            return 0.0;
+        case Kind::Constant:
+            return rate_;
+        case Kind::Table:
+            return table_(t);
+        case Kind::XuvPowerLaw:
+            return rate_ > 0.0 ? std::exp(log_rate_ + exponent_ * (log_flux - log_flux_ref_)) : 0.0;
+        }
+        return 0.0;
+    }
+    //! The kind of loss.
+    Kind kind() const { return kind_; }
+    //! True when the rate is zero at all times.
+    bool is_zero() const { return kind_ == Kind::None || (kind_ != Kind::Table && rate_ == 0.0); }
+    //! True when the rate depends on the XUV flux.
+    bool needs_xuv_flux() const { return kind_ == Kind::XuvPowerLaw; }
+    //! The table (empty unless tabulated).
+    const TimeTable& table() const { return table_; }
+    //! JSON description.
+    std::string to_json() const;
+
+  private:
+    Kind kind_ = Kind::None;
+    double rate_ = 0.0, log_rate_ = 0.0, log_flux_ref_ = 0.0, exponent_ = 0.0;
+    TimeTable table_;
+};
+
 //! Which Odeint stepper integrates ln N.
 enum class StepperKind : int {
     Auto = 0,       //!< Rosenbrock4 when any species has a source, else Dopri5 (default)
@@ -68,9 +121,10 @@ struct EvolutionConfig {
     Planet planet;                         //!< the planet (and its star, for XUV-driven models)
     std::vector<Species> species;          //!< the species, in the exobase model's order
     std::vector<double> initial_inventory; //!< N_i(t_start) [particles] (> 0)
-    std::shared_ptr<const ExobaseModel> exobase;     //!< exobase radius and densities
-    ExobaseTemperature temperature;                  //!< exobase temperature history
-    std::vector<SourceRate> sources;                 //!< empty or one per species [s^-1]
+    std::shared_ptr<const ExobaseModel> exobase; //!< exobase radius and densities
+    ExobaseTemperature temperature;              //!< exobase temperature history
+    std::vector<SourceRate> sources;             //!< empty or one per species [s^-1]
+    std::vector<GivenLoss> given_losses;         //!< empty or one per species: losses given [s^-1]
     std::optional<HydrodynamicOptions> hydrodynamic; //!< energy-limited loss with drag
     RegimeThresholds thresholds;                     //!< Jeans-parameter regime thresholds
     TailDepletion tail;                              //!< factor on every Jeans flux
@@ -107,13 +161,15 @@ struct RegimeChange {
     Regime to;   //!< regime after
 };
 
-//! Output of evolve(): time series (row-major, time x species) and diagnostics.
+//! Output of evolve(): time series (row-major, time x species) and diagnostics. escape_rate is
+//! the thermal (Jeans or hydrodynamic) loss alone; given_loss_rate holds the given losses.
 struct EvolutionResult {
     std::vector<std::string> species;         //!< species names
     std::vector<double> time;                 //!< output times [s]
     std::vector<double> inventory;            //!< N_i [particles], time x species
     std::vector<double> escape_rate;          //!< Q_i [s^-1], time x species
     std::vector<double> source_rate;          //!< S_i [s^-1], time x species
+    std::vector<double> given_loss_rate;      //!< L_i, the given losses [s^-1], time x species
     std::vector<double> jeans_parameter;      //!< lambda_i at the exobase [1], time x species
     std::vector<double> exobase_radius;       //!< [m], per time
     std::vector<double> exobase_temperature;  //!< [K], per time
@@ -149,12 +205,12 @@ default_isotope_ratios(const std::vector<std::string>& species);
 
 //! Write a result to an HDF5 file at `path` (atomically: temporary file, then rename).
 //! Dimensions `time` [s], `species` and (when there are isotope ratios) `ratio`; variables
-//! inventory, escape_rate, source_rate, jeans_parameter (time x species), exobase_radius,
-//! exobase_temperature, xuv_flux, regime (flag_values / flag_meanings), energy_limited (time),
-//! isotope_ratio (time x ratio), depletion_time (NaN where not reached), initial_inventory,
-//! species_mass (species), and the scalars steps, rejected_steps, rhs_evaluations, completed,
-//! t_reached; units and long_name on every variable; global attributes `config` (model JSON)
-//! and `regime_changes` (JSON list).
+//! inventory, escape_rate, source_rate, given_loss_rate, jeans_parameter (time x species),
+//! exobase_radius, exobase_temperature, xuv_flux, regime (flag_values / flag_meanings),
+//! energy_limited (time), isotope_ratio (time x ratio), depletion_time (NaN where not reached),
+//! initial_inventory, species_mass (species), and the scalars steps, rejected_steps,
+//! rhs_evaluations, completed, t_reached; units and long_name on every variable; global attributes
+//! `config` (model JSON) and `regime_changes` (JSON list).
 void write_result(const EvolutionResult& result, const std::string& path);
 
 } // namespace exosieve

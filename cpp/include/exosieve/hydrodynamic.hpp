@@ -5,6 +5,7 @@
 //! light one.
 
 #include <cstddef>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -91,6 +92,32 @@ enum class HydrodynamicActivation : int {
     Always = 2,       //!< throughout the run
 };
 
+//! The radius where the XUV is absorbed, from an isothermal exponential atmosphere above the
+//! planet radius (xuv_absorption_radius, outflow.hpp): r = R_p + H ln(sigma n0 H) for a vertical
+//! optical depth of one, H = k T R_p^2 / (m G M_p) at the planet radius.
+struct XuvAbsorption {
+    double base_density = 0.0;        //!< n0 at the planet radius [m^-3] (> 0)
+    double cross_section = 0.0;       //!< XUV absorption cross-section sigma [m^2] (> 0)
+    double mean_molecular_mass = 0.0; //!< mean molecular mass of the absorbing gas [kg] (> 0)
+    //! Temperature of the absorbing layer [K]; 0: the exobase temperature at each instant.
+    double temperature = 0.0;
+    bool chord = false; //!< optical depth one along a grazing chord instead of vertically
+
+    //! Throw InputError for a value out of range.
+    void validate() const;
+};
+
+//! Cap of the energy-limited rate by the recombination-limited rate (Murray-Clay, Chiang &
+//! Murray 2009; recombination_limited_mass_loss, outflow.hpp).
+struct RecombinationLimit {
+    double temperature = 1e4;                      //!< wind temperature [K] (RecombinationDefaults)
+    double recombination_coefficient = 2.59e-19;   //!< case B alpha_B [m^3 s^-1]
+    double photon_energy = 20.0 * 1.602176634e-19; //!< mean ionising photon energy [J]
+
+    //! Throw InputError for a value out of range.
+    void validate() const;
+};
+
 //! Options of energy-limited hydrodynamic escape with drag.
 struct HydrodynamicOptions {
     double efficiency = 0.15;     //!< heating efficiency eta [1] (common practice: 0.1–0.3)
@@ -104,6 +131,10 @@ struct HydrodynamicOptions {
     //! Diffusion law of dragged species in the light gas, by species name; a zero coefficient
     //! means that species is not dragged (it keeps its Jeans rate).
     std::vector<std::pair<std::string, DiffusionLaw>> diffusion;
+    //! Absorb the XUV at the radius of optical depth one instead of `xuv_radius` (exclusive).
+    std::optional<XuvAbsorption> absorption;
+    //! Take the smaller of the energy-limited and the recombination-limited rate.
+    std::optional<RecombinationLimit> recombination;
 
     //! Throw InputError for an efficiency outside (0, 1] or a negative radius or coefficient.
     void validate() const;

@@ -16,14 +16,18 @@ namespace exosieve {
 
 //! Multiplier on the Jeans flux for a Maxwellian tail depleted by escape.
 //! Either a constant or a table against the Jeans parameter (linear, held at the ends).
+//! A depletion is a factor <= 1; a factor above 1 (an enhancement over the Jeans rate) is
+//! refused unless `enhancement` is true.
 class TailDepletion {
   public:
     //! No depletion: factor 1.
     TailDepletion() = default;
-    //! Constant factor (finite, > 0).
-    explicit TailDepletion(double factor);
-    //! Table of factors against strictly increasing Jeans parameters.
-    TailDepletion(std::vector<double> jeans_parameter, std::vector<double> factor);
+    //! Constant factor (finite, > 0; <= 1 unless `enhancement`).
+    explicit TailDepletion(double factor, bool enhancement = false);
+    //! Table of factors (finite, > 0; <= 1 unless `enhancement`) against strictly increasing
+    //! Jeans parameters.
+    TailDepletion(std::vector<double> jeans_parameter, std::vector<double> factor,
+                  bool enhancement = false);
 
     //! Factor at Jeans parameter `lambda` [1].
     double operator()(double lambda) const;
@@ -33,9 +37,12 @@ class TailDepletion {
     const std::vector<double>& table_jeans_parameter() const { return lambdas_; }
     const std::vector<double>& table_factor() const { return factors_; }
     double constant() const { return constant_; }
+    //! True when factors above 1 were allowed.
+    bool enhancement() const { return enhancement_; }
 
   private:
     double constant_ = 1.0;
+    bool enhancement_ = false;
     std::vector<double> lambdas_;
     std::vector<double> factors_;
 };
