@@ -318,9 +318,12 @@ const Thermosphere::Column& Thermosphere::column_cache() const {
 }
 
 double Thermosphere::column(double r) const {
-    if (profile_.kind() == TemperatureProfile::Kind::isothermal)
-        return amu * G * planet_mass_ / (k_B * profile_.asymptotic_temperature()) *
-               (1.0 / homopause_radius_ - 1.0 / r);
+    if (profile_.kind() == TemperatureProfile::Kind::isothermal) {
+        const double span = 1.0 / homopause_radius_ - 1.0 / r;
+        if (!(span > 0.0)) // at the homopause (or NaN): no column, even if 1 / H overflows
+            return std::isnan(span) ? span : 0.0;
+        return amu * G * planet_mass_ / (k_B * profile_.asymptotic_temperature()) * span;
+    }
     if (std::isnan(r))
         return r;
     const Column& col = column_cache();

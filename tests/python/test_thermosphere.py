@@ -443,3 +443,22 @@ def test_bad_radius_and_bulk_input():
         exosieve.solve_thermospheres(M_EARTH, R_EARTH, R_EARTH + 1e5, 1e18, COMP, 900.0, 300.0)
     with pytest.raises(ValueError, match="threads must be an integer >= 0"):
         exosieve.solve_thermospheres(M_EARTH, R_EARTH, R_EARTH + 1e5, 1e18, COMP, 900.0, threads=-1)
+
+
+@pytest.mark.parametrize("temperature", [1e-300, 1e-100, 1e300])
+def test_isothermal_density_at_extreme_temperatures_is_never_nan(temperature):
+    # At the homopause the barometric law gives x n_h exactly (no column); at T = 1e-300 K the
+    # scale height kT/(mg) underflows and 1/H is infinite, which must not make 0 * inf = NaN.
+    # Above it the density falls to 0 at 1e-300 K (H ~ 1e-320 m) and stays x n_h at 1e300 K.
+    planet = exosieve.Planet(M_EARTH, R_EARTH)
+    rh = R_EARTH + 100e3
+    th = exosieve.Thermosphere(
+        planet, rh, 1e18, {"N2": 0.9, "H": 0.1}, exobase_temperature=temperature
+    )
+    assert th.density("H", rh) == pytest.approx(0.1 * 1e18, rel=1e-15)
+    above = th.density("H", 2 * rh)
+    assert not np.isnan(above)
+    if temperature < 1:
+        assert above == 0.0
+    else:
+        assert above == pytest.approx(0.1 * 1e18, rel=1e-12)
