@@ -327,8 +327,13 @@ double Thermosphere::column(double r) const {
     if (std::isnan(r))
         return r;
     const Column& col = column_cache();
+    // The column grows from 0 at the homopause; NaN from finite inputs is inf - inf, where a
+    // near-zero temperature (T ~ 1e-300 K) makes it overflow: beyond the double range.
+    auto grown = [](double u) {
+        return std::isnan(u) ? std::numeric_limits<double>::infinity() : u;
+    };
     if (r >= col.r_end)
-        return col.u_end + col.c_over_T_end * (1.0 / col.r_end - 1.0 / r);
+        return grown(col.u_end + col.c_over_T_end * (1.0 / col.r_end - 1.0 / r));
     if (col.nodes.size() < 2 || r <= col.nodes.front())
         return 0.0;
     // nodes.front() < r < r_end = nodes.back(): 1 <= hi <= size - 1.
@@ -339,7 +344,7 @@ double Thermosphere::column(double r) const {
     const std::size_t k = hi - 1;
     const double t = (r - col.nodes[k]) / (col.nodes[hi] - col.nodes[k]);
     const auto& a = col.coeff[k];
-    return a[0] + t * (a[1] + t * (a[2] + t * (a[3] + t * (a[4] + t * a[5]))));
+    return grown(a[0] + t * (a[1] + t * (a[2] + t * (a[3] + t * (a[4] + t * a[5])))));
 }
 
 double Thermosphere::temperature(double r) const {

@@ -445,20 +445,36 @@ def test_bad_radius_and_bulk_input():
         exosieve.solve_thermospheres(M_EARTH, R_EARTH, R_EARTH + 1e5, 1e18, COMP, 900.0, threads=-1)
 
 
+@pytest.mark.parametrize("profile", ["isothermal", "bates", "table"])
 @pytest.mark.parametrize("temperature", [1e-300, 1e-100, 1e300])
-def test_isothermal_density_at_extreme_temperatures_is_never_nan(temperature):
-    # At the homopause the barometric law gives x n_h exactly (no column); at T = 1e-300 K the
-    # scale height kT/(mg) underflows and 1/H is infinite, which must not make 0 * inf = NaN.
-    # Above it the density falls to 0 at 1e-300 K (H ~ 1e-320 m) and stays x n_h at 1e300 K.
+def test_density_at_extreme_temperatures_is_never_nan(temperature, profile):
+    # At the homopause the barometric law gives x n_h exactly (no column). At T = 1e-300 K the
+    # scale height kT/(mg) underflows: 1/H and the column overflow, which must give a density
+    # of 0 above the homopause, never 0 * inf or inf - inf = NaN. At 1e300 K the column is
+    # negligible and the density stays x n_h.
     planet = exosieve.Planet(M_EARTH, R_EARTH)
     rh = R_EARTH + 100e3
-    th = exosieve.Thermosphere(
-        planet, rh, 1e18, {"N2": 0.9, "H": 0.1}, exobase_temperature=temperature
-    )
-    assert th.density("H", rh) == pytest.approx(0.1 * 1e18, rel=1e-15)
-    above = th.density("H", 2 * rh)
-    assert not np.isnan(above)
-    if temperature < 1:
-        assert above == 0.0
+    gas = {"N2": 0.9, "H": 0.1}
+    if profile == "isothermal":
+        th = exosieve.Thermosphere(planet, rh, 1e18, gas, exobase_temperature=temperature)
+    elif profile == "bates":
+        th = exosieve.Thermosphere(
+            planet,
+            rh,
+            1e18,
+            gas,
+            temperature,
+            homopause_temperature=temperature / 2,
+            shape=1 / rh,
+        )
     else:
-        assert above == pytest.approx(0.1 * 1e18, rel=1e-12)
+        table = ([rh, 2 * rh, 10 * rh], [temperature / 2, temperature, temperature])
+        th = exosieve.Thermosphere(planet, rh, 1e18, gas, temperature_table=table)
+    assert th.density("H", rh) == pytest.approx(0.1 * 1e18, rel=1e-15)
+    for r in (1.5 * rh, 3 * rh, 100 * rh):
+        above = th.density("H", r)
+        assert not np.isnan(above), r
+        if temperature < 1:
+            assert above == 0.0
+        elif profile == "isothermal":
+            assert above == pytest.approx(0.1 * 1e18, rel=1e-12)
