@@ -139,6 +139,28 @@ void bind_batch(py::module_& m) {
         "Parameters a case may carry: (name, SI unit, meaning, required, uncertain).");
 
     m.def(
+        "species_parameters",
+        []() {
+            py::list out;
+            for (const CaseParameter& p : species_parameters())
+                out.append(py::make_tuple(p.name, p.unit, p.meaning, p.required, p.uncertain));
+            return out;
+        },
+        "Per-species parameters, columns '<prefix><species>', in slot order: (name as "
+        "'<prefix><species>', SI unit, meaning, required, uncertain).");
+
+    m.def(
+        "case_parameter_groups",
+        []() {
+            py::list out;
+            for (const CaseParameterGroup& g : case_parameter_groups())
+                out.append(py::make_tuple(g.heading, g.first, g.species));
+            return out;
+        },
+        "Groups of the parameters: (heading, first parameter of case_parameters() in the group, "
+        "per-species parameters listed with it).");
+
+    m.def(
         "check_case_table",
         [](const CaseTable& t, const BatchOptions& o) {
             py::gil_scoped_release release;

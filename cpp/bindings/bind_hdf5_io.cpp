@@ -419,6 +419,14 @@ void bind_hdf5_io(py::module_& m) {
         py::arg("path"), py::arg("object"), py::arg("name"),
         "Read an integer attribute of the file ('/') or of a dataset.");
     m.def(
+        "has_dataset",
+        [](const py::handle& path, const std::string& dataset) {
+            const std::string p = fspath(path);
+            py::gil_scoped_release release;
+            return has_dataset(p, dataset);
+        },
+        py::arg("path"), py::arg("dataset"), "True if the file holds a dataset named `dataset`.");
+    m.def(
         "read_dimensions",
         [](const py::handle& path, const std::string& dataset) {
             const std::string p = fspath(path);

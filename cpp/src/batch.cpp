@@ -6,6 +6,7 @@
 #include <cmath>
 #include <condition_variable>
 #include <exception>
+#include <initializer_list>
 #include <limits>
 #include <memory>
 #include <mutex>
@@ -17,6 +18,7 @@
 
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
+#include "exosieve/outflow.hpp"
 
 namespace exosieve {
 
@@ -103,29 +105,13 @@ bool in_range(const CaseParameter& p, double v) {
     return v <= p.upper;
 }
 
-// Per-species parameter templates.
-const CaseParameter& mole_fraction_parameter() {
-    static const CaseParameter p{"x_<species>",
-                                 "1",
-                                 "bulk (well-mixed) mole fraction, also the exobase fraction of "
-                                 "a prescribed exobase (0: absent)",
-                                 false,
-                                 true,
-                                 0.0,
-                                 false,
-                                 inf};
-    return p;
-}
-const CaseParameter& species_inventory_parameter() {
-    static const CaseParameter p{"inventory_<species>",
-                                 "particles",
-                                 "initial inventory of the species",
-                                 false,
-                                 true,
-                                 0.0,
-                                 true,
-                                 inf};
-    return p;
+// Per-species parameters: their index in species_parameters().
+constexpr std::size_t x_parameter = 0, inventory_parameter = 1, given_loss_parameter = 2,
+                      given_loss_exponent_parameter = 3;
+
+// "<prefix><species>" without "<species>".
+std::string species_prefix(const CaseParameter& p) {
+    return p.name.substr(0, p.name.size() - std::string("<species>").size());
 }
 
 // Why the value of `column` cannot be used.
@@ -211,6 +197,45 @@ const std::vector<CaseParameter>& case_parameters() {
         {"xuv_decay_index", "1", "power-law index of the XUV decline", false, true, 0.0, true, inf},
         {"heating_efficiency", "1", "energy-limited escape on: heating efficiency", false, true,
          0.0, true, 1.0},
+        {"xuv_absorption_cross_section", "m2",
+         "energy-limited: the XUV is absorbed where its optical depth is one instead of at the "
+         "planet radius; absorption cross-section",
+         false, true, 0.0, true, inf},
+        {"xuv_absorption_base_density", "m-3",
+         "XUV absorption radius: number density of the absorbing gas at the planet radius", false,
+         true, 0.0, true, inf},
+        {"xuv_absorption_temperature", "K",
+         "XUV absorption radius: temperature of the absorbing layer (default: the exobase "
+         "temperature at each instant)",
+         false, true, 0.0, true, inf},
+        {"xuv_absorption_molecular_mass", "kg",
+         "XUV absorption radius: mean molecular mass of the absorbing gas (default: the bulk "
+         "gas's, from the mole fractions)",
+         false, true, 0.0, true, inf},
+        {"xuv_absorption_chord", "1",
+         "XUV absorption radius: 1 takes the optical depth along a grazing chord, 0 (default) "
+         "vertically",
+         false, false, 0.0, false, 1.0},
+        {"recombination_limit", "1",
+         "energy-limited: 1 caps the rate by the recombination-limited rate (Murray-Clay et al. "
+         "2009), 0 (default) does not",
+         false, false, 0.0, false, 1.0},
+        {"recombination_temperature", "K",
+         "recombination limit: wind temperature (default " +
+             format_value(RecombinationDefaults::temperature) + " K)",
+         false, true, 0.0, true, inf},
+        {"recombination_coefficient", "m3 s-1",
+         "recombination limit: case B recombination coefficient (default " +
+             format_value(RecombinationDefaults::recombination_coefficient) + " m3 s-1)",
+         false, true, 0.0, true, inf},
+        {"recombination_photon_energy", "J",
+         "recombination limit: mean energy of the ionising photons (default " +
+             format_value(RecombinationDefaults::photon_energy / electron_volt) + " eV)",
+         false, true, 0.0, true, inf},
+        {"given_loss_reference_flux", "W m-2",
+         "F_ref of the given losses' XUV power law L = L_ref (F_xuv/F_ref)^p "
+         "(given_loss_exponent_<species>)",
+         false, true, 0.0, true, inf},
         {"inventory", "particles", "total initial inventory, shared by mole fraction", false, true,
          0.0, true, inf},
         {"surface_pressure", "Pa",
@@ -226,15 +251,69 @@ const std::vector<CaseParameter>& case_parameters() {
     return params;
 }
 
+const std::vector<CaseParameter>& species_parameters() {
+    // In slot order (x_parameter, inventory_parameter, ... above).
+    static const std::vector<CaseParameter> params{
+        {"x_<species>", "1",
+         "bulk (well-mixed) mole fraction, also the exobase fraction of a prescribed exobase (0: "
+         "absent)",
+         false, true, 0.0, false, inf},
+        {"inventory_<species>", "particles", "initial inventory of the species", false, true, 0.0,
+         true, inf},
+        {"given_loss_<species>", "s-1",
+         "loss given beyond thermal escape (non-thermal or external), added to it: constant, or "
+         "L_ref of the XUV power law with given_loss_exponent_<species>",
+         false, true, 0.0, false, inf},
+        {"given_loss_exponent_<species>", "1",
+         "exponent p of the species' given loss L = L_ref (F_xuv/given_loss_reference_flux)^p "
+         "(needs the star)",
+         false, true, -inf, true, inf},
+    };
+    return params;
+}
+
+std::size_t find_species_parameter(const std::string& column, std::string* species) {
+    const auto& params = species_parameters();
+    std::size_t best = params.size(), best_length = 0;
+    for (std::size_t k = 0; k < params.size(); ++k) {
+        const std::string prefix = species_prefix(params[k]);
+        if (starts_with(column, prefix) && prefix.size() > best_length) {
+            best = k;
+            best_length = prefix.size();
+        }
+    }
+    if (species)
+        *species = best < params.size() ? column.substr(best_length) : std::string();
+    return best;
+}
+
 const CaseParameter* find_case_parameter(const std::string& name) {
     for (const CaseParameter& p : case_parameters())
         if (p.name == name)
             return &p;
-    if (starts_with(name, "x_"))
-        return &mole_fraction_parameter();
-    if (starts_with(name, "inventory_"))
-        return &species_inventory_parameter();
-    return nullptr;
+    const std::size_t k = find_species_parameter(name);
+    return k < species_parameters().size() ? &species_parameters()[k] : nullptr;
+}
+
+const std::vector<CaseParameterGroup>& case_parameter_groups() {
+    static const std::vector<CaseParameterGroup> groups{
+        {"planet", "planet_mass", {}},
+        {"upper atmosphere, one of two kinds: a prescribed exobase", "exobase_altitude", {}},
+        {"upper atmosphere, one of two kinds: a thermosphere (the exobase found each step)",
+         "homopause_altitude",
+         {}},
+        {"exobase temperature history", "exobase_temperature", {}},
+        {"orbit and host star (XUV history)", "semi_major_axis", {}},
+        {"energy-limited hydrodynamic escape", "heating_efficiency", {}},
+        {"losses given beyond thermal escape (non-thermal or external)",
+         "given_loss_reference_flux",
+         {"given_loss_<species>", "given_loss_exponent_<species>"}},
+        {"bulk atmosphere: composition and initial inventory",
+         "inventory",
+         {"x_<species>", "inventory_<species>"}},
+        {"span and solver", "age_start", {}},
+    };
+    return groups;
 }
 
 void BatchOptions::validate() const {
@@ -313,14 +392,16 @@ void check_table_columns(const CaseTable& table) {
         if (!p)
             throw InputError("case table: unknown column '" + name +
                              "' (closest: " + closest_parameters(base) + ")");
-        if (starts_with(base, "x_") || starts_with(base, "inventory_")) {
-            const std::string sp = base.substr(base.find('_') + 1);
+        std::string sp;
+        const std::size_t per_species = find_species_parameter(base, &sp);
+        // A name of case_parameters() (given_loss_reference_flux) is not per species.
+        if (per_species < species_parameters().size() && p == &species_parameters()[per_species]) {
             try {
                 default_registry().get(sp);
             } catch (const InputError& e) {
                 throw InputError("case table: column '" + name + "': " + e.what());
             }
-            if (starts_with(base, "inventory_") && !seen.count("x_" + sp))
+            if (per_species != x_parameter && !seen.count("x_" + sp))
                 throw InputError("case table: column '" + name + "' needs the column 'x_" + sp +
                                  "'");
         }
@@ -408,12 +489,37 @@ const Slots& slots() {
     return s;
 }
 
+// Slots of the options of energy-limited escape and of the given losses' reference flux.
+struct LossSlots {
+    std::size_t cross_section = slot_of("xuv_absorption_cross_section"),
+                base_density = slot_of("xuv_absorption_base_density"),
+                absorption_temperature = slot_of("xuv_absorption_temperature"),
+                molecular_mass = slot_of("xuv_absorption_molecular_mass"),
+                chord = slot_of("xuv_absorption_chord"),
+                recombination_limit = slot_of("recombination_limit"),
+                recombination_temperature = slot_of("recombination_temperature"),
+                recombination_coefficient = slot_of("recombination_coefficient"),
+                photon_energy = slot_of("recombination_photon_energy"),
+                given_loss_reference_flux = slot_of("given_loss_reference_flux");
+};
+
+const LossSlots& loss_slots() {
+    static const LossSlots s;
+    return s;
+}
+
+// Parameters that are 0 or 1.
+bool is_flag(std::size_t slot) {
+    return slot == slots().diffusion_limited || slot == loss_slots().chord ||
+           slot == loss_slots().recombination_limit;
+}
+
 // What a numeric column of a table holds, worked out once per table instead of once per row.
 struct ColumnRole {
     const CaseParameter* parameter = nullptr; // range of the value (or of the value uncertain)
     std::size_t global = none;                // slot of a case parameter, or none
-    std::size_t species = none;               // table species of an x_ / inventory_ column
-    bool inventory = false;                   // inventory_<species> (else x_<species>)
+    std::size_t species = none;               // table species of a per-species column
+    std::size_t per_species = none;           // its index in species_parameters()
     bool sigma = false, lnsigma = false;      // an uncertainty column
     std::string base;                         // the uncertain parameter's name
     std::size_t value_column = none;          // an uncertainty's value column
@@ -466,9 +572,10 @@ TablePlan plan_table(const CaseTable& table) {
         role.parameter =
             role.global != none ? &params[role.global] : find_case_parameter(role.base);
         if (role.global == none && role.parameter) {
-            role.inventory = starts_with(role.base, "inventory_");
-            role.species = species_index(role.base.substr(role.inventory ? 10 : 2));
-            if (!role.inventory && !role.sigma && !role.lnsigma)
+            std::string sp;
+            role.per_species = find_species_parameter(role.base, &sp);
+            role.species = species_index(sp);
+            if (role.per_species == x_parameter && !role.sigma && !role.lnsigma)
                 plan.x_column[role.species] = c;
         }
         plan.roles.push_back(std::move(role));
@@ -489,6 +596,7 @@ TablePlan plan_table(const CaseTable& table) {
 // Row `row` of `table` as a case; InputError naming the row and the column for a bad value.
 CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
     const std::size_t P = case_parameters().size(), S = plan.species.size();
+    const std::size_t K = species_parameters().size();
     CaseSpec s;
     s.name = table.names[row];
     s.key = table.first_key + row;
@@ -504,12 +612,12 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
             }
         }
         const std::size_t n = plan.present.size();
-        s.values.assign(P + 2 * n, nan);
+        s.values.assign(P + K * n, nan);
         auto slot = [&](const ColumnRole& r) {
             if (r.global != none)
                 return r.global;
             const std::size_t i = plan.case_index[r.species];
-            return i == none ? none : P + (r.inventory ? n : 0) + i;
+            return i == none ? none : P + r.per_species * n + i;
         };
         for (std::size_t c = 0; c < plan.roles.size(); ++c) {
             const ColumnRole& r = plan.roles[c];
@@ -540,7 +648,7 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
                                     shown_value(table, name, r.parameter->unit, v));
             if (r.global == slots().max_steps && v != std::floor(v))
                 bad_value(name, "must be a whole number, got " + format_value(v));
-            if (r.global == slots().diffusion_limited && v != 0.0 && v != 1.0)
+            if (r.global != none && is_flag(r.global) && v != 0.0 && v != 1.0)
                 bad_value(name, "must be 0 or 1, got " + format_value(v));
             const std::size_t k = slot(r);
             if (k != none)
@@ -604,12 +712,16 @@ std::vector<std::size_t> output_columns(const CaseSpec& spec, const BatchOptions
 
 } // namespace
 
+double CaseSpec::species_value(std::size_t k, std::size_t i) const {
+    return values.at(case_parameters().size() + k * species.size() + i);
+}
+
 double CaseSpec::mole_fraction(std::size_t i) const {
-    return values.at(case_parameters().size() + i);
+    return species_value(x_parameter, i);
 }
 
 double CaseSpec::inventory(std::size_t i) const {
-    return values.at(case_parameters().size() + species.size() + i);
+    return species_value(inventory_parameter, i);
 }
 
 double CaseSpec::value(const std::string& name) const {
@@ -617,12 +729,11 @@ double CaseSpec::value(const std::string& name) const {
     for (std::size_t k = 0; k < params.size(); ++k)
         if (params[k].name == name)
             return k < values.size() ? values[k] : nan;
-    for (std::size_t i = 0; i < species.size(); ++i) {
-        if (name == "x_" + species[i].name)
-            return mole_fraction(i);
-        if (name == "inventory_" + species[i].name)
-            return inventory(i);
-    }
+    std::string sp;
+    const std::size_t k = find_species_parameter(name, &sp);
+    for (std::size_t i = 0; i < species.size() && k < species_parameters().size(); ++i)
+        if (species[i].name == sp)
+            return species_value(k, i);
     return nan;
 }
 
@@ -632,11 +743,11 @@ std::map<std::string, double> CaseSpec::named_values() const {
     for (std::size_t k = 0; k < params.size() && k < values.size(); ++k)
         if (!std::isnan(values[k]))
             out[params[k].name] = values[k];
-    for (std::size_t i = 0; i < species.size(); ++i) {
-        out["x_" + species[i].name] = mole_fraction(i);
-        if (!std::isnan(inventory(i)))
-            out["inventory_" + species[i].name] = inventory(i);
-    }
+    const auto& per_species = species_parameters();
+    for (std::size_t k = 0; k < per_species.size(); ++k)
+        for (std::size_t i = 0; i < species.size(); ++i)
+            if (!std::isnan(species_value(k, i)))
+                out[species_prefix(per_species[k]) + species[i].name] = species_value(k, i);
     return out;
 }
 
@@ -664,14 +775,122 @@ std::vector<double> case_times(const BatchOptions& o, double t0, double t1) {
 
 } // namespace
 
+namespace {
+
+// The options of energy-limited escape (XUV absorption radius, recombination limit) and the
+// given losses of case `s`, into `c` (whose hydrodynamic options are set when the row has a
+// heating efficiency), as EnergyLimitedEscape(absorption=..., recombination_limit=...) and
+// evolve(given_losses=...) build them. mean_mass: the bulk gas's mean particle mass [kg].
+void add_loss_options(const CaseSpec& s, bool with_star, double mean_mass, EvolutionConfig& c) {
+    const LossSlots& k = loss_slots();
+    const auto& params = case_parameters();
+    auto has = [&](std::size_t slot) { return !std::isnan(s.values[slot]); };
+    auto given = [&](std::size_t slot) {
+        const CaseParameter& p = params[slot];
+        return "got " + format_value(s.values[slot]) + (p.unit == "1" ? "" : " " + p.unit);
+    };
+    // A column of a model the row does not switch on is refused, naming what would switch it on.
+    auto refuse = [&](std::initializer_list<std::size_t> slots, const std::string& model) {
+        for (std::size_t slot : slots)
+            if (has(slot))
+                bad_value(params[slot].name, given(slot) + ", but it is for " + model);
+    };
+    const bool recombination = has(k.recombination_limit) && s.values[k.recombination_limit] == 1.0;
+    if (c.hydrodynamic) {
+        HydrodynamicOptions& h = *c.hydrodynamic;
+        if (has(k.cross_section)) {
+            XuvAbsorption a;
+            a.cross_section = s.values[k.cross_section];
+            if (!has(k.base_density))
+                bad_value(params[k.base_density].name,
+                          "no value given (the XUV absorption radius of "
+                          "'xuv_absorption_cross_section' needs it)");
+            a.base_density = s.values[k.base_density];
+            a.mean_molecular_mass = has(k.molecular_mass) ? s.values[k.molecular_mass] : mean_mass;
+            a.temperature =
+                has(k.absorption_temperature) ? s.values[k.absorption_temperature] : 0.0;
+            a.chord = has(k.chord) && s.values[k.chord] == 1.0;
+            h.absorption = a;
+        } else {
+            refuse({k.base_density, k.absorption_temperature, k.molecular_mass, k.chord},
+                   "the XUV absorption radius ('xuv_absorption_cross_section'), which this row "
+                   "does not give");
+        }
+        if (recombination) {
+            RecombinationLimit r;
+            if (has(k.recombination_temperature))
+                r.temperature = s.values[k.recombination_temperature];
+            if (has(k.recombination_coefficient))
+                r.recombination_coefficient = s.values[k.recombination_coefficient];
+            if (has(k.photon_energy))
+                r.photon_energy = s.values[k.photon_energy];
+            h.recombination = r;
+        } else {
+            refuse({k.recombination_temperature, k.recombination_coefficient, k.photon_energy},
+                   "the recombination limit ('recombination_limit' 1), which this row does not "
+                   "switch on");
+        }
+    } else {
+        const std::string energy_limited =
+            "energy-limited escape ('heating_efficiency'), which this row does not switch on";
+        refuse({k.cross_section, k.base_density, k.absorption_temperature, k.molecular_mass,
+                k.chord, k.recombination_temperature, k.recombination_coefficient, k.photon_energy},
+               energy_limited);
+        if (recombination)
+            bad_value("recombination_limit", "got 1, but it caps " + energy_limited);
+    }
+
+    // Given losses: once a species has one, every species gets one (GivenLoss(): none).
+    const std::size_t n = s.species.size();
+    bool any = false, any_law = false;
+    for (std::size_t i = 0; i < n; ++i) {
+        any = any || !std::isnan(s.species_value(given_loss_parameter, i));
+        any_law = any_law || !std::isnan(s.species_value(given_loss_exponent_parameter, i));
+    }
+    if (!any_law)
+        refuse({k.given_loss_reference_flux},
+               "the XUV power law of a given loss ('given_loss_exponent_<species>'), which this "
+               "row does not give");
+    if (!any && !any_law)
+        return;
+    c.given_losses.assign(n, GivenLoss());
+    for (std::size_t i = 0; i < n; ++i) {
+        const std::string& name = s.species[i].name;
+        const double rate = s.species_value(given_loss_parameter, i);
+        const double exponent = s.species_value(given_loss_exponent_parameter, i);
+        if (!std::isnan(exponent)) {
+            const std::string column = "given_loss_exponent_" + name;
+            if (std::isnan(rate))
+                bad_value(column, "got " + format_value(exponent) +
+                                      ", but the XUV power law needs "
+                                      "its rate at the reference flux, 'given_loss_" +
+                                      name + "' [s-1]");
+            if (!has(k.given_loss_reference_flux))
+                bad_value(params[k.given_loss_reference_flux].name,
+                          "no value given (the XUV power law of '" + column + "' needs it)");
+            if (!with_star)
+                bad_value(column, "got " + format_value(exponent) +
+                                      ", but the XUV power law needs the planet's star "
+                                      "('semi_major_axis', 'star_mass', 'star_luminosity')");
+            c.given_losses[i] =
+                GivenLoss::xuv_power_law(rate, s.values[k.given_loss_reference_flux], exponent);
+        } else if (!std::isnan(rate)) {
+            c.given_losses[i] = GivenLoss(rate);
+        }
+    }
+}
+
+} // namespace
+
 EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
     const Slots& k = slots();
     const auto& params = case_parameters();
     const std::size_t n = s.species.size();
-    if (s.values.size() != params.size() + 2 * n)
+    const std::size_t expected = params.size() + species_parameters().size() * n;
+    if (s.values.size() != expected)
         throw InputError("case '" + s.name + "': " + std::to_string(s.values.size()) +
                          " parameter values for " + std::to_string(n) + " species, expected " +
-                         std::to_string(params.size() + 2 * n));
+                         std::to_string(expected));
     auto has = [&](std::size_t slot) { return !std::isnan(s.values[slot]); };
     auto required = [&](std::size_t slot, const char* why = "") {
         if (!has(slot))
@@ -823,6 +1042,7 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
         h.roche_lobe = with_star;
         c.hydrodynamic = h;
     }
+    add_loss_options(s, with_star, mean_mass, c);
     c.thresholds = o.thresholds;
     c.rtol = optional(k.rtol, o.rtol);
     c.max_steps = static_cast<std::size_t>(optional(k.max_steps, static_cast<double>(o.max_steps)));
@@ -939,8 +1159,8 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
     hydrodynamic_unmodelled.assign(cases, -1);
     retained.assign(cts, nan);
     jeans_parameter.assign(cts, nan);
-    for (auto* v : {&mole_fraction, &final_retained, &depletion_time, &efolding_time, &jeans_start,
-                    &jeans_end})
+    for (auto* v : {&mole_fraction, &final_retained, &depletion_time, &efolding_time,
+                    &escape_rate_start, &given_loss_start, &jeans_start, &jeans_end})
         v->assign(cs, nan);
     regime_start.assign(cs, -1);
     sample_retained.assign(css, nan);
@@ -969,6 +1189,8 @@ std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
         {"final_retained_fraction", {S}, &c.final_retained},
         {"depletion_time", {S}, &c.depletion_time},
         {"efolding_time", {S}, &c.efolding_time},
+        {"escape_rate_start", {S}, &c.escape_rate_start},
+        {"given_loss_rate_start", {S}, &c.given_loss_start},
         {"jeans_parameter_start", {S}, &c.jeans_start},
         {"jeans_parameter_end", {S}, &c.jeans_end},
         {"regime_start", {S}, nullptr, &c.regime_start},
@@ -1069,6 +1291,8 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
         out.final_retained[at] = r.inventory[last * n + i] / config.initial_inventory[i];
         out.depletion_time[at] = r.depletion_time[i];
         out.efolding_time[at] = r.inventory[i] / r.escape_rate[i];
+        out.escape_rate_start[at] = r.escape_rate[i];
+        out.given_loss_start[at] = r.given_loss_rate[i];
         out.jeans_start[at] = r.jeans_parameter[i];
         out.jeans_end[at] = r.jeans_parameter[last * n + i];
         out.regime_start[at] =

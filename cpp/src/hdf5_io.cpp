@@ -1797,6 +1797,17 @@ std::int64_t read_int_attribute(const std::string& path, const std::string& obje
     return read_int_attribute_of(file.get(), path, object, name);
 }
 
+bool has_dataset(const std::string& path, const std::string& dataset) {
+    QuietHdf5 quiet;
+    const Handle file = open_file(path, H5F_ACC_RDONLY);
+    if (!link_exists(file.get(), dataset))
+        return false;
+    H5O_info_t info;
+    check(H5Oget_info_by_name(file.get(), dataset.c_str(), &info, H5P_DEFAULT),
+          "look up " + in_quotes(dataset) + " in " + in_quotes(path));
+    return info.type == H5O_TYPE_DATASET;
+}
+
 std::vector<std::string> read_dimensions(const std::string& path, const std::string& dataset) {
     QuietHdf5 quiet;
     OpenRead r = open_dataset(path, dataset);

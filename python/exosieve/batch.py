@@ -97,7 +97,28 @@ _VARIABLES: list[tuple[str, type, list[str], str, str]] = [
         "s",
         "stellar age when the inventory fell below the depletion fraction (NaN: never)",
     ),
-    ("efolding_time", float, ["species"], "s", "loss e-folding time N / Q at the start"),
+    (
+        "efolding_time",
+        float,
+        ["species"],
+        "s",
+        "thermal loss e-folding time N / Q at the start",
+    ),
+    (
+        "escape_rate_start",
+        float,
+        ["species"],
+        "s-1",
+        "thermal (Jeans or hydrodynamic) escape rate Q at the start",
+    ),
+    (
+        "given_loss_rate_start",
+        float,
+        ["species"],
+        "s-1",
+        "given (non-thermal or external) loss rate at the start, added to the thermal one "
+        "(0: none)",
+    ),
     ("jeans_parameter_start", float, ["species"], "1", "Jeans parameter at the start"),
     ("jeans_parameter_end", float, ["species"], "1", "Jeans parameter at the end"),
     (
@@ -147,6 +168,8 @@ _UNITS = {
     "final_retained_fraction": "1",
     "depletion_time": "s",
     "efolding_time": "s",
+    "escape_rate_start": "s-1",
+    "given_loss_rate_start": "s-1",
     "jeans_parameter_start": "1",
     "jeans_parameter_end": "1",
     "probability_retained": "1",
@@ -301,7 +324,9 @@ class Comparison:
         pandas.DataFrame
             Columns ``case``, ``row``, ``species``, ``final_retained_fraction`` [1],
             ``retained`` (bool), ``depletion_time`` [s] (NaN: never), ``efolding_time`` [s]
-            (N/Q at the start), ``jeans_parameter_start`` and ``jeans_parameter_end`` [1],
+            (N/Q at the start, Q the thermal rate), ``escape_rate_start`` (Q) and
+            ``given_loss_rate_start`` (the given loss, 0: none) [s-1] at the start,
+            ``jeans_parameter_start`` and ``jeans_parameter_end`` [1],
             ``regime_start`` (name), ``hydrodynamic_unmodelled`` (bool: the case's bulk gas
             starts at or below the hydrodynamic threshold and it has no heating efficiency, so
             its Jeans-based retained fractions do not describe its loss), ``error``; with
@@ -347,6 +372,8 @@ class Comparison:
             "retained": final > retain,
             "depletion_time": pick("depletion_time"),
             "efolding_time": pick("efolding_time"),
+            "escape_rate_start": pick("escape_rate_start"),
+            "given_loss_rate_start": pick("given_loss_rate_start"),
             "jeans_parameter_start": pick("jeans_parameter_start"),
             "jeans_parameter_end": pick("jeans_parameter_end"),
             "regime_start": names[np.where(valid, regime, -1) + 1],
@@ -437,10 +464,19 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
     return Comparison(None, species, times, samples, config, path=path, rows=rows)
 
 
+# Variables that sweep files of earlier versions lack, and what such a file stands for where a
+# species ran: those versions had no given losses and did not record the thermal rate.
+_ADDED_LATER: dict[str, float] = {"given_loss_rate_start": 0.0, "escape_rate_start": math.nan}
+
+
 def _read_variable(path: Path, name: str, rows: int, checked: bool = True) -> NDArray[Any]:
     """The first ``rows`` rows of ``name``; with ``checked``, refused if out of range."""
-    from .results import read_doubles, read_int64s, read_strings
+    from .results import has_dataset, read_doubles, read_int64s, read_strings
 
+    if name in _ADDED_LATER and not has_dataset(path, name):
+        # A species ran where its e-folding time is a number (NaN: absent, or not run).
+        ran = ~np.isnan(_read_variable(path, "efolding_time", rows, checked))
+        return np.where(ran, _ADDED_LATER[name], np.nan)
     kind = "int" if name == "case" else None
     for variable, dtype, *_ in _VARIABLES + _SAMPLE_VARIABLES:
         if variable == name:
@@ -508,6 +544,8 @@ _RANGES: dict[str, tuple[float, float]] = {
     "final_retained_fraction": (0, 1.001),
     "depletion_time": (0, math.inf),
     "efolding_time": (0, math.inf),
+    "escape_rate_start": (0, math.inf),
+    "given_loss_rate_start": (0, math.inf),
     "jeans_parameter_start": (0, math.inf),
     "jeans_parameter_end": (0, math.inf),
     "regime_start": (-1, 3),
@@ -806,6 +844,16 @@ class _FileSink:
                     f"resumes (asked: {_summary_text(config['summary'])}); run again with the "
                     "same retain and percentiles, then summarise with others "
                     "('exosieve summary --retain ...', Comparison.summarize(retain=...))"
+                )
+            from .results import has_dataset
+
+            written = _VARIABLES + (_SAMPLE_VARIABLES if samples else [])
+            missing = [v[0] for v in written if not has_dataset(path, v[0])]
+            if missing:
+                raise ValueError(
+                    f"output {path} holds a sweep written by an earlier version of exosieve, "
+                    f"without {', '.join(missing)}; it cannot be continued: choose another path "
+                    "or overwrite it"
                 )
             # Reopening first repairs a last chunk whose checksum a kill left stale (and
             # refuses a damaged one); then every variable is read and range-checked.

@@ -46,6 +46,7 @@ UNITS: dict[str, tuple[float, str]] = {
     "erg s-1 cm-2": (1e-3, "W m-2"),
     "K": (1.0, "K"),
     "s": (1.0, "s"),
+    "s-1": (1.0, "s-1"),
     "yr": (c.YEAR, "s"),
     "Myr": (c.MYR, "s"),
     "Gyr": (c.GYR, "s"),
@@ -53,12 +54,24 @@ UNITS: dict[str, tuple[float, str]] = {
     "km-1": (1e-3, "m-1"),
     "m-3": (1.0, "m-3"),
     "cm-3": (1e6, "m-3"),
+    "m2": (1.0, "m2"),
+    "cm2": (1e-4, "m2"),
+    "m3 s-1": (1.0, "m3 s-1"),
+    "cm3 s-1": (1e-6, "m3 s-1"),
+    "J": (1.0, "J"),
+    "eV": (float(_core.ELECTRON_VOLT), "J"),
+    "u": (c.AMU, "kg"),
     "Pa": (1.0, "Pa"),
     "bar": (1e5, "Pa"),
     "particles": (1.0, "particles"),
     "mol": (c.N_A, "particles"),
     "1": (1.0, "1"),
 }
+
+#: Per-species column prefixes (``x_``, ``inventory_``, ...) and their SI units.
+_SPECIES_UNITS: list[tuple[str, str]] = [
+    (str(name).removesuffix("<species>"), str(unit)) for name, unit, *_ in _core.species_parameters()
+]
 
 #: Columns that hold text rather than numbers.
 TEXT_COLUMNS = ("case", "star", "density_scaling", "diffusion_source", "comment")
@@ -77,14 +90,47 @@ _HEADER = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[\s*([^\]]+?)\s*\])?\s*$")
 def _si_unit(quantity: str) -> str | None:
     """SI unit of a case quantity (or of the value behind a _sigma column); None if unknown."""
     base = quantity[: -len("_sigma")] if quantity.endswith("_sigma") else quantity
-    if base.startswith("x_") or quantity.endswith("_lnsigma"):
+    if quantity.endswith("_lnsigma"):
         return "1"
-    if base.startswith("inventory_"):
-        return "particles"
     for name, unit, *_ in _core.case_parameters():
         if name == base:
             return str(unit)
-    return None
+    # Per species: the longest prefix that matches (given_loss_exponent_H is an exponent).
+    matches = [(len(prefix), unit) for prefix, unit in _SPECIES_UNITS if base.startswith(prefix)]
+    return max(matches)[1] if matches else None
+
+
+def species_columns() -> list[tuple[str, str, str, bool, bool]]:
+    """The per-species quantities, one column ``<prefix><species>`` per species of the table.
+
+    Returns
+    -------
+    list of (name as ``<prefix><species>``, SI unit, meaning, required, may have an uncertainty)
+
+    Examples
+    --------
+    >>> [row[:2] for row in species_columns()][:3]
+    [('x_<species>', '1'), ('inventory_<species>', 'particles'), ('given_loss_<species>', 's-1')]
+    """
+    return [tuple(row) for row in _core.species_parameters()]
+
+
+def column_groups() -> list[tuple[str, list[str]]]:
+    """The quantities of :func:`case_columns` and :func:`species_columns` grouped by what they
+    describe, in documentation order: (heading, names).
+
+    Examples
+    --------
+    >>> column_groups()[0]
+    ('planet', ['planet_mass', 'planet_radius'])
+    """
+    names = [row[0] for row in _core.case_parameters()]
+    groups = _core.case_parameter_groups()
+    starts = [names.index(first) for _, first, _ in groups] + [len(names)]
+    return [
+        (heading, names[starts[k] : starts[k + 1]] + list(per_species))
+        for k, (heading, _, per_species) in enumerate(groups)
+    ]
 
 
 def case_columns() -> list[tuple[str, str, str, bool, bool]]:
@@ -95,10 +141,11 @@ def case_columns() -> list[tuple[str, str, str, bool, bool]]:
     list of (name, SI unit, meaning, required, may have an uncertainty)
         Besides these: ``case`` (label, first column), ``star``, ``comment`` (text, ignored),
         ``density_scaling`` (``inventory`` or ``fixed``; prescribed exobase),
-        ``diffusion_source`` (``measured`` or ``chapman_enskog``; thermosphere),
-        ``x_<species>`` bulk (well-mixed) mole fractions [1] (summing to 1 within 1e-3; for a
-        prescribed exobase also its composition) and ``inventory_<species>`` initial
-        inventories [particles].
+        ``diffusion_source`` (``measured`` or ``chapman_enskog``; thermosphere), and the
+        per-species columns of :func:`species_columns`: ``x_<species>`` bulk (well-mixed) mole
+        fractions [1] (summing to 1 within 1e-3; for a prescribed exobase also its
+        composition), ``inventory_<species>`` initial inventories [particles],
+        ``given_loss_<species>`` given losses [s-1] and ``given_loss_exponent_<species>`` [1].
 
     Examples
     --------

@@ -174,11 +174,11 @@ TEST_CASE("cases carry values by slot: species values follow the species present
     set_column(t, "inventory_H", {2e35, 3e35});
     set_column(t, "inventory_H_lnsigma", {0.5, 0.5});
     const CaseSpec with = case_from_table(t, 0), without = case_from_table(t, 1);
-    const std::size_t P = case_parameters().size();
+    const std::size_t P = case_parameters().size(), K = species_parameters().size();
     REQUIRE(with.species.size() == 3);
     REQUIRE(without.species.size() == 2);
-    CHECK(with.values.size() == P + 2 * 3);
-    CHECK(without.values.size() == P + 2 * 2);
+    CHECK(with.values.size() == P + K * 3);
+    CHECK(without.values.size() == P + K * 2);
     CHECK(without.species[1].name == "H");
     CHECK(without.mole_fraction(1) == 0.05);
     CHECK(without.inventory(1) == 3e35);

@@ -76,10 +76,10 @@ struct Uncertainty {
 };
 
 //! One planet case: SI parameter values by slot, its species and their uncertainties.
-//! `values` holds case_parameters() in order (slots 0 .. P-1), then the mole fraction of each
-//! entry of `species` (slots P .. P+n-1), then its initial inventory (P+n .. P+2n-1); NaN where
-//! not given. Slots instead of names: a sweep reads, samples and builds every case without a
-//! string lookup.
+//! `values` holds case_parameters() in order (slots 0 .. P-1), then for each per-species
+//! parameter k of species_parameters() (k = 0: mole fraction, 1: initial inventory, ...) its
+//! value for each entry i of `species` (slot P + k n + i); NaN where not given. Slots instead
+//! of names: a sweep reads, samples and builds every case without a string lookup.
 struct CaseSpec {
     std::string name;             //!< case label
     std::string label;            //!< where the case comes from, for messages (e.g. "line 7")
@@ -97,7 +97,10 @@ struct CaseSpec {
     double mole_fraction(std::size_t i) const;
     //! Initial inventory [particles] of species `i` of `species`; NaN when not given.
     double inventory(std::size_t i) const;
-    //! Value [SI] of parameter `name` (also "x_<species>", "inventory_<species>" of a present
+    //! Value [SI] of per-species parameter `k` (index in species_parameters()) of species `i`
+    //! of `species`; NaN when not given.
+    double species_value(std::size_t k, std::size_t i) const;
+    //! Value [SI] of parameter `name` (also a per-species one, e.g. "x_He", of a present
     //! species); NaN when not given.
     double value(const std::string& name) const;
     //! Every given parameter [SI] by name.
@@ -127,10 +130,34 @@ struct BatchOptions {
     void validate() const;
 };
 
-//! The parameters of a case, in documentation order. "x_<species>" (mole fraction at the
-//! exobase of a prescribed exobase, the well-mixed homopause fraction of a thermosphere [1]) and
-//! "inventory_<species>" (initial inventory [particles]) are per species.
+//! The parameters of a case, in documentation order; the per-species ones are in
+//! species_parameters().
 const std::vector<CaseParameter>& case_parameters();
+
+//! Per-species parameters, in slot order: a column "<prefix><species>" for a species of the
+//! table, the name here being "<prefix><species>": "x_<species>" (bulk mole fraction, also the
+//! exobase fraction of a prescribed exobase [1]), "inventory_<species>" (initial inventory
+//! [particles]), "given_loss_<species>" (a loss given beyond thermal escape [s^-1]: constant, or
+//! L_ref of an XUV power law) and "given_loss_exponent_<species>" (that law's exponent p [1]).
+//! Every one but "x_" needs the species' "x_" column.
+const std::vector<CaseParameter>& species_parameters();
+
+//! Index in species_parameters() of the per-species column `column` (the longest prefix that
+//! matches, so "given_loss_exponent_H" is an exponent), its species going to `species`;
+//! species_parameters().size() when `column` is not per species.
+std::size_t find_species_parameter(const std::string& column, std::string* species = nullptr);
+
+//! A heading under which the parameters are listed (`exosieve columns`): those of
+//! case_parameters() from `first` up to the next group's first, then the per-species
+//! parameters named in `species` (e.g. "given_loss_<species>").
+struct CaseParameterGroup {
+    std::string heading;              //!< what the parameters describe
+    std::string first;                //!< the group's first parameter in case_parameters()
+    std::vector<std::string> species; //!< per-species parameters listed with the group
+};
+
+//! The groups of the parameters, in documentation order.
+const std::vector<CaseParameterGroup>& case_parameter_groups();
 
 //! Largest |sum - 1| of a case's mole fractions "x_<species>" [1]. A row whose fractions sum
 //! further from one is refused (InputError naming the row and the sum; with skip_invalid the
@@ -138,8 +165,8 @@ const std::vector<CaseParameter>& case_parameters();
 //! inventory would otherwise describe different mixtures.
 constexpr double mole_fraction_sum_tolerance = 1e-3;
 
-//! The allowed range of parameter `name` (also "x_<species>", "inventory_<species>");
-//! nullptr when unknown.
+//! The allowed range of parameter `name` (also a per-species one, e.g. "x_He"); nullptr when
+//! unknown.
 const CaseParameter* find_case_parameter(const std::string& name);
 
 //! A case table in SI: numeric columns by parameter name (NaN: not given for that row), text
@@ -184,6 +211,15 @@ std::vector<std::string> check_table(const CaseTable& table, const BatchOptions&
 //! is refused. Exobase densities and shares of a total
 //! inventory both use the mole fractions divided by their sum (a sample's drawn fractions are
 //! renormalised this way).
+//! heating_efficiency switches on energy-limited loss (HydrodynamicOptions, the Roche-lobe
+//! factor with a star), with the XUV absorbed at the radius of optical depth one when
+//! xuv_absorption_cross_section is given (XuvAbsorption: xuv_absorption_base_density,
+//! xuv_absorption_temperature or the exobase temperature, xuv_absorption_molecular_mass or the
+//! bulk gas's mean, xuv_absorption_chord) and capped by the recombination-limited rate when
+//! recombination_limit is 1 (RecombinationLimit, its defaults or the recombination_ columns).
+//! given_loss_<species> gives that species a GivenLoss: constant, or with
+//! given_loss_exponent_<species> the XUV power law L_ref (F_xuv/given_loss_reference_flux)^p;
+//! species without one get GivenLoss() (none), and a row with none leaves given_losses empty.
 EvolutionConfig build_config(const CaseSpec& spec, const BatchOptions& options);
 
 //! Sample `sample` of `spec`: each uncertain parameter drawn in the order of
@@ -217,8 +253,11 @@ struct BatchChunk {
     std::vector<double> final_retained;      //!< N_i(t_end) / N_i(t_start) [1] [case x species]
     std::vector<double> depletion_time;      //!< age of depletion [s], NaN: none [case x species]
     std::vector<double> efolding_time;       //!< N_i / Q_i at t_start [s] [case x species]
-    std::vector<double> jeans_start;         //!< lambda_i(t_start) [1] [case x species]
-    std::vector<double> jeans_end;           //!< lambda_i(t_end) [1] [case x species]
+    std::vector<double> escape_rate_start;   //!< thermal Q_i at t_start [s^-1] [case x species]
+    //! Given (non-thermal or external) loss L_i at t_start [s^-1], 0: none [case x species]
+    std::vector<double> given_loss_start;
+    std::vector<double> jeans_start; //!< lambda_i(t_start) [1] [case x species]
+    std::vector<double> jeans_end;   //!< lambda_i(t_end) [1] [case x species]
     std::vector<std::int64_t>
         regime_start; //!< Regime of lambda_i(t_start), -1: none [case x species]
     //! Jeans parameter of the bulk (well-mixed) gas at the exobase at t_start: the mean
@@ -252,7 +291,8 @@ struct ChunkVariable {
 //! case_name, error, steps, planet_mass, planet_radius, exobase_radius, escape_speed,
 //! age_start, age_end, exobase_temperature_start, mole_fraction, exobase_temperature,
 //! retained_fraction, jeans_parameter, final_retained_fraction, depletion_time,
-//! efolding_time, jeans_parameter_start, jeans_parameter_end, regime_start,
+//! efolding_time, escape_rate_start, given_loss_rate_start, jeans_parameter_start,
+//! jeans_parameter_end, regime_start,
 //! bulk_jeans_parameter_start, hydrodynamic_unmodelled, and with samples
 //! sample_retained_fraction, sample_depletion_time, sample_failed, sample_error. They point
 //! into `chunk`.

@@ -241,6 +241,10 @@ std::int64_t read_int_attribute(const std::string& path, const std::string& obje
 //! True if another open file description holds a lock on `path` (HDF5 writers lock their file).
 bool file_is_locked(const std::string& path);
 
+//! True if the file at `path` holds a dataset named `dataset` (files of earlier versions may
+//! lack variables that later ones write).
+bool has_dataset(const std::string& path, const std::string& dataset);
+
 //! Names of the dimension scales attached to each dimension of `dataset` ("" if none).
 std::vector<std::string> read_dimensions(const std::string& path, const std::string& dataset);
 
