@@ -148,6 +148,12 @@ double CounterRng::normal() {
 // --- parameters -------------------------------------------------------------------------------
 
 const std::vector<CaseParameter>& case_parameters() {
+    // A default for the documentation, to 6 digits.
+    auto shown = [](double v) {
+        std::ostringstream out;
+        out << v;
+        return out.str();
+    };
     // name, unit, meaning, required, uncertain, lower, lower_open, upper
     static const std::vector<CaseParameter> params{
         {"planet_mass", "kg", "planet mass", true, true, 0.0, true, inf},
@@ -222,15 +228,15 @@ const std::vector<CaseParameter>& case_parameters() {
          false, false, 0.0, false, 1.0},
         {"recombination_temperature", "K",
          "recombination limit: wind temperature (default " +
-             format_value(RecombinationDefaults::temperature) + " K)",
+             shown(RecombinationDefaults::temperature) + " K)",
          false, true, 0.0, true, inf},
         {"recombination_coefficient", "m3 s-1",
          "recombination limit: case B recombination coefficient (default " +
-             format_value(RecombinationDefaults::recombination_coefficient) + " m3 s-1)",
+             shown(RecombinationDefaults::recombination_coefficient) + " m3 s-1)",
          false, true, 0.0, true, inf},
         {"recombination_photon_energy", "J",
          "recombination limit: mean energy of the ionising photons (default " +
-             format_value(RecombinationDefaults::photon_energy / electron_volt) + " eV)",
+             shown(RecombinationDefaults::photon_energy / electron_volt) + " eV)",
          false, true, 0.0, true, inf},
         {"given_loss_reference_flux", "W m-2",
          "F_ref of the given losses' XUV power law L = L_ref (F_xuv/F_ref)^p "
@@ -643,13 +649,13 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
             }
             if (!r.parameter)
                 bad_value(name, "unknown column");
+            if (r.global != none && is_flag(r.global) && v != 0.0 && v != 1.0)
+                bad_value(name, "must be 0 or 1, got " + format_value(v));
             if (!in_range(*r.parameter, v))
                 bad_value(name, "must be " + range_text(*r.parameter) + ", got " +
                                     shown_value(table, name, r.parameter->unit, v));
             if (r.global == slots().max_steps && v != std::floor(v))
                 bad_value(name, "must be a whole number, got " + format_value(v));
-            if (r.global != none && is_flag(r.global) && v != 0.0 && v != 1.0)
-                bad_value(name, "must be 0 or 1, got " + format_value(v));
             const std::size_t k = slot(r);
             if (k != none)
                 s.values[k] = v;

@@ -138,6 +138,8 @@ def _summary(args: argparse.Namespace) -> int:
         renamed = frame.rename(columns={k: f"{k} [{u}]" for k, u in units.items() if k in frame})
         renamed.to_csv(args.csv, index=False)
     shown = frame.drop(columns=["row", "error"]).copy()
+    if not (shown["given_loss_rate_start"] > 0).any():  # no case has a given loss
+        shown = shown.drop(columns=["given_loss_rate_start"])
     for name in ("depletion_time", "efolding_time"):
         shown[name] = shown[name] / c.GYR
     shown = shown.rename(
@@ -145,6 +147,8 @@ def _summary(args: argparse.Namespace) -> int:
             "final_retained_fraction": "left [1]",
             "depletion_time": "depleted [Gyr]",
             "efolding_time": "e-fold [Gyr]",
+            "escape_rate_start": "Q0 [s-1]",
+            "given_loss_rate_start": "given0 [s-1]",
             "jeans_parameter_start": "lambda0 [1]",
             "jeans_parameter_end": "lambda1 [1]",
             "regime_start": "regime",
@@ -202,24 +206,34 @@ def _chart(args: argparse.Namespace) -> int:
 
 
 def _columns(args: argparse.Namespace) -> int:
-    from .catalogue import UNITS, case_columns, case_table_template_path
+    from .catalogue import (
+        UNITS,
+        case_columns,
+        case_table_template_path,
+        column_groups,
+        species_columns,
+    )
 
     print(
         "Case-table columns (header 'quantity [unit]'; SI unit given, any unit measuring it "
-        "is accepted):"
+        "is accepted), grouped by what they describe:"
     )
-    for name, unit, meaning, required, uncertain in case_columns():
-        flags = ("required" if required else "optional") + (
-            ", may have _sigma/_lnsigma" if uncertain else ""
-        )
-        print(f"  {name:28s} [{unit}]  {meaning} ({flags})")
+    rows = {row[0]: row for row in case_columns() + species_columns()}
+    for heading, names in column_groups():
+        print(heading[0].upper() + heading[1:] + ":")
+        for name in names:
+            _, unit, meaning, required, uncertain = rows[name]
+            flags = ("required" if required else "optional") + (
+                ", may have _sigma/_lnsigma" if uncertain else ""
+            )
+            print(f"  {name:30s} [{unit}]  {meaning} ({flags})")
     print(
-        "  x_<species>                  [1]  bulk (well-mixed) mole fraction (0: absent), also "
-        "the composition of a prescribed exobase; a row's fractions sum to 1 within 1e-3"
+        "Per species: a column '<prefix><species>' for each species of the table (e.g. x_He, "
+        "given_loss_He); a row's mole fractions x_<species> sum to 1 within 1e-3, and the "
+        "other per-species columns need the species' x_ column."
     )
-    print("  inventory_<species>          [particles]  initial inventory of that species")
     print(
-        "  case, star, density_scaling, diffusion_source, comment: text (case first; "
+        "Text: case, star, density_scaling, diffusion_source, comment (case first; "
         "density_scaling is 'inventory' or 'fixed' (prescribed exobase); diffusion_source is "
         "'measured' or 'chapman_enskog' (thermosphere))"
     )
@@ -364,7 +378,8 @@ def build_parser() -> argparse.ArgumentParser:
         help="print the per-case, per-species summary of a result file",
         description="Print one line per case and species of a result file: fraction of the "
         "inventory left at the end [1], whether it is kept, depletion time [Gyr], e-folding "
-        "time N/Q at the start [Gyr], Jeans parameter at start and end [1], regime at the "
+        "time N/Q at the start [Gyr], thermal escape rate Q at the start [s-1] (and the given "
+        "loss rate, when a case has one), Jeans parameter at start and end [1], regime at the "
         "start and, with samples, the probability of keeping it with percentiles of the left "
         "fraction.",
     )

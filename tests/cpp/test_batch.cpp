@@ -10,6 +10,7 @@
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/jeans.hpp"
+#include "exosieve/outflow.hpp"
 
 using namespace exosieve;
 using constants::Gyr;
@@ -796,4 +797,320 @@ TEST_CASE("batch: bulk gas at or below the hydrodynamic threshold without a heat
         REQUIRE(c.error[k].empty());
     CHECK(c.bulk_jeans_start[0] == doctest::Approx(1.5).epsilon(1e-12));
     CHECK(c.hydrodynamic_unmodelled == std::vector<std::int64_t>{1, 0, 0});
+}
+
+namespace {
+
+// Invented hot sub-Neptunes of hydrogen and helium around a K star (prescribed exobase at
+// 8000 K: the bulk gas is hydrodynamic, lambda_H ~ 1.7), each row with one of the loss options:
+// 0 given losses (constant for H, XUV power law for He), 1 energy-limited with the XUV
+// absorption radius at a given temperature and the recombination limit with its defaults,
+// 2 the absorption radius at the exobase temperature along a chord with the bulk gas's mean
+// mass, and the recombination limit with its own constants.
+const double loss_mass = 5 * constants::M_earth, loss_radius = 2.5 * constants::R_earth;
+const double loss_reference_flux = 0.25; // [W m^-2]
+
+CaseTable loss_table() {
+    CaseTable t;
+    t.names = {"given losses", "absorption, recombination", "chord, recombination constants"};
+    auto all = [](double v) { return std::vector<double>{v, v, v}; };
+    set_column(t, "planet_mass", all(loss_mass));
+    set_column(t, "planet_radius", all(loss_radius));
+    set_column(t, "exobase_altitude", all(0.1 * loss_radius));
+    set_column(t, "exobase_density", all(1e13));
+    set_column(t, "exobase_temperature", {1500.0, 8000.0, 8000.0});
+    set_column(t, "semi_major_axis", all(0.3 * constants::au));
+    set_column(t, "star_mass", all(0.8 * constants::M_sun));
+    set_column(t, "star_luminosity", all(0.4 * constants::L_sun));
+    set_column(t, "inventory", all(3e50));
+    set_column(t, "x_H", all(0.9));
+    set_column(t, "x_He", all(0.1));
+    set_column(t, "given_loss_H", {1e33, missing, missing});
+    set_column(t, "given_loss_He", {2e32, missing, missing});
+    set_column(t, "given_loss_exponent_He", {1.2, missing, missing});
+    set_column(t, "given_loss_reference_flux", {loss_reference_flux, missing, missing});
+    set_column(t, "heating_efficiency", {missing, 0.15, 0.2});
+    set_column(t, "xuv_absorption_cross_section", {missing, 2e-22, 6e-22});
+    set_column(t, "xuv_absorption_base_density", {missing, 1e17, 1e19});
+    set_column(t, "xuv_absorption_temperature", {missing, 1000.0, missing});
+    set_column(t, "xuv_absorption_molecular_mass", {missing, 2.3 * constants::amu, missing});
+    set_column(t, "xuv_absorption_chord", {missing, 0.0, 1.0});
+    set_column(t, "recombination_limit", {0.0, 1.0, 1.0});
+    set_column(t, "recombination_temperature", {missing, missing, 8000.0});
+    set_column(t, "recombination_coefficient", {missing, missing, 3e-19});
+    set_column(t, "recombination_photon_energy", {missing, missing, 15 * electron_volt});
+    return t;
+}
+
+// The model of row `row` of loss_table(), built by hand as evolve() builds it from its options.
+EvolutionConfig loss_config(std::size_t row, const BatchOptions& o) {
+    const Star star(0.8 * constants::M_sun, 0.4 * constants::L_sun, XuvHistory{});
+    EvolutionConfig c{Planet(loss_mass, loss_radius, 0.3 * constants::au, star)};
+    c.species = {species("H"), species("He")};
+    c.initial_inventory = {3e50 * 0.9, 3e50 * 0.1};
+    c.exobase = std::make_shared<PrescribedExobase>(
+        1.1 * loss_radius, std::vector<std::string>{"H", "He"},
+        std::vector<double>{0.9 * 1e13, 0.1 * 1e13}, DensityScaling::Inventory);
+    c.temperature = ExobaseTemperature::constant(row == 0 ? 1500.0 : 8000.0);
+    if (row == 0) {
+        c.given_losses = {GivenLoss(1e33),
+                          GivenLoss::xuv_power_law(2e32, loss_reference_flux, 1.2)};
+    } else {
+        HydrodynamicOptions h;
+        h.efficiency = row == 1 ? 0.15 : 0.2;
+        h.roche_lobe = true;
+        XuvAbsorption a;
+        if (row == 1) {
+            a.cross_section = 2e-22;
+            a.base_density = 1e17;
+            a.temperature = 1000.0;
+            a.mean_molecular_mass = 2.3 * constants::amu;
+        } else {
+            a.cross_section = 6e-22;
+            a.base_density = 1e19;
+            a.mean_molecular_mass = 0.9 * species("H").mass + 0.1 * species("He").mass;
+            a.chord = true;
+        }
+        h.absorption = a;
+        RecombinationLimit r;
+        if (row == 2) {
+            r.temperature = 8000.0;
+            r.recombination_coefficient = 3e-19;
+            r.photon_energy = 15 * electron_volt;
+        }
+        h.recombination = r;
+        c.hydrodynamic = h;
+    }
+    c.t_start = o.t_start;
+    c.t_end = o.t_end;
+    c.t_eval = o.times;
+    c.rtol = o.rtol;
+    c.record_config = false;
+    return c;
+}
+
+} // namespace
+
+TEST_CASE("loss rows: given losses, absorption radius and recombination limit as evolve() has "
+          "them") {
+    const CaseTable t = loss_table();
+    const BatchOptions o = options(2);
+    const std::vector<BatchChunk> chunks = run(t, o);
+    REQUIRE(chunks.size() == 1);
+    const BatchChunk& out = chunks[0];
+    for (std::size_t row = 0; row < 3; ++row) {
+        CAPTURE(row);
+        INFO(out.error[row]);
+        REQUIRE(out.error[row].empty());
+        const EvolutionConfig hand = loss_config(row, o);
+        // The whole model (planet, species, exobase, temperature, given losses, energy-limited
+        // options with their absorption and recombination settings, span, tolerances).
+        CHECK(build_config(case_from_table(t, row), o).to_json() == hand.to_json());
+        const EvolutionResult r = evolve(hand);
+        REQUIRE(r.time_count() == 4);
+        for (std::size_t j = 0; j < 4; ++j)
+            for (std::size_t i = 0; i < 2; ++i)
+                CHECK(out.retained[(row * 4 + j) * 2 + i] ==
+                      r.inventory[j * 2 + i] / hand.initial_inventory[i]);
+        for (std::size_t i = 0; i < 2; ++i) {
+            CHECK(out.escape_rate_start[row * 2 + i] == r.escape_rate[i]);
+            CHECK(out.given_loss_start[row * 2 + i] == r.given_loss_rate[i]);
+        }
+    }
+    // The given losses are those asked for: constant, and L_ref (F/F_ref)^p at the start.
+    const EvolutionConfig given = loss_config(0, o);
+    const double flux = given.planet.xuv_flux(o.t_start);
+    CHECK(out.given_loss_start[0] == 1e33);
+    CHECK(out.given_loss_start[1] ==
+          doctest::Approx(2e32 * std::pow(flux / loss_reference_flux, 1.2)).epsilon(1e-13));
+    CHECK(out.given_loss_start[2 * 2] == 0.0); // rows without given losses report none
+    // They take a visible share of the loss: without them more H is left.
+    EvolutionConfig thermal = given;
+    thermal.given_losses.clear();
+    const EvolutionResult plain = evolve(thermal);
+    CHECK(out.final_retained[0] < 0.99 * plain.inventory[3 * 2] / plain.inventory[0]);
+    // The options act: at the start the H rate of row 1 is not the plain energy-limited one
+    // (XUV absorbed at the planet radius, no cap), which the same row without them gives.
+    EvolutionConfig bare = loss_config(1, o);
+    bare.hydrodynamic->absorption.reset();
+    bare.hydrodynamic->recombination.reset();
+    bare.t_eval = {o.t_start};
+    const EvolutionResult energy_limited = evolve(bare);
+    CHECK(std::abs(out.escape_rate_start[2] / energy_limited.escape_rate[0] - 1.0) > 0.05);
+}
+
+TEST_CASE("loss rows: given-loss and energy-limited columns take uncertainties") {
+    CaseTable t = loss_table();
+    set_column(t, "given_loss_H_lnsigma", {0.3, missing, missing});
+    set_column(t, "given_loss_exponent_He_sigma", {0.1, missing, missing});
+    set_column(t, "xuv_absorption_cross_section_lnsigma", {missing, 0.2, missing});
+    const CaseSpec s = case_from_table(t, 0), e = case_from_table(t, 1);
+    REQUIRE(s.uncertainties.size() == 2);
+    REQUIRE(e.uncertainties.size() == 1);
+    const CaseSpec drawn = sample_case(s, 5, 0);
+    CHECK(drawn.value("given_loss_H") != 1e33);
+    CHECK(drawn.value("given_loss_H") > 0.0);
+    CHECK(drawn.value("given_loss_exponent_He") != 1.2);
+    CHECK(drawn.value("given_loss_He") == 2e32);
+    CHECK(sample_case(e, 5, 0).value("xuv_absorption_cross_section") != 2e-22);
+    CHECK(s.named_values().at("given_loss_exponent_He") == 1.2);
+    CaseTable flag = loss_table();
+    set_column(flag, "recombination_limit_sigma", {0.1, 0.1, 0.1});
+    CHECK_THROWS_WITH_AS(check_table_columns(flag),
+                         doctest::Contains("'recombination_limit' cannot be given an uncertainty"),
+                         InputError);
+}
+
+TEST_CASE("loss rows: bad values are refused naming the row, the column and the value") {
+    const BatchOptions o = options(1);
+    struct Bad {
+        const char* column;
+        std::vector<double> values;
+        const char* message;
+    };
+    const std::vector<Bad> bad{
+        {"given_loss_H",
+         {-1.0, missing, missing},
+         "column 'given_loss_H': must be >= 0, got -1 s-1"},
+        {"xuv_absorption_cross_section",
+         {missing, 0.0, 6e-22},
+         "column 'xuv_absorption_cross_section': must be > 0, got 0 m2"},
+        {"xuv_absorption_cross_section",
+         {1e-22, 2e-22, 6e-22},
+         "column 'xuv_absorption_cross_section': got 1e-22 m2, but it is for energy-limited "
+         "escape ('heating_efficiency')"},
+        {"xuv_absorption_base_density",
+         {missing, -1.0, 1e19},
+         "column 'xuv_absorption_base_density': must be > 0, got -1 m-3"},
+        {"xuv_absorption_temperature",
+         {missing, 0.0, missing},
+         "column 'xuv_absorption_temperature': must be > 0, got 0 K"},
+        {"xuv_absorption_chord",
+         {missing, 0.5, 1.0},
+         "column 'xuv_absorption_chord': must be 0 or 1, got 0.5"},
+        {"recombination_limit",
+         {1.0, 1.0, 1.0},
+         "column 'recombination_limit': got 1, but it caps energy-limited escape"},
+        {"recombination_limit",
+         {0.0, 2.0, 1.0},
+         "column 'recombination_limit': must be 0 or 1, got 2"},
+        {"recombination_coefficient",
+         {missing, -1.0, 3e-19},
+         "column 'recombination_coefficient': must be > 0, got -1 m3 s-1"},
+        {"recombination_photon_energy",
+         {missing, std::numeric_limits<double>::infinity(), 15 * electron_volt},
+         "column 'recombination_photon_energy': must be > 0, got inf J"},
+        {"given_loss_reference_flux",
+         {0.0, missing, missing},
+         "column 'given_loss_reference_flux': must be > 0, got 0 W m-2"},
+    };
+    for (const Bad& b : bad) {
+        CAPTURE(b.column);
+        CaseTable t = loss_table();
+        t.row_labels = {"line 4", "line 5", "line 6"};
+        set_column(t, b.column, b.values);
+        const auto errors = check_table(t, o);
+        std::size_t refused = 0;
+        for (std::size_t row = 0; row < 3; ++row)
+            if (!errors[row].empty()) {
+                INFO(errors[row]);
+                CHECK(errors[row].find(t.row_label(row) + " (case '" + t.names[row] + "'), " +
+                                       b.message) == 0);
+                ++refused;
+            }
+        CHECK(refused == 1);
+        // Before any run.
+        int chunks = 0;
+        BatchHooks hooks;
+        hooks.on_chunk = [&](const BatchChunk&) { ++chunks; };
+        CHECK_THROWS_WITH_AS(run_batch(t, 0, 3, o, hooks), doctest::Contains(b.message),
+                             InputError);
+        CHECK(chunks == 0);
+    }
+    // Combinations: a power law without its reference flux or without a star, a reference flux
+    // without a power law, sub-options without the option that uses them.
+    auto error_of = [&](CaseTable t, std::size_t row) { return check_table(t, o)[row]; };
+    CaseTable no_flux = loss_table();
+    set_column(no_flux, "given_loss_reference_flux", {missing, missing, missing});
+    CHECK(error_of(no_flux, 0) ==
+          "row 1 (case 'given losses'), column 'given_loss_reference_flux': "
+          "no value given (the XUV power law of 'given_loss_exponent_He' "
+          "needs it)");
+    CaseTable no_star = loss_table();
+    set_column(no_star, "semi_major_axis", {missing, 0.3 * constants::au, 0.3 * constants::au});
+    CHECK(error_of(no_star, 0)
+              .find("column 'given_loss_exponent_He': got 1.2, but the XUV power "
+                    "law needs the planet's star") != std::string::npos);
+    CaseTable flux_only = loss_table();
+    set_column(flux_only, "given_loss_exponent_He", {missing, missing, missing});
+    CHECK(error_of(flux_only, 0)
+              .find("column 'given_loss_reference_flux': got 0.25 W m-2, but it "
+                    "is for the XUV power law of a given loss") != std::string::npos);
+    CaseTable no_rate = loss_table();
+    set_column(no_rate, "given_loss_He", {missing, missing, missing});
+    CHECK(error_of(no_rate, 0)
+              .find("column 'given_loss_exponent_He': got 1.2, but the XUV power "
+                    "law needs its rate at the reference flux, 'given_loss_He' "
+                    "[s-1]") != std::string::npos);
+    CaseTable no_density = loss_table();
+    set_column(no_density, "xuv_absorption_base_density", {missing, missing, 1e19});
+    CHECK(error_of(no_density, 1)
+              .find("column 'xuv_absorption_base_density': no value given (the "
+                    "XUV absorption radius of "
+                    "'xuv_absorption_cross_section' needs it)") != std::string::npos);
+    CaseTable chord_alone = loss_table();
+    set_column(chord_alone, "xuv_absorption_cross_section", {missing, 2e-22, missing});
+    CHECK(error_of(chord_alone, 2)
+              .find("column 'xuv_absorption_base_density': got 1e+19 m-3, but "
+                    "it is for the XUV absorption radius") != std::string::npos);
+    CaseTable constants_alone = loss_table();
+    set_column(constants_alone, "recombination_limit", {0.0, 1.0, 0.0});
+    CHECK(error_of(constants_alone, 2)
+              .find("column 'recombination_temperature': got 8000 K, but it is for the "
+                    "recombination limit ('recombination_limit' 1)") != std::string::npos);
+    // Per-species columns name a known species of the table.
+    CaseTable unknown = loss_table();
+    set_column(unknown, "given_loss_N3", {1.0, 1.0, 1.0});
+    CHECK_THROWS_WITH_AS(check_table_columns(unknown), doctest::Contains("'given_loss_N3'"),
+                         InputError);
+    CaseTable absent = loss_table();
+    set_column(absent, "given_loss_O", {1.0, 1.0, 1.0});
+    CHECK_THROWS_WITH_AS(check_table_columns(absent),
+                         doctest::Contains("column 'given_loss_O' needs the column 'x_O'"),
+                         InputError);
+}
+
+TEST_CASE("case parameters: every one in exactly one group, per-species names by longest prefix") {
+    const auto& params = case_parameters();
+    const auto& groups = case_parameter_groups();
+    REQUIRE_FALSE(groups.empty());
+    CHECK(groups.front().first == params.front().name);
+    std::size_t last = 0;
+    for (std::size_t g = 0; g < groups.size(); ++g) {
+        const auto at = std::find_if(params.begin(), params.end(), [&](const CaseParameter& p) {
+            return p.name == groups[g].first;
+        });
+        REQUIRE(at != params.end());
+        const auto index = static_cast<std::size_t>(at - params.begin());
+        CHECK((g == 0 || index > last));
+        last = index;
+    }
+    for (const CaseParameter& p : species_parameters()) {
+        std::size_t listed = 0;
+        for (const CaseParameterGroup& g : groups)
+            listed +=
+                static_cast<std::size_t>(std::count(g.species.begin(), g.species.end(), p.name));
+        CHECK(listed == 1);
+    }
+    std::string sp;
+    CHECK(find_species_parameter("given_loss_exponent_He", &sp) == 3);
+    CHECK(sp == "He");
+    CHECK(find_species_parameter("given_loss_He", &sp) == 2);
+    CHECK(sp == "He");
+    CHECK(find_species_parameter("x_CO2", &sp) == 0);
+    CHECK(find_species_parameter("planet_mass") == species_parameters().size());
+    // A name of case_parameters() is found there first.
+    REQUIRE(find_case_parameter("given_loss_reference_flux") != nullptr);
+    CHECK(find_case_parameter("given_loss_reference_flux")->unit == "W m-2");
+    CHECK(find_case_parameter("given_loss_exponent_H")->unit == "1");
 }
