@@ -849,7 +849,7 @@ class _FileSink:
 
             written = _VARIABLES + (_SAMPLE_VARIABLES if samples else [])
             missing = [v[0] for v in written if not has_dataset(path, v[0])]
-            if missing:
+            if missing and rows < int(config["table"]["rows"]):  # rows would be appended
                 raise ValueError(
                     f"output {path} holds a sweep written by an earlier version of exosieve, "
                     f"without {', '.join(missing)}; it cannot be continued: choose another path "

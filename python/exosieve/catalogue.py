@@ -70,7 +70,7 @@ UNITS: dict[str, tuple[float, str]] = {
 
 #: Per-species column prefixes (``x_``, ``inventory_``, ...) and their SI units.
 _SPECIES_UNITS: list[tuple[str, str]] = [
-    (str(name).removesuffix("<species>"), str(unit)) for name, unit, *_ in _core.species_parameters()
+    (str(row[0]).removesuffix("<species>"), str(row[1])) for row in _core.species_parameters()
 ]
 
 #: Columns that hold text rather than numbers.
