@@ -816,6 +816,19 @@ void add_loss_options(const CaseSpec& s, bool with_star, double mean_mass, Evolu
             a.temperature =
                 has(k.absorption_temperature) ? s.values[k.absorption_temperature] : 0.0;
             a.chord = has(k.chord) && s.values[k.chord] == 1.0;
+            if (a.temperature > 0.0) { // the layer's scale height at the planet radius, fixed
+                const double r = c.planet.radius();
+                const double height = constants::k_B * a.temperature * r * r /
+                                      (a.mean_molecular_mass * constants::G * c.planet.mass());
+                if (!std::isfinite(height) || !(height > 0.0))
+                    bad_value(params[k.absorption_temperature].name,
+                              given(k.absorption_temperature) +
+                                  ", which with a mean molecular "
+                                  "mass of " +
+                                  format_value(a.mean_molecular_mass) +
+                                  " kg gives the absorbing layer a scale height of " +
+                                  format_value(height) + " m, not a finite number > 0");
+            }
             h.absorption = a;
         } else {
             refuse({k.base_density, k.absorption_temperature, k.molecular_mass, k.chord},

@@ -354,3 +354,74 @@ def test_jeans_parameter_keeps_its_digits_where_k_t_is_subnormal():
     )
     lam = exosieve.jeans_parameter(T, m, M, r)
     assert math.isclose(math.log(lam), log_lam, rel_tol=1e-12, abs_tol=1e-12)
+
+
+# Case-table columns of the loss options, and hostile cells: not numbers, non-finite, the
+# extremes of the double range, subnormals, signed zeros.
+LOSS_COLUMNS = [
+    "given_loss_H [s-1]",
+    "given_loss_He [s-1]",
+    "given_loss_exponent_He [1]",
+    "given_loss_reference_flux [W m-2]",
+    "xuv_absorption_cross_section [m2]",
+    "xuv_absorption_base_density [m-3]",
+    "xuv_absorption_temperature [K]",
+    "xuv_absorption_molecular_mass [u]",
+    "xuv_absorption_chord [1]",
+    "recombination_limit [1]",
+    "recombination_temperature [K]",
+    "recombination_coefficient [m3 s-1]",
+    "recombination_photon_energy [eV]",
+]
+HOSTILE_CELLS = ["1e999", "-1e999", "True", "0x10", "1e308", "-1e308", "1e300", "1e-300"]
+HOSTILE_CELLS += ["1e-320", "-1e-320", "0", "-0"]
+
+
+@pytest.mark.parametrize("column", LOSS_COLUMNS)
+def test_hostile_loss_cells_are_refused_by_column_or_run_to_a_defined_end(tmp_path, column):
+    # A row with every loss option (line 2) and a good row (line 3). A hostile cell is refused
+    # before any run, naming the line, the column and the value, or the rows run: to finite
+    # retained fractions, or to the run's own numerical error for that case alone.
+    from test_table_losses import ROWS, TIMES, frame
+
+    everything = {
+        **ROWS[3],
+        "given_loss_H": 1e30,
+        "xuv_absorption_temperature": 900.0,
+        "xuv_absorption_molecular_mass": 2.3,
+        "xuv_absorption_chord": 0.0,
+        "recombination_temperature": 9000.0,
+        "recombination_coefficient": 3e-19,
+        "recombination_photon_energy": 18.0,
+    }
+    base = column.split(" [")[0]
+    outcomes: dict[str, str] = {}
+    for k, cell in enumerate(HOSTILE_CELLS):
+        table = frame([everything, ROWS[0]]).astype({column: object})
+        table.loc[0, column] = cell
+        path, out = tmp_path / f"{k}.csv", tmp_path / f"{k}.h5"
+        table.to_csv(path, index=False)
+        try:
+            result = exosieve.compare(path, times=TIMES, output=out)
+        except ValueError as err:
+            text = str(err)
+            # The column itself, or one that its value leaves without a use.
+            assert "line 2 " in text and "column '" in text, (cell, text)
+            assert not out.exists(), cell  # before any run
+            outcomes[cell] = "refused" if f"column '{base}'" in text else text
+            continue
+        assert result["error"][1] == "", (cell, result["error"][1])
+        error = str(result["error"][0])
+        if error:
+            assert "no progress" in error or "not finite" in error, (cell, error)
+            outcomes[cell] = "numerical error"
+        else:
+            fractions = result["retained_fraction"][0]
+            assert np.all((fractions >= 0.0) & (fractions <= 1.001)), (cell, fractions)
+            outcomes[cell] = "ran"
+    # The cells that are not numbers, not finite or below the range are refused by column.
+    refused = ["1e999", "-1e999", "True", "0x10"]
+    if base != "given_loss_exponent_He":  # the only one that may be negative
+        refused += ["-1e308", "-1e-320"]
+    for cell in refused:
+        assert outcomes[cell] == "refused", (cell, outcomes[cell])
