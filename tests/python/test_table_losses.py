@@ -482,3 +482,12 @@ def test_template_has_a_loss_row_that_runs() -> None:
     result = compare(case_table_template_path(), times=4)
     assert result["error"][k] == ""
     assert np.nanmax(result["given_loss_rate_start"][k]) > 0
+
+
+def test_catalogue_examples_run() -> None:
+    import doctest
+
+    from exosieve import catalogue
+
+    result = doctest.testmod(catalogue)
+    assert result.failed == 0 and result.attempted >= 11
