@@ -28,25 +28,10 @@
 #include "exosieve/exobase_model.hpp"
 #include "exosieve/hdf5_io.hpp"
 #include "exosieve/hydrodynamic.hpp"
+#include "exosieve/random.hpp"
 #include "exosieve/species.hpp"
 
 namespace exosieve {
-
-//! Counter-based random numbers: one independent stream per (seed, case key, sample).
-class CounterRng {
-  public:
-    //! The stream of sample `sample` of the case with key `case_key` under `seed`.
-    CounterRng(std::uint64_t seed, std::uint64_t case_key, std::uint64_t sample);
-    //! Next 64 random bits.
-    std::uint64_t next_bits();
-    //! Uniform in [0, 1) with 53 random bits [1].
-    double uniform();
-    //! Standard normal N(0, 1) by the Box–Muller transform (two uniforms per draw) [1].
-    double normal();
-
-  private:
-    std::uint64_t state_;
-};
 
 //! Shape of a parameter's uncertainty.
 enum class Distribution : int {
