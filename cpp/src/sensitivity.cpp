@@ -24,7 +24,7 @@ struct Estimate {
 };
 
 void estimate(const double* y, const SaltelliDesign& d, const std::vector<char>& active,
-              const std::vector<std::size_t>& rows, Estimate& e) {
+              const std::vector<std::size_t>& rows, double resolution, Estimate& e) {
     const std::size_t N = d.base, K = d.inputs;
     const double n = static_cast<double>(rows.size());
     const double* a = y;
@@ -43,7 +43,7 @@ void estimate(const double* y, const SaltelliDesign& d, const std::vector<char>&
     e.variance = v;
     e.s.assign(K, nan);
     e.st.assign(K, nan);
-    if (!(v > 0.0))
+    if (!(v > 0.0) || !(std::sqrt(v) > resolution))
         return;
     for (std::size_t i = 0; i < K; ++i) {
         if (!active[i])
@@ -88,6 +88,9 @@ void SaltelliDesign::validate() const {
 void SobolOptions::validate() const {
     if (!std::isfinite(confidence) || !(confidence > 0.0) || !(confidence < 1.0))
         throw InputError("confidence must be in (0, 1), got " + format_value(confidence));
+    if (!std::isfinite(resolution) || resolution < 0.0)
+        throw InputError("resolution must be finite and >= 0 [output unit], got " +
+                         format_value(resolution));
 }
 
 SobolIndices sobol_indices(const double* y, const SaltelliDesign& d, const SobolOptions& o) {
@@ -121,12 +124,12 @@ SobolIndices sobol_indices(const double* y, const SaltelliDesign& d, const Sobol
     if (used.size() < 2)
         return out;
     Estimate e;
-    estimate(y, d, active, used, e);
+    estimate(y, d, active, used, o.resolution, e);
     out.mean = e.mean;
     out.variance = e.variance;
     out.first_order = e.s;
     out.total = e.st;
-    if (o.resamples == 0 || !(e.variance > 0.0))
+    if (o.resamples == 0 || !(e.variance > 0.0) || !(std::sqrt(e.variance) > o.resolution))
         return out;
 
     std::vector<std::vector<double>> s_draws(K), st_draws(K);
@@ -140,7 +143,7 @@ SobolIndices sobol_indices(const double* y, const SaltelliDesign& d, const Sobol
         CounterRng rng(o.seed, bootstrap_key, r);
         for (std::size_t& j : rows)
             j = used[std::min(used.size() - 1, static_cast<std::size_t>(rng.uniform() * n))];
-        estimate(y, d, active, rows, e);
+        estimate(y, d, active, rows, o.resolution, e);
         for (std::size_t i = 0; i < K; ++i) {
             s_draws[i].push_back(e.s[i]);
             st_draws[i].push_back(e.st[i]);

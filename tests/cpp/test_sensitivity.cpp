@@ -226,6 +226,20 @@ TEST_CASE("Sobol indices: failed runs, inputs never run, constant outputs") {
     CHECK(z.variance == 0.0);
     CHECK(std::isnan(z.first_order[0]));
     CHECK(std::isnan(z.total[1]));
+    // Nor one that varies by less than its resolution (noise of a tolerance).
+    std::vector<double> noisy(d.runs(), 1.0);
+    noisy[1] += 1e-12;
+    noisy[4] -= 2e-12;
+    o.resolution = 1e-9;
+    const SobolIndices q = sobol_indices(noisy.data(), d, o);
+    CHECK(q.variance > 0.0);
+    CHECK(std::isnan(q.first_order[0]));
+    o.resolution = 0.0;
+    CHECK(std::isfinite(sobol_indices(noisy.data(), d, o).total[0]));
+    o.resolution = -1.0;
+    CHECK_THROWS_WITH_AS(o.validate(), "resolution must be finite and >= 0 [output unit], got -1",
+                         InputError);
+    o.resolution = 0.0;
     // Fewer than two usable rows.
     std::vector<double> few = y;
     few[2] = missing;

@@ -55,6 +55,10 @@ struct SobolOptions {
     std::size_t resamples = 1000; //!< bootstrap replicates (0: no intervals, bounds NaN)
     double confidence = 0.95;     //!< two-sided level of the intervals, in (0, 1) [1]
     std::uint64_t seed = 0;       //!< seed of the bootstrap streams
+    //! Spread below which the output counts as constant [output unit] (>= 0): with a standard
+    //! deviation sqrt(V) not above it, the indices are NaN, since differences of outputs
+    //! computed to a tolerance (an integration's rtol) would only share out its noise.
+    double resolution = 0.0;
 
     //! Throw InputError naming the option and its value for anything that cannot be used.
     void validate() const;
@@ -63,7 +67,7 @@ struct SobolOptions {
 //! First-order and total Sobol' indices of one output, with bootstrap intervals [1].
 //! Entries are NaN for an input whose A_B^(i) block holds no finite output (an input that was
 //! not uncertain, or whose runs all failed), and all of them when fewer than 2 rows are usable
-//! or the output does not vary (V = 0).
+//! or the output does not vary (sqrt(V) <= SobolOptions::resolution).
 struct SobolIndices {
     std::size_t rows_used = 0; //!< base rows whose A, B and used A_B^(i) outputs are all finite
     double mean = 0.0;         //!< mean of f over the used rows of A and B [output unit]
