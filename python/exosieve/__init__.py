@@ -7,6 +7,7 @@ Astropy quantities are accepted where astropy is installed.
 from . import constants, results
 from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
 from .batch import Comparison, Interrupted, compare, open_comparison
+from .sensitivity import SobolIndices, saltelli_inputs, sobol_indices
 from .diffusion import (
     DiffusionPair,
     binary_diffusion_parameter,
@@ -96,6 +97,9 @@ __all__ = [
     "Comparison",
     "Interrupted",
     "open_comparison",
+    "SobolIndices",
+    "saltelli_inputs",
+    "sobol_indices",
     "Species",
     "species",
     "species_names",

@@ -46,7 +46,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from . import _core
-from ._arrays import real_number, whole_number
+from ._arrays import real_number, to_si, whole_number
 
 if TYPE_CHECKING:
     from .batch import Comparison
@@ -108,8 +108,8 @@ def saltelli_inputs(a: ArrayLike, b: ArrayLike) -> NDArray[np.float64]:
     ndarray, shape (N (K + 2), K)
         The rows of A, then of B, then of A_B^(1), ..., A_B^(K) (A with column i from B).
     """
-    a = np.asarray(a, dtype=float)
-    b = np.asarray(b, dtype=float)
+    a = to_si(a, "a", "1")
+    b = to_si(b, "b", "1")
     if a.ndim != 2 or a.shape[0] == 0 or a.shape[1] == 0:
         raise ValueError(f"a must have shape (N, K) with N, K > 0, got {a.shape}")
     if b.shape != a.shape:
@@ -176,7 +176,7 @@ def sobol_indices(
     resolution = real_number(resolution, "resolution", "output unit")
     if resolution < 0.0:
         raise ValueError(f"resolution must be >= 0 [output unit], got {resolution}")
-    y = np.asarray(outputs, dtype=float)
+    y = to_si(outputs, "outputs", "1")
     k = len(names)
     if y.ndim == 0 or y.shape[-1] == 0 or y.shape[-1] % (k + 2):
         raise ValueError(
@@ -277,7 +277,8 @@ def comparison_indices(
     present = np.asarray(comparison["mole_fraction"], dtype=float) > 0.0  # (case, species)
     ci, si = np.nonzero(present)
     values = np.ascontiguousarray(np.transpose(y, (0, 2, 1))[ci, si])  # (rows, runs)
-    noise = float(comparison.config.get("options", {}).get("rtol", 0.0)) if output == "fraction" else 0.0
+    options = comparison.config.get("options", {})
+    noise = float(options.get("rtol", 0.0)) if output == "fraction" else 0.0
     result = sobol_indices(
         values,
         inputs,
