@@ -7,7 +7,6 @@ Astropy quantities are accepted where astropy is installed.
 from . import constants, results
 from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
 from .batch import Comparison, Interrupted, compare, open_comparison
-from .sensitivity import SobolIndices, saltelli_inputs, sobol_indices
 from .diffusion import (
     DiffusionPair,
     binary_diffusion_parameter,
@@ -76,6 +75,7 @@ from .outflow import (
     xuv_driven_mass_loss,
 )
 from .result import EvolutionResult, open_result
+from .sensitivity import SobolIndices, saltelli_inputs, sobol_indices
 from .species import Species, register_species, species, species_names
 from .thermosphere import (
     Exobase,

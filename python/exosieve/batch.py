@@ -436,9 +436,7 @@ class Comparison:
         """Write the comparison to ``path`` (replaced atomically) in the layout of
         :func:`compare`'s ``output`` files; returns the path."""
         path = Path(path)
-        out = _create_file(
-            path, self.config, self.species, self.times, self.samples, self.inputs
-        )
+        out = _create_file(path, self.config, self.species, self.times, self.samples, self.inputs)
         try:
             if len(self):
                 names = ["case"] + list(self.variables)

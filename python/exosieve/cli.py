@@ -230,7 +230,7 @@ def _sensitivity(args: argparse.Namespace) -> int:
         {
             "case": shown["case"],
             "species": shown["species"],
-            "input": [f"{n} [{u}]" for n, u in zip(shown["input"], shown["unit"])],
+            "input": [f"{n} [{u}]" for n, u in zip(shown["input"], shown["unit"], strict=True)],
             "S1 [1]": shown["first_order"],
             "S1 low": shown["first_order_low"],
             "S1 high": shown["first_order_high"],

@@ -524,14 +524,13 @@ def sensitivity_chart(
     output = frame.attrs.get("output", "retained")
     retain = float(frame.attrs.get("retain", 0.5))
     level = 100.0 * float(frame.attrs.get("confidence", 0.95))
-    for ax, gas in zip(axes, gases):
+    for ax, gas in zip(axes, gases, strict=True):
         part = rows[rows["species"] == gas]
         total = part["total"].to_numpy(dtype=float)
         order = np.argsort(np.where(np.isfinite(total), -total, np.inf), kind="stable")
         part = part.iloc[order]
-        names = [
-            f"{str(n).replace('_', ' ')} [{u}]" for n, u in zip(part["input"], part["unit"])
-        ]
+        pairs = zip(part["input"], part["unit"], strict=True)
+        names = [f"{str(n).replace('_', ' ')} [{u}]" for n, u in pairs]
         y = np.arange(len(part))
         for column, offset, colour, label in (
             ("first_order", -0.19, "C0", "first order: alone"),
@@ -552,7 +551,8 @@ def sensitivity_chart(
                 label=label,
             )
         for k in np.flatnonzero(~np.isfinite(part["total"].to_numpy(dtype=float))):
-            why = "held fixed" if not bool(part["uncertain"].iloc[k]) else "no spread over the samples"
+            fixed = not bool(part["uncertain"].iloc[k])
+            why = "held fixed" if fixed else "no spread over the samples"
             ax.text(0.02, y[k], why, va="center", fontsize="small", color="0.4")
         ax.set_yticks(y, names)
         ax.invert_yaxis()

@@ -69,8 +69,9 @@ def test_same_estimates_as_scipy_on_the_same_runs(function):
     y = ishigami(x) if function == "ishigami" else x @ np.array([1.0, -2.0, 0.5]) + 3.0
     ours = sobol_indices(y, k, resamples=0)
     f_ab = y[2 * n :].reshape(k, 1, n)
-    theirs = scipy.stats.sobol_indices(func={"f_A": y[None, :n], "f_B": y[None, n : 2 * n],
-                                              "f_AB": f_ab}, n=n)
+    theirs = scipy.stats.sobol_indices(
+        func={"f_A": y[None, :n], "f_B": y[None, n : 2 * n], "f_AB": f_ab}, n=n
+    )
     np.testing.assert_allclose(ours.first_order, theirs.first_order, rtol=1e-12, atol=1e-14)
     np.testing.assert_allclose(ours.total, theirs.total_order, rtol=1e-12, atol=1e-14)
     assert np.all(np.isnan(ours.first_order_low))  # no bootstrap asked for
@@ -177,9 +178,10 @@ def test_saltelli_sweep_against_the_closed_form_of_exponential_loss():
 
     def share(sd_given: float, sd_other: float, sign: float) -> float:
         def integrand(z: float) -> float:
-            return scipy.stats.norm.pdf(z) * scipy.stats.norm.cdf(
-                (d - sign * sd_given * z) / sd_other
-            ) ** 2
+            return (
+                scipy.stats.norm.pdf(z)
+                * scipy.stats.norm.cdf((d - sign * sd_given * z) / sd_other) ** 2
+            )
 
         second, _ = scipy.integrate.quad(integrand, -12, 12, epsabs=1e-13)
         return (second - p * p) / (p * (1 - p))
@@ -296,11 +298,14 @@ def test_command_line_sensitivity(tmp_path, capsys):
     table = tmp_path / "cases.csv"
     _closed_form_table(15.0).to_csv(table, index=False)
     out = tmp_path / "sweep.h5"
-    assert main(["sweep", str(table), "-o", str(out), "--samples", "64", "--design", "saltelli",
-                 "-q"]) == 0
+    assert (
+        main(["sweep", str(table), "-o", str(out), "--samples", "64", "--design", "saltelli", "-q"])
+        == 0
+    )
     chart, csv = tmp_path / "drivers.png", tmp_path / "indices.csv"
-    code = main(["sensitivity", str(out), "--resamples", "100", "--chart", str(chart), "--csv",
-                 str(csv)])
+    code = main(
+        ["sensitivity", str(out), "--resamples", "100", "--chart", str(chart), "--csv", str(csv)]
+    )
     text = capsys.readouterr().out
     assert code == 0
     assert chart.stat().st_size > 0
