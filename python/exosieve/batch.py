@@ -150,7 +150,8 @@ _INPUT_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
         float,
         ["sample", "input"],
         "SI unit of each input (see input_unit)",
-        "value of each uncertain input in each sample run (NaN: the case lacks it)",
+        "value of each uncertain input in each sample run, mole fractions as drawn (before "
+        "they are divided by their sum; NaN: the case lacks the input or its draw failed)",
     ),
     (
         "input_uncertain",
