@@ -91,42 +91,57 @@ void bind_batch(py::module_& m) {
                                    return names;
                                })
         .def_property_readonly("rows", &CaseTable::rows)
-        .def_property_readonly("species", &table_species);
+        .def_property_readonly("species", &table_species)
+        .def_property_readonly("inputs", &table_inputs,
+                               "Uncertain inputs: parameters with a _sigma or _lnsigma column");
 
     py::class_<BatchOptions>(m, "BatchOptions", "What a batch asks of every case [SI]")
-        .def(py::init([](std::vector<std::string> species, const DoubleArray& times, double t_start,
-                         double t_end, double rtol, std::size_t max_steps,
-                         double depletion_fraction, const RegimeThresholds& thresholds,
-                         std::size_t samples, std::uint64_t seed, std::size_t threads,
-                         std::size_t chunk_size, std::size_t chunks_in_flight, bool skip_invalid) {
-                 BatchOptions o;
-                 o.species = std::move(species);
-                 o.times = to_vector(times);
-                 o.t_start = t_start;
-                 o.t_end = t_end;
-                 o.rtol = rtol;
-                 o.max_steps = max_steps;
-                 o.depletion_fraction = depletion_fraction;
-                 o.thresholds = thresholds;
-                 o.samples = samples;
-                 o.seed = seed;
-                 o.threads = threads;
-                 o.chunk_size = chunk_size;
-                 o.chunks_in_flight = chunks_in_flight;
-                 o.skip_invalid = skip_invalid;
-                 o.validate();
-                 return o;
-             }),
-             py::kw_only(), py::arg("species"), py::arg("times"), py::arg("t_start"),
-             py::arg("t_end"), py::arg("rtol"), py::arg("max_steps"), py::arg("depletion_fraction"),
-             py::arg("thresholds"), py::arg("samples"), py::arg("seed"), py::arg("threads"),
-             py::arg("chunk_size"), py::arg("chunks_in_flight") = 2,
-             py::arg("skip_invalid") = false)
+        .def(
+            py::init([](std::vector<std::string> species, const DoubleArray& times, double t_start,
+                        double t_end, double rtol, std::size_t max_steps, double depletion_fraction,
+                        const RegimeThresholds& thresholds, std::size_t samples, std::uint64_t seed,
+                        std::size_t threads, std::size_t chunk_size, std::size_t chunks_in_flight,
+                        bool skip_invalid, const std::string& design) {
+                BatchOptions o;
+                o.species = std::move(species);
+                o.times = to_vector(times);
+                o.t_start = t_start;
+                o.t_end = t_end;
+                o.rtol = rtol;
+                o.max_steps = max_steps;
+                o.depletion_fraction = depletion_fraction;
+                o.thresholds = thresholds;
+                o.samples = samples;
+                o.seed = seed;
+                o.threads = threads;
+                o.chunk_size = chunk_size;
+                o.chunks_in_flight = chunks_in_flight;
+                o.skip_invalid = skip_invalid;
+                if (design == "saltelli")
+                    o.design = SampleDesign::Saltelli;
+                else if (design != "monte_carlo")
+                    throw InputError("design must be 'monte_carlo' or 'saltelli', got '" + design +
+                                     "'");
+                o.validate();
+                return o;
+            }),
+            py::kw_only(), py::arg("species"), py::arg("times"), py::arg("t_start"),
+            py::arg("t_end"), py::arg("rtol"), py::arg("max_steps"), py::arg("depletion_fraction"),
+            py::arg("thresholds"), py::arg("samples"), py::arg("seed"), py::arg("threads"),
+            py::arg("chunk_size"), py::arg("chunks_in_flight") = 2, py::arg("skip_invalid") = false,
+            py::arg("design") = "monte_carlo")
         .def_readonly("species", &BatchOptions::species)
         .def_readonly("samples", &BatchOptions::samples)
         .def_readonly("seed", &BatchOptions::seed)
         .def_readonly("threads", &BatchOptions::threads)
-        .def_readonly("chunk_size", &BatchOptions::chunk_size);
+        .def_readonly("chunk_size", &BatchOptions::chunk_size)
+        .def_property_readonly("design",
+                               [](const BatchOptions& o) {
+                                   return o.design == SampleDesign::Saltelli ? "saltelli"
+                                                                             : "monte_carlo";
+                               })
+        .def("sample_runs", &sample_runs, py::arg("inputs"),
+             "Sample runs per case of this design over `inputs` uncertain inputs.");
 
     m.def(
         "case_parameters",

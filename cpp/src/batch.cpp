@@ -19,6 +19,7 @@
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/outflow.hpp"
+#include "exosieve/sensitivity.hpp"
 
 namespace exosieve {
 
@@ -26,13 +27,6 @@ namespace {
 
 constexpr double inf = std::numeric_limits<double>::infinity();
 constexpr double nan = std::numeric_limits<double>::quiet_NaN();
-
-// SplitMix64 finaliser (Steele, Lea & Flood 2014): a bijective 64-bit mix.
-std::uint64_t mix(std::uint64_t z) {
-    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
-    z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
-    return z ^ (z >> 31);
-}
 
 bool ends_with(const std::string& s, const std::string& tail) {
     return s.size() > tail.size() && s.compare(s.size() - tail.size(), tail.size(), tail) == 0;
@@ -120,30 +114,6 @@ std::string species_prefix(const CaseParameter& p) {
 }
 
 } // namespace
-
-// --- random numbers ---------------------------------------------------------------------------
-
-CounterRng::CounterRng(std::uint64_t seed, std::uint64_t case_key, std::uint64_t sample) {
-    std::uint64_t h = mix(seed + 0x9e3779b97f4a7c15ULL);
-    h = mix(h ^ (case_key + 0x632be59bd9b4e019ULL));
-    h = mix(h ^ (sample + 0x8cb92ba72f3d8dd7ULL));
-    state_ = h;
-}
-
-std::uint64_t CounterRng::next_bits() {
-    state_ += 0x9e3779b97f4a7c15ULL;
-    return mix(state_);
-}
-
-double CounterRng::uniform() {
-    return static_cast<double>(next_bits() >> 11) * 0x1.0p-53;
-}
-
-double CounterRng::normal() {
-    const double u1 = 1.0 - uniform(); // (0, 1]: the logarithm stays finite
-    const double u2 = uniform();
-    return std::sqrt(-2.0 * std::log(u1)) * std::cos(2.0 * constants::pi * u2);
-}
 
 // --- parameters -------------------------------------------------------------------------------
 
@@ -369,6 +339,21 @@ std::vector<std::string> table_species(const CaseTable& table) {
         if (starts_with(name, "x_") && !ends_with(name, "_sigma") && !ends_with(name, "_lnsigma"))
             out.push_back(name.substr(2));
     return out;
+}
+
+std::vector<std::string> table_inputs(const CaseTable& table) {
+    std::vector<std::string> out;
+    for (const auto& [name, values] : table.columns)
+        if (ends_with(name, "_lnsigma"))
+            out.push_back(name.substr(0, name.size() - 8));
+        else if (ends_with(name, "_sigma"))
+            out.push_back(name.substr(0, name.size() - 6));
+    return out;
+}
+
+std::size_t sample_runs(const BatchOptions& o, std::size_t inputs) {
+    return o.design == SampleDesign::Saltelli ? SaltelliDesign{o.samples, inputs}.runs()
+                                              : o.samples;
 }
 
 void check_table_columns(const CaseTable& table) {
@@ -1096,7 +1081,42 @@ CaseSpec sample_case(const CaseSpec& spec, std::uint64_t seed, std::uint64_t sam
     return s;
 }
 
+DesignSample design_sample(const CaseSpec& spec, const BatchOptions& o,
+                           const std::vector<std::string>& inputs, std::uint64_t run) {
+    if (o.design == SampleDesign::MonteCarlo)
+        return {sample_case(spec, o.seed, run), true};
+    const SaltelliDesign d{o.samples, inputs.size()};
+    d.validate();
+    if (run >= d.runs())
+        throw InputError("sample " + std::to_string(run) + " is past the design's " +
+                         std::to_string(d.runs()) + " runs");
+    const std::uint64_t row = d.row(run), block = d.block(run);
+    if (block <= 1)
+        return {sample_case(spec, o.seed, 2 * row + block), true};
+    // A_B^(i): A's row with input i from B's row; a case that holds input i fixed has the
+    // same inputs as in A, and so the same outputs.
+    DesignSample out{sample_case(spec, o.seed, 2 * row), false};
+    const std::string& name = inputs[block - 2];
+    for (const Uncertainty& u : spec.uncertainties)
+        if (u.parameter == name) {
+            out.spec.values[u.slot] = sample_case(spec, o.seed, 2 * row + 1).values[u.slot];
+            out.run = true;
+        }
+    return out;
+}
+
 namespace {
+
+// InputError for a sample design the table cannot have.
+void check_design(const CaseTable& table, const BatchOptions& o) {
+    if (o.design != SampleDesign::Saltelli)
+        return;
+    if (table_inputs(table).empty())
+        throw InputError("design: a Saltelli design needs uncertain inputs, and the case table "
+                         "has no '_sigma' or '_lnsigma' column");
+    if (o.samples == 0)
+        throw InputError("samples: a Saltelli design needs base rows (> 0), got 0");
+}
 
 // Errors of rows [begin, end) ("" for a row that can run), checked on up to o.threads threads.
 // `o.species` must be set.
@@ -1152,13 +1172,14 @@ std::vector<std::string> check_table(const CaseTable& table, const BatchOptions&
     if (o.species.empty())
         o.species = table_species(table);
     o.validate();
+    check_design(table, o);
     return check_rows(table, o, 0, table.rows());
 }
 
 // --- chunks -----------------------------------------------------------------------------------
 
 void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t species_count,
-                       std::size_t time_count, std::size_t sample_count) {
+                       std::size_t time_count, std::size_t sample_count, std::size_t input_count) {
     first = first_row;
     count = cases;
     species = species_count;
@@ -1186,6 +1207,9 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
     sample_depletion_time.assign(css, nan);
     sample_failed.assign(cases * sample_count, 0);
     sample_error.assign(cases, std::string());
+    inputs = input_count;
+    sample_input.assign(cases * sample_count * input_count, nan);
+    input_uncertain.assign(cases * input_count, 0);
 }
 
 std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
@@ -1221,6 +1245,10 @@ std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
         v.push_back({"sample_depletion_time", {N, S}, &c.sample_depletion_time});
         v.push_back({"sample_failed", {N}, nullptr, &c.sample_failed});
         v.push_back({"sample_error", {}, nullptr, nullptr, &c.sample_error});
+        if (c.inputs > 0) {
+            v.push_back({"sample_input", {N, c.inputs}, &c.sample_input});
+            v.push_back({"input_uncertain", {c.inputs}, nullptr, &c.input_uncertain});
+        }
     }
     return v;
 }
@@ -1243,12 +1271,27 @@ namespace {
 
 // One evolution run of case `c` of a chunk: the nominal run (sample < 0) or a Monte Carlo one.
 // Returns false when cancelled; throws for a failed run.
+// `inputs` are the table's uncertain inputs, `input_slot` their slots in the case (none: absent).
 bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
-              const std::vector<std::size_t>& column, std::size_t c, BatchChunk& out,
+              const std::vector<std::size_t>& column, const std::vector<std::string>& inputs,
+              const std::vector<std::size_t>& input_slot, std::size_t c, BatchChunk& out,
               const std::atomic<bool>& cancel) {
-    EvolutionConfig config =
-        sample < 0 ? build_config(spec, o)
-                   : build_config(sample_case(spec, o.seed, static_cast<std::uint64_t>(sample)), o);
+    std::optional<EvolutionConfig> built;
+    if (sample < 0) {
+        built.emplace(build_config(spec, o));
+    } else {
+        const DesignSample drawn =
+            design_sample(spec, o, inputs, static_cast<std::uint64_t>(sample));
+        // The inputs are stored before the run, so that a failed run's inputs are kept too.
+        const std::size_t at = (c * out.samples + static_cast<std::size_t>(sample)) * out.inputs;
+        for (std::size_t k = 0; k < out.inputs; ++k)
+            if (input_slot[k] != none)
+                out.sample_input[at + k] = drawn.spec.values[input_slot[k]];
+        if (!drawn.run)
+            return true; // its outputs are those of A's row: left NaN, not run again
+        built.emplace(build_config(drawn.spec, o));
+    }
+    EvolutionConfig& config = *built;
     config.progress = [&cancel](double) { return !cancel.load(std::memory_order_relaxed); };
     config.record_rates = false; // only the first output's rates are read (e-folding times)
     if (sample >= 0)             // a Monte Carlo run reports its end only: no outputs between
@@ -1320,14 +1363,32 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
     return true;
 }
 
+// Slot of parameter `name` in spec.values (also a per-species one of a present species), or
+// none.
+std::size_t value_slot(const CaseSpec& spec, const std::string& name) {
+    const auto& params = case_parameters();
+    for (std::size_t k = 0; k < params.size(); ++k)
+        if (params[k].name == name)
+            return k;
+    const std::size_t n = spec.species.size();
+    std::string sp;
+    const std::size_t k = find_species_parameter(name, &sp);
+    if (k < species_parameters().size())
+        for (std::size_t i = 0; i < n; ++i)
+            if (spec.species[i].name == sp)
+                return params.size() + k * n + i;
+    return none;
+}
+
 // A chunk being computed: its results and the cases' specs.
 struct Slot {
     BatchChunk out;
-    std::vector<CaseSpec> specs;                   // read by the first worker that needs one
-    std::unique_ptr<std::once_flag[]> read;        // one per case
-    std::vector<std::vector<std::size_t>> columns; // case species -> output species
-    std::vector<std::size_t> lowest_failed;        // lowest failed sample per case
-    std::size_t remaining = 0;                     // runs not finished
+    std::vector<CaseSpec> specs;                       // read by the first worker that needs one
+    std::unique_ptr<std::once_flag[]> read;            // one per case
+    std::vector<std::vector<std::size_t>> columns;     // case species -> output species
+    std::vector<std::vector<std::size_t>> input_slots; // table input -> slot in the case
+    std::vector<std::size_t> lowest_failed;            // lowest failed sample per case
+    std::size_t remaining = 0;                         // runs not finished
 };
 
 } // namespace
@@ -1361,7 +1422,10 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
                              (bad > 1 ? "s" : "") + listed + (bad > 10 ? "\n  ..." : ""));
     }
 
-    const std::size_t S = o.species.size(), T = o.times.size(), N = o.samples;
+    check_design(table, o);
+    const std::vector<std::string> inputs = table_inputs(table);
+    const std::size_t K = inputs.size();
+    const std::size_t S = o.species.size(), T = o.times.size(), N = sample_runs(o, K);
     const std::size_t per_case = 1 + N;
     const std::size_t cases = end - begin;
     const std::size_t chunk = o.chunk_size;
@@ -1378,10 +1442,11 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
     auto open_chunk = [&](std::size_t c) {
         Slot& s = slots[c % window];
         const std::size_t first = c * chunk, count = std::min(chunk, cases - first);
-        s.out.reset(begin + first, count, S, T, N);
+        s.out.reset(begin + first, count, S, T, N, N > 0 ? K : 0);
         s.specs.assign(count, CaseSpec{});
         s.read.reset(new std::once_flag[count]);
         s.columns.assign(count, {});
+        s.input_slots.assign(count, std::vector<std::size_t>(K, none));
         s.lowest_failed.assign(count, std::numeric_limits<std::size_t>::max());
         s.remaining = count * per_case;
         for (std::size_t j = 0; j < count; ++j) {
@@ -1409,6 +1474,13 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
             spec.error = spec.label + " (case '" + spec.name + "'), " + e.what();
             return;
         }
+        if (N > 0)
+            for (std::size_t k = 0; k < K; ++k) {
+                s.input_slots[j][k] = value_slot(spec, inputs[k]);
+                for (const Uncertainty& u : spec.uncertainties)
+                    if (u.parameter == inputs[k])
+                        s.out.input_uncertain[j * K + k] = 1;
+            }
         std::fill_n(s.out.mole_fraction.begin() + static_cast<std::ptrdiff_t>(j * S), S, 0.0);
         for (std::size_t i = 0; i < spec.species.size(); ++i)
             s.out.mole_fraction[j * S + s.columns[j][i]] = spec.mole_fraction(i);
@@ -1452,7 +1524,8 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
                     failure = spec.error;
                 } else {
                     try {
-                        finished = run_case(spec, sample, o, s.columns[j], j, s.out, cancel);
+                        finished = run_case(spec, sample, o, s.columns[j], inputs, s.input_slots[j],
+                                            j, s.out, cancel);
                     } catch (const InputError& e) {
                         // As check_table() words it: where, then what.
                         failure = spec.label + " (case '" + spec.name + "'), " + e.what();

@@ -75,6 +75,7 @@ from .outflow import (
     xuv_driven_mass_loss,
 )
 from .result import EvolutionResult, open_result
+from .sensitivity import SobolIndices, saltelli_inputs, sobol_indices
 from .species import Species, register_species, species, species_names
 from .thermosphere import (
     Exobase,
@@ -96,6 +97,9 @@ __all__ = [
     "Comparison",
     "Interrupted",
     "open_comparison",
+    "SobolIndices",
+    "saltelli_inputs",
+    "sobol_indices",
     "Species",
     "species",
     "species_names",

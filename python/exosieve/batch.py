@@ -56,7 +56,7 @@ from numpy.typing import NDArray
 from . import _core
 from . import constants as c
 from ._arrays import real_number, to_si, whole_number
-from .catalogue import UNITS, CaseTable, given_units, load_cases
+from .catalogue import UNITS, CaseTable, _si_unit, given_units, load_cases
 from .model import REGIMES
 
 __all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
@@ -163,6 +163,26 @@ _SAMPLE_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
     ("sample_failed", int, ["sample"], "1", "1 where the Monte Carlo run failed"),
     ("sample_error", str, [], "1", "error of the lowest-numbered failed sample"),
 ]
+# With samples and uncertain inputs (columns `<name>_sigma` / `<name>_lnsigma`): every sample's
+# drawn inputs, along the dimension `input` (whose SI units are in the variable `input_unit`).
+_INPUT_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
+    (
+        "sample_input",
+        float,
+        ["sample", "input"],
+        "SI unit of each input (see input_unit)",
+        "value of each uncertain input in each sample run, mole fractions as drawn (before "
+        "they are divided by their sum; NaN: the case lacks the input or its draw failed)",
+    ),
+    (
+        "input_uncertain",
+        int,
+        ["input"],
+        "1",
+        "1: the case draws the input from its uncertainty; 0: held at its table value",
+    ),
+]
+DESIGNS = ("monte_carlo", "saltelli")
 
 _UNITS = {
     "final_retained_fraction": "1",
@@ -197,7 +217,12 @@ class Comparison:
     times : ndarray
         Output stellar ages [s].
     samples : int
-        Monte Carlo samples per case.
+        Sample runs per case (the length of the ``sample`` dimension): ``samples`` of
+        :func:`compare`, times (inputs + 2) for a Saltelli design.
+    inputs : list of str
+        Uncertain inputs of the table (the ``input`` dimension), in column order.
+    design : str
+        ``"monte_carlo"`` or ``"saltelli"`` (see :func:`compare`).
     config : dict
         The table's fingerprint and every option of the run.
     path : Path or None
@@ -224,13 +249,49 @@ class Comparison:
         self._summary: Any = None
         #: Cases that were already in ``output`` when :func:`compare` started (0: a new run).
         self.resumed_from = 0
+        options = config.get("options", {})
+        #: Uncertain inputs of the table (parameters with a ``_sigma``/``_lnsigma`` column).
+        self.inputs: list[str] = [str(name) for name in options.get("inputs", [])]
+        #: How the samples were drawn: ``"monte_carlo"`` or ``"saltelli"``.
+        self.design: str = str(options.get("design", "monte_carlo"))
 
     # --- arrays ---------------------------------------------------------------------------
     @property
     def variables(self) -> dict[str, tuple[list[str], str, str]]:
         """Name -> (dimensions, units, long name) of every per-case array."""
-        spec = _VARIABLES + (_SAMPLE_VARIABLES if self.samples else [])
+        spec = _variable_specs(self.samples, len(self.inputs))
         return {name: (["case", *dims], units, text) for name, _, dims, units, text in spec}
+
+    @property
+    def input_units(self) -> list[str]:
+        """SI unit of each uncertain input, as in ``inputs``."""
+        return input_units(self.inputs)
+
+    def sensitivity(
+        self,
+        output: str = "retained",
+        *,
+        retain: float | None = None,
+        resamples: int = 1000,
+        confidence: float = 0.95,
+        seed: int = 0,
+        threads: int | None = None,
+    ) -> Any:
+        """Sobol' indices per case, species and uncertain input (needs ``design="saltelli"``).
+
+        See :func:`exosieve.sensitivity.comparison_indices` for the parameters and the table.
+        """
+        from .sensitivity import comparison_indices
+
+        return comparison_indices(
+            self,
+            output,
+            retain=retain,
+            resamples=resamples,
+            confidence=confidence,
+            seed=seed,
+            threads=threads,
+        )
 
     def __getitem__(self, name: str) -> NDArray[Any]:
         if name == "case":
@@ -403,7 +464,7 @@ class Comparison:
         """Write the comparison to ``path`` (replaced atomically) in the layout of
         :func:`compare`'s ``output`` files; returns the path."""
         path = Path(path)
-        out = _create_file(path, self.config, self.species, self.times, self.samples)
+        out = _create_file(path, self.config, self.species, self.times, self.samples, self.inputs)
         try:
             if len(self):
                 names = ["case"] + list(self.variables)
@@ -458,7 +519,7 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
     rows = int(read_int_attribute(path, "", "completed"))
     species = [str(name) for name in read_strings(path, "species")]
     times = np.asarray(read_doubles(path, "time"))
-    samples = int(config["options"]["samples"])
+    samples = sample_runs(config["options"])
     if samples:
         assert len(read_int64s(path, "sample")) == samples
     return Comparison(None, species, times, samples, config, path=path, rows=rows)
@@ -478,7 +539,7 @@ def _read_variable(path: Path, name: str, rows: int, checked: bool = True) -> ND
         ran = ~np.isnan(_read_variable(path, "efolding_time", rows, checked))
         return np.where(ran, _ADDED_LATER[name], np.nan)
     kind = "int" if name == "case" else None
-    for variable, dtype, *_ in _VARIABLES + _SAMPLE_VARIABLES:
+    for variable, dtype, *_ in _VARIABLES + _SAMPLE_VARIABLES + _INPUT_VARIABLES:
         if variable == name:
             kind = {str: "str", int: "int", float: "float"}[dtype]
     if kind == "str":
@@ -554,6 +615,7 @@ _RANGES: dict[str, tuple[float, float]] = {
     "sample_retained_fraction": (0, 1.001),
     "sample_depletion_time": (0, math.inf),
     "sample_failed": (0, 1),
+    "input_uncertain": (0, 1),
 }
 
 
@@ -584,16 +646,21 @@ def _check_values(
 
 
 def check_ranges(
-    path: Path, rows: int, samples: int, species: int, times: int | None = None
+    path: Path,
+    rows: int,
+    samples: int,
+    species: int,
+    times: int | None = None,
+    inputs: int = 0,
 ) -> None:
     """Read every variable of the first ``rows`` rows of a sweep file and check its range."""
     from .results import read_doubles
 
     if times is None:
         times = len(read_doubles(path, "time"))
-    sizes = {"species": species, "time": times, "sample": samples}
+    sizes = {"species": species, "time": times, "sample": samples, "input": inputs}
     _check_values(path, "case", _read_variable(path, "case", rows, checked=False), rows, ())
-    for name, _, dims, *_ in _VARIABLES + (_SAMPLE_VARIABLES if samples else []):
+    for name, _, dims, *_ in _variable_specs(samples, inputs):
         values = _read_variable(path, name, rows, checked=False)
         _check_values(path, name, values, rows, tuple(sizes[d] for d in dims))
 
@@ -605,8 +672,49 @@ def _damaged(message: str) -> Exception:
     return error
 
 
+def _variable_specs(samples: int, inputs: int) -> list[tuple[str, type, list[str], str, str]]:
+    """The case variables of a file with ``samples`` sample runs and ``inputs`` inputs."""
+    return (
+        _VARIABLES
+        + (_SAMPLE_VARIABLES if samples else [])
+        + (_INPUT_VARIABLES if samples and inputs else [])
+    )
+
+
+def table_inputs(columns: Sequence[str]) -> list[str]:
+    """Uncertain inputs of a table with these numeric columns: the parameters with a
+    ``_sigma`` or ``_lnsigma`` column, in column order (as the batch engine lists them)."""
+    out = []
+    for name in columns:
+        if name.endswith("_lnsigma"):
+            out.append(name[: -len("_lnsigma")])
+        elif name.endswith("_sigma"):
+            out.append(name[: -len("_sigma")])
+    return out
+
+
+def input_units(inputs: Sequence[str]) -> list[str]:
+    """SI unit of each case parameter in ``inputs`` (also the per-species ones, e.g.
+    ``x_<species>``: 1, ``given_loss_<species>``: s-1)."""
+    return [_si_unit(name) or "1" for name in inputs]
+
+
+def sample_runs(options: dict[str, Any]) -> int:
+    """Sample runs per case of a run with these ``config["options"]``: ``samples``, times
+    (inputs + 2) for a Saltelli design."""
+    samples = int(options.get("samples", 0))
+    if options.get("design", "monte_carlo") == "saltelli":
+        return samples * (len(options.get("inputs", [])) + 2)
+    return samples
+
+
 def _create_file(
-    path: Path, config: dict[str, Any], species: list[str], times: NDArray[Any], samples: int
+    path: Path,
+    config: dict[str, Any],
+    species: list[str],
+    times: NDArray[Any],
+    samples: int,
+    inputs: Sequence[str] = (),
 ) -> Any:
     from .results import ResultAppender, ResultWriter
 
@@ -621,6 +729,16 @@ def _create_file(
             "sample", np.arange(samples, dtype=np.int64), units="1", long_name="Monte Carlo sample"
         )
         variables += _SAMPLE_VARIABLES
+        if inputs:
+            schema.add_coordinate("input", list(inputs), long_name="uncertain input")
+            schema.add_variable(
+                "input_unit",
+                ["input"],
+                input_units(inputs),
+                units="1",
+                long_name="SI unit of the input's values in sample_input",
+            )
+            variables += _INPUT_VARIABLES
     for name, dtype, dims, units, long_name in variables:
         schema.add_case_variable(name, dtype, dims, units=units, long_name=long_name)
     schema.set_attribute("long_name", "row of the case table", dataset="case")
@@ -786,23 +904,24 @@ class _MemorySink:
     def result(
         self, species: list[str], times: Any, samples: int, config: dict[str, Any]
     ) -> Comparison:
-        names = ["case"] + [v[0] for v in _VARIABLES + (_SAMPLE_VARIABLES if samples else [])]
+        inputs = len(config["options"].get("inputs", []))
+        names = ["case"] + [v[0] for v in _variable_specs(samples, inputs)]
         data: dict[str, Any] = {}
         for name in names:
             parts = [chunk[name] for chunk in self.chunks]
             if parts:
                 data[name] = np.concatenate(parts)
             else:
-                data[name] = _empty(name, len(species), len(times), samples)
+                data[name] = _empty(name, len(species), len(times), samples, inputs)
         return Comparison(data, species, times, samples, config)
 
 
-def _empty(name: str, s: int, t: int, n: int) -> NDArray[Any]:
+def _empty(name: str, s: int, t: int, n: int, k: int = 0) -> NDArray[Any]:
     if name == "case":
         return np.zeros(0, dtype=np.int64)
-    for variable, dtype, dims, *_ in _VARIABLES + _SAMPLE_VARIABLES:
+    for variable, dtype, dims, *_ in _VARIABLES + _SAMPLE_VARIABLES + _INPUT_VARIABLES:
         if variable == name:
-            shape = (0, *[{"species": s, "time": t, "sample": n}[d] for d in dims])
+            shape = (0, *[{"species": s, "time": t, "sample": n, "input": k}[d] for d in dims])
             kind = {str: object, int: np.int64, float: float}[dtype]
             return np.zeros(shape, dtype=kind)
     raise ValueError(name)
@@ -818,6 +937,7 @@ class _FileSink:
         samples: int,
         overwrite: bool,
         source: Path | None = None,
+        inputs: Sequence[str] = (),
     ) -> None:
         from .results import ResultAppender
 
@@ -859,7 +979,7 @@ class _FileSink:
             # refuses a damaged one); then every variable is read and range-checked.
             self.appender = ResultAppender(path)
             try:
-                check_ranges(path, rows, int(samples), len(species))
+                check_ranges(path, rows, int(samples), len(species), inputs=len(inputs))
             except BaseException:
                 self.appender.close()
                 raise
@@ -868,7 +988,7 @@ class _FileSink:
             # A new file, or one that holds no results (an empty file, or a sweep that stopped
             # before its first chunk); ResultWriter refuses to replace anything but an exosieve
             # result, and a file another process has locked.
-            self.appender = _create_file(path, config, species, times, samples)
+            self.appender = _create_file(path, config, species, times, samples, inputs)
 
     @property
     def completed(self) -> int:
@@ -901,6 +1021,7 @@ def compare(
     times: int | Sequence[float] | NDArray[np.float64] = 16,
     samples: int = 0,
     seed: int = 0,
+    design: str = "monte_carlo",
     retain: float = 0.5,
     percentiles: Sequence[float] = (5.0, 50.0, 95.0),
     depletion_fraction: float = 1e-3,
@@ -933,6 +1054,16 @@ def compare(
         Monte Carlo samples per case (0: nominal runs only).
     seed : int, optional
         Seed of the Monte Carlo draws; sample ``j`` of row ``k`` depends only on (seed, k, j).
+    design : {"monte_carlo", "saltelli"}, optional
+        ``"monte_carlo"``: ``samples`` independent draws per case. ``"saltelli"``: the Saltelli
+        design for Sobol' sensitivity indices over the table's K uncertain inputs (its
+        ``_sigma``/``_lnsigma`` columns), with ``samples`` = N base rows: N (K + 2) runs per
+        case, laid out as the rows of A, of B and of each A_B^(i) (A with input i from B; row r
+        of A is draw 2r, of B draw 2r + 1). Every run is a draw from the input distribution,
+        so the summary's probabilities and percentiles stay valid; the A_B^(i) runs of a case
+        that holds input i fixed would repeat A's and are not run (NaN). See
+        :meth:`Comparison.sensitivity`. Either way every sample's drawn inputs are stored as
+        ``sample_input`` [case, sample, input] next to its outputs.
     retain : float, optional
         Summary threshold: a species is retained when more than this fraction of its inventory
         is left at the end [1]. Default 0.5.
@@ -990,6 +1121,8 @@ def compare(
         raise ValueError(f"bad_rows must be 'raise' or 'report', got {bad_rows!r}")
     samples = whole_number(samples, "samples", 0)
     seed = whole_number(seed, "seed", 0)
+    if not isinstance(design, str) or design not in DESIGNS:
+        raise ValueError(f"design must be 'monte_carlo' or 'saltelli', got {design!r}")
     max_steps = whole_number(max_steps, "max_steps", 0)
     retain = _retain(retain)
     t_start = real_number(t_start, "t_start", "s")
@@ -1017,8 +1150,17 @@ def compare(
         raise ValueError(f"percentiles must be numbers in [0, 100], got {percentiles!r}")
     table = load_cases(cases, errors="collect" if bad_rows == "report" else "raise")
     species = list(table.species)
+    inputs = table_inputs(list(table.columns))
+    if design == "saltelli" and not inputs:
+        raise ValueError(
+            "design='saltelli' needs uncertain inputs: the case table has no '_sigma' or "
+            "'_lnsigma' column"
+        )
+    if design == "saltelli" and samples == 0:
+        raise ValueError("design='saltelli' needs samples > 0 (base rows N), got 0")
+    runs = sample_runs({"samples": samples, "design": design, "inputs": inputs})
     grid = _output_times(times, table, float(t_start), float(t_end))
-    chunk = int(chunk_size or _default_chunk(int(samples)))
+    chunk = int(chunk_size or _default_chunk(runs))
     enhanced, transition, hydrodynamic = (float(v) for v in thresholds)
     options = _engine_options(
         species,
@@ -1031,6 +1173,7 @@ def compare(
         thresholds=(enhanced, transition, hydrodynamic),
         samples=int(samples),
         seed=int(seed),
+        design=design,
     )
     config = {
         "kind": "exosieve.compare",
@@ -1056,6 +1199,8 @@ def compare(
             },
             "samples": int(samples),
             "seed": int(seed),
+            "design": design,
+            "inputs": inputs,
             "bad_rows": bad_rows,
             "distributions": "normal (_sigma, truncated to the allowed range) or log-normal "
             "(_lnsigma, median = value); draws from SplitMix64 streams keyed by (seed, row, "
@@ -1078,12 +1223,12 @@ def compare(
     sink: _FileSink | _MemorySink
     if output is not None:
         source = Path(cases) if isinstance(cases, (str, os.PathLike)) else None
-        sink = _FileSink(Path(output), config, species, grid, int(samples), overwrite, source)
+        sink = _FileSink(Path(output), config, species, grid, runs, overwrite, source, inputs)
     else:
         sink = _MemorySink()
     begin = sink.completed
     bar = _Progress(len(table), begin, progress)
-    runs_per_case = 1 + int(samples)
+    runs_per_case = 1 + runs
     interrupted = False
     try:
         if client is not None and begin < len(table):
@@ -1107,7 +1252,7 @@ def compare(
     finally:
         bar.close()
         sink.close()
-    result = sink.result(species, grid, int(samples), config)
+    result = sink.result(species, grid, runs, config)
     result.resumed_from = begin
     if interrupted:
         raise Interrupted(result)
@@ -1126,6 +1271,7 @@ def _engine_options(
     thresholds: tuple[float, float, float] = (6.0, 3.0, 2.1),
     samples: int = 0,
     seed: int = 0,
+    design: str = "monte_carlo",
 ) -> dict[str, Any]:
     """The batch engine's options as plain values (picklable, for Dask workers); defaults as
     :func:`compare`'s. The engine reports invalid rows (skip_invalid); whether they stop the run
@@ -1141,6 +1287,7 @@ def _engine_options(
         "thresholds": thresholds,
         "samples": samples,
         "seed": seed,
+        "design": design,
         "skip_invalid": True,
     }
 

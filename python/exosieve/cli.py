@@ -1,5 +1,5 @@
-"""The ``exosieve`` command: sweep a case table to HDF5, summarise and chart the result, list
-the case-table columns, run the demo."""
+"""The ``exosieve`` command: sweep a case table to HDF5, summarise and chart the result, find
+which uncertain input drives it (Sobol' indices), list the case-table columns, run the demo."""
 
 from __future__ import annotations
 
@@ -64,6 +64,7 @@ def _sweep(args: argparse.Namespace) -> int:
             times=args.times,
             samples=args.samples,
             seed=args.seed,
+            design=args.design,
             retain=args.retain,
             depletion_fraction=args.depletion,
             rtol=args.rtol,
@@ -129,7 +130,13 @@ def _summary(args: argparse.Namespace) -> int:
     result = open_comparison(args.result)
     # Every stored variable is read (checksums) and range-checked, not only those summarised,
     # so that a damaged file is refused rather than summarised in part.
-    check_ranges(Path(args.result), len(result), result.samples, len(result.species))
+    check_ranges(
+        Path(args.result),
+        len(result),
+        result.samples,
+        len(result.species),
+        inputs=len(result.inputs),
+    )
     frame = result.summarize(retain=args.retain, percentiles=args.percentiles)
     if args.species:
         frame = frame[frame["species"].isin(args.species) | (frame["species"] == "")]
@@ -181,6 +188,88 @@ def _summary(args: argparse.Namespace) -> int:
     _print_hydrodynamic(result)
     if args.csv:
         print(f"wrote {Path(args.csv).resolve()}")
+    return 0
+
+
+def _sensitivity(args: argparse.Namespace) -> int:
+    import numpy as np
+    import pandas as pd
+
+    from .batch import open_comparison
+
+    result = open_comparison(args.result)
+    frame = result.sensitivity(
+        args.measure,
+        retain=args.retain,
+        resamples=args.resamples,
+        confidence=args.confidence,
+        seed=args.seed,
+    )
+    if args.case:
+        known = set(frame["case"])
+        unknown = [name for name in args.case if name not in known]
+        if unknown:
+            raise ValueError(f"--case: no case {unknown} in {args.result}")
+        frame = frame[frame["case"].isin(args.case)]
+    if args.species:
+        frame = frame[frame["species"].isin(args.species)]
+    if args.csv:
+        frame.to_csv(args.csv, index=False)
+    level = 100.0 * frame.attrs["confidence"]
+    what = (
+        f"kept (more than {frame.attrs['retain']:g} left at the end) or lost"
+        if args.measure == "retained"
+        else "the retained fraction at the end"
+    )
+    print(
+        f"{result.path}: Sobol' indices of {what}, {result.config['options']['samples']} base "
+        f"rows x ({len(result.inputs)} inputs + 2) runs per case; [low, high] are "
+        f"{level:g} % bootstrap intervals ({frame.attrs['resamples']} resamples)"
+    )
+    shown = frame[np.isfinite(frame["total"].to_numpy(dtype=float))].copy()
+    quiet = frame.groupby(["case", "species"], sort=False)["total"].apply(
+        lambda t: not np.isfinite(t.to_numpy(dtype=float)).any()
+    )
+    table = pd.DataFrame(
+        {
+            "case": shown["case"],
+            "species": shown["species"],
+            "input": [f"{n} [{u}]" for n, u in zip(shown["input"], shown["unit"], strict=True)],
+            "S1 [1]": shown["first_order"],
+            "S1 low": shown["first_order_low"],
+            "S1 high": shown["first_order_high"],
+            "ST [1]": shown["total"],
+            "ST low": shown["total_low"],
+            "ST high": shown["total_high"],
+            ("P(kept) [1]" if args.measure == "retained" else "mean [1]"): shown["output_mean"],
+        }
+    )
+    with pd.option_context(
+        "display.max_rows", None, "display.width", 250, "display.max_columns", None
+    ):
+        print(table.to_string(index=False, float_format=lambda x: f"{x:.3g}"))
+    for case, gas in quiet[quiet].index:
+        print(f"{case}, {gas}: does not vary over the samples (no indices)")
+    if args.csv:
+        print(f"wrote {Path(args.csv).resolve()}")
+    if args.chart:
+        try:
+            import matplotlib
+        except ImportError:
+            print("exosieve: error: --chart needs matplotlib", file=sys.stderr)
+            return 2
+        matplotlib.use("Agg")
+        import matplotlib.pyplot as plt
+
+        from .plot import sensitivity_chart
+
+        if shown.empty:
+            raise ValueError("--chart: no case and species with indices to draw")
+        case = str(shown["case"].iloc[0])
+        axes = sensitivity_chart(frame, case=case)
+        axes[0].figure.savefig(args.chart, dpi=args.dpi)
+        plt.close(axes[0].figure)
+        print(f"wrote {Path(args.chart).resolve()} (case {case})")
     return 0
 
 
@@ -285,6 +374,14 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sweep.add_argument(
         "--seed", type=int, default=0, help="seed of the Monte Carlo draws (default: %(default)s)"
+    )
+    sweep.add_argument(
+        "--design",
+        choices=("monte_carlo", "saltelli"),
+        default="monte_carlo",
+        help="monte_carlo: --samples independent draws per case; saltelli: a design for "
+        "sensitivity indices ('exosieve sensitivity') with --samples base rows, --samples x "
+        "(uncertain inputs + 2) runs per case (default: %(default)s)",
     )
     sweep.add_argument(
         "--start",
@@ -442,6 +539,65 @@ def build_parser() -> argparse.ArgumentParser:
         "--dpi", type=int, default=120, help="resolution [dots per inch] (default: %(default)s)"
     )
     chart.set_defaults(run=_chart)
+
+    sens = commands.add_parser(
+        "sensitivity",
+        help="which uncertain input drives each species' retention: Sobol' indices",
+        description="First-order (alone) and total (with interactions) Sobol' indices of "
+        "each uncertain input, per case and species, with bootstrap intervals, from a result "
+        "file of 'exosieve sweep --design saltelli'. Indices are shares of the variance [1] of "
+        "the retention indicator (kept or lost: its mean is the probability of keeping the "
+        "species) or of the retained fraction.",
+    )
+    sens.add_argument("result", help="HDF5 file written by 'exosieve sweep --design saltelli'")
+    sens.add_argument(
+        "--measure",
+        choices=("retained", "fraction"),
+        default="retained",
+        help="retained: kept (1) or lost (0); fraction: the fraction left at the end "
+        "(default: %(default)s)",
+    )
+    sens.add_argument(
+        "--retain",
+        type=float,
+        default=None,
+        metavar="FRACTION",
+        help="kept = more than this fraction left [1] (default: the sweep's)",
+    )
+    sens.add_argument(
+        "--case", type=_names, default=None, metavar="A,B,...", help="only these cases"
+    )
+    sens.add_argument(
+        "--species", type=_names, default=None, metavar="A,B,...", help="only these species"
+    )
+    sens.add_argument(
+        "--resamples",
+        type=int,
+        default=1000,
+        help="bootstrap resamples of the intervals (default: %(default)s)",
+    )
+    sens.add_argument(
+        "--confidence",
+        type=float,
+        default=0.95,
+        help="level of the intervals [1] (default: %(default)s)",
+    )
+    sens.add_argument(
+        "--seed", type=int, default=0, help="seed of the bootstrap (default: %(default)s)"
+    )
+    sens.add_argument(
+        "--csv", default=None, metavar="FILE", help="also write the indices to this CSV file"
+    )
+    sens.add_argument(
+        "--chart",
+        default=None,
+        metavar="PNG",
+        help="draw the indices of the first case shown (or the --case given) to this PNG file",
+    )
+    sens.add_argument(
+        "--dpi", type=int, default=120, help="resolution [dots per inch] (default: %(default)s)"
+    )
+    sens.set_defaults(run=_sensitivity)
 
     columns = commands.add_parser(
         "columns",

@@ -448,3 +448,123 @@ def retention_intervals(comparison: Any, gas: str, ax: Any = None) -> Any:
     ax.set_title(f"{gas}: Monte Carlo spread over {comparison.samples} samples per case")
     ax.legend(fontsize="small", loc="lower left")
     return ax
+
+
+def sensitivity_chart(
+    indices: Any,
+    case: str | None = None,
+    species: Sequence[str] | None = None,
+    axes: Sequence[Any] | None = None,
+) -> list[Any]:
+    """What drives each species' retention in one case: Sobol' indices as horizontal bars.
+
+    One panel per species; per uncertain input (largest total index on top) a dark bar for
+    the first-order index (the input's share of the output's variance alone) and a light bar
+    for the total index (with its interactions), each with its confidence interval as a
+    whisker. Indices are shares of the variance [1]; an input with a total index near 0 does
+    not matter, whatever it is set to within its uncertainty.
+
+    Parameters
+    ----------
+    indices : pandas.DataFrame or Comparison
+        From :meth:`exosieve.Comparison.sensitivity`, or a Saltelli-design comparison (whose
+        default indices are then computed).
+    case : str, optional
+        Case label; default: the first case with indices.
+    species : sequence of str, optional
+        Species to show; default: those of the case whose output varies.
+    axes : sequence of matplotlib Axes, optional
+        One per species shown; default: a new figure.
+
+    Returns
+    -------
+    list of matplotlib Axes
+    """
+    if not hasattr(indices, "columns"):
+        indices = indices.sensitivity()
+    frame = indices
+    if case is None:
+        ok = frame[np.isfinite(frame["total"].to_numpy(dtype=float))]
+        if ok.empty:
+            raise ValueError(
+                "no case has indices: every output is constant over its samples "
+                "(species kept, or lost, in every run)"
+            )
+        case = str(ok["case"].iloc[0])
+    rows = frame[frame["case"] == case]
+    if rows.empty:
+        cases = ", ".join(dict.fromkeys(str(c) for c in frame["case"]))
+        raise ValueError(f"case {case!r} is not in the indices (have {cases})")
+    if species is None:
+        varies = rows[np.isfinite(rows["total"].to_numpy(dtype=float))]
+        gases = list(dict.fromkeys(str(s) for s in varies["species"])) or [
+            str(rows["species"].iloc[0])
+        ]
+    else:
+        gases = [str(s) for s in species]
+        unknown = [g for g in gases if g not in set(rows["species"])]
+        if unknown:
+            raise ValueError(f"species {unknown} are not in case {case!r}")
+    if axes is None:
+        import matplotlib.pyplot as plt
+
+        height = 1.0 + 0.45 * rows["input"].nunique()
+        fig, grid = plt.subplots(
+            1,
+            len(gases),
+            figsize=(max(6.4, 4.6 * len(gases) + 1.8), height + 1.0),
+            layout="constrained",
+            squeeze=False,
+        )
+        axes = list(grid[0])
+    else:
+        axes = list(axes)
+        if len(axes) != len(gases):
+            raise ValueError(f"axes: {len(gases)} needed (one per species), got {len(axes)}")
+    output = frame.attrs.get("output", "retained")
+    retain = float(frame.attrs.get("retain", 0.5))
+    level = 100.0 * float(frame.attrs.get("confidence", 0.95))
+    for ax, gas in zip(axes, gases, strict=True):
+        part = rows[rows["species"] == gas]
+        total = part["total"].to_numpy(dtype=float)
+        order = np.argsort(np.where(np.isfinite(total), -total, np.inf), kind="stable")
+        part = part.iloc[order]
+        pairs = zip(part["input"], part["unit"], strict=True)
+        names = [f"{str(n).replace('_', ' ')} [{u}]" for n, u in pairs]
+        y = np.arange(len(part))
+        for column, offset, colour, label in (
+            ("first_order", -0.19, "C0", "first order: alone"),
+            ("total", 0.19, "C1", "total: with interactions"),
+        ):
+            value = part[column].to_numpy(dtype=float)
+            low = part[f"{column}_low"].to_numpy(dtype=float)
+            high = part[f"{column}_high"].to_numpy(dtype=float)
+            whisker = np.vstack([np.clip(value - low, 0, None), np.clip(high - value, 0, None)])
+            ax.barh(
+                y + offset,
+                np.nan_to_num(value),
+                height=0.38,
+                color=colour,
+                alpha=0.85 if column == "first_order" else 0.55,
+                xerr=np.nan_to_num(whisker),
+                error_kw={"elinewidth": 1, "capsize": 2},
+                label=label,
+            )
+        for k in np.flatnonzero(~np.isfinite(part["total"].to_numpy(dtype=float))):
+            fixed = not bool(part["uncertain"].iloc[k])
+            why = "held fixed" if fixed else "no spread over the samples"
+            ax.text(0.02, y[k], why, va="center", fontsize="small", color="0.4")
+        ax.set_yticks(y, names)
+        ax.invert_yaxis()
+        ax.axvline(0.0, color="0.3", linewidth=0.8)
+        ax.set_xlim(-0.05, 1.05)
+        mean = float(part["output_mean"].iloc[0]) if len(part) else float("nan")
+        if output == "retained":
+            title = f"{case}, {gas}: kept (> {retain:g} left) with P = {mean:.2f}"
+            ax.set_xlabel("share of the variance of kept / lost [1]")
+        else:
+            title = f"{case}, {gas}: retained fraction, mean {mean:.3g}"
+            ax.set_xlabel("share of the variance of the retained fraction [1]")
+        ax.set_title(title, fontsize="medium")
+    axes[0].legend(fontsize="small", loc="best", title=f"{level:g} % intervals")
+    return axes

@@ -11,6 +11,7 @@
 #include "exosieve/errors.hpp"
 #include "exosieve/jeans.hpp"
 #include "exosieve/outflow.hpp"
+#include "exosieve/sensitivity.hpp"
 
 using namespace exosieve;
 using constants::Gyr;
@@ -797,6 +798,87 @@ TEST_CASE("batch: bulk gas at or below the hydrodynamic threshold without a heat
         REQUIRE(c.error[k].empty());
     CHECK(c.bulk_jeans_start[0] == doctest::Approx(1.5).epsilon(1e-12));
     CHECK(c.hydrodynamic_unmodelled == std::vector<std::int64_t>{1, 0, 0});
+}
+
+TEST_CASE("batch: a Saltelli design stores each run's drawn inputs next to its outputs") {
+    CaseTable t = earthlike(5);
+    // Row 2 holds the planet mass fixed (no width): its A_B^(mass) runs equal A's and are not run.
+    for (auto& [name, values] : t.columns)
+        if (name == "planet_mass_sigma")
+            values[2] = missing;
+    CHECK(table_inputs(t) == std::vector<std::string>{"planet_mass", "exobase_temperature"});
+    BatchOptions o = options(2, 6, 2);
+    o.design = SampleDesign::Saltelli;
+    CHECK(sample_runs(o, 2) == 24);
+    const auto chunks = run(t, o);
+    const SaltelliDesign d{6, 2};
+    std::size_t temperature_slot = 0;
+    while (case_parameters()[temperature_slot].name != "exobase_temperature")
+        ++temperature_slot;
+    for (const BatchChunk& c : chunks) {
+        REQUIRE(c.samples == 24);
+        REQUIRE(c.inputs == 2);
+        for (std::size_t j = 0; j < c.count; ++j) {
+            const std::size_t row = c.first + j;
+            CAPTURE(row);
+            const CaseSpec spec = case_from_table(t, row);
+            CHECK(c.input_uncertain[j * 2 + 0] == (row == 2 ? 0 : 1));
+            CHECK(c.input_uncertain[j * 2 + 1] == 1);
+            for (std::size_t run = 0; run < d.runs(); ++run) {
+                CAPTURE(run);
+                const double* x = &c.sample_input[(j * 24 + run) * 2];
+                // A's row r is the Monte Carlo draw 2r, B's row r the draw 2r + 1.
+                const CaseSpec a = sample_case(spec, o.seed, 2 * d.row(run));
+                const CaseSpec b = sample_case(spec, o.seed, 2 * d.row(run) + 1);
+                CHECK(x[0] == (d.from_b(run, 0) ? b : a).value("planet_mass"));
+                CHECK(x[1] == (d.from_b(run, 1) ? b : a).value("exobase_temperature"));
+                const double he = c.sample_retained[(j * 24 + run) * 3 + 1];
+                const bool skipped = row == 2 && d.block(run) == 2;
+                CHECK(std::isnan(he) == skipped);
+                CHECK(c.sample_failed[j * 24 + run] == 0);
+                if (skipped)
+                    continue;
+                // The stored outputs are those of a single run with the stored inputs.
+                CaseSpec drawn = spec;
+                drawn.values[0] = x[0];
+                drawn.values[temperature_slot] = x[1];
+                if (run % 7 == 0) {
+                    EvolutionConfig cfg = build_config(drawn, o);
+                    cfg.t_eval = {cfg.t_start, cfg.t_end};
+                    const EvolutionResult r = evolve(cfg);
+                    CHECK(he ==
+                          r.inventory[(r.time_count() - 1) * 3 + 1] / cfg.initial_inventory[1]);
+                }
+            }
+        }
+    }
+    // The same on one thread and in one chunk.
+    BatchOptions o1 = options(1, 6, 100);
+    o1.design = SampleDesign::Saltelli;
+    const auto single = run(t, o1);
+    for (auto field :
+         {&BatchChunk::sample_input, &BatchChunk::sample_retained, &BatchChunk::final_retained})
+        CHECK(same(concat(chunks, field), concat(single, field)));
+    // Monte Carlo runs store their inputs too: draw j is sample_case(spec, seed, j).
+    const auto mc = run(t, options(1, 3, 100));
+    REQUIRE(mc[0].inputs == 2);
+    const CaseSpec spec4 = case_from_table(t, 4);
+    CHECK(mc[0].sample_input[(4 * 3 + 1) * 2 + 1] ==
+          sample_case(spec4, 20261202, 1).value("exobase_temperature"));
+    // Refused: no uncertain input, no base rows.
+    CaseTable fixed = earthlike(2);
+    fixed.columns.erase(
+        std::remove_if(fixed.columns.begin(), fixed.columns.end(),
+                       [](const auto& c) { return c.first.find("sigma") != std::string::npos; }),
+        fixed.columns.end());
+    BatchHooks hooks;
+    CHECK_THROWS_WITH_AS(run_batch(fixed, 0, 2, o, hooks),
+                         "design: a Saltelli design needs uncertain inputs, and the case table has "
+                         "no '_sigma' or '_lnsigma' column",
+                         InputError);
+    o.samples = 0;
+    CHECK_THROWS_WITH_AS(check_table(t, o),
+                         "samples: a Saltelli design needs base rows (> 0), got 0", InputError);
 }
 
 namespace {

@@ -270,10 +270,13 @@ def test_result_file_layout(tmp_path):
     result = compare(path, t_end=GYR_45, samples=5, threads=1, times=6)
     out = result.to_hdf5(tmp_path / "r.h5")
     with xr.open_dataset(out, engine="h5netcdf") as ds:
-        assert dict(ds.sizes) == {"case": 3, "species": 3, "time": 6, "sample": 5}
+        # `input`: the uncertain inputs, whose drawn values each sample stores.
+        sizes = {"case": 3, "species": 3, "time": 6, "sample": 5, "input": 2}
+        assert dict(ds.sizes) == sizes
         assert ds.retained_fraction.dims == ("case", "time", "species")
         assert ds.sample_retained_fraction.dims == ("case", "sample", "species")
-        for name in list(ds.data_vars) + ["time", "species", "sample", "case"]:
+        assert ds.sample_input.dims == ("case", "sample", "input")
+        for name in list(ds.data_vars) + ["time", "species", "sample", "case", "input"]:
             assert ds[name].attrs["units"] and ds[name].attrs["long_name"], name
         assert ds.time.attrs["units"] == "s"
         config = json.loads(ds.attrs["config"])

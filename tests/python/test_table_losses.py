@@ -222,6 +222,14 @@ def test_uncertain_loss_columns_are_drawn_like_the_others() -> None:
     result = compare(table, times=TIMES, t_start=T_START, t_end=T_END, samples=3, seed=4)
     assert not any(result["error"]) and not result["sample_failed"].any()
     core_table = case_table_from_frame(table).to_core()
+    # The drawn inputs are stored with their units, per-species ones too.
+    inputs = result.inputs
+    assert dict(zip(inputs, result.input_units, strict=True)) == {
+        "given_loss_H": "s-1",
+        "given_loss_exponent_He": "1",
+        "xuv_absorption_cross_section": "m2",
+        "recombination_temperature": "K",
+    }
     for k, drawn_names in enumerate(
         [
             ("given_loss_H", "given_loss_exponent_He"),
@@ -233,6 +241,7 @@ def test_uncertain_loss_columns_are_drawn_like_the_others() -> None:
             drawn = _core.case_values(core_table, k, 4, sample)
             for name in drawn_names:
                 assert drawn[name] != nominal[name]
+                assert result["sample_input"][k, sample, inputs.index(name)] == drawn[name]
             single = single_run(drawn, t_eval=[T_START, T_END])
             for j, name in enumerate(SPECIES):
                 initial = single.config["initial_inventory"][j]

@@ -16,6 +16,11 @@
 //!   (at most 1000 draws; then the sample fails).
 //! - Log-normal: ln X ~ N(ln value, s^2): the table value is the median, s the standard
 //!   deviation of ln X [1].
+//!
+//! Sensitivity designs (SampleDesign::Saltelli): the samples of a case form the Saltelli design
+//! of sensitivity.hpp over the table's uncertain inputs (table_inputs()), so that Sobol' indices
+//! of every output can be estimated from the stored runs. Every sample's drawn inputs are
+//! stored next to its outputs ("sample_input"), in either design.
 
 #include <cstddef>
 #include <cstdint>
@@ -28,30 +33,24 @@
 #include "exosieve/exobase_model.hpp"
 #include "exosieve/hdf5_io.hpp"
 #include "exosieve/hydrodynamic.hpp"
+#include "exosieve/random.hpp"
 #include "exosieve/species.hpp"
 
 namespace exosieve {
-
-//! Counter-based random numbers: one independent stream per (seed, case key, sample).
-class CounterRng {
-  public:
-    //! The stream of sample `sample` of the case with key `case_key` under `seed`.
-    CounterRng(std::uint64_t seed, std::uint64_t case_key, std::uint64_t sample);
-    //! Next 64 random bits.
-    std::uint64_t next_bits();
-    //! Uniform in [0, 1) with 53 random bits [1].
-    double uniform();
-    //! Standard normal N(0, 1) by the Box–Muller transform (two uniforms per draw) [1].
-    double normal();
-
-  private:
-    std::uint64_t state_;
-};
 
 //! Shape of a parameter's uncertainty.
 enum class Distribution : int {
     Normal = 0,    //!< width is the standard deviation, in the parameter's SI unit
     LogNormal = 1, //!< width is the standard deviation of ln X [1]; the value is the median
+};
+
+//! How the Monte Carlo samples of a case are drawn.
+enum class SampleDesign : int {
+    MonteCarlo = 0, //!< `samples` independent draws: sample j from the stream (seed, key, j)
+    //! The Saltelli design over the table's K uncertain inputs with N = `samples` base rows:
+    //! N (K + 2) runs laid out as SaltelliDesign (A, B, A_B^(1) ... A_B^(K)); row r of A is
+    //! drawn from the stream (seed, key, 2r), of B from (seed, key, 2r + 1).
+    Saltelli = 1,
 };
 
 //! Parameters a case may carry: name, SI unit, and whether an uncertainty may be given.
@@ -117,9 +116,10 @@ struct BatchOptions {
     std::size_t max_steps = 100000; //!< step budget for cases without a max_steps column
     double depletion_fraction = 1e-3; //!< a species is depleted below this share [1]
     RegimeThresholds thresholds;      //!< regime thresholds of the Jeans parameter [1]
-    std::size_t samples = 0;          //!< Monte Carlo samples per case (0: nominal runs only)
-    std::uint64_t seed = 0;           //!< seed of the Monte Carlo streams
-    std::size_t threads = 0;          //!< worker threads (0: all hardware threads)
+    std::size_t samples = 0; //!< Monte Carlo samples per case, or base rows N of a Saltelli design
+    SampleDesign design = SampleDesign::MonteCarlo; //!< how the samples are drawn
+    std::uint64_t seed = 0;                         //!< seed of the Monte Carlo streams
+    std::size_t threads = 0;                        //!< worker threads (0: all hardware threads)
     std::size_t chunk_size = 256;     //!< cases per chunk handed to the chunk callback (> 0)
     std::size_t chunks_in_flight = 2; //!< chunks computed ahead of the callback (>= 1)
     //! Report invalid rows with their error in their chunk instead of checking every row first
@@ -271,10 +271,16 @@ struct BatchChunk {
     std::vector<double> sample_depletion_time; //!< [s] [case x sample x species]
     std::vector<std::int64_t> sample_failed;   //!< 1 where the sample run failed [case x sample]
     std::vector<std::string> sample_error;     //!< error of the lowest failed sample [case]
+    std::size_t inputs = 0;                    //!< K: uncertain inputs of the table
+    //! Value of each input in each sample run [SI unit of the input], NaN where the case lacks
+    //! it or its draw failed [case x sample x input]
+    std::vector<double> sample_input;
+    //! 1 where the case's input is drawn, 0 where it is held at its table value [case x input]
+    std::vector<std::int64_t> input_uncertain;
 
     //! Size every array for `cases` cases, filled with NaN, -1, 0 or "" as documented.
     void reset(std::size_t first_row, std::size_t cases, std::size_t species_count,
-               std::size_t time_count, std::size_t sample_count);
+               std::size_t time_count, std::size_t sample_count, std::size_t input_count = 0);
 };
 
 //! One case variable of a chunk under its name in sweep files: `count` rows, each of shape
@@ -294,8 +300,8 @@ struct ChunkVariable {
 //! efolding_time, escape_rate_start, given_loss_rate_start, jeans_parameter_start,
 //! jeans_parameter_end, regime_start,
 //! bulk_jeans_parameter_start, hydrodynamic_unmodelled, and with samples
-//! sample_retained_fraction, sample_depletion_time, sample_failed, sample_error. They point
-//! into `chunk`.
+//! sample_retained_fraction, sample_depletion_time, sample_failed, sample_error, and with
+//! samples and uncertain inputs sample_input, input_uncertain. They point into `chunk`.
 std::vector<ChunkVariable> chunk_variables(const BatchChunk& chunk);
 
 //! A chunk as rows of a sweep file: `case` (the keys) and chunk_variables(). Written straight
@@ -342,5 +348,25 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
 
 //! Species of a table in column order ("x_<species>" columns).
 std::vector<std::string> table_species(const CaseTable& table);
+
+//! Uncertain inputs of a table: the parameters with a "_sigma" or "_lnsigma" column, in column
+//! order (e.g. "planet_mass", "x_He"). A row without a width for one of them holds it fixed.
+std::vector<std::string> table_inputs(const CaseTable& table);
+
+//! Sample runs per case: `samples` for Monte Carlo, samples (inputs + 2) for a Saltelli design
+//! over `inputs` uncertain inputs.
+std::size_t sample_runs(const BatchOptions& options, std::size_t inputs);
+
+//! The inputs of one sample run of a case.
+struct DesignSample {
+    CaseSpec spec;   //!< the case with its drawn values
+    bool run = true; //!< false: an A_B^(i) run whose input i the case holds fixed (= A's run)
+};
+
+//! Sample run `run` of `spec` under options.design, with `inputs` = table_inputs() of its table:
+//! sample_case(spec, seed, run) for Monte Carlo; for a Saltelli design A's or B's row, or A's
+//! row with input i from B's. Throws NumericalError as sample_case() does.
+DesignSample design_sample(const CaseSpec& spec, const BatchOptions& options,
+                           const std::vector<std::string>& inputs, std::uint64_t run);
 
 } // namespace exosieve

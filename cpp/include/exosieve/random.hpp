@@ -1,0 +1,29 @@
+#pragma once
+//! \file random.hpp
+//! Counter-based random numbers: every stream is a pure function of three integers (a seed and
+//! two counters), so a draw never depends on threads, chunks, machines or the order of work.
+//! SplitMix64 (Steele, Lea & Flood 2014) over a hash of the three; normal draws by the
+//! Box–Muller transform (Box & Muller 1958), written out here so that results do not depend
+//! on the standard library.
+
+#include <cstdint>
+
+namespace exosieve {
+
+//! Counter-based random numbers: one independent stream per (seed, key, index).
+class CounterRng {
+  public:
+    //! The stream `index` of key `key` under `seed` (the batch uses key = case, index = sample).
+    CounterRng(std::uint64_t seed, std::uint64_t key, std::uint64_t index);
+    //! Next 64 random bits.
+    std::uint64_t next_bits();
+    //! Uniform in [0, 1) with 53 random bits [1].
+    double uniform();
+    //! Standard normal N(0, 1) by the Box–Muller transform (two uniforms per draw) [1].
+    double normal();
+
+  private:
+    std::uint64_t state_;
+};
+
+} // namespace exosieve
