@@ -15,6 +15,7 @@ from .diffusion import (
     diffusion_pairs,
 )
 from .envelope import (
+    Envelope,
     SOLAR_IRRADIANCE,
     EnvelopeLoss,
     core_radius,
@@ -145,6 +146,7 @@ __all__ = [
     "xuv_absorption_radius",
     "SOLAR_IRRADIANCE",
     "core_radius",
+    "Envelope",
     "envelope_radius",
     "envelope_planet_radius",
     "EnvelopeLoss",
