@@ -390,8 +390,8 @@ void bind_evolution(py::module_& m) {
              py::arg("core_mass"), py::arg("envelope_fraction"), py::arg("opacity") = 0)
         .def_readonly("core_mass", &EnvelopeConfig::core_mass)
         .def_readonly("envelope_fraction", &EnvelopeConfig::envelope_fraction)
-        .def_property_readonly(
-            "opacity", [](const EnvelopeConfig& e) { return static_cast<int>(e.opacity); })
+        .def_property_readonly("opacity",
+                               [](const EnvelopeConfig& e) { return static_cast<int>(e.opacity); })
         .def_property_readonly("initial_mass", &EnvelopeConfig::initial_mass)
         .def_property_readonly("initial_planet_mass", &EnvelopeConfig::initial_planet_mass);
 

@@ -29,7 +29,9 @@ Star sunlike() {
     return Star(constants::M_sun, constants::L_sun, xuv);
 }
 
-double bolometric_flux() { return constants::L_sun / (4 * constants::pi * orbit * orbit); }
+double bolometric_flux() {
+    return constants::L_sun / (4 * constants::pi * orbit * orbit);
+}
 
 // The species part kept trivial: one species (H) at a prescribed exobase 500 km above the
 // planet, its density fixed, energy-limited loss throughout (efficiency 0.1, XUV absorbed at
@@ -39,9 +41,9 @@ EvolutionConfig sub_neptune(double fraction, double t0, double t1, double rtol) 
     c.species = {species("H")};
     c.initial_inventory = {1e52};
     const double r0 = envelope_planet_radius(core, fraction, bolometric_flux(), t0);
-    c.exobase = std::make_shared<PrescribedExobase>(r0 + 500e3, std::vector<std::string>{"H"},
-                                                    std::vector<double>{1e12},
-                                                    DensityScaling::Fixed);
+    c.exobase =
+        std::make_shared<PrescribedExobase>(r0 + 500e3, std::vector<std::string>{"H"},
+                                            std::vector<double>{1e12}, DensityScaling::Fixed);
     c.temperature = ExobaseTemperature::constant(3000.0);
     HydrodynamicOptions h;
     h.efficiency = 0.1;
@@ -64,8 +66,8 @@ EnvelopeLossResult reference(const EvolutionConfig& c, double rtol) {
     o.roche_lobe = c.hydrodynamic->roche_lobe;
     o.rtol = rtol;
     o.atol_fraction = 1e-14;
-    return integrate_envelope_loss(core, c.envelope->envelope_fraction, orbit, sunlike(),
-                                   c.t_eval, o);
+    return integrate_envelope_loss(core, c.envelope->envelope_fraction, orbit, sunlike(), c.t_eval,
+                                   o);
 }
 
 } // namespace
@@ -126,9 +128,8 @@ TEST_CASE("after stripping the planet is the bare core: radius, exobase and Jean
           doctest::Approx(constants::G * core * m_h / (kT * (rc + 500e3))).epsilon(1e-14));
     // Energy-limited loss of the bare core: eta pi R_c^3 F_xuv / (G M_c), all in H atoms.
     const double f_xuv = sunlike().xuv_luminosity(3 * Gyr) / (4 * constants::pi * orbit * orbit);
-    CHECK(r.escape_rate[1] == doctest::Approx(energy_limited_mass_loss(0.1, rc, rc, f_xuv, core) /
-                                              m_h)
-                                  .epsilon(1e-12));
+    CHECK(r.escape_rate[1] ==
+          doctest::Approx(energy_limited_mass_loss(0.1, rc, rc, f_xuv, core) / m_h).epsilon(1e-12));
 }
 
 TEST_CASE("an envelope kept, a bare core from the start, and a loss switched by the regime") {
@@ -162,9 +163,9 @@ TEST_CASE("an envelope kept, a bare core from the start, and a loss switched by 
     EvolutionConfig plain = sub_neptune(0.02, 150 * Myr, 1 * Gyr, 1e-9);
     plain.envelope.reset();
     plain.planet = Planet(core, 2 * R_earth, orbit, sunlike());
-    plain.exobase = std::make_shared<PrescribedExobase>(
-        2 * R_earth + 500e3, std::vector<std::string>{"H"}, std::vector<double>{1e12},
-        DensityScaling::Fixed);
+    plain.exobase =
+        std::make_shared<PrescribedExobase>(2 * R_earth + 500e3, std::vector<std::string>{"H"},
+                                            std::vector<double>{1e12}, DensityScaling::Fixed);
     const EvolutionResult p = evolve(plain);
     CHECK_FALSE(p.has_envelope());
     CHECK(p.envelope_mass.empty());
@@ -176,8 +177,8 @@ TEST_CASE("envelope accuracy: every output within 10 rtol of the reference") {
     for (double rtol : {1e-4, 1e-6, 1e-8, 1e-10}) {
         CAPTURE(rtol);
         EvolutionConfig c = sub_neptune(0.03, 20 * Myr, 10 * Gyr, rtol);
-        c.t_eval = {20 * Myr, 60 * Myr, 100 * Myr, 140 * Myr, 200 * Myr, 300 * Myr, 400 * Myr,
-                    600 * Myr, 10 * Gyr};
+        c.t_eval = {20 * Myr,  60 * Myr,  100 * Myr, 140 * Myr, 200 * Myr,
+                    300 * Myr, 400 * Myr, 600 * Myr, 10 * Gyr};
         const EvolutionResult r = evolve(c);
         const EnvelopeLossResult ref = reference(c, 1e-13);
         const double atol = rtol * c.depletion_fraction * ref.envelope_mass[0];
