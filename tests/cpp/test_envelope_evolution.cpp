@@ -173,7 +173,8 @@ TEST_CASE("an envelope kept, a bare core from the start, and a loss switched by 
 }
 
 TEST_CASE("envelope accuracy: every output within 10 rtol of the reference") {
-    // The envelope's error test is |err| <= rtol |M_env| + rtol depletion_fraction M_env(0).
+    // The accuracy rule of the inventories, |err| <= 10 (rtol M_env + atol), with the envelope's
+    // atol = rtol depletion_fraction M_env(start); the reference at rtol 1e-13.
     for (double rtol : {1e-4, 1e-6, 1e-8, 1e-10}) {
         CAPTURE(rtol);
         EvolutionConfig c = sub_neptune(0.03, 20 * Myr, 10 * Gyr, rtol);

@@ -152,8 +152,9 @@ def test_sub_neptune_stripped_at_the_time_scipy_finds() -> None:
 
 @pytest.mark.parametrize("rtol", [1e-4, 1e-6, 1e-8, 1e-10])
 def test_envelope_outputs_within_ten_rtol_of_scipy(rtol: float) -> None:
-    # The accuracy rule: every output within 10 rtol of the reference (the envelope's error
-    # test is rtol |M_env| + rtol depletion_fraction M_env(start), depletion_fraction 1e-3).
+    # The accuracy rule of the inventories (tests/python/test_accuracy.py): every output within
+    # 10 (rtol M_env + atol) of the reference, atol = rtol depletion_fraction M_env(start) the
+    # envelope's absolute tolerance (depletion_fraction 1e-3); measured: within 0.04-0.09 of it.
     reference, stripped = _reference(TIMES, 1e-13)
     r = _run(TIMES, rtol)
     assert r.envelope_mass is not None and r.stripping_time is not None
