@@ -739,8 +739,8 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
                                            format_value(t_start) + " s");
             const double flux = star.luminosity() / (4.0 * constants::pi * a * a);
             planet.emplace(envelope->initial_planet_mass(),
-                           envelope_planet_radius(envelope->core_mass,
-                                                  envelope->envelope_fraction, flux, t_start),
+                           envelope_planet_radius(envelope->core_mass, envelope->envelope_fraction,
+                                                  flux, t_start),
                            a, star);
         } else {
             planet.emplace(required(k.planet_mass), required(k.planet_radius), a, star);

@@ -15,8 +15,8 @@ from .diffusion import (
     diffusion_pairs,
 )
 from .envelope import (
-    Envelope,
     SOLAR_IRRADIANCE,
+    Envelope,
     EnvelopeLoss,
     core_radius,
     envelope_loss,

@@ -132,14 +132,15 @@ def test_sub_neptune_stripped_at_the_time_scipy_finds() -> None:
     assert r.planet_radius[0] > 2.0 * c.R_EARTH
     assert r.planet_radius[-1] == pytest.approx(math.sqrt(2) * c.R_EARTH, rel=1e-14)
     np.testing.assert_allclose(
-        r.planet_radius[alive], [_radius(m, t) for m, t in zip(reference[alive], TIMES[alive])],
+        r.planet_radius[alive],
+        [_radius(m, t) for m, t in zip(reference[alive], TIMES[alive], strict=True)],
         rtol=1e-8,
     )
     # The envelope's loss is the energy-limited rate at the evolving radius and mass.
     assert r.envelope_loss_rate is not None
     np.testing.assert_allclose(
         r.envelope_loss_rate[alive],
-        [_mass_loss(m, t) for m, t in zip(r.envelope_mass[alive], TIMES[alive])],
+        [_mass_loss(m, t) for m, t in zip(r.envelope_mass[alive], TIMES[alive], strict=True)],
         rtol=1e-12,
     )
     # The same planet as the standalone envelope_loss() (its own integrator) sees it, with an
@@ -211,9 +212,7 @@ def test_runs_without_an_envelope_have_none(tmp_path: Path) -> None:
         ({"opacity": "dusty"}, "opacity must be 'solar' or 'enhanced', got 'dusty'"),
     ],
 )
-def test_bad_envelope_raises_naming_the_argument(
-    envelope: dict[str, object], message: str
-) -> None:
+def test_bad_envelope_raises_naming_the_argument(envelope: dict[str, object], message: str) -> None:
     arguments: dict[str, object] = {"core_mass": CORE, "envelope_fraction": 0.02}
     arguments.update(envelope)
     with pytest.raises(ValueError, match=message):
@@ -227,13 +226,27 @@ def test_envelope_needs_the_star_and_the_hydrodynamic_option_before_any_step() -
     hydro = es.EnergyLimitedEscape(efficiency=ETA)
     no_star = es.Planet(CORE, 2 * c.R_EARTH)
     with pytest.raises(ValueError, match="an envelope needs the planet's semi_major_axis and star"):
-        es.evolve(no_star, exobase, {"H": 1e52}, (T0, T1), hydrodynamic=hydro, envelope=env,
-                  progress=calls.append, progress_every=1)
+        es.evolve(
+            no_star,
+            exobase,
+            {"H": 1e52},
+            (T0, T1),
+            hydrodynamic=hydro,
+            envelope=env,
+            progress=calls.append,
+            progress_every=1,
+        )
     with_star = es.Planet(CORE, 2 * c.R_EARTH, semi_major_axis=ORBIT, star=STAR)
     with pytest.raises(ValueError, match="an envelope is lost at the hydrodynamic mass-loss rate"):
-        es.evolve(with_star, exobase, {"H": 1e52}, (T0, T1), envelope=env,
-                  progress=calls.append, progress_every=1)
+        es.evolve(
+            with_star,
+            exobase,
+            {"H": 1e52},
+            (T0, T1),
+            envelope=env,
+            progress=calls.append,
+            progress_every=1,
+        )
     with pytest.raises(ValueError, match="envelope must be an exosieve.Envelope, got 0.02"):
-        es.evolve(with_star, exobase, {"H": 1e52}, (T0, T1), hydrodynamic=hydro,
-                  envelope=0.02)  # type: ignore[arg-type]
+        es.evolve(with_star, exobase, {"H": 1e52}, (T0, T1), hydrodynamic=hydro, envelope=0.02)  # type: ignore[arg-type]
     assert calls == []
