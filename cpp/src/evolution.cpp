@@ -990,8 +990,21 @@ void EvolutionConfig::validate() const {
 }
 
 std::string EvolutionConfig::to_json() const {
+    // With an envelope the planet is the core and its envelope, at the start.
+    double mass = planet.mass(), radius = planet.radius();
+    if (envelope && planet.has_star() && t_start > 0.0) {
+        try {
+            const double a = planet.semi_major_axis();
+            mass = envelope->initial_planet_mass();
+            radius =
+                envelope_planet_radius(envelope->core_mass, envelope->envelope_fraction,
+                                       planet.star().luminosity() / (4.0 * constants::pi * a * a),
+                                       t_start, envelope->opacity);
+        } catch (const InputError&) { // an invalid envelope: validate() says why
+        }
+    }
     JsonObject planet_json;
-    planet_json.number("mass_kg", planet.mass()).number("radius_m", planet.radius());
+    planet_json.number("mass_kg", mass).number("radius_m", radius);
     if (planet.has_star()) {
         const Star& s = planet.star();
         planet_json.number("semi_major_axis_m", planet.semi_major_axis())
@@ -1055,7 +1068,10 @@ std::string EvolutionConfig::to_json() const {
                                      .add("chord", a.chord ? "true" : "false")
                                      .str());
         } else {
-            hj.number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius : planet.radius());
+            if (h.xuv_radius > 0.0 || !envelope)
+                hj.number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius : planet.radius());
+            else
+                hj.string("xuv_radius", "the evolving planet radius");
         }
         if (h.recombination)
             hj.add("recombination_limit",

@@ -182,6 +182,13 @@ def test_envelope_results_in_the_file(tmp_path: Path) -> None:
     assert float(ds["stripping_time"]) == r.stripping_time
     ds.close()
     assert r.config["envelope"]["opacity"] == "enhanced"
+    # The configuration records the planet the envelope makes at the start, not the unused
+    # mass and radius the Planet was given (CORE and the solar-opacity radius here).
+    assert r.config["planet"]["mass_kg"] == pytest.approx(CORE / 0.98, rel=1e-15)
+    flux = c.L_SUN / (4 * math.pi * ORBIT**2)
+    start = es.envelope_planet_radius(CORE, 0.02, flux, T0, opacity="enhanced")
+    assert r.config["planet"]["radius_m"] == pytest.approx(start, rel=1e-15)
+    assert r.config["hydrodynamic"]["xuv_radius"] == "the evolving planet radius"
     assert r.to_xarray()["planet_radius"].attrs["units"] == "m"
     assert ("envelope_mass", "") in r.to_pandas().columns
     # The enhanced-opacity envelope is larger at these ages (< 5 Gyr, age exponent -0.18
