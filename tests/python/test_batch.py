@@ -291,7 +291,13 @@ def test_result_file_layout(tmp_path):
 def test_template_and_demo_catalogue_run(tmp_path):
     template = compare(case_table_template_path(), samples=3, threads=1)
     assert template.complete and len(template.errors) == 0
-    assert set(template.summary["case"]) == {"Orvane b", "Orvane c", "Quell b", "Orvane d"}
+    assert set(template.summary["case"]) == {
+        "Orvane b",
+        "Orvane c",
+        "Quell b",
+        "Orvane d",
+        "Quell c",
+    }
     demo = compare(exosieve.catalogue.demo_catalogue_path(), threads=1)
     assert len(demo) == 8 and len(demo.errors) == 0
 
