@@ -377,6 +377,24 @@ void bind_evolution(py::module_& m) {
         .value("dopri5", StepperKind::Dopri5)
         .value("rosenbrock4", StepperKind::Rosenbrock4);
 
+    py::class_<EnvelopeConfig>(m, "EnvelopeConfig",
+                               "H/He envelope on a rock/iron core for evolve() [SI]")
+        .def(py::init([](double core_mass, double envelope_fraction, int opacity) {
+                 EnvelopeConfig e;
+                 e.core_mass = core_mass;
+                 e.envelope_fraction = envelope_fraction;
+                 e.opacity = static_cast<EnvelopeOpacity>(opacity);
+                 e.validate();
+                 return e;
+             }),
+             py::arg("core_mass"), py::arg("envelope_fraction"), py::arg("opacity") = 0)
+        .def_readonly("core_mass", &EnvelopeConfig::core_mass)
+        .def_readonly("envelope_fraction", &EnvelopeConfig::envelope_fraction)
+        .def_property_readonly("opacity",
+                               [](const EnvelopeConfig& e) { return static_cast<int>(e.opacity); })
+        .def_property_readonly("initial_mass", &EnvelopeConfig::initial_mass)
+        .def_property_readonly("initial_planet_mass", &EnvelopeConfig::initial_planet_mass);
+
     py::class_<EvolutionConfig>(m, "EvolutionConfig", "Everything one run needs (plain data)")
         .def(py::init<Planet>(), py::arg("planet"))
         .def_readwrite("planet", &EvolutionConfig::planet)
@@ -392,6 +410,7 @@ void bind_evolution(py::module_& m) {
         .def_readwrite("sources", &EvolutionConfig::sources)
         .def_readwrite("given_losses", &EvolutionConfig::given_losses)
         .def_readwrite("hydrodynamic", &EvolutionConfig::hydrodynamic)
+        .def_readwrite("envelope", &EvolutionConfig::envelope)
         .def_readwrite("thresholds", &EvolutionConfig::thresholds)
         .def_readwrite("tail", &EvolutionConfig::tail)
         .def_readwrite("t_start", &EvolutionConfig::t_start)
@@ -472,6 +491,16 @@ void bind_evolution(py::module_& m) {
                                })
         .def_property_readonly("depletion_time",
                                [](const EvolutionResult& r) { return vector(r.depletion_time); })
+        .def_property_readonly("has_envelope", &EvolutionResult::has_envelope)
+        .def_property_readonly("envelope_mass",
+                               [](const EvolutionResult& r) { return vector(r.envelope_mass); })
+        .def_property_readonly("planet_radius",
+                               [](const EvolutionResult& r) { return vector(r.planet_radius); })
+        .def_property_readonly(
+            "envelope_loss_rate",
+            [](const EvolutionResult& r) { return vector(r.envelope_loss_rate); })
+        .def_readonly("core_mass", &EvolutionResult::core_mass)
+        .def_readonly("stripping_time", &EvolutionResult::stripping_time)
         .def_readonly("regime_changes", &EvolutionResult::regime_changes)
         .def_readonly("steps", &EvolutionResult::steps)
         .def_readonly("rejected_steps", &EvolutionResult::rejected_steps)
@@ -516,6 +545,13 @@ void bind_evolution(py::module_& m) {
             r.depletion_time = doubles("depletion_time");
             r.initial_inventory = doubles("initial_inventory");
             r.species_mass = doubles("species_mass");
+            if (f.contains("core_mass")) { // a run with an envelope
+                r.core_mass = f["core_mass"].cast<double>();
+                r.stripping_time = f["stripping_time"].cast<double>();
+                r.envelope_mass = doubles("envelope_mass");
+                r.planet_radius = doubles("planet_radius");
+                r.envelope_loss_rate = doubles("envelope_loss_rate");
+            }
             r.steps = f["steps"].cast<std::size_t>();
             r.rejected_steps = f["rejected_steps"].cast<std::size_t>();
             r.rhs_evaluations = f["rhs_evaluations"].cast<std::size_t>();

@@ -126,8 +126,18 @@ const std::vector<CaseParameter>& case_parameters() {
     };
     // name, unit, meaning, required, uncertain, lower, lower_open, upper
     static const std::vector<CaseParameter> params{
-        {"planet_mass", "kg", "planet mass", true, true, 0.0, true, inf},
-        {"planet_radius", "m", "planet radius", true, true, 0.0, true, inf},
+        {"planet_mass", "kg", "planet mass (or give core_mass and envelope_fraction)", true, true,
+         0.0, true, inf},
+        {"planet_radius", "m", "planet radius (or give core_mass and envelope_fraction)", true,
+         true, 0.0, true, inf},
+        {"core_mass", "kg",
+         "envelope: rock/iron core mass, instead of planet_mass and planet_radius (the envelope "
+         "gives them, evolving)",
+         false, true, 0.0, true, inf},
+        {"envelope_fraction", "1",
+         "envelope: H/He envelope mass over planet mass at the start, in [0, 1) (radius: Lopez & "
+         "Fortney 2014 fit; needs the star and heating_efficiency)",
+         false, true, 0.0, false, 1.0},
         {"exobase_altitude", "m",
          "prescribed exobase: height above the surface (or give a thermosphere)", false, true, 0.0,
          false, inf},
@@ -408,8 +418,11 @@ void check_table_columns(const CaseTable& table) {
                                  "_lnsigma' both give the uncertainty of '" + base + "'; keep one");
         }
     }
+    // A table with an envelope column may leave planet_mass and planet_radius to its rows.
+    const bool envelope_columns = seen.count("core_mass") || seen.count("envelope_fraction");
     for (const CaseParameter& p : case_parameters())
-        if (p.required && !seen.count(p.name))
+        if (p.required && !seen.count(p.name) &&
+            !(envelope_columns && (p.name == "planet_mass" || p.name == "planet_radius")))
             throw InputError("case table: no column '" + p.name + "' (" + p.meaning + " [" +
                              p.unit + "]); every case needs it");
     if (table_species(table).empty())
@@ -449,6 +462,7 @@ std::size_t slot_of(const char* name) {
 // Slots of the parameters build_config() reads, looked up once.
 struct Slots {
     std::size_t planet_mass = slot_of("planet_mass"), planet_radius = slot_of("planet_radius"),
+                core_mass = slot_of("core_mass"), envelope_fraction = slot_of("envelope_fraction"),
                 exobase_altitude = slot_of("exobase_altitude"),
                 exobase_density = slot_of("exobase_density"),
                 homopause_altitude = slot_of("homopause_altitude"),
@@ -787,6 +801,11 @@ void add_loss_options(const CaseSpec& s, bool with_star, double mean_mass, Evolu
                 bad_value(params[slot].name, given(slot) + ", but it is for " + model);
     };
     const bool recombination = has(k.recombination_limit) && s.values[k.recombination_limit] == 1.0;
+    if (c.envelope && recombination)
+        bad_value("recombination_limit",
+                  "got 1, but the recombination limit is not supported with an envelope "
+                  "('core_mass', 'envelope_fraction'): the evolving radius moves the switch "
+                  "between the two rates");
     if (c.hydrodynamic) {
         HydrodynamicOptions& h = *c.hydrodynamic;
         if (has(k.cross_section)) {
@@ -905,9 +924,32 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
     auto optional = [&](std::size_t slot, double fallback) {
         return has(slot) ? s.values[slot] : fallback;
     };
-    const double mass = required(k.planet_mass);
-    const double radius = required(k.planet_radius);
     const bool with_star = has(k.semi_major_axis);
+    // An envelope (core_mass, envelope_fraction) gives the planet's mass and radius at the
+    // start, as evolve() takes them: M_core / (1 - f) and the fit's radius at the start age.
+    const bool with_envelope = has(k.core_mass) || has(k.envelope_fraction);
+    std::optional<EnvelopeConfig> envelope;
+    if (with_envelope) {
+        for (std::size_t slot : {k.planet_mass, k.planet_radius})
+            if (has(slot))
+                bad_value(params[slot].name, "give either 'planet_mass' and 'planet_radius' or "
+                                             "an envelope ('core_mass', 'envelope_fraction'), "
+                                             "not both");
+        const char* why = "an envelope needs 'core_mass' and 'envelope_fraction'";
+        envelope.emplace();
+        envelope->core_mass = required(k.core_mass, why);
+        envelope->envelope_fraction = required(k.envelope_fraction, why);
+        if (!(envelope->envelope_fraction < 1.0))
+            bad_value("envelope_fraction",
+                      "must be < 1, got " + format_value(envelope->envelope_fraction));
+        if (!with_star)
+            bad_value("semi_major_axis", "no value given (an envelope needs the star and orbit: "
+                                         "its radius takes the bolometric flux, its loss the XUV)");
+        if (!has(k.heating_efficiency))
+            bad_value("heating_efficiency", "no value given (an envelope is lost at the "
+                                            "energy-limited rate)");
+    }
+    const double t_start = optional(k.age_start, o.t_start);
     std::optional<Planet> planet;
     if (with_star) {
         XuvHistory xuv;
@@ -917,11 +959,26 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
         const char* why = "a semi_major_axis needs the star";
         const double star_mass = required(k.star_mass, why); // star mass first in messages
         const Star star(star_mass, required(k.star_luminosity, why), xuv);
-        planet.emplace(mass, radius, s.values[k.semi_major_axis], star);
+        const double a = s.values[k.semi_major_axis];
+        if (envelope) {
+            if (!(t_start > 0.0))
+                bad_value("age_start", "an envelope needs a start age > 0 (its radius fit "
+                                       "takes the age), got " +
+                                           format_value(t_start) + " s");
+            const double flux = star.luminosity() / (4.0 * constants::pi * a * a);
+            planet.emplace(envelope->initial_planet_mass(),
+                           envelope_planet_radius(envelope->core_mass, envelope->envelope_fraction,
+                                                  flux, t_start),
+                           a, star);
+        } else {
+            planet.emplace(required(k.planet_mass), required(k.planet_radius), a, star);
+        }
     } else {
-        planet.emplace(mass, radius);
+        planet.emplace(required(k.planet_mass), required(k.planet_radius));
     }
+    const double mass = planet->mass(), radius = planet->radius();
     EvolutionConfig c(*planet);
+    c.envelope = envelope;
     c.record_config = false; // the sweep file records the table and options instead
     std::vector<std::string> names(n);
     double x_sum = 0.0, mean_mass = 0.0;
@@ -934,6 +991,10 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
     c.species = s.species;
 
     const bool thermosphere = has(k.homopause_altitude) || has(k.homopause_density);
+    if (thermosphere && with_envelope)
+        bad_value("core_mass", "an envelope needs a prescribed exobase ('exobase_altitude', "
+                               "'exobase_density'): a thermosphere keeps the planet it was built "
+                               "with");
     if (thermosphere) {
         // Thermosphere: x_i (normalised) are the well-mixed homopause fractions; the exobase is
         // found from them at every step, exactly as evolve() does with a Thermosphere.
@@ -1012,7 +1073,7 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
     }
 
     // Span: per case, else the options; the end defaults to the star's present age.
-    c.t_start = optional(k.age_start, o.t_start);
+    c.t_start = t_start;
     c.t_end = optional(k.age_end, optional(k.star_age, o.t_end));
     if (!(c.t_end > c.t_start))
         bad_value(has(k.age_end)    ? "age_end"
@@ -1197,6 +1258,8 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
     exobase_temperature.assign(cases * time_count, nan);
     bulk_jeans_start.assign(cases, nan);
     hydrodynamic_unmodelled.assign(cases, -1);
+    stripping_time.assign(cases, nan);
+    planet_radius_end.assign(cases, nan);
     retained.assign(cts, nan);
     jeans_parameter.assign(cts, nan);
     for (auto* v : {&mole_fraction, &final_retained, &depletion_time, &efolding_time,
@@ -1239,6 +1302,8 @@ std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
         {"regime_start", {S}, nullptr, &c.regime_start},
         {"bulk_jeans_parameter_start", {}, &c.bulk_jeans_start},
         {"hydrodynamic_unmodelled", {}, nullptr, &c.hydrodynamic_unmodelled},
+        {"stripping_time", {}, &c.stripping_time},
+        {"planet_radius_end", {}, &c.planet_radius_end},
     };
     if (N > 0) {
         v.push_back({"sample_retained_fraction", {N, S}, &c.sample_retained});
@@ -1331,6 +1396,8 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
     out.bulk_jeans_start[c] = lambda_bulk;
     out.hydrodynamic_unmodelled[c] =
         lambda_bulk <= o.thresholds.hydrodynamic && !config.hydrodynamic.has_value() ? 1 : 0;
+    out.stripping_time[c] = r.stripping_time;
+    out.planet_radius_end[c] = r.has_envelope() ? r.planet_radius[last] : p.radius();
     // Rows of r at the batch's output times (r holds t_start, the inner times, t_end).
     std::size_t k = 0;
     for (std::size_t j = 0; j < T; ++j) {

@@ -68,14 +68,18 @@ class LogErrorChecker {
     using operations_type = odeint::default_operations;
 
     LogErrorChecker() = default;
-    LogErrorChecker(double rtol, const State* log_atol, std::size_t* worst)
-        : rtol_(rtol), log_atol_(log_atol), worst_(worst) {}
+    // envelope_atol: absolute tolerance of the envelope state M_env / M_core, the one linear
+    // component after the species' ln N (present when the state is longer than log_atol).
+    LogErrorChecker(double rtol, const State* log_atol, std::size_t* worst,
+                    double envelope_atol = 0.0)
+        : rtol_(rtol), log_atol_(log_atol), worst_(worst), envelope_atol_(envelope_atol) {}
 
     template <class Algebra, class StateT, class Deriv, class Err, class Time>
     double error(Algebra&, const StateT& y_old, const Deriv&, Err& y_err, Time) const {
         double largest = 0.0;
         std::size_t index = 0;
-        for (Eigen::Index i = 0; i < y_err.size(); ++i) {
+        const Eigen::Index n = log_atol_->size();
+        for (Eigen::Index i = 0; i < n; ++i) {
             const double tol = checker_tolerance(rtol_, (*log_atol_)[i], y_old[i]);
             double ratio = std::abs(y_err[i]) / tol;
             if (std::isnan(ratio))
@@ -83,6 +87,15 @@ class LogErrorChecker {
             if (ratio > largest) {
                 largest = ratio;
                 index = static_cast<std::size_t>(i);
+            }
+        }
+        if (y_err.size() > n) { // the envelope: |err| <= atol throughout (evolution.hpp)
+            double ratio = std::abs(y_err[n]) / envelope_atol_;
+            if (std::isnan(ratio))
+                ratio = inf;
+            if (ratio > largest) {
+                largest = ratio;
+                index = static_cast<std::size_t>(n);
             }
         }
         if (worst_)
@@ -94,6 +107,7 @@ class LogErrorChecker {
     double rtol_ = 1e-8;
     const State* log_atol_ = nullptr;
     std::size_t* worst_ = nullptr;
+    double envelope_atol_ = 0.0;
 };
 
 using Dopri5 = odeint::runge_kutta_dopri5<State>;
@@ -102,15 +116,17 @@ using Controlled = odeint::controlled_runge_kutta<Dopri5, LogErrorChecker>;
 // Switches that change the right-hand side discontinuously; held fixed during a step.
 struct Mode {
     bool energy_limited = false;
+    bool stripped = false; // the envelope is gone: its mass is held at zero
     std::vector<char> frozen;
     bool operator==(const Mode& o) const {
-        return energy_limited == o.energy_limited && frozen == o.frozen;
+        return energy_limited == o.energy_limited && stripped == o.stripped && frozen == o.frozen;
     }
 };
 
 // Everything the model gives at one (t, y), for output and diagnostics.
 struct Snapshot {
     double temperature = 0.0, flux = nan, radius = 0.0;
+    double planet_radius = 0.0, envelope_rate = nan; // [m], -dM_env/dt [kg s^-1]
     Regime regime = Regime::Jeans;
     std::vector<double> rate, lambda, source; // Q_i [s^-1], lambda_i [1], S_i [s^-1]
     std::vector<double> given;                // L_i [s^-1], the given losses
@@ -140,12 +156,24 @@ class Model {
             needs_flux_ = needs_flux_ || g.needs_xuv_flux();
         }
         log_area_factor_ = std::log(4.0 * constants::pi);
+        planet_mass_ = c.planet.mass();
+        planet_radius_ = c.planet.radius();
+        if (c.envelope)
+            setup_envelope(*c.envelope);
         if (c.hydrodynamic)
             setup_hydrodynamic(*c.hydrodynamic);
         mode_.frozen.assign(n_, 0);
     }
 
     std::size_t size() const { return n_; }
+    // Length of the state: ln N_i of each species, then M_env / M_core with an envelope.
+    std::size_t state_size() const { return envelope_ ? n_ + 1 : n_; }
+    bool has_envelope() const { return envelope_; }
+    double core_mass() const { return core_mass_; }
+    // M_env(t_start) / M_core [1].
+    double envelope_start() const {
+        return envelope_ ? c_.envelope->initial_mass() / core_mass_ : 0.0;
+    }
     const std::vector<double>& y0() const { return y0_; }
     const Mode& mode() const { return mode_; }
     void set_mode(const Mode& m) { mode_ = m; }
@@ -160,6 +188,9 @@ class Model {
             derivatives<true>(y, dydt, t);
         else
             derivatives<false>(y, dydt, t);
+        if (envelope_)
+            dydt[static_cast<Eigen::Index>(n_)] =
+                mode_.stripped ? 0.0 : -envelope_rate_ / core_mass_;
     }
 
     template <bool Given> void derivatives(const State& y, State& dydt, double t) {
@@ -196,6 +227,8 @@ class Model {
         s.temperature = exobase_temperature_;
         s.flux = needs_flux_ ? std::exp(log_flux_) : nan;
         s.radius = state_.radius;
+        s.planet_radius = planet_radius_;
+        s.envelope_rate = !rates ? nan : mode.stripped ? 0.0 : envelope_rate_;
         s.regime = bulk_regime_;
         s.rate.resize(n_);
         s.lambda = lambda_;
@@ -243,6 +276,10 @@ class Model {
     // Why a derivative is not finite, for error messages.
     std::string explain(std::size_t i, double t, const State& y) {
         evaluate(t, y, mode_);
+        if (i >= n_)
+            return "envelope: M_env / M_core = " + format_value(y[static_cast<Eigen::Index>(i)]) +
+                   ", planet radius = " + format_value(planet_radius_) +
+                   " m, envelope mass-loss rate = " + format_value(envelope_rate_) + " kg s^-1";
         return "species " + c_.species[i].name + ": ln N = " + format_value(y[i]) +
                ", ln Q = " + format_value(log_rate(i)) +
                ", Jeans parameter = " + format_value(lambda_[i]) +
@@ -251,16 +288,35 @@ class Model {
     }
 
   private:
+    // The core, the bolometric flux of the radius fit, and the planet at t_start.
+    void setup_envelope(const EnvelopeConfig& e) {
+        envelope_ = true;
+        core_mass_ = e.core_mass;
+        core_radius_ = core_radius(e.core_mass);
+        const double a = c_.planet.semi_major_axis();
+        bolometric_flux_ = c_.planet.star().luminosity() / (4.0 * constants::pi * a * a);
+        update_planet(c_.t_start, envelope_start());
+        initial_radius_ = planet_radius_;
+    }
+
+    // Planet mass and radius with envelope state x = M_env / M_core at stellar age t.
+    void update_planet(double t, double x) {
+        const double m_env = x > 0.0 && std::isfinite(x) ? x * core_mass_ : 0.0;
+        planet_mass_ = core_mass_ + m_env;
+        planet_radius_ = core_radius_ + envelope_radius(m_env / planet_mass_, planet_mass_,
+                                                        bolometric_flux_, t, c_.envelope->opacity);
+    }
+
     void setup_hydrodynamic(const HydrodynamicOptions& h) {
         const Planet& p = c_.planet;
-        xuv_radius_ = h.xuv_radius > 0.0 ? h.xuv_radius : p.radius();
+        xuv_radius_ = h.xuv_radius > 0.0 ? h.xuv_radius : planet_radius_;
         // An absorbing layer at a fixed temperature has a fixed radius: found once.
         if (h.absorption && h.absorption->temperature > 0.0)
             xuv_radius_ = absorption_radius(h.absorption->temperature);
         roche_ = 1.0;
         if (h.roche_lobe)
-            roche_ = roche_lobe_factor(
-                roche_lobe_ratio(p.mass(), p.star().mass(), p.semi_major_axis(), p.radius()));
+            roche_ = roche_lobe_factor(roche_lobe_ratio(planet_mass_, p.star().mass(),
+                                                        p.semi_major_axis(), planet_radius_));
         escaping_ = 0;
         if (h.escaping_species.empty()) {
             for (std::size_t i = 1; i < n_; ++i)
@@ -292,6 +348,8 @@ class Model {
             return;
         cached_ = false;
         ++evaluations_;
+        if (envelope_)
+            update_planet(t, y[static_cast<Eigen::Index>(n_)]);
         // In logs: the saturated-then-decaying flux and the power-law temperature take one
         // logarithm and one exponential instead of two powers.
         log_flux_ = needs_flux_ ? c_.planet.log_xuv_flux(t) : nan;
@@ -299,6 +357,8 @@ class Model {
         for (std::size_t i = 0; i < n_; ++i)
             log_fraction_[i] = y[i] - y0_[i];
         c_.exobase->evaluate(t, log_fraction_.data(), temperature_, state_);
+        if (envelope_) // a prescribed exobase keeps its height above the evolving planet
+            state_.radius += planet_radius_ - initial_radius_;
         // No exobase: the gas flows out. Energy-limited loss (regime hydrodynamic) takes over
         // when the option is on; without it the model has nothing to say.
         if (state_.outflow && !c_.hydrodynamic)
@@ -309,7 +369,7 @@ class Model {
         const double r = state_.radius;
         exobase_temperature_ = state_.temperature;
         const double kT = k_B * exobase_temperature_;
-        const double gm_over_ktr = G * c_.planet.mass() / (kT * r);
+        const double gm_over_ktr = G * planet_mass_ / (kT * r);
         if (r != area_radius_) { // a prescribed exobase keeps its radius: one logarithm
             area_radius_ = r;
             log_area_ = log_area_factor_ + 2.0 * std::log(r);
@@ -347,6 +407,7 @@ class Model {
         }
         bulk_regime_ = state_.outflow ? Regime::Hydrodynamic
                                       : classify_regime(lambda_[densest], c_.thresholds);
+        envelope_rate_ = 0.0;
         if (mode.energy_limited)
             apply_energy_limited(y);
         cached_t_ = t;
@@ -365,9 +426,9 @@ class Model {
     // Radius of XUV optical depth one of the absorption model at temperature T [K].
     double absorption_radius(double temperature) const {
         const XuvAbsorption& a = *c_.hydrodynamic->absorption;
-        const Planet& p = c_.planet;
-        const double h = scale_height(temperature, a.mean_molecular_mass, p.mass(), p.radius());
-        return xuv_absorption_radius(p.radius(), a.base_density, h, a.cross_section, a.chord);
+        const double h =
+            scale_height(temperature, a.mean_molecular_mass, planet_mass_, planet_radius_);
+        return xuv_absorption_radius(planet_radius_, a.base_density, h, a.cross_section, a.chord);
     }
 
     // Energy-limited loss of the light species, shared with the species it drags; a dragged
@@ -377,18 +438,28 @@ class Model {
     // rates applies (xuv_driven_mass_loss, Murray-Clay et al. 2009).
     void apply_energy_limited(const State& y) {
         const HydrodynamicOptions& h = *c_.hydrodynamic;
-        const double xuv_radius = h.absorption && !(h.absorption->temperature > 0.0)
-                                      ? absorption_radius(exobase_temperature_)
-                                      : xuv_radius_;
+        double xuv_radius = xuv_radius_, roche = roche_;
+        if (h.absorption && (envelope_ || !(h.absorption->temperature > 0.0)))
+            xuv_radius = absorption_radius(
+                h.absorption->temperature > 0.0 ? h.absorption->temperature : exobase_temperature_);
+        if (envelope_) { // the planet's radius and mass evolve: so do R_xuv and K
+            if (!h.absorption && !(h.xuv_radius > 0.0))
+                xuv_radius = planet_radius_;
+            if (h.roche_lobe)
+                roche = roche_lobe_factor(roche_lobe_ratio(planet_mass_, c_.planet.star().mass(),
+                                                           c_.planet.semi_major_axis(),
+                                                           planet_radius_));
+        }
         const double flux = std::exp(log_flux_);
         const double mass_loss =
             h.recombination
-                ? xuv_driven_mass_loss(h.efficiency, c_.planet.radius(), xuv_radius, flux,
-                                       c_.planet.mass(), roche_, h.recombination->temperature,
+                ? xuv_driven_mass_loss(h.efficiency, planet_radius_, xuv_radius, flux, planet_mass_,
+                                       roche, h.recombination->temperature,
                                        h.recombination->recombination_coefficient,
                                        h.recombination->photon_energy)
-                : energy_limited_mass_loss(h.efficiency, c_.planet.radius(), xuv_radius, flux,
-                                           c_.planet.mass(), roche_);
+                : energy_limited_mass_loss(h.efficiency, planet_radius_, xuv_radius, flux,
+                                           planet_mass_, roche);
+        envelope_rate_ = mass_loss;
         double y_max = -inf;
         for (std::size_t i = 0; i < n_; ++i)
             y_max = std::max(y_max, y[i]);
@@ -405,9 +476,8 @@ class Model {
             else
                 diffusion_[i] = 0.0;
         }
-        partition_mass_loss(mass_loss, exobase_temperature_, c_.planet.mass(), escaping_,
-                            mass_.data(), mole_fraction_.data(), diffusion_.data(), n_,
-                            partition_.data());
+        partition_mass_loss(mass_loss, exobase_temperature_, planet_mass_, escaping_, mass_.data(),
+                            mole_fraction_.data(), diffusion_.data(), n_, partition_.data());
         for (std::size_t i = 0; i < n_; ++i) {
             const double lp = partition_[i] > 0.0 ? std::log(partition_[i]) : -inf;
             log_scaled_rate_[i] = i == escaping_ ? lp : std::max(log_rate(i), lp);
@@ -441,6 +511,11 @@ class Model {
     std::vector<DiffusionLaw> laws_;
     std::vector<char> listed_;
     std::vector<double> mole_fraction_, diffusion_, partition_;
+    // The planet (evolving with an envelope) and the envelope.
+    double planet_mass_ = 0.0, planet_radius_ = 0.0;
+    bool envelope_ = false;
+    double core_mass_ = 0.0, core_radius_ = 0.0, bolometric_flux_ = 0.0, initial_radius_ = 0.0;
+    double envelope_rate_ = 0.0; // -dM_env/dt of the last evaluation [kg s^-1]
 
   public:
     void enable_sources(bool on) { has_sources_ = on; }
@@ -449,14 +524,14 @@ class Model {
     // where both are fixed functions of the flux (no absorption layer at the evolving exobase
     // temperature); NaN otherwise.
     double recombination_switch_flux() const {
-        if (!c_.hydrodynamic || !c_.hydrodynamic->recombination)
+        if (!c_.hydrodynamic || !c_.hydrodynamic->recombination || envelope_)
             return nan;
         const HydrodynamicOptions& h = *c_.hydrodynamic;
         if (h.absorption && !(h.absorption->temperature > 0.0))
             return nan;
         const RecombinationLimit& r = *h.recombination;
-        return recombination_transition_flux(h.efficiency, c_.planet.radius(), xuv_radius_,
-                                             c_.planet.mass(), roche_, r.temperature,
+        return recombination_transition_flux(h.efficiency, planet_radius_, xuv_radius_,
+                                             planet_mass_, roche_, r.temperature,
                                              r.recombination_coefficient, r.photon_energy);
     }
 };
@@ -486,7 +561,7 @@ class Stepper {
 class DopriStepper final : public Stepper {
   public:
     DopriStepper(Model& model, const LogErrorChecker& checker)
-        : system_{&model}, stepper_(checker), direct_dydt_(model.size()) {}
+        : system_{&model}, stepper_(checker), direct_dydt_(model.state_size()) {}
 
     bool try_step(double t, const State& y, const State& dydt, double h, State& y_new,
                   State& dydt_new, double& h_next) override {
@@ -608,6 +683,9 @@ class Recorder {
             v->reserve(times);
         r_.regime.reserve(times);
         r_.energy_limited.reserve(times);
+        if (r_.has_envelope())
+            for (auto* v : {&r_.envelope_mass, &r_.planet_radius, &r_.envelope_loss_rate})
+                v->reserve(times);
         r_.isotope_ratio.reserve(times * ratios_.size());
     }
 
@@ -627,6 +705,12 @@ class Recorder {
         r_.energy_limited.push_back(energy_limited ? 1 : 0);
         for (const auto& [a, b] : ratios_)
             r_.isotope_ratio.push_back(std::exp(y[a] - y[b]));
+        if (r_.has_envelope()) {
+            const double x = y[static_cast<Eigen::Index>(n_)];
+            r_.envelope_mass.push_back(x > 0.0 ? x * r_.core_mass : 0.0);
+            r_.planet_radius.push_back(s.planet_radius);
+            r_.envelope_loss_rate.push_back(s.envelope_rate);
+        }
     }
 
   private:
@@ -753,6 +837,19 @@ std::string GivenLoss::to_json() const {
     return "null";
 }
 
+void EnvelopeConfig::validate() const {
+    if (!std::isfinite(core_mass) || !(core_mass > 0.0))
+        throw InputError("envelope core_mass must be finite and > 0 [kg], got " +
+                         format_value(core_mass));
+    if (!std::isfinite(envelope_fraction) || !(envelope_fraction >= 0.0) ||
+        !(envelope_fraction < 1.0))
+        throw InputError("envelope envelope_fraction must be in [0, 1) [1], got " +
+                         format_value(envelope_fraction));
+    if (opacity != EnvelopeOpacity::Solar && opacity != EnvelopeOpacity::Enhanced)
+        throw InputError("envelope opacity must be solar (0) or enhanced (1), got " +
+                         std::to_string(static_cast<int>(opacity)));
+}
+
 void EvolutionConfig::validate() const {
     const std::size_t n = species.size();
     if (n == 0)
@@ -829,7 +926,36 @@ void EvolutionConfig::validate() const {
     for (const GivenLoss& g : given_losses)
         given_needs_flux = given_needs_flux || g.needs_xuv_flux();
     thresholds.validate();
-    exobase->check(planet);
+    // With an envelope the planet at t_start is the core and its envelope: the checks of the
+    // exobase, the XUV radius and the Roche lobe below take that planet.
+    std::optional<Planet> with_envelope;
+    if (envelope) {
+        envelope->validate();
+        if (!planet.has_star())
+            throw InputError("an envelope needs the planet's semi_major_axis and star (its "
+                             "radius fit takes the bolometric flux, its loss the XUV flux)");
+        if (!hydrodynamic)
+            throw InputError("an envelope is lost at the hydrodynamic mass-loss rate: give the "
+                             "hydrodynamic option (energy-limited escape)");
+        if (hydrodynamic->recombination)
+            throw InputError("an envelope with the recombination limit is not supported: the "
+                             "evolving radius moves the switch between the two rates");
+        if (!dynamic_cast<const PrescribedExobase*>(exobase.get()))
+            throw InputError("an envelope needs a prescribed exobase: a thermosphere keeps the "
+                             "planet mass and radius it was built with");
+        if (!(t_start > 0.0))
+            throw InputError("t_span start must be > 0 (a stellar age) with an envelope, got " +
+                             format_value(t_start));
+        const double a = planet.semi_major_axis();
+        const double flux = planet.star().luminosity() / (4.0 * constants::pi * a * a);
+        with_envelope.emplace(envelope->initial_planet_mass(),
+                              envelope_planet_radius(envelope->core_mass,
+                                                     envelope->envelope_fraction, flux, t_start,
+                                                     envelope->opacity),
+                              a, planet.star());
+    }
+    const Planet& start = with_envelope ? *with_envelope : planet;
+    exobase->check(start);
     const bool needs_flux =
         temperature.needs_xuv_flux() || hydrodynamic.has_value() || given_needs_flux;
     if (needs_flux && !planet.has_star())
@@ -849,13 +975,13 @@ void EvolutionConfig::validate() const {
             index_of(species, hydrodynamic->escaping_species, "escaping species");
         for (const auto& d : hydrodynamic->diffusion)
             index_of(species, d.first, "dragged species");
-        if (hydrodynamic->xuv_radius > 0.0 && hydrodynamic->xuv_radius < planet.radius())
+        if (hydrodynamic->xuv_radius > 0.0 && hydrodynamic->xuv_radius < start.radius())
             throw InputError("xuv_radius " + format_value(hydrodynamic->xuv_radius) +
-                             " m is below the planet radius " + format_value(planet.radius()) +
+                             " m is below the planet radius " + format_value(start.radius()) +
                              " m");
         if (hydrodynamic->roche_lobe)
-            roche_lobe_factor(roche_lobe_ratio(planet.mass(), planet.star().mass(),
-                                               planet.semi_major_axis(), planet.radius()));
+            roche_lobe_factor(roche_lobe_ratio(start.mass(), start.star().mass(),
+                                               start.semi_major_axis(), start.radius()));
     }
     for (const auto& [a, b] : isotope_ratios) {
         index_of(species, a, "isotope ratio numerator");
@@ -864,8 +990,21 @@ void EvolutionConfig::validate() const {
 }
 
 std::string EvolutionConfig::to_json() const {
+    // With an envelope the planet is the core and its envelope, at the start.
+    double mass = planet.mass(), radius = planet.radius();
+    if (envelope && planet.has_star() && t_start > 0.0) {
+        try {
+            const double a = planet.semi_major_axis();
+            mass = envelope->initial_planet_mass();
+            radius =
+                envelope_planet_radius(envelope->core_mass, envelope->envelope_fraction,
+                                       planet.star().luminosity() / (4.0 * constants::pi * a * a),
+                                       t_start, envelope->opacity);
+        } catch (const InputError&) { // an invalid envelope: validate() says why
+        }
+    }
     JsonObject planet_json;
-    planet_json.number("mass_kg", planet.mass()).number("radius_m", planet.radius());
+    planet_json.number("mass_kg", mass).number("radius_m", radius);
     if (planet.has_star()) {
         const Star& s = planet.star();
         planet_json.number("semi_major_axis_m", planet.semi_major_axis())
@@ -929,7 +1068,10 @@ std::string EvolutionConfig::to_json() const {
                                      .add("chord", a.chord ? "true" : "false")
                                      .str());
         } else {
-            hj.number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius : planet.radius());
+            if (h.xuv_radius > 0.0 || !envelope)
+                hj.number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius : planet.radius());
+            else
+                hj.string("xuv_radius", "the evolving planet radius");
         }
         if (h.recombination)
             hj.add("recombination_limit",
@@ -946,6 +1088,15 @@ std::string EvolutionConfig::to_json() const {
             .add("diffusion", diff.str());
         o.add("hydrodynamic", hj.str());
     }
+    if (envelope)
+        o.add("envelope",
+              JsonObject()
+                  .number("core_mass_kg", envelope->core_mass)
+                  .number("envelope_fraction", envelope->envelope_fraction)
+                  .string("opacity",
+                          envelope->opacity == EnvelopeOpacity::Enhanced ? "enhanced" : "solar")
+                  .string("radius", "Lopez & Fortney (2014) fit")
+                  .str());
     o.add("regime_thresholds", JsonObject()
                                    .number("enhanced", thresholds.enhanced)
                                    .number("transition", thresholds.transition)
@@ -1015,6 +1166,12 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         r.species_mass.push_back(s.mass);
     if (c.record_config)
         r.config = c.to_json();
+    // With an envelope the state has one more component, after the species: M_env / M_core.
+    const bool envelope = model.has_envelope();
+    const std::size_t n_state = model.state_size();
+    const auto env = static_cast<Eigen::Index>(n); // its index
+    if (envelope)
+        r.core_mass = model.core_mass();
     Recorder recorder(r, n, ratios);
     if (!c.t_eval.empty())
         recorder.reserve(c.t_eval.size());
@@ -1065,13 +1222,26 @@ EvolutionResult evolve(const EvolutionConfig& c) {
 
     double t = c.t_start;
     // Zero-filled: a step that fails part-way (non-finite rates) must not leave values unset.
-    State y = State::Zero(n), dydt = State::Zero(n), y_new = State::Zero(n),
-          dydt_new = State::Zero(n), y_probe = State::Zero(n);
+    State y = State::Zero(n_state), dydt = State::Zero(n_state), y_new = State::Zero(n_state),
+          dydt_new = State::Zero(n_state), y_probe = State::Zero(n_state);
     for (std::size_t i = 0; i < n; ++i)
         y[i] = model.y0()[i];
+    // Tolerance of the envelope state, absolute throughout: rtol of its share depletion_fraction
+    // (an error made while the envelope is large stays as it shrinks; measured against
+    // solve_ivp, a test relative to M_env left the last outputs before stripping at 13x rtol).
+    double envelope_atol = 0.0;
+    if (envelope) {
+        y[env] = model.envelope_start();
+        envelope_atol = c.rtol * c.depletion_fraction * (y[env] > 0.0 ? y[env] : 1.0);
+    }
 
     Mode mode;
     mode.frozen.assign(n, 0);
+    if (envelope && !(y[env] > 0.0)) { // a bare core from the start
+        mode.stripped = true;
+        r.stripping_time = c.t_start;
+    }
+    model.set_mode(mode);
     Regime regime = model.regime(t, y); // also probes a callable temperature before any step
     mode.energy_limited = model.energy_limited_in(regime);
     model.set_mode(mode);
@@ -1091,12 +1261,14 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     std::vector<char> monotone(n, 1);
     for (std::size_t i = 0; i < c.sources.size(); ++i)
         monotone[i] = c.sources[i].is_zero() ? 1 : 0;
-    State y_recorded = y, y_out(n);
+    State y_recorded = y, y_out(n_state);
     auto record = [&](double time, const State& state) {
         y_out = state;
         for (std::size_t i = 0; i < n; ++i)
             if (monotone[i])
                 y_out[i] = std::min(y_out[i], y_recorded[i]);
+        if (envelope) // the envelope only loses
+            y_out[env] = std::max(0.0, std::min(y_out[env], y_recorded[env]));
         y_recorded = y_out;
         model.snapshot(time, y_out, mode, snap, c.record_rates || r.time.empty());
         recorder.record(time, y_out, snap, mode.energy_limited);
@@ -1123,6 +1295,11 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         if (change > 0.0)
             dt = std::min(dt, scale * std::pow(0.1 * tol / change, 1.0 / 6.0));
     }
+    if (envelope) {
+        const double change = std::abs(dydt[env]) * scale;
+        if (change > 0.0)
+            dt = std::min(dt, scale * std::pow(0.1 * envelope_atol / change, 1.0 / 6.0));
+    }
 
     // After a kink (and at the start) the rates may change on a time scale that the step-size
     // controller has not seen: the step it proposes was sized on the smooth stretch before, and
@@ -1132,19 +1309,20 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     // measured on a short probe step, d ln|dy_i/dt| / dt = 1/tau_i, and the step is sized with
     // the same error model as the first step, on the scale tau_i: |dy_i/dt| tau_i (h/tau_i)^6
     // at a tenth of the tolerance. One right-hand-side evaluation per kink.
-    State y_kink = State::Zero(n), dydt_kink = State::Zero(n);
+    State y_kink = State::Zero(n_state), dydt_kink = State::Zero(n_state);
     auto step_after_kink = [&](double proposal) {
         const double delta = 1e-4 * proposal;
         y_kink = y + delta * dydt;
         model.rhs(y_kink, dydt_kink, t + delta);
         double h = proposal;
-        for (std::size_t i = 0; i < n; ++i) {
-            const double rate = std::abs(dydt[i]);
-            const double change = std::abs(dydt_kink[i] - dydt[i]);
+        for (std::size_t i = 0; i < n_state; ++i) {
+            const auto k = static_cast<Eigen::Index>(i);
+            const double rate = std::abs(dydt[k]);
+            const double change = std::abs(dydt_kink[k] - dydt[k]);
             if (!(rate > 0.0) || !(change > 0.0) || !std::isfinite(change))
                 continue;
             const double tau = delta * rate / change;
-            const double tol = checker_tolerance(c.rtol, log_atol[i], y[i]);
+            const double tol = i < n ? checker_tolerance(c.rtol, log_atol[k], y[k]) : envelope_atol;
             h = std::min(h, tau * std::pow(0.1 * tol / (rate * tau), 1.0 / 6.0));
         }
         return h;
@@ -1152,7 +1330,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     dt = step_after_kink(dt);
 
     std::size_t worst = 0;
-    const LogErrorChecker checker(c.rtol, &log_atol, &worst);
+    const LogErrorChecker checker(c.rtol, &log_atol, &worst, envelope_atol);
     std::unique_ptr<Stepper> stepper;
     // Measured (DEVELOPERS.md): in ln N a loss alone is not stiff and Dopri5 takes the fewest
     // steps; a source balancing a fast loss is, and Rosenbrock4 then takes ~1e3x fewer.
@@ -1160,7 +1338,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         c.stepper == StepperKind::Rosenbrock4 || (c.stepper == StepperKind::Auto && any_source);
     r.stepper = implicit ? "rosenbrock4" : "dopri5";
     if (implicit)
-        stepper = std::make_unique<RosenbrockStepper>(model, checker, n);
+        stepper = std::make_unique<RosenbrockStepper>(model, checker, n_state);
     else
         stepper = std::make_unique<DopriStepper>(model, checker);
     std::size_t stop_index = 0;
@@ -1181,6 +1359,10 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         }
         return largest;
     };
+    // What limits the step, for messages: a species' ln N or the envelope mass.
+    auto limited_by = [&](std::size_t k) {
+        return k < n ? "ln N[" + c.species[k].name + "]" : std::string("the envelope mass");
+    };
     std::vector<double> depleted_at(n, nan), step_tolerance(n, 0.0);
     std::vector<char> freeze(n, 0);
     while (t < c.t_end) {
@@ -1189,7 +1371,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
                 "no progress: max_steps = " + std::to_string(c.max_steps) + " steps used (" +
                 std::to_string(r.rejected_steps) + " rejected) and only t = " + when(t) +
                 " of t_span end " + when(c.t_end) + " reached; step size " + format_value(dt) +
-                " s, limited by the error of ln N[" + c.species[worst].name + "] (" +
+                " s, limited by the error of " + limited_by(worst) + " (" +
                 model.explain(worst, t, y) + "); raise max_steps or loosen rtol/atol");
         const double t_stop = stops[stop_index];
         const bool landing = dt >= t_stop - t;
@@ -1206,8 +1388,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             dt = h;
             if (consecutive_rejections > 50 ||
                 dt < 8.0 * std::numeric_limits<double>::epsilon() * std::max(std::abs(t), span)) {
-                std::string why =
-                    "the error of ln N[" + c.species[worst].name + "] stays above tolerance";
+                std::string why = "the error of " + limited_by(worst) + " stays above tolerance";
                 for (std::size_t i = 0; i < n; ++i)
                     if (!std::isfinite(y_new[i]) || !std::isfinite(dydt_new[i])) {
                         why = "the rate of change of " + c.species[i].name +
@@ -1242,6 +1423,10 @@ EvolutionResult evolve(const EvolutionConfig& c) {
                 y_new[i] = y[i];
                 overshoot = true;
             }
+        if (envelope && y_new[env] > y[env]) {
+            y_new[env] = y[env];
+            overshoot = true;
+        }
         if (overshoot)
             model.rhs(y_new, dydt_new, t + h_planned);
         const double t_step_end = t + h_planned; // the end used by the interpolant
@@ -1255,6 +1440,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             for (std::size_t i = 0; i < n; ++i)
                 if (monotone[i])
                     out[i] = std::clamp(out[i], y_new[i], y[i]);
+            if (envelope)
+                out[env] = std::clamp(out[env], y_new[env], y[env]);
         };
         // An output inside the step. Dopri5's interpolant is of fourth order, one below the
         // step, and on a step where the rates change much it errs by several tolerances
@@ -1283,10 +1470,18 @@ EvolutionResult evolve(const EvolutionConfig& c) {
                                        h11 * span_h * dydt_new[i];
                 departs = std::abs(hermite - out[i]) > step_tolerance[i];
             }
-            if (departs && stepper->direct(tq, out, t, y, dydt))
+            if (envelope && !departs) {
+                const double hermite = h00 * y[env] + h10 * span_h * dydt[env] + h01 * y_new[env] +
+                                       h11 * span_h * dydt_new[env];
+                departs = std::abs(hermite - out[env]) > envelope_atol;
+            }
+            if (departs && stepper->direct(tq, out, t, y, dydt)) {
                 for (std::size_t i = 0; i < n; ++i)
                     if (monotone[i])
                         out[i] = std::clamp(out[i], y_new[i], y[i]);
+                if (envelope)
+                    out[env] = std::clamp(out[env], y_new[env], y[env]);
+            }
         };
 
         // Events inside (t, t_new]: depletion (a mode change when the species' loss does not
@@ -1308,6 +1503,15 @@ EvolutionResult evolve(const EvolutionConfig& c) {
                 freeze[i] = 1;
                 t_cut = std::min(t_cut, depleted_at[i]);
             }
+        }
+        // The envelope is gone where its mass crosses zero (located on the dense output).
+        double stripped_at = nan;
+        if (envelope && !mode.stripped && !(y_new[env] > 0.0)) {
+            stripped_at = locate_crossing(t, t_new, [&](double tq) {
+                dense(tq, y_probe);
+                return y_probe[env];
+            });
+            t_cut = std::min(t_cut, stripped_at);
         }
         const Regime regime_new = model.regime(t_new, y_new);
         double regime_time = nan;
@@ -1334,6 +1538,10 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             regime = regime_after;
             next_mode.energy_limited = model.energy_limited_in(regime);
         }
+        if (!std::isnan(stripped_at) && stripped_at <= t_cut) {
+            r.stripping_time = stripped_at;
+            next_mode.stripped = true;
+        }
         // Output inside (t, t_cut].
         while (next_eval < c.t_eval.size() && c.t_eval[next_eval] <= t_cut) {
             const double te = c.t_eval[next_eval];
@@ -1348,6 +1556,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         if (t_cut < t_new) {
             dense(t_cut, y_probe);
             y = y_probe;
+            if (next_mode.stripped)
+                y[env] = 0.0; // the bare core from here on
             t = t_cut;
             if (c.t_eval.empty())
                 record(t, y);
@@ -1358,6 +1568,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         } else {
             y.swap(y_new);
             dydt.swap(dydt_new);
+            if (next_mode.stripped && !mode.stripped)
+                y[env] = 0.0;
             t = t_new;
             if (c.t_eval.empty())
                 record(t, y);
@@ -1406,6 +1618,11 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     need("depletion_time", r.depletion_time.size(), ns);
     need("initial_inventory", r.initial_inventory.size(), ns);
     need("species_mass", r.species_mass.size(), ns);
+    if (r.has_envelope()) {
+        need("envelope_mass", r.envelope_mass.size(), nt);
+        need("planet_radius", r.planet_radius.size(), nt);
+        need("envelope_loss_rate", r.envelope_loss_rate.size(), nt);
+    }
 
     ResultWriter w(path, r.config);
     w.add_coordinate("time", r.time, "s", "time (stellar age)");
@@ -1437,6 +1654,16 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     w.add_variable("initial_inventory", s, r.initial_inventory, "1",
                    "number of particles at the start");
     w.add_variable("species_mass", s, r.species_mass, "kg", "particle mass");
+    if (r.has_envelope()) {
+        w.add_variable("envelope_mass", t, r.envelope_mass, "kg", "H/He envelope mass");
+        w.add_variable("planet_radius", t, r.planet_radius, "m",
+                       "planet radius, core plus envelope (Lopez & Fortney 2014 fit)");
+        w.add_variable("envelope_loss_rate", t, r.envelope_loss_rate, "kg s-1",
+                       "envelope mass-loss rate");
+        w.add_variable("core_mass", {}, std::vector<double>{r.core_mass}, "kg", "core mass");
+        w.add_variable("stripping_time", {}, std::vector<double>{r.stripping_time}, "s",
+                       "stellar age when the envelope is gone (NaN: not stripped)");
+    }
     auto count = [&](const char* name, std::size_t value, const char* long_name) {
         w.add_variable(name, {}, std::vector<std::int64_t>{static_cast<std::int64_t>(value)}, "1",
                        long_name);

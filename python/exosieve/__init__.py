@@ -16,6 +16,7 @@ from .diffusion import (
 )
 from .envelope import (
     SOLAR_IRRADIANCE,
+    Envelope,
     EnvelopeLoss,
     core_radius,
     envelope_loss,
@@ -149,6 +150,7 @@ __all__ = [
     "xuv_absorption_radius",
     "SOLAR_IRRADIANCE",
     "core_radius",
+    "Envelope",
     "envelope_radius",
     "envelope_planet_radius",
     "EnvelopeLoss",

@@ -66,8 +66,8 @@ _VARIABLES: list[tuple[str, type, list[str], str, str]] = [
     ("case_name", str, [], "1", "planet case"),
     ("error", str, [], "1", "why the row is invalid or its nominal run failed (empty: it ran)"),
     ("steps", int, [], "1", "accepted integration steps of the nominal run"),
-    ("planet_mass", float, [], "kg", "planet mass"),
-    ("planet_radius", float, [], "m", "planet radius"),
+    ("planet_mass", float, [], "kg", "planet mass (with an envelope: at the start)"),
+    ("planet_radius", float, [], "m", "planet radius (with an envelope: at the start)"),
     ("exobase_radius", float, [], "m", "exobase radius from the planet's centre"),
     ("escape_speed", float, [], "m s-1", "escape speed at the exobase"),
     ("age_start", float, [], "s", "stellar age at the start of the run"),
@@ -143,6 +143,20 @@ _VARIABLES: list[tuple[str, type, list[str], str, str]] = [
         "1",
         "1: the bulk gas starts at or below the hydrodynamic threshold and the case has no "
         "heating efficiency, so its Jeans results do not describe its loss (0: no; -1: not run)",
+    ),
+    (
+        "stripping_time",
+        float,
+        [],
+        "s",
+        "stellar age when the H/He envelope is gone (NaN: not stripped, or no envelope)",
+    ),
+    (
+        "planet_radius_end",
+        float,
+        [],
+        "m",
+        "planet radius at the end (with an envelope: the core and what is left of it)",
     ),
 ]
 _SAMPLE_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
@@ -612,6 +626,8 @@ _RANGES: dict[str, tuple[float, float]] = {
     "regime_start": (-1, 3),
     "bulk_jeans_parameter_start": (0, math.inf),
     "hydrodynamic_unmodelled": (-1, 1),
+    "stripping_time": (0, math.inf),
+    "planet_radius_end": (0, math.inf),
     "sample_retained_fraction": (0, 1.001),
     "sample_depletion_time": (0, math.inf),
     "sample_failed": (0, 1),

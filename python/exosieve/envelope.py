@@ -28,10 +28,11 @@ from numpy.typing import NDArray
 
 from . import _core
 from ._arrays import FloatOrArray, apply, to_si
-from .model import Star
+from .model import Star, _scalar
 
 __all__ = [
     "SOLAR_IRRADIANCE",
+    "Envelope",
     "core_radius",
     "envelope_radius",
     "envelope_planet_radius",
@@ -150,6 +151,68 @@ def envelope_planet_radius(
         ],
         _opacity(opacity),
     )
+
+
+class Envelope:
+    """An H/He envelope on a rock/iron core, for :func:`exosieve.evolve` [SI units].
+
+    With ``evolve(..., envelope=Envelope(...))`` the envelope mass ``M_env`` is integrated with
+    the inventories: it is lost at the hydrodynamic mass-loss rate ``Mdot`` of the run's
+    :class:`EnergyLimitedEscape` while that acts (by its ``activation``; not in the kinetic
+    regimes), and the planet is ``M_p = M_core + M_env`` with radius ``R_core + R_env`` of the
+    Lopez & Fortney (2014) fit (:func:`envelope_planet_radius`) at every instant. The run's
+    :class:`Planet` then gives only the orbit and the star: its mass and radius are not used.
+
+    Parameters
+    ----------
+    core_mass : float
+        Core mass ``M_core`` [kg] (> 0; astropy quantities are converted).
+    envelope_fraction : float
+        ``f_env = M_env / M_p`` at the start of the run [1], in [0, 1) (0: a bare core).
+    opacity : {"solar", "enhanced"}, optional
+        Envelope opacity of the radius fit (age exponent -0.11 or -0.18).
+
+    Examples
+    --------
+    >>> from exosieve import constants as c
+    >>> e = Envelope(5 * c.M_EARTH, 0.02)
+    >>> round(e.initial_mass / c.M_EARTH, 6), round(e.initial_planet_mass / c.M_EARTH, 6)
+    (0.102041, 5.102041)
+    """
+
+    def __init__(self, core_mass: Any, envelope_fraction: Any, opacity: str = "solar") -> None:
+        self._core = _core.EnvelopeConfig(
+            _scalar(core_mass, "core_mass", "kg"),
+            _scalar(envelope_fraction, "envelope_fraction", "1"),
+            _opacity(opacity),
+        )
+        self.opacity = opacity
+
+    @property
+    def core_mass(self) -> float:
+        """Core mass [kg]."""
+        return float(self._core.core_mass)
+
+    @property
+    def envelope_fraction(self) -> float:
+        """Envelope mass over planet mass at the start [1]."""
+        return float(self._core.envelope_fraction)
+
+    @property
+    def initial_mass(self) -> float:
+        """Envelope mass at the start ``M_core f / (1 - f)`` [kg]."""
+        return float(self._core.initial_mass)
+
+    @property
+    def initial_planet_mass(self) -> float:
+        """Planet mass at the start ``M_core / (1 - f)`` [kg]."""
+        return float(self._core.initial_planet_mass)
+
+    def __repr__(self) -> str:
+        return (
+            f"Envelope(core_mass={self.core_mass!r}, envelope_fraction="
+            f"{self.envelope_fraction!r}, opacity={self.opacity!r})"
+        )
 
 
 @dataclass(frozen=True)

@@ -16,6 +16,7 @@ from typing import Any
 
 from . import _core
 from ._arrays import real_number, whole_number
+from .envelope import Envelope
 from .model import (
     EnergyLimitedEscape,
     Planet,
@@ -55,6 +56,7 @@ def evolve(
     stepper: str = "auto",
     progress_every: int | None = None,
     given_losses: Mapping[str, Any] | None = None,
+    envelope: Envelope | None = None,
 ) -> EvolutionResult:
     """Integrate the loss of each species' inventory over ``t_span``.
 
@@ -129,6 +131,21 @@ def evolve(
         Call ``progress`` (and check for Ctrl-C) after every this many accepted steps [steps]
         instead of about every 50 ms: a schedule set by the step count alone, the same on any
         machine (e.g. to stop a run after a given number of steps, or in tests).
+    envelope : Envelope, optional
+        An H/He envelope on a rock/iron core (core mass [kg], envelope fraction [1], opacity),
+        integrated with the inventories: its mass is lost at the ``hydrodynamic`` option's
+        mass-loss rate while energy-limited loss acts, and the planet's mass
+        ``M_core + M_env`` [kg] and radius ``R_core + R_env`` [m] (Lopez & Fortney 2014 fit at
+        the planet's bolometric flux and the stellar age) follow it at every instant. They
+        enter the energy-limited rate (XUV absorbed at the evolving radius unless
+        ``xuv_radius`` or ``absorption`` is given; the Roche-lobe factor), the Jeans
+        parameters (the planet mass) and the exobase, which keeps its height above the
+        planet. An event locates the stellar age the envelope is gone
+        (``result.stripping_time``); the planet is the bare core after it. Needs the planet's
+        star and orbit, ``hydrodynamic`` (without the recombination limit) and a
+        :class:`PrescribedExobase` above the planet at the start; ``planet``'s own mass and
+        radius are not used. The result gains ``envelope_mass`` [kg], ``planet_radius`` [m]
+        and ``envelope_loss_rate`` [kg s^-1] per output time.
 
     Returns
     -------
@@ -224,6 +241,10 @@ def evolve(
                 f"hydrodynamic must be an exosieve.EnergyLimitedEscape, got {hydrodynamic!r}"
             )
         config.hydrodynamic = hydrodynamic._core
+    if envelope is not None:
+        if not isinstance(envelope, Envelope):
+            raise ValueError(f"envelope must be an exosieve.Envelope, got {envelope!r}")
+        config.envelope = envelope._core
     if thresholds is not None:
         config.thresholds = thresholds
     config.tail = _tail(tail_depletion)

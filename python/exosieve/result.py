@@ -38,6 +38,12 @@ TIME_VARIABLES: dict[str, tuple[str, str]] = {
     "regime": ("1", "escape regime of the bulk gas at the exobase"),
     "energy_limited": ("1", "1 where energy-limited hydrodynamic loss acted"),
 }
+#: Per-time variables of a run with an envelope: name -> (units, long_name).
+ENVELOPE_VARIABLES: dict[str, tuple[str, str]] = {
+    "envelope_mass": ("kg", "H/He envelope mass"),
+    "planet_radius": ("m", "planet radius, core plus envelope (Lopez & Fortney 2014 fit)"),
+    "envelope_loss_rate": ("kg s-1", "envelope mass-loss rate"),
+}
 #: Every variable of a result file with its units and long name.
 VARIABLES: dict[str, tuple[str, str]] = {
     **SPECIES_VARIABLES,
@@ -51,6 +57,9 @@ VARIABLES: dict[str, tuple[str, str]] = {
     "rhs_evaluations": ("1", "evaluations of the right-hand side"),
     "completed": ("1", "1 when the run reached the end of t_span"),
     "t_reached": ("s", "last time reached"),
+    **ENVELOPE_VARIABLES,
+    "core_mass": ("kg", "core mass"),
+    "stripping_time": ("s", "stellar age when the envelope is gone (NaN: not stripped)"),
 }
 REGIME_FLAGS = {"flag_values": "0 1 2 3", "flag_meanings": " ".join(REGIMES)}
 
@@ -111,6 +120,14 @@ class EvolutionResult:
         Time [s] each species fell below the depletion fraction; None where it did not.
     regime_changes : list of (float, str, str)
         Located regime changes: (time [s], from, to).
+    envelope_mass, planet_radius, envelope_loss_rate : ndarray or None
+        With an envelope (``evolve(..., envelope=...)``): envelope mass [kg], planet radius
+        (core plus envelope) [m] and envelope mass-loss rate [kg s^-1] over time; None
+        without one.
+    core_mass : float or None
+        Core mass [kg] of a run with an envelope; None without one.
+    stripping_time : float or None
+        Stellar age [s] when the envelope is gone; None when it is not (or without one).
     steps, rejected_steps, rhs_evaluations : int
         Integration diagnostics.
     stepper : str
@@ -155,6 +172,13 @@ class EvolutionResult:
         self.t_reached = float(data["t_reached"])
         self.config_json: str = str(data["config"])
         self._config: dict[str, Any] | None = None
+        with_envelope = data.get("core_mass") is not None
+        for name in ENVELOPE_VARIABLES:
+            values = np.asarray(data[name], dtype=np.float64) if with_envelope else None
+            setattr(self, name, values)
+        self.core_mass: float | None = float(data["core_mass"]) if with_envelope else None
+        stripped = float(data["stripping_time"]) if with_envelope else math.nan
+        self.stripping_time: float | None = None if math.isnan(stripped) else stripped
 
     inventory: PerName
     escape_rate: PerName
@@ -164,6 +188,9 @@ class EvolutionResult:
     exobase_radius: NDArray[np.float64]
     exobase_temperature: NDArray[np.float64]
     xuv_flux: NDArray[np.float64]
+    envelope_mass: NDArray[np.float64] | None
+    planet_radius: NDArray[np.float64] | None
+    envelope_loss_rate: NDArray[np.float64] | None
 
     @classmethod
     def _from_core(cls, raw: Any, masses: list[float], initial: list[float]) -> EvolutionResult:
@@ -197,6 +224,17 @@ class EvolutionResult:
                 "completed": raw.completed,
                 "t_reached": raw.t_reached,
                 "config": raw.config,
+                **(
+                    {
+                        "envelope_mass": raw.envelope_mass,
+                        "planet_radius": raw.planet_radius,
+                        "envelope_loss_rate": raw.envelope_loss_rate,
+                        "core_mass": raw.core_mass,
+                        "stripping_time": raw.stripping_time,
+                    }
+                    if raw.has_envelope
+                    else {}
+                ),
             }
         )
 
@@ -225,7 +263,15 @@ class EvolutionResult:
         )
 
     def _fields(self) -> dict[str, Any]:
+        envelope: dict[str, Any] = {}
+        if self.core_mass is not None:
+            envelope = {n: getattr(self, n) for n in ENVELOPE_VARIABLES}
+            envelope["core_mass"] = self.core_mass
+            envelope["stripping_time"] = (
+                math.nan if self.stripping_time is None else self.stripping_time
+            )
         return {
+            **envelope,
             "time": self.time,
             "species": self.species,
             "ratio_names": self.ratio_names,
@@ -309,6 +355,11 @@ class EvolutionResult:
         for name in ("steps", "rejected_steps", "rhs_evaluations", "completed"):
             data[name] = ((), np.int64(f[name]), _attrs(name))
         data["t_reached"] = ((), np.float64(self.t_reached), _attrs("t_reached"))
+        if self.core_mass is not None:
+            for name in ENVELOPE_VARIABLES:
+                data[name] = (("time",), f[name], _attrs(name))
+            for name in ("core_mass", "stripping_time"):
+                data[name] = ((), np.float64(f[name]), _attrs(name))
         return xr.Dataset(
             data,
             coords=coords,
@@ -334,6 +385,9 @@ class EvolutionResult:
             columns[("isotope_ratio", r)] = self.isotope_ratio[r]
         for name in TIME_VARIABLES:
             columns[(name, "")] = getattr(self, name)
+        if self.core_mass is not None:
+            for name in ENVELOPE_VARIABLES:
+                columns[(name, "")] = getattr(self, name)
         frame = pd.DataFrame(columns, index=pd.Index(self.time, name="time"))
         frame.columns = pd.MultiIndex.from_tuples(frame.columns, names=["quantity", "species"])
         return frame
@@ -386,6 +440,9 @@ def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
             if name == "given_loss_rate" and name not in f:
                 data[name] = np.zeros(f["inventory"].shape)  # files from before given losses
             else:
+                data[name] = f[name][()]
+        if "core_mass" in f:  # a run with an envelope
+            for name in [*ENVELOPE_VARIABLES, "core_mass", "stripping_time"]:
                 data[name] = f[name][()]
         data["isotope_ratio"] = f["isotope_ratio"][()] if ratios else np.empty((len(time), 0))
         data["config"] = text(f.attrs["config"])

@@ -297,6 +297,7 @@ def test_template_and_demo_catalogue_run(tmp_path):
         "Quell b",
         "Orvane d",
         "Quell c",
+        "Quell d",
     }
     demo = compare(exosieve.catalogue.demo_catalogue_path(), threads=1)
     assert len(demo) == 8 and len(demo.errors) == 0

@@ -493,6 +493,83 @@ def test_template_has_a_loss_row_that_runs() -> None:
     assert np.nanmax(result["given_loss_rate_start"][k]) > 0
 
 
+def test_loss_options_with_an_envelope() -> None:
+    # An invented sub-Neptune whose H/He envelope shrinks as it is lost (core_mass,
+    # envelope_fraction): the absorption radius (at the evolving planet radius) and a given
+    # loss as evolve(envelope=...) has them; the recombination limit is not supported with an
+    # envelope and is refused naming its column.
+    a = 0.1 * c.AU
+    table = pd.DataFrame(
+        {
+            "case": ["enveloped"],
+            "core_mass [M_earth]": [4.0],
+            "envelope_fraction [1]": [0.02],
+            "semi_major_axis [au]": [a / c.AU],
+            "star_mass [M_sun]": [0.8],
+            "star_luminosity [L_sun]": [0.4],
+            "exobase_altitude [km]": [1000.0],
+            "exobase_density [m-3]": [1e13],
+            "exobase_temperature [K]": [8000.0],
+            "heating_efficiency [1]": [0.15],
+            "xuv_absorption_cross_section [m2]": [2e-22],
+            "xuv_absorption_base_density [m-3]": [1e17],
+            "xuv_absorption_temperature [K]": [1000.0],
+            "given_loss_He [s-1]": [1e31],
+            "inventory [particles]": [1e48],
+            "x_H2": [0.85],
+            "x_He": [0.15],
+        }
+    )
+    result = compare(table, times=TIMES, t_start=T_START, t_end=T_END, rtol=RTOL)
+    assert result["error"][0] == ""
+    v = _core.case_values(case_table_from_frame(table).to_core(), 0)
+    core, f = v["core_mass"], v["envelope_fraction"]
+    flux = v["star_luminosity"] / (4 * np.pi * v["semi_major_axis"] ** 2)
+    radius = float(exosieve.envelope_planet_radius(core, f, flux, T_START))
+    star = exosieve.Star(v["star_mass"], v["star_luminosity"])
+    planet = exosieve.Planet(core / (1 - f), radius, v["semi_major_axis"], star)
+    x = {"H2": v["x_H2"], "He": v["x_He"]}
+    total = sum(x.values())
+    exobase = exosieve.PrescribedExobase(
+        radius + v["exobase_altitude"],
+        v["exobase_temperature"],
+        {s: x[s] / total * v["exobase_density"] for s in x},
+    )
+    mean = sum(x[s] * exosieve.species(s).mass for s in x) / total
+    hydro = exosieve.EnergyLimitedEscape(
+        v["heating_efficiency"],
+        absorption={
+            "base_density": v["xuv_absorption_base_density"],
+            "cross_section": v["xuv_absorption_cross_section"],
+            "mean_molecular_mass": mean,
+            "temperature": v["xuv_absorption_temperature"],
+        },
+    )
+    single = exosieve.evolve(
+        planet,
+        exobase,
+        {s: v["inventory"] * x[s] / total for s in x},
+        (T_START, T_END),
+        t_eval=[T_START, *TIMES[:-1], T_END],
+        rtol=RTOL,
+        hydrodynamic=hydro,
+        given_losses={"He": v["given_loss_He"]},
+        envelope=exosieve.Envelope(core, f),
+    )
+    engine = json.loads(_core.case_config(case_table_from_frame(table).to_core(), 0,
+                                          engine_options()).to_json())  # fmt: skip
+    assert engine == single.config
+    for j, name in enumerate(["H2", "He"]):
+        expected = single.inventory[name] / single.config["initial_inventory"][j]
+        np.testing.assert_array_equal(result["retained_fraction"][0, :, j], expected[1:])
+    assert result["given_loss_rate_start"][0, 1] == 1e31
+    assert result["planet_radius_end"][0] < result["planet_radius"][0]  # the envelope shrank
+    table["recombination_limit [1]"] = [1.0]
+    with pytest.raises(ValueError, match=r"column 'recombination_limit': got 1, but the "
+                       r"recombination limit is not supported with an envelope"):  # fmt: skip
+        compare(table, times=TIMES, t_start=T_START, t_end=T_END)
+
+
 def test_catalogue_examples_run() -> None:
     import doctest
 

@@ -208,7 +208,9 @@ std::vector<std::string> check_table(const CaseTable& table, const BatchOptions&
 //! homopause_density is given, a ThermosphereExobase built as evolve() builds it from a
 //! Thermosphere: x_i the homopause fractions, isothermal or (homopause_temperature,
 //! bates_shape) Bates, diffusion_limited (default 1) and diffusion_source; giving both kinds
-//! is refused. Exobase densities and shares of a total
+//! is refused. An envelope (core_mass, envelope_fraction, instead of planet_mass and
+//! planet_radius) becomes EvolutionConfig::envelope, the planet at the start being the core
+//! and its envelope at the start age. Exobase densities and shares of a total
 //! inventory both use the mole fractions divided by their sum (a sample's drawn fractions are
 //! renormalised this way).
 //! heating_efficiency switches on energy-limited loss (HydrodynamicOptions, the Roche-lobe
@@ -267,6 +269,10 @@ struct BatchChunk {
     //! energy-limited model (no heating efficiency): its Jeans results do not describe its loss;
     //! 0 otherwise; -1 where the nominal run did not finish [case]
     std::vector<std::int64_t> hydrodynamic_unmodelled;
+    //! Stellar age when the envelope is gone [s]; NaN: not stripped, or no envelope [case]
+    std::vector<double> stripping_time;
+    //! Planet radius at the end [m]: with an envelope, the core and what is left of it [case]
+    std::vector<double> planet_radius_end;
     std::vector<double> sample_retained; //!< N_i(t_end)/N_i(t_start) [1] [case x sample x species]
     std::vector<double> sample_depletion_time; //!< [s] [case x sample x species]
     std::vector<std::int64_t> sample_failed;   //!< 1 where the sample run failed [case x sample]
@@ -298,10 +304,10 @@ struct ChunkVariable {
 //! age_start, age_end, exobase_temperature_start, mole_fraction, exobase_temperature,
 //! retained_fraction, jeans_parameter, final_retained_fraction, depletion_time,
 //! efolding_time, escape_rate_start, given_loss_rate_start, jeans_parameter_start,
-//! jeans_parameter_end, regime_start,
-//! bulk_jeans_parameter_start, hydrodynamic_unmodelled, and with samples
-//! sample_retained_fraction, sample_depletion_time, sample_failed, sample_error, and with
-//! samples and uncertain inputs sample_input, input_uncertain. They point into `chunk`.
+//! jeans_parameter_end, regime_start, bulk_jeans_parameter_start, hydrodynamic_unmodelled,
+//! stripping_time, planet_radius_end, and with samples sample_retained_fraction,
+//! sample_depletion_time, sample_failed, sample_error, and with samples and uncertain inputs
+//! sample_input, input_uncertain. They point into `chunk`.
 std::vector<ChunkVariable> chunk_variables(const BatchChunk& chunk);
 
 //! A chunk as rows of a sweep file: `case` (the keys) and chunk_variables(). Written straight

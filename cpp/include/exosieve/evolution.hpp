@@ -5,6 +5,23 @@
 //! with Q_i the global escape rate (Jeans escape from the exobase model, or energy-limited
 //! hydrodynamic loss shared with dragged species) and S_i a source (outgassing).
 //!
+//! With an envelope (EvolutionConfig::envelope) the planet is a rock/iron core under an H/He
+//! envelope whose mass M_env is one more state, lost at the hydrodynamic mass-loss rate:
+//!   dM_env/dt = -Mdot(t, M_p, R_p) while energy-limited loss acts, 0 otherwise,
+//! with M_p = M_core + M_env and R_p = R_core + R_env(f_env, M_p, F_bol, t) (Lopez & Fortney
+//! 2014, envelope.hpp), f_env = M_env / M_p. Mdot is the energy-limited rate of the
+//! hydrodynamic option (its XUV radius the evolving R_p unless a fixed radius or the absorption
+//! model is given; the Roche-lobe factor of the evolving M_p and R_p). The Jeans parameters
+//! take the evolving M_p, and a prescribed exobase keeps its height above the evolving R_p.
+//! Not coupled: Jeans escape of the envelope in the kinetic regimes (not taken from M_env), a
+//! Thermosphere (refused: it keeps the planet it was built with) and the recombination limit
+//! (refused: the evolving radius moves its switch, which the integrator stops at otherwise).
+//! An event locates the time M_env reaches zero; the planet is the bare core after it.
+//! M_env / M_core is integrated linearly (it reaches zero in a finite time) to the absolute
+//! tolerance rtol depletion_fraction M_env(t_start) throughout: an error made while the
+//! envelope is large stays as it shrinks, so a relative test would leave a small remnant
+//! inaccurate; this one keeps it to rtol relative down to depletion_fraction of the start.
+//!
 //! Integrated in y_i = ln N_i with Boost.Odeint's Dormand–Prince 5(4) pair under step-size
 //! control, with its dense output for requested times and events. In ln N a species whose loss
 //! follows its inventory obeys dy_i/dt = S_i e^(-y_i) - k_i(t): no stiffness however fast it is
@@ -22,6 +39,7 @@
 #include <utility>
 #include <vector>
 
+#include "exosieve/envelope.hpp"
 #include "exosieve/exobase_model.hpp"
 #include "exosieve/hydrodynamic.hpp"
 #include "exosieve/jeans.hpp"
@@ -113,6 +131,23 @@ enum class StepperKind : int {
     Rosenbrock4 = 2 //!< linearly implicit Rosenbrock 4(3): for stiff source–loss balances
 };
 
+//! An H/He envelope on a rock/iron core, for evolve(): radius R_core + R_env of the Lopez &
+//! Fortney (2014) fit (envelope.hpp), mass lost at the hydrodynamic mass-loss rate.
+struct EnvelopeConfig {
+    double core_mass = 0.0;         //!< M_core [kg] (> 0)
+    double envelope_fraction = 0.0; //!< f_env = M_env / M_p at t_start [1], in [0, 1)
+    EnvelopeOpacity opacity = EnvelopeOpacity::Solar; //!< opacity of the radius fit
+
+    //! Throw InputError naming the argument and value for a value out of range.
+    void validate() const;
+    //! Envelope mass M_core f_env / (1 - f_env) at t_start [kg].
+    double initial_mass() const {
+        return core_mass * envelope_fraction / (1.0 - envelope_fraction);
+    }
+    //! Planet mass M_core / (1 - f_env) at t_start [kg].
+    double initial_planet_mass() const { return core_mass / (1.0 - envelope_fraction); }
+};
+
 //! Everything one run needs; plain data, no interpreter objects, so runs can go in parallel.
 struct EvolutionConfig {
     //! Start from a planet; fill in the rest before calling evolve().
@@ -127,11 +162,15 @@ struct EvolutionConfig {
     std::vector<GivenLoss> given_losses;         //!< empty or one per species: losses given [s^-1]
     std::optional<HydrodynamicOptions> hydrodynamic; //!< energy-limited loss with drag
     RegimeThresholds thresholds;                     //!< Jeans-parameter regime thresholds
-    TailDepletion tail;                              //!< factor on every Jeans flux
-    double t_start = 0.0;                            //!< start time (stellar age) [s]
-    double t_end = 0.0;                              //!< end time [s] (> t_start)
-    std::vector<double> t_eval;                      //!< output times [s]; empty: every step
-    double rtol = 1e-8;                              //!< relative tolerance on each N_i [1]
+    //! An H/He envelope whose mass and radius evolve with its loss; the planet's own mass and
+    //! radius are then not used (the envelope gives them at every instant). Needs the planet's
+    //! star, the hydrodynamic option and a PrescribedExobase.
+    std::optional<EnvelopeConfig> envelope;
+    TailDepletion tail;         //!< factor on every Jeans flux
+    double t_start = 0.0;       //!< start time (stellar age) [s]
+    double t_end = 0.0;         //!< end time [s] (> t_start)
+    std::vector<double> t_eval; //!< output times [s]; empty: every step
+    double rtol = 1e-8;         //!< relative tolerance on each N_i [1]
     //! Absolute tolerance on each N_i [particles]; empty: rtol * depletion_fraction * N_i(t_start).
     std::vector<double> atol;
     double depletion_fraction = 1e-3; //!< a species is depleted below this share of N_i(t_start)
@@ -182,16 +221,24 @@ struct EvolutionResult {
     std::vector<double> initial_inventory;    //!< per species [particles]
     std::vector<double> species_mass;         //!< per species [kg]
     std::vector<RegimeChange> regime_changes; //!< located regime changes
-    std::size_t steps = 0;                    //!< accepted steps
-    std::size_t rejected_steps = 0;           //!< rejected steps
-    std::size_t rhs_evaluations = 0;          //!< right-hand-side evaluations
-    std::string stepper;                      //!< the stepper used: "dopri5" or "rosenbrock4"
-    bool completed = false;                   //!< false when stopped by the progress hook
-    double t_reached = 0.0;                   //!< last time reached [s]
-    std::string config;                       //!< JSON of the model
+    // With an envelope only (empty or NaN without one):
+    std::vector<double> envelope_mass;      //!< M_env [kg], per time
+    std::vector<double> planet_radius;      //!< R_p = R_core + R_env [m], per time
+    std::vector<double> envelope_loss_rate; //!< -dM_env/dt [kg s^-1], per time
+    double core_mass = std::numeric_limits<double>::quiet_NaN(); //!< M_core [kg]
+    //! Stellar age when the envelope is gone [s]; NaN where it is not (or without one).
+    double stripping_time = std::numeric_limits<double>::quiet_NaN();
+    std::size_t steps = 0;           //!< accepted steps
+    std::size_t rejected_steps = 0;  //!< rejected steps
+    std::size_t rhs_evaluations = 0; //!< right-hand-side evaluations
+    std::string stepper;             //!< the stepper used: "dopri5" or "rosenbrock4"
+    bool completed = false;          //!< false when stopped by the progress hook
+    double t_reached = 0.0;          //!< last time reached [s]
+    std::string config;              //!< JSON of the model
 
     std::size_t time_count() const { return time.size(); }       //!< output times
     std::size_t species_count() const { return species.size(); } //!< species
+    bool has_envelope() const { return !std::isnan(core_mass); } //!< run with an envelope
 };
 
 //! Integrate the inventories from t_start to t_end. Thread-safe for configs whose temperature
@@ -209,7 +256,9 @@ default_isotope_ratios(const std::vector<std::string>& species);
 //! exobase_radius, exobase_temperature, xuv_flux, regime (flag_values / flag_meanings),
 //! energy_limited (time), isotope_ratio (time x ratio), depletion_time (NaN where not reached),
 //! initial_inventory, species_mass (species), and the scalars steps, rejected_steps,
-//! rhs_evaluations, completed, t_reached; units and long_name on every variable; global attributes
+//! rhs_evaluations, completed, t_reached; with an envelope also envelope_mass, planet_radius,
+//! envelope_loss_rate (time), core_mass and stripping_time (scalars, NaN where not stripped);
+//! units and long_name on every variable; global attributes
 //! `config` (model JSON) and `regime_changes` (JSON list).
 void write_result(const EvolutionResult& result, const std::string& path);
 
