@@ -121,8 +121,8 @@ def column_groups() -> list[tuple[str, list[str]]]:
 
     Examples
     --------
-    >>> column_groups()[0]
-    ('planet', ['planet_mass', 'planet_radius'])
+    >>> dict(column_groups())["span and solver"]
+    ['age_start', 'age_end', 'star_age', 'rtol', 'max_steps']
     """
     names = [row[0] for row in _core.case_parameters()]
     groups = _core.case_parameter_groups()
