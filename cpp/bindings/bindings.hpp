@@ -40,5 +40,6 @@ void bind_outflow(py::module_& m);
 void bind_thermosphere(py::module_& m);
 void bind_hdf5_io(py::module_& m);
 void bind_batch(py::module_& m);
+void bind_inversion(py::module_& m);
 
 } // namespace exosieve::bindings

@@ -14,4 +14,5 @@ PYBIND11_MODULE(_core, m) {
     b::bind_thermosphere(m);
     b::bind_hdf5_io(m);
     b::bind_batch(m);
+    b::bind_inversion(m);
 }

@@ -151,9 +151,9 @@ class RatioSearch {
     Point evaluate(double u) {
         if (runs_ >= options_.max_runs)
             throw RunBudgetSpent{};
-        const double factor = std::exp(u) / nominal_;
+        const double factor = std::exp(u) / nominal_; // the scale of every scaled inventory
         for (std::size_t i = 0; i < base_.size(); ++i) {
-            run_.initial_inventory[i] = scaled_[i] ? base_[i] * factor : base_[i];
+            run_.initial_inventory[i] = scaled_[i] ? base_[i] * factor : base_[i]; // as solved()
             if (!base_atol_.empty())
                 run_.atol[i] = scaled_[i] ? base_atol_[i] * factor : base_atol_[i];
         }
@@ -188,15 +188,13 @@ class RatioSearch {
         const Point& best = std::abs(a.g) <= std::abs(b.g) ? a : b;
         const double S = std::exp(best.u);
         r.status = InversionStatus::Solved;
-        r.scaled_initial = 0.0;
+        r.scaled_initial = S; // the sum of the scaled inventories, up to their rounding
         r.scaled_lost = 0.0;
         for (std::size_t i = 0; i < names_.size(); ++i) {
-            r.initial_inventory[i] = scaled_[i] ? base_[i] * S / nominal_ : base_[i];
+            r.initial_inventory[i] = scaled_[i] ? base_[i] * (S / nominal_) : base_[i];
             r.final_inventory[i] = best.final_inventory[i];
-            if (scaled_[i]) {
-                r.scaled_initial += r.initial_inventory[i];
+            if (scaled_[i])
                 r.scaled_lost += r.initial_inventory[i] - r.final_inventory[i];
-            }
         }
         r.ratio = best.ratio;
         r.depleted = best.depleted;
@@ -288,7 +286,8 @@ class RatioSearch {
         if (low_failure.empty() && high_failure.empty()) {
             r.status = InversionStatus::NoSolution;
             r.message = "no solution: " + ends + " " + range + ", never " + g_text(target_) + " (" +
-                        (low.g > 0.0 ? "above" : "below") + " it throughout the range searched)";
+                        (low.g > 0.0 ? "above" : "below") + " it at each of the " +
+                        std::to_string(runs_) + " inventories tried)";
             return;
         }
         r.status = InversionStatus::Failed;
