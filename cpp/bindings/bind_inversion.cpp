@@ -45,6 +45,7 @@ py::dict result_dict(const InversionResult& r) {
     d["ratio_low"] = r.ratio_low;
     d["ratio_high"] = r.ratio_high;
     d["runs"] = r.runs;
+    d["planet_radius"] = r.planet_radius;
     return d;
 }
 
@@ -72,6 +73,7 @@ py::dict samples_dict(const InversionSamples& s) {
     d["ratio_low"] = shaped(s.ratio_low, {n});
     d["ratio_high"] = shaped(s.ratio_high, {n});
     d["runs"] = shaped(s.runs, {n});
+    d["planet_radius"] = shaped(s.planet_radius, {n});
     d["message"] = s.message;
     return d;
 }

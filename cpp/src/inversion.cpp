@@ -128,6 +128,7 @@ class RatioSearch {
         r.scaled = scaled_;
         r.target = target_;
         r.initial_ratio = initial_ratio_;
+        r.planet_radius = run_.planet.radius();
         r.initial_inventory.assign(names_.size(), nan);
         r.final_inventory.assign(names_.size(), nan);
         try {
@@ -508,8 +509,9 @@ InversionSamples run_pool(std::size_t samples, std::size_t threads, const Invers
     out.nominal = results[0];
     out.target.assign(samples, nan);
     out.status.assign(samples, static_cast<std::int64_t>(InversionStatus::Cancelled));
-    for (auto* v : {&out.initial_ratio, &out.ratio, &out.scaled_initial, &out.scaled_lost,
-                    &out.bracket_low, &out.bracket_high, &out.ratio_low, &out.ratio_high})
+    for (auto* v :
+         {&out.initial_ratio, &out.ratio, &out.scaled_initial, &out.scaled_lost, &out.bracket_low,
+          &out.bracket_high, &out.ratio_low, &out.ratio_high, &out.planet_radius})
         v->assign(samples, nan);
     out.initial_inventory.assign(samples * n, nan);
     out.final_inventory.assign(samples * n, nan);
@@ -530,6 +532,7 @@ InversionSamples run_pool(std::size_t samples, std::size_t threads, const Invers
         out.ratio_high[k] = r.ratio_high;
         out.depleted[k] = r.depleted ? 1 : 0;
         out.runs[k] = static_cast<std::int64_t>(r.runs);
+        out.planet_radius[k] = r.planet_radius;
         out.message[k] = r.status == InversionStatus::Solved ? "" : r.message;
         if (r.initial_inventory.size() == n)
             for (std::size_t i = 0; i < n; ++i) {
@@ -620,7 +623,11 @@ InversionSamples invert_case(const CaseSpec& spec, const BatchOptions& batch,
             throw InputError(spec.label + " (case '" + spec.name + "'), " + e.what());
         }
     }();
-    RatioSearch check(nominal, measured, options); // InputError here, before any run
+    try {
+        RatioSearch check(nominal, measured, options); // InputError here, before any run
+    } catch (const InputError& e) {
+        throw InputError(spec.label + " (case '" + spec.name + "'), " + e.what());
+    }
     std::vector<std::string> names;
     for (const Species& s : spec.species)
         names.push_back(s.name);

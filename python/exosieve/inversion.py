@@ -35,6 +35,7 @@ from ._arrays import real_number, whole_number
 from .catalogue import load_cases
 from .evolution import ExobaseLike, _build_config
 from .model import EnergyLimitedEscape, Planet
+from .ocean import WATER_DENSITY, hydrogen_atoms, hydrogen_to_ocean_depth
 
 __all__ = ["RatioInversion", "InversionSamples", "invert_ratio", "invert_case", "STATUSES"]
 
@@ -73,6 +74,10 @@ class InversionSamples:
         The ratio at the end at those two inventories [1].
     runs : ndarray of int
         Evolution runs of each inversion.
+    planet_radius : ndarray
+        Each sample's planet radius [m].
+    scaled : list of str
+        The species scaled together.
     message : list of str
         "" when solved, else why not.
     cancelled : bool
@@ -94,6 +99,8 @@ class InversionSamples:
     ratio_low: NDArray[np.float64]
     ratio_high: NDArray[np.float64]
     runs: NDArray[np.int64]
+    planet_radius: NDArray[np.float64]
+    scaled: list[str]
     message: list[str]
     cancelled: bool
 
@@ -138,6 +145,21 @@ class InversionSamples:
     def lost(self) -> NDArray[np.float64]:
         """Lost by the end per sample and species, ``initial - final`` [particles]."""
         return np.asarray(self.initial_inventory - self.final_inventory)
+
+    def ocean_depth(self, density: float = WATER_DENSITY) -> dict[str, NDArray[np.float64]]:
+        """The hydrogen of the scaled species as global oceans of water on each sample's
+        planet: depth [m] of its initial amount and of its loss (NaN unless solved).
+
+        Parameters
+        ----------
+        density : float, optional
+            Density of liquid water [kg m^-3]; default 1000 (common practice).
+        """
+        weights = _hydrogen_weights(self.species, self.scaled)
+        return {
+            "initial": _depth(self.initial_inventory @ weights, self.planet_radius, density),
+            "lost": _depth(self.lost() @ weights, self.planet_radius, density),
+        }
 
 
 @dataclass(frozen=True)
@@ -192,6 +214,8 @@ class RatioInversion:
         The ratio at the end at those two inventories [1].
     runs : int
         Evolution runs made.
+    planet_radius : float
+        The planet's radius [m].
     samples : InversionSamples or None
         The Monte Carlo inversions (None without samples).
     """
@@ -216,6 +240,7 @@ class RatioInversion:
     bracket: tuple[float, float]
     bracket_ratio: tuple[float, float]
     runs: int
+    planet_radius: float
     samples: InversionSamples | None = field(default=None, repr=False)
 
     @property
@@ -229,6 +254,29 @@ class RatioInversion:
         return {
             name: self.initial_inventory[name] - self.final_inventory[name]
             for name in self.species
+        }
+
+    def ocean_depth(self, density: float = WATER_DENSITY) -> dict[str, float]:
+        """The hydrogen of the scaled species as global oceans of water on the planet: depth
+        [m] of its initial amount and of its loss (NaN unless solved). Hydrogen atoms are
+        counted from each species' formula (H and D one each, H2 and HD two, ...).
+
+        Parameters
+        ----------
+        density : float, optional
+            Density of liquid water [kg m^-3]; default 1000 (common practice).
+
+        Raises
+        ------
+        ValueError
+            When the scaled species hold no hydrogen.
+        """
+        weights = _hydrogen_weights(self.species, self.scaled)
+        initial = np.asarray([self.initial_inventory[s] for s in self.species])
+        final = np.asarray([self.final_inventory[s] for s in self.species])
+        return {
+            "initial": float(_depth(initial @ weights, self.planet_radius, density)),
+            "lost": float(_depth((initial - final) @ weights, self.planet_radius, density)),
         }
 
     def __str__(self) -> str:
@@ -247,6 +295,27 @@ class RatioInversion:
             counts = ", ".join(f"{v} {k}" for k, v in self.samples.counts.items() if v)
             lines.append(f"  {len(self.samples)} samples: {counts}")
         return "\n".join(lines)
+
+
+def _hydrogen_weights(species: Sequence[str], scaled: Sequence[str]) -> NDArray[np.float64]:
+    """Hydrogen atoms per particle of each species, 0 for species not scaled."""
+    weights = np.asarray([hydrogen_atoms(s) if s in scaled else 0 for s in species], dtype=float)
+    if not weights.any():
+        raise ValueError(
+            f"ocean_depth: the scaled species ({', '.join(scaled)}) hold no hydrogen"
+        )
+    return weights
+
+
+def _depth(atoms: Any, radius: Any, density: float) -> NDArray[np.float64]:
+    """Global-ocean depth [m] of ``atoms`` hydrogen atoms, negative for a gain (a source
+    outpacing the loss); NaN where ``atoms`` is NaN."""
+    atoms, radius = np.broadcast_arrays(np.asarray(atoms, float), np.asarray(radius, float))
+    good = np.isfinite(atoms) & np.isfinite(radius)
+    out = np.full(atoms.shape, np.nan)
+    depth = hydrogen_to_ocean_depth(np.abs(atoms[good]), radius[good], density)
+    out[good] = np.sign(atoms[good]) * depth
+    return out
 
 
 def _percentiles(percentiles: Sequence[float]) -> NDArray[np.float64]:
@@ -282,17 +351,17 @@ def _measurement(
     value = real_number(measured, "measured", "1")
     if not value > 0.0:
         raise ValueError(f"measured ({what}) must be > 0 [1], got {value!r}")
-    if lnsigma is not None:
-        if sigma not in (None, 0, 0.0):
-            raise ValueError("give either sigma (normal) or lnsigma (log-normal), not both")
-        width = real_number(lnsigma, "lnsigma", "1")
-        if width < 0.0:
-            raise ValueError(f"lnsigma must be >= 0 [1], got {width!r}")
-        return value, width, True
     width = 0.0 if sigma is None else real_number(sigma, "sigma", "1")
     if width < 0.0:
         raise ValueError(f"sigma must be >= 0 [1], got {width!r}")
-    return value, width, False
+    if lnsigma is None:
+        return value, width, False
+    log_width = real_number(lnsigma, "lnsigma", "1")
+    if log_width < 0.0:
+        raise ValueError(f"lnsigma must be >= 0 [1], got {log_width!r}")
+    if width != 0.0:
+        raise ValueError("give either sigma (normal) or lnsigma (log-normal), not both")
+    return value, log_width, True
 
 
 def _search_options(
@@ -369,6 +438,8 @@ def _result(
             ratio_low=np.asarray(raw["ratio_low"]),
             ratio_high=np.asarray(raw["ratio_high"]),
             runs=np.asarray(raw["runs"]),
+            planet_radius=np.asarray(raw["planet_radius"]),
+            scaled=scaled,
             message=list(raw["message"]),
             cancelled=bool(raw["cancelled"]),
         )
@@ -393,6 +464,7 @@ def _result(
         bracket=(float(nominal["bracket_low"]), float(nominal["bracket_high"])),
         bracket_ratio=(float(nominal["ratio_low"]), float(nominal["ratio_high"])),
         runs=int(nominal["runs"]),
+        planet_radius=float(nominal["planet_radius"]),
         samples=drawn,
     )
 

@@ -121,6 +121,8 @@ struct InversionResult {
     double ratio_low = std::numeric_limits<double>::quiet_NaN();    //!< R(t_end) at bracket_low
     double ratio_high = std::numeric_limits<double>::quiet_NaN();   //!< R(t_end) at bracket_high
     std::size_t runs = 0;                                           //!< evolution runs made
+    //! The planet's radius [m] (e.g. to express water as a global ocean).
+    double planet_radius = std::numeric_limits<double>::quiet_NaN();
 };
 
 //! The initial inventory of `config` that gives `measured.value` at config.t_end (the width is
@@ -170,6 +172,7 @@ struct InversionSamples {
     std::vector<double> ratio_low;         //!< [1] [sample]
     std::vector<double> ratio_high;        //!< [1] [sample]
     std::vector<std::int64_t> runs;        //!< evolution runs [sample]
+    std::vector<double> planet_radius;     //!< the sample's planet radius [m] [sample]
     std::vector<std::string> message;      //!< "" or why not solved [sample]
     bool cancelled = false;                //!< stopped by on_progress before the end
 };
