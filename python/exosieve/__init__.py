@@ -23,6 +23,7 @@ from .envelope import (
     envelope_radius,
 )
 from .evolution import evolve
+from .inversion import InversionSamples, RatioInversion, invert_case, invert_ratio
 from .jeans import (
     TailDepletion,
     escape_speed,
@@ -41,7 +42,6 @@ from .maxwell import (
     rms_speed,
     speed_pdf,
 )
-from .inversion import InversionSamples, RatioInversion, invert_case, invert_ratio
 from .model import (
     REGIMES,
     EnergyLimitedEscape,

@@ -264,7 +264,7 @@ def _invert(args: argparse.Namespace) -> int:
                 case,
                 ratio=args.ratio,
                 measured=args.measured,
-                sigma=args.sigma if args.lnsigma is None else None,
+                sigma=args.sigma,
                 lnsigma=args.lnsigma,
                 relative=args.relative,
                 scaled=args.scale,
@@ -331,7 +331,9 @@ def _invert(args: argparse.Namespace) -> int:
         drawn = result.samples
         if drawn is not None:
             counts = drawn.counts
-            print(f"  {len(drawn)} samples: " + ", ".join(f"{v} {k}" for k, v in counts.items() if v))
+            print(
+                f"  {len(drawn)} samples: " + ", ".join(f"{v} {k}" for k, v in counts.items() if v)
+            )
             for status, count in counts.items():
                 row[f"samples_{status} [1]"] = count
             q = drawn.quantiles(percentiles)
@@ -356,7 +358,9 @@ def _invert(args: argparse.Namespace) -> int:
                 print(f"    {f'{label} [{unit}]':22s}" + "".join(f"{v:12.4g}" for v in values))
                 for p, v in zip(q["percentile"], values, strict=True):
                     row[f"{column}_p{p:g} [{unit}]"] = float(v)
-            failed = [m for m, st in zip(drawn.message, drawn.status, strict=True) if st != "solved"]
+            failed = [
+                m for m, st in zip(drawn.message, drawn.status, strict=True) if st != "solved"
+            ]
             if failed:
                 print(f"    first unsolved sample: {failed[0]}")
         rows.append(row)

@@ -252,8 +252,7 @@ class RatioInversion:
     def lost(self) -> dict[str, float]:
         """Each species' loss by the end, ``initial - final`` [particles]."""
         return {
-            name: self.initial_inventory[name] - self.final_inventory[name]
-            for name in self.species
+            name: self.initial_inventory[name] - self.final_inventory[name] for name in self.species
         }
 
     def ocean_depth(self, density: float = WATER_DENSITY) -> dict[str, float]:
@@ -301,9 +300,7 @@ def _hydrogen_weights(species: Sequence[str], scaled: Sequence[str]) -> NDArray[
     """Hydrogen atoms per particle of each species, 0 for species not scaled."""
     weights = np.asarray([hydrogen_atoms(s) if s in scaled else 0 for s in species], dtype=float)
     if not weights.any():
-        raise ValueError(
-            f"ocean_depth: the scaled species ({', '.join(scaled)}) hold no hydrogen"
-        )
+        raise ValueError(f"ocean_depth: the scaled species ({', '.join(scaled)}) hold no hydrogen")
     return weights
 
 
@@ -583,7 +580,9 @@ tail_depletion, max_steps, exobase_temperature, limit_by_diffusion, stepper
     """
     numerator, denominator = _ratio(ratio)
     value, width, lognormal = _measurement(measured, sigma, lnsigma, relative)
-    search = _search_options(scaled, inventory_min, inventory_max, search_factor, tolerance, max_runs)
+    search = _search_options(
+        scaled, inventory_min, inventory_max, search_factor, tolerance, max_runs
+    )
     run = _sampling(samples, seed, threads, progress_every)
     progress = _progress(progress)
     config, _, _ = _build_config(
@@ -687,7 +686,9 @@ search_factor, tolerance, max_runs, samples, seed, threads, progress, progress_e
     """
     numerator, denominator = _ratio(ratio)
     value, width, lognormal = _measurement(measured, sigma, lnsigma, relative)
-    search = _search_options(scaled, inventory_min, inventory_max, search_factor, tolerance, max_runs)
+    search = _search_options(
+        scaled, inventory_min, inventory_max, search_factor, tolerance, max_runs
+    )
     run = _sampling(samples, seed, threads, progress_every)
     progress = _progress(progress)
     table = load_cases(cases)

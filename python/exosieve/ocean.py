@@ -31,7 +31,9 @@ WATER_DENSITY: float = float(_core.DEFAULT_WATER_DENSITY)
 """Density of liquid water used when none is given [kg m^-3]: 1000 (common practice)."""
 
 
-def _args(name: str, amount: Any, unit: str, radius: Any, density: Any) -> list[tuple[str, Any, str]]:
+def _args(
+    name: str, amount: Any, unit: str, radius: Any, density: Any
+) -> list[tuple[str, Any, str]]:
     return [(name, amount, unit), ("radius", radius, "m"), ("density", density, "kg m-3")]
 
 

@@ -22,9 +22,8 @@ import pytest
 import scipy.constants as sc
 
 import exosieve
-from exosieve import _core
+from exosieve import _core, inversion
 from exosieve import constants as c
-from exosieve import inversion
 from exosieve.catalogue import case_table_from_frame
 
 pd = pytest.importorskip("pandas")
@@ -67,9 +66,7 @@ def forward_ratio(total: float) -> float:
 def model(total: float, **kwargs):
     h0 = total / (1 + R0)
     scaling = kwargs.pop("density_scaling", "inventory")
-    exo = exosieve.PrescribedExobase(
-        R_EXO, T_EXO, {"H": N_H, "D": R0 * N_H}, scaling=scaling
-    )
+    exo = exosieve.PrescribedExobase(R_EXO, T_EXO, {"H": N_H, "D": R0 * N_H}, scaling=scaling)
     planet = exosieve.Planet(MASS, RADIUS)
     return planet, exo, {"H": h0, "D": R0 * h0}, (0.0, SPAN)
 
