@@ -232,20 +232,29 @@ class RatioSearch {
             bool open = true;
             std::string failure;
         } up{start, u0 < u_hi_, {}}, down{start, u0 > u_lo_, {}};
-        std::optional<std::pair<Point, Point>> bracket;
+        // A bracket with an end that depletes a ratio species is kept only as a fallback: where
+        // a loss does not follow the inventory the species is held at its depletion level
+        // there, and the ratio describes that level (a root of no physical meaning).
+        std::optional<std::pair<Point, Point>> clean, fallback;
         double step = std::log(10.0);
         bool spent = false;
-        while (!bracket && !spent && (up.open || down.open)) {
+        while (!clean && !spent && (up.open || down.open)) {
             for (int direction : {1, -1}) {
                 Side& side = direction > 0 ? up : down;
-                if (!side.open || bracket)
+                if (!side.open || clean)
                     continue;
                 const double u =
                     direction > 0 ? std::min(u0 + step, u_hi_) : std::max(u0 - step, u_lo_);
                 try {
                     Point p = evaluate(u);
-                    if (sign(p.g) != sign(side.last.g))
-                        bracket = std::make_pair(side.last, p);
+                    if (sign(p.g) != sign(side.last.g)) {
+                        if (!p.depleted && !side.last.depleted)
+                            clean = std::make_pair(side.last, p);
+                        else if (p.depleted != side.last.depleted)
+                            clean = undepleted_part(side.last, p);
+                        if (!clean && !fallback)
+                            fallback = std::make_pair(side.last, p);
+                    }
                     side.last = std::move(p);
                     side.open = direction > 0 ? u < u_hi_ : u > u_lo_;
                 } catch (const NumericalError& e) {
@@ -259,7 +268,8 @@ class RatioSearch {
             }
             step *= 2.0;
         }
-        if (spent) {
+        const auto& bracket = clean ? clean : fallback;
+        if (!bracket && spent) {
             unsolved(r, down.last, up.last, "", "");
             r.status = InversionStatus::Failed;
             r.message = "no bracket within max_runs = " + std::to_string(options_.max_runs) +
@@ -271,6 +281,29 @@ class RatioSearch {
             return;
         }
         refine(r, bracket->first, bracket->second);
+    }
+
+    // A sign change between a point that depletes a ratio species and one that does not may
+    // come from the depleted part alone. Bisection on depletion towards the boundary (to 1e-6
+    // in ln S) looks for a sign change among the points that deplete nothing; none: nullopt.
+    std::optional<std::pair<Point, Point>> undepleted_part(const Point& x, const Point& y) {
+        Point kept = x.depleted ? y : x;
+        double depleted_u = x.depleted ? x.u : y.u;
+        try {
+            while (std::abs(kept.u - depleted_u) > 1e-6) {
+                Point p = evaluate(0.5 * (kept.u + depleted_u));
+                if (p.depleted) {
+                    depleted_u = p.u;
+                } else if (sign(p.g) != sign(kept.g)) {
+                    return std::make_pair(std::move(p), kept);
+                } else {
+                    kept = std::move(p);
+                }
+            }
+        } catch (const NumericalError&) {
+            // the bracket with the depleted end stays the fallback
+        }
+        return std::nullopt;
     }
 
     void unsolved(InversionResult& r, const Point& low, const Point& high,

@@ -341,3 +341,26 @@ TEST_CASE("inversion: a case-table row, every stated uncertainty drawn, each sam
                         {}, sampling),
                     InputError);
 }
+
+TEST_CASE("inversion: fixed densities, the physical root beside the depletion-held branch") {
+    // Worked analytic solution: fixed densities give constant rates A_i, N_i = N_i0 - A_i t, so
+    // R = (R0 H0 - A_D t) / (H0 - A_H t) and H0 = (R A_H - A_D) t / (R - R0). Below
+    // H0 = A_H t / (1 - 1e-3) H is held at its depletion level and R(H0) turns back; a search
+    // started there brackets that branch too. The root reported is the physical one.
+    for (double enrichment : {1.5, 100.0, 900.0}) {
+        CAPTURE(enrichment);
+        const double target = enrichment * R0;
+        const double H0 = (target * A_H - A_D) * span / (target - R0);
+        for (double start : {1e-3, 1e3}) {
+            CAPTURE(start);
+            EvolutionConfig c = model(start * H0 * (1.0 + R0));
+            c.exobase = std::make_shared<PrescribedExobase>(
+                r_exo, std::vector<std::string>{"H", "D"}, std::vector<double>{n_H, R0 * n_H},
+                DensityScaling::Fixed);
+            const InversionResult r = invert_ratio(c, measured(target), {});
+            REQUIRE(r.status == InversionStatus::Solved);
+            CHECK_FALSE(r.depleted);
+            CHECK(r.scaled_initial == doctest::Approx(H0 * (1.0 + R0)).epsilon(1e-6));
+        }
+    }
+}

@@ -17,7 +17,11 @@
 //!   u0 +- ln(10) 2^k for k = 0, 1, 2, ... (1, 2, 4, 8, ... decades, the last one on each side
 //!   at the range's end), up and down in turn, until g changes sign between neighbouring points
 //!   of one side. That bracket is the one nearest to the nominal inventory: where several
-//!   inventories give the target (a non-monotone ratio), this one is found;
+//!   inventories give the target (a non-monotone ratio), this one is found. A bracket with an
+//!   end where the numerator or the denominator falls below depletion_fraction of its start is
+//!   only a fallback, used when the search finds no other: where a loss does not follow the
+//!   inventory (fixed exobase densities, given losses, energy-limited escape) the species is
+//!   held at that level, and the ratio there describes the level, not the escape;
 //! - refinement by TOMS 748 (Alefeld, Potra & Shi 1995; Boost.Math) until the bracket is
 //!   narrower than `tolerance` in u (relative width on S). The reported solution is the
 //!   evaluated end of that bracket with the smaller |g|.
