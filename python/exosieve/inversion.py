@@ -12,9 +12,12 @@ reservoir drained by the same initial escape, so ``R(t_end)`` moves less far fro
 The root of ``ln R(t_end) - ln R_measured`` is sought in ``ln S`` by the C++ core: a bracket
 search outward from the nominal inventory (1, 2, 4, 8, ... decades up and down in turn, within
 ``[S / search_factor, S * search_factor]`` or the bounds given), then TOMS 748 (Alefeld, Potra &
-Shi 1995) to ``tolerance`` in ``ln S``. When the ratio never reaches the measured value in that
-range there is no solution, and the result says so with the range searched and the ratio at
-its ends; nothing is raised. With samples, each one draws the measured ratio (normal, truncated
+Shi 1995) to ``tolerance`` in ``ln S``. A bracket with an end where the numerator or the
+denominator falls below ``depletion_fraction`` is searched for a root among the undepleted
+inventories first, and kept only when no other is found (a loss that does not follow the
+inventory holds a depleted species at that level, and the ratio then turns back). When the
+ratio never reaches the measured value at the inventories tried there is no solution, and the
+result says so with the range searched and the ratio at its ends; nothing is raised. With samples, each one draws the measured ratio (normal, truncated
 to > 0, or log-normal) and, for a case row, every stated uncertainty of the row as
 :func:`exosieve.compare` draws it (sample ``j`` of row ``k`` depends only on (seed, k, j)), on a
 pool of threads.

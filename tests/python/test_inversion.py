@@ -344,3 +344,16 @@ def test_bad_input_is_refused_before_any_run(monkeypatch):
 def test_docstring_examples():
     result = doctest.testmod(inversion)
     assert result.attempted > 0 and result.failed == 0
+
+
+def test_a_python_temperature_callable_runs_on_one_worker():
+    # The same model with its constant temperature given as a Python callable.
+    h0 = exact_total(3.0) / (1 + R0)
+    exo = exosieve.PrescribedExobase(R_EXO, lambda t: T_EXO, {"H": N_H, "D": R0 * N_H})
+    result = exosieve.invert_ratio(
+        exosieve.Planet(MASS, RADIUS), exo, {"H": h0, "D": R0 * h0}, (0.0, SPAN),
+        ratio="D/H", measured=3 * R0, sigma=0.1 * R0, samples=3, threads=2, rtol=1e-10,
+    )  # fmt: skip
+    assert result.status == "solved"
+    assert result.total_initial == pytest.approx(exact_total(3.0), rel=1e-6)
+    assert result.samples is not None and result.samples.counts["solved"] == 3
