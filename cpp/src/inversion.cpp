@@ -248,12 +248,14 @@ class RatioSearch {
                 try {
                     Point p = evaluate(u);
                     if (sign(p.g) != sign(side.last.g)) {
-                        if (!p.depleted && !side.last.depleted)
+                        if (!p.depleted && !side.last.depleted) {
                             clean = std::make_pair(side.last, p);
-                        else if (p.depleted != side.last.depleted)
-                            clean = undepleted_part(side.last, p);
-                        if (!clean && !fallback)
-                            fallback = std::make_pair(side.last, p);
+                        } else {
+                            if (!fallback) // before the bisection, which may spend the budget
+                                fallback = std::make_pair(side.last, p);
+                            if (p.depleted != side.last.depleted)
+                                clean = undepleted_part(side.last, p);
+                        }
                     }
                     side.last = std::move(p);
                     side.open = direction > 0 ? u < u_hi_ : u > u_lo_;
