@@ -17,10 +17,11 @@ denominator falls below ``depletion_fraction`` is searched for a root among the 
 inventories first, and kept only when no other is found (a loss that does not follow the
 inventory holds a depleted species at that level, and the ratio then turns back). When the
 ratio never reaches the measured value at the inventories tried there is no solution, and the
-result says so with the range searched and the ratio at its ends; nothing is raised. With samples, each one draws the measured ratio (normal, truncated
-to > 0, or log-normal) and, for a case row, every stated uncertainty of the row as
-:func:`exosieve.compare` draws it (sample ``j`` of row ``k`` depends only on (seed, k, j)), on a
-pool of threads.
+result says so with the range searched and the ratio at its ends; nothing is raised.
+
+With samples, each one draws the measured ratio (normal, truncated to > 0, or log-normal) and,
+for a case row, every stated uncertainty of the row as :func:`exosieve.compare` draws it
+(sample ``j`` of row ``k`` depends only on (seed, k, j)), on a pool of threads.
 """
 
 from __future__ import annotations
