@@ -41,5 +41,6 @@ void bind_thermosphere(py::module_& m);
 void bind_hdf5_io(py::module_& m);
 void bind_batch(py::module_& m);
 void bind_sensitivity(py::module_& m);
+void bind_inversion(py::module_& m);
 
 } // namespace exosieve::bindings

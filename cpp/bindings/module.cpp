@@ -15,4 +15,5 @@ PYBIND11_MODULE(_core, m) {
     b::bind_hdf5_io(m);
     b::bind_batch(m);
     b::bind_sensitivity(m);
+    b::bind_inversion(m);
 }

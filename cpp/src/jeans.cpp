@@ -54,8 +54,8 @@ struct BlockInputs {
 // True when every value of the block is valid: density finite and >= 0, the other four
 // finite and > 0. Branch-free so that it vectorises; it runs on cache-hot data just before
 // the kernel, which saves a separate pass over memory.
-bool block_valid(const double* n, const double* T, const double* m, const double* M,
-                 const double* r, std::size_t len) {
+EXOSIEVE_VECTOR_CLONES bool block_valid(const double* n, const double* T, const double* m,
+                                        const double* M, const double* r, std::size_t len) {
     constexpr double big = std::numeric_limits<double>::max();
     double bad = 0.0;
     for (std::size_t i = 0; i < len; ++i) {
@@ -128,8 +128,9 @@ double log_thermal_speed(double T, double m) {
 }
 
 // Jeans flux on a contiguous block without the tail factor; vectorises.
-void flux_block(const double* n, const double* T, const double* m, const double* M, const double* r,
-                double* out, std::size_t len) {
+EXOSIEVE_VECTOR_CLONES void flux_block(const double* n, const double* T, const double* m,
+                                       const double* M, const double* r, double* out,
+                                       std::size_t len) {
     for (std::size_t i = 0; i < len; ++i) {
         const double kT = k_B * T[i];
         const double lambda = G * M[i] * m[i] / (kT * r[i]);
@@ -314,13 +315,16 @@ void jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg 
                    const double* r, double* o, std::size_t len) {
                    flux_block(n, T, m, M, r, o, len);
                    apply_tail(tail, T, m, M, r, o, len);
+                   // Where a product of the linear form over- or underflowed into inf or NaN
+                   // (finite extreme inputs), the exponential of the log form: finite wherever
+                   // the flux is. Scanned while the block is in cache, not in a second pass.
+                   for (std::size_t j = 0; j < len; ++j)
+                       if (!std::isfinite(o[j])) {
+                           const auto i = static_cast<std::size_t>(o - out) + j;
+                           o[j] = std::exp(log_flux_at(density, temperature, mass, planet_mass,
+                                                       radius, i, tail));
+                       }
                });
-    // Where a product of the linear form over- or underflowed into inf or NaN (finite extreme
-    // inputs), the exponential of the log form: finite wherever the flux is.
-    for (std::size_t i = 0; i < count; ++i)
-        if (!std::isfinite(out[i]))
-            out[i] =
-                std::exp(log_flux_at(density, temperature, mass, planet_mass, radius, i, tail));
 }
 
 void log_jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,

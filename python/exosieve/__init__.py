@@ -24,6 +24,7 @@ from .envelope import (
     envelope_radius,
 )
 from .evolution import evolve
+from .inversion import InversionSamples, RatioInversion, invert_case, invert_ratio
 from .jeans import (
     TailDepletion,
     escape_speed,
@@ -59,6 +60,14 @@ from .model import (
     energy_limited_mass_loss,
     roche_lobe_factor,
     roche_lobe_ratio,
+)
+from .ocean import (
+    WATER_DENSITY,
+    hydrogen_atoms,
+    hydrogen_to_ocean_depth,
+    ocean_depth_to_hydrogen,
+    ocean_depth_to_water,
+    water_to_ocean_depth,
 )
 from .outflow import (
     HYDROGEN_ATOM_MASS,
@@ -157,6 +166,16 @@ __all__ = [
     "envelope_loss",
     "evolve",
     "EvolutionResult",
+    "invert_ratio",
+    "invert_case",
+    "RatioInversion",
+    "InversionSamples",
+    "WATER_DENSITY",
+    "ocean_depth_to_water",
+    "water_to_ocean_depth",
+    "ocean_depth_to_hydrogen",
+    "hydrogen_to_ocean_depth",
+    "hydrogen_atoms",
     "open_result",
     "binary_diffusion_parameter",
     "diffusion_limited_flux",

@@ -1,5 +1,6 @@
 """The ``exosieve`` command: sweep a case table to HDF5, summarise and chart the result, find
-which uncertain input drives it (Sobol' indices), list the case-table columns, run the demo."""
+which uncertain input drives it (Sobol' indices), list the case-table columns, invert a measured
+isotope ratio for the initial inventory, run the demo."""
 
 from __future__ import annotations
 
@@ -340,6 +341,144 @@ def _columns(args: argparse.Namespace) -> int:
     return 0
 
 
+def _invert(args: argparse.Namespace) -> int:
+    import csv
+
+    import numpy as np
+
+    from . import constants as c
+    from .catalogue import load_cases
+    from .inversion import invert_case
+
+    table = load_cases(args.table)
+    if args.case:
+        chosen: list[str | int] = [
+            int(k) if k.isdigit() and k not in table.names else k for k in args.case
+        ]
+    else:
+        chosen = list(range(len(table)))
+    percentiles = args.percentiles or [5.0, 16.0, 50.0, 84.0, 95.0]
+    rows: list[dict[str, Any]] = []
+    unsolved = 0
+    for case in chosen:
+        try:
+            result = invert_case(
+                table,
+                case,
+                ratio=args.ratio,
+                measured=args.measured,
+                sigma=args.sigma,
+                lnsigma=args.lnsigma,
+                relative=args.relative,
+                scaled=args.scale,
+                inventory_min=args.min,
+                inventory_max=args.max,
+                search_factor=args.search_factor,
+                samples=args.samples,
+                seed=args.seed,
+                threads=args.threads,
+                t_start=args.start * c.MYR,
+                t_end=args.end * c.GYR,
+                rtol=args.rtol,
+                max_steps=args.max_steps,
+            )
+        except KeyboardInterrupt:
+            print(f"exosieve: interrupted at case {case!r}", file=sys.stderr)
+            return 130
+        index = case if isinstance(case, int) else table.names.index(case)
+        name = table.names[index]
+        scaled = ", ".join(result.scaled)
+        what = "enrichment" if result.relative else "ratio"
+        print(
+            f"{name} (row {index}): {result.ratio} {result.target:.6g} sought at the end "
+            f"({what} {result.measured:.6g}; {result.initial_ratio:.6g} at the start)"
+        )
+        row: dict[str, Any] = {
+            "case": name,
+            "row": index,
+            "ratio": result.ratio,
+            "status": result.status,
+            "message": result.message,
+            "target [1]": result.target,
+            "initial_ratio [1]": result.initial_ratio,
+            "total_initial [particles]": result.total_initial,
+            "total_lost [particles]": result.total_lost,
+            "bracket_low [particles]": result.bracket[0],
+            "bracket_high [particles]": result.bracket[1],
+            "ratio_low [1]": result.bracket_ratio[0],
+            "ratio_high [1]": result.bracket_ratio[1],
+            "runs [1]": result.runs,
+        }
+        if result.solved:
+            print(
+                f"  solved: initial {scaled} {result.total_initial:.6g} particles, lost "
+                f"{result.total_lost:.6g} particles ({result.runs} runs)"
+            )
+            if result.message:
+                print(f"  note: {result.message}")
+        else:
+            unsolved += 1
+            shown = result.message if result.status == "no_solution" else result.status
+            print(f"  {shown}" + ("" if shown == result.message else f": {result.message}"))
+        ocean = None
+        if args.ocean:
+            ocean = result.ocean_depth(args.density)
+            row["ocean_initial [m]"] = ocean["initial"]
+            row["ocean_lost [m]"] = ocean["lost"]
+            if result.solved:
+                print(
+                    f"  as a global ocean ({args.density:g} kg/m3 water on radius "
+                    f"{result.planet_radius / 1e3:.6g} km): initial {ocean['initial']:.4g} m, "
+                    f"lost {ocean['lost']:.4g} m"
+                )
+        drawn = result.samples
+        if drawn is not None:
+            counts = drawn.counts
+            print(
+                f"  {len(drawn)} samples: " + ", ".join(f"{v} {k}" for k, v in counts.items() if v)
+            )
+            for status, count in counts.items():
+                row[f"samples_{status} [1]"] = count
+            q = drawn.quantiles(percentiles)
+            # (label, CSV column, unit) -> percentiles over the solved samples
+            lines = {
+                ("initial", "total_initial", "particles"): q["total_initial"],
+                ("lost", "total_lost", "particles"): q["total_lost"],
+            }
+            if args.ocean:
+                depth = drawn.ocean_depth(args.density)
+                keep = drawn.solved
+                for key in ("initial", "lost"):
+                    values = depth[key][keep]
+                    lines[(f"ocean {key}", f"ocean_{key}", "m")] = (
+                        np.percentile(values, q["percentile"])
+                        if values.size
+                        else np.full(len(percentiles), np.nan)
+                    )
+            header = "".join(f"{f'p{p:g}':>12s}" for p in q["percentile"])
+            print(f"    {'percentile [%]':22s}{header}")
+            for (label, column, unit), values in lines.items():
+                print(f"    {f'{label} [{unit}]':22s}" + "".join(f"{v:12.4g}" for v in values))
+                for p, v in zip(q["percentile"], values, strict=True):
+                    row[f"{column}_p{p:g} [{unit}]"] = float(v)
+            failed = [
+                m for m, st in zip(drawn.message, drawn.status, strict=True) if st != "solved"
+            ]
+            if failed:
+                print(f"    first unsolved sample: {failed[0]}")
+        rows.append(row)
+    if args.csv:
+        columns: list[str] = []
+        for row in rows:
+            columns += [k for k in row if k not in columns]
+        with open(args.csv, "w", newline="", encoding="utf-8") as handle:
+            writer = csv.DictWriter(handle, fieldnames=columns)
+            writer.writeheader()
+            writer.writerows(rows)
+        print(f"wrote {Path(args.csv).resolve()}")
+    return 3 if unsolved else 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``exosieve`` command."""
     parser = argparse.ArgumentParser(
@@ -606,6 +745,130 @@ def build_parser() -> argparse.ArgumentParser:
         "unit words accepted in headers.",
     )
     columns.set_defaults(run=_columns)
+
+    invert = commands.add_parser(
+        "invert",
+        help="find the initial inventory that reproduces a measured isotope ratio",
+        description="For each chosen row of TABLE (default: every row), find the total initial "
+        "inventory of the ratio's species (or of --scale's, their proportions held) for which "
+        "the ratio at the row's end age equals MEASURED, with Monte Carlo samples over every "
+        "stated uncertainty of the row and of the measurement. Prints the solution, the amount "
+        "lost, and percentiles over the samples; a row without a solution in the range "
+        "searched is reported with that range and the ratio at its ends. Exit status 3 when "
+        "some row has no solution or failed.",
+    )
+    invert.add_argument("table", help="case table (CSV file)")
+    invert.add_argument(
+        "--ratio", required=True, metavar="NUM/DEN", help="the measured ratio, e.g. D/H"
+    )
+    invert.add_argument(
+        "--measured",
+        type=float,
+        required=True,
+        metavar="VALUE",
+        help="its measured value at the row's end age [1] (with --relative: the enrichment "
+        "over the initial ratio)",
+    )
+    width = invert.add_mutually_exclusive_group()
+    width.add_argument(
+        "--sigma", type=float, default=0.0, help="standard uncertainty of VALUE [1] (normal)"
+    )
+    width.add_argument(
+        "--lnsigma",
+        type=float,
+        default=None,
+        help="standard deviation of ln(VALUE) [1] (log-normal, VALUE the median)",
+    )
+    invert.add_argument(
+        "--relative", action="store_true", help="VALUE is the enrichment R(end)/R(start)"
+    )
+    invert.add_argument(
+        "--case",
+        action="append",
+        default=None,
+        metavar="NAME",
+        help="a row by case name or 0-based index (repeatable; default: every row)",
+    )
+    invert.add_argument(
+        "--scale",
+        type=_names,
+        default=None,
+        metavar="A,B,...",
+        help="species scaled together (default: the ratio's two)",
+    )
+    invert.add_argument(
+        "--min", type=float, default=None, metavar="N", help="smallest total searched [particles]"
+    )
+    invert.add_argument(
+        "--max", type=float, default=None, metavar="N", help="largest total searched [particles]"
+    )
+    invert.add_argument(
+        "--search-factor",
+        type=float,
+        default=1e10,
+        metavar="F",
+        help="search from the row's total divided to multiplied by F [1] (default: %(default)g)",
+    )
+    invert.add_argument(
+        "--samples", type=int, default=0, metavar="N", help="Monte Carlo samples [1] (default: 0)"
+    )
+    invert.add_argument(
+        "--seed", type=int, default=0, help="seed of the Monte Carlo draws (default: %(default)s)"
+    )
+    invert.add_argument(
+        "--threads", type=int, default=None, metavar="N", help="threads (default: all cores)"
+    )
+    invert.add_argument(
+        "--start",
+        type=float,
+        default=10.0,
+        metavar="MYR",
+        help="stellar age at the start [Myr] for rows without age_start (default: %(default)s)",
+    )
+    invert.add_argument(
+        "--end",
+        type=float,
+        default=4.5,
+        metavar="GYR",
+        help="age of the measurement [Gyr] for rows without age_end or star_age "
+        "(default: %(default)s)",
+    )
+    invert.add_argument(
+        "--rtol",
+        type=float,
+        default=1e-8,
+        help="relative tolerance of each run [1] (default: %(default)s)",
+    )
+    invert.add_argument(
+        "--max-steps",
+        type=int,
+        default=100_000,
+        metavar="N",
+        help="integration step budget of each run [1] (default: %(default)s)",
+    )
+    invert.add_argument(
+        "--percentiles",
+        type=_floats,
+        default=None,
+        metavar="Q,Q,...",
+        help="percentiles over the samples [%%] (default: 5,16,50,84,95)",
+    )
+    invert.add_argument(
+        "--ocean",
+        action="store_true",
+        help="also give the hydrogen of the scaled species as a global ocean of water [m]",
+    )
+    invert.add_argument(
+        "--density",
+        type=float,
+        default=1000.0,
+        metavar="KG_M3",
+        help="density of that water [kg m^-3] (default: %(default)g, common practice)",
+    )
+    invert.add_argument(
+        "--csv", default=None, metavar="FILE", help="also write one line per row, SI units"
+    )
+    invert.set_defaults(run=_invert)
 
     demo = commands.add_parser(
         "demo",

@@ -168,6 +168,57 @@ def evolve(
     >>> bool(r.isotope_ratio["D/H"][-1] > r.isotope_ratio["D/H"][0])
     True
     """
+    if progress_every is not None:
+        progress_every = whole_number(progress_every, "progress_every", 1, " [steps]")
+    if progress is not None and not callable(progress):
+        raise ValueError(f"progress must be a callable progress(t) or None, got {progress!r}")
+    config, species_objects, initial = _build_config(
+        planet,
+        exobase,
+        inventory,
+        t_span,
+        t_eval=t_eval,
+        rtol=rtol,
+        atol=atol,
+        depletion_fraction=depletion_fraction,
+        sources=sources,
+        hydrodynamic=hydrodynamic,
+        thresholds=thresholds,
+        tail_depletion=tail_depletion,
+        isotope_ratios=isotope_ratios,
+        max_steps=max_steps,
+        exobase_temperature=exobase_temperature,
+        limit_by_diffusion=limit_by_diffusion,
+        stepper=stepper,
+        given_losses=given_losses,
+    )
+    raw = _core.evolve(config, progress, int(progress_every or 0))
+    return EvolutionResult._from_core(raw, [s.mass for s in species_objects], initial)
+
+
+def _build_config(
+    planet: Planet,
+    exobase: ExobaseLike,
+    inventory: Mapping[str, Any],
+    t_span: Sequence[Any],
+    *,
+    t_eval: Any | None = None,
+    rtol: float = 1e-8,
+    atol: None | float | Mapping[str, float] = None,
+    depletion_fraction: float = 1e-3,
+    sources: Mapping[str, Any] | None = None,
+    hydrodynamic: EnergyLimitedEscape | None = None,
+    thresholds: Any = None,
+    tail_depletion: Any = 1.0,
+    isotope_ratios: Sequence[tuple[str, str]] | None = None,
+    max_steps: int = 100_000,
+    exobase_temperature: Any = None,
+    limit_by_diffusion: bool = True,
+    stepper: str = "auto",
+    given_losses: Mapping[str, Any] | None = None,
+) -> tuple[Any, list[Any], list[float]]:
+    """The core EvolutionConfig of :func:`evolve`'s arguments (checked), with the species
+    objects and the initial inventories [particles]."""
     from .jeans import _tail
 
     if not isinstance(planet, Planet):
@@ -215,10 +266,6 @@ def evolve(
     if stepper not in ("auto", "dopri5", "rosenbrock4"):
         raise ValueError(f"stepper must be 'auto', 'dopri5' or 'rosenbrock4', got {stepper!r}")
     config.stepper = getattr(_core.StepperKind, stepper)
-    if progress_every is not None:
-        progress_every = whole_number(progress_every, "progress_every", 1, " [steps]")
-    if progress is not None and not callable(progress):
-        raise ValueError(f"progress must be a callable progress(t) or None, got {progress!r}")
     if sources:
         unknown = [_name(k) for k in sources if _name(k) not in names]
         if unknown:
@@ -252,8 +299,7 @@ def evolve(
         config.isotope_ratios = _core.default_isotope_ratios(names)
     else:
         config.isotope_ratios = [(str(a), str(b)) for a, b in isotope_ratios]
-    raw = _core.evolve(config, progress, int(progress_every or 0))
-    return EvolutionResult._from_core(raw, [s.mass for s in species_objects], initial)
+    return config, species_objects, initial
 
 
 def _exobase_model(

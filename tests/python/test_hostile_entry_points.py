@@ -68,6 +68,24 @@ def _evolve(**k: Any) -> Any:
     )
 
 
+def _invert_ratio(**k: Any) -> Any:
+    exobase = exosieve.PrescribedExobase(R_EARTH + 5e5, 1000.0, {"H": 1e11, "D": 1.5e7})
+    return exosieve.invert_ratio(
+        exosieve.Planet(M_EARTH, R_EARTH),
+        exobase,
+        {"H": 1e38, "D": 1.5e34},
+        (0.0, GYR),
+        ratio="D/H",
+        **k,
+    )
+
+
+def _invert_case(**k: Any) -> Any:
+    if not TABLE:
+        raise RuntimeError("the table fixture did not run")
+    return exosieve.invert_case(TABLE[0], "P0", ratio="He/H", **k)
+
+
 def _compare(path_holder: list[Any]) -> Callable[..., Any]:
     def run(**k: Any) -> Any:
         if not path_holder:
@@ -228,6 +246,39 @@ ENTRIES: dict[str, Entry] = {
         None,
     ),
     "Comparison.summarize": (_summarize, {"retain": 0.5}, None),
+    "invert_ratio": (
+        _invert_ratio,
+        {
+            "measured": 2e-4,
+            "sigma": 1e-5,
+            "inventory_min": 1e30,
+            "inventory_max": 1e45,
+            "search_factor": 1e10,
+            "tolerance": 1e-9,
+            "max_runs": 200,
+            "samples": 2,
+            "seed": 1,
+            "threads": 1,
+            "progress_every": 1,
+            "rtol": 1e-8,
+        },
+        None,
+    ),
+    "invert_ratio(lnsigma)": (_invert_ratio, {"measured": 2e-4, "lnsigma": 0.1}, None),
+    "invert_case": (
+        _invert_case,
+        {
+            "measured": 1e3,
+            "samples": 1,
+            "seed": 1,
+            "t_start": 1e15,
+            "t_end": GYR,
+            "rtol": 1e-6,
+            "max_steps": 10_000,
+            "depletion_fraction": 1e-3,
+        },
+        None,
+    ),
 }
 
 
@@ -240,6 +291,12 @@ OPTIONAL = {
     ("Thermosphere(outer_radius, shape, homopause_temperature)", "outer_radius"),
     ("Comparison.summarize", "retain"),
     ("evolve", "progress_every"),
+    ("invert_ratio", "sigma"),
+    ("invert_ratio", "inventory_min"),
+    ("invert_ratio", "inventory_max"),
+    ("invert_ratio", "threads"),
+    ("invert_ratio", "progress_every"),
+    ("invert_ratio(lnsigma)", "lnsigma"),
 }
 
 

@@ -159,6 +159,26 @@ ENTRIES: dict[str, Entry] = {
         },
         None,
     ),
+    "ocean_depth_to_water": (
+        exosieve.ocean_depth_to_water,
+        {"depth": 2700.0, "radius": R_EARTH, "density": 1000.0},
+        NONE,
+    ),
+    "water_to_ocean_depth": (
+        exosieve.water_to_ocean_depth,
+        {"molecules": 4.6e46, "radius": R_EARTH, "density": 1000.0},
+        NONE,
+    ),
+    "ocean_depth_to_hydrogen": (
+        exosieve.ocean_depth_to_hydrogen,
+        {"depth": 2700.0, "radius": R_EARTH, "density": 1000.0},
+        NONE,
+    ),
+    "hydrogen_to_ocean_depth": (
+        exosieve.hydrogen_to_ocean_depth,
+        {"atoms": 9.2e46, "radius": R_EARTH, "density": 1000.0},
+        NONE,
+    ),
 }
 
 
