@@ -191,6 +191,7 @@ def evolve(
         limit_by_diffusion=limit_by_diffusion,
         stepper=stepper,
         given_losses=given_losses,
+        envelope=envelope,
     )
     raw = _core.evolve(config, progress, int(progress_every or 0))
     return EvolutionResult._from_core(raw, [s.mass for s in species_objects], initial)
@@ -216,6 +217,7 @@ def _build_config(
     limit_by_diffusion: bool = True,
     stepper: str = "auto",
     given_losses: Mapping[str, Any] | None = None,
+    envelope: Envelope | None = None,
 ) -> tuple[Any, list[Any], list[float]]:
     """The core EvolutionConfig of :func:`evolve`'s arguments (checked), with the species
     objects and the initial inventories [particles]."""
