@@ -125,14 +125,20 @@ def flat_for_kernel(array: NDArray[np.float64], shape: tuple[int, ...]) -> NDArr
 
 
 def apply(
-    kernel: Callable[..., NDArray[np.float64]], args: list[tuple[str, Any, str]], *extra: Any
+    kernel: Callable[..., NDArray[np.float64]],
+    args: list[tuple[str, Any, str]],
+    *extra: Any,
+    species_argument: str | None = "mass",
 ) -> FloatOrArray:
     """Call ``kernel(count, *flat_args, *extra)`` with numpy broadcasting of ``args``.
 
     ``args`` holds ``(name, value, unit)``; returns a float for all-scalar input. A species
-    name is taken only for the argument called ``mass``.
+    name is taken only for the argument called ``species_argument`` (None: for none).
     """
-    arrays = [to_si(value, name, unit, species_names=name == "mass") for name, value, unit in args]
+    arrays = [
+        to_si(value, name, unit, species_names=name == species_argument)
+        for name, value, unit in args
+    ]
     try:
         shape = np.broadcast_shapes(*(a.shape for a in arrays))
     except ValueError as err:
