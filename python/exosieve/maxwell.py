@@ -10,11 +10,15 @@ from __future__ import annotations
 
 from typing import Any
 
+from numpy.typing import DTypeLike
+
 from . import _core
 from ._arrays import FloatOrArray, apply
 
 
-def most_probable_speed(temperature: Any, mass: Any) -> FloatOrArray:
+def most_probable_speed(
+    temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Most probable speed ``v0 = sqrt(2 k T / m)`` [m s^-1].
 
     Parameters
@@ -30,11 +34,16 @@ def most_probable_speed(temperature: Any, mass: Any) -> FloatOrArray:
     4062
     """
     return apply(
-        _core.most_probable_speed, [("temperature", temperature, "K"), ("mass", mass, "kg")]
+        _core.most_probable_speed,
+        [("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
     )
 
 
-def mean_speed(temperature: Any, mass: Any) -> FloatOrArray:
+def mean_speed(
+    temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Mean speed ``2 v0 / sqrt(pi)`` [m s^-1]; arguments as :func:`most_probable_speed`.
 
     Examples
@@ -42,10 +51,17 @@ def mean_speed(temperature: Any, mass: Any) -> FloatOrArray:
     >>> round(mean_speed(300.0, "N2"))
     476
     """
-    return apply(_core.mean_speed, [("temperature", temperature, "K"), ("mass", mass, "kg")])
+    return apply(
+        _core.mean_speed,
+        [("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
+    )
 
 
-def rms_speed(temperature: Any, mass: Any) -> FloatOrArray:
+def rms_speed(
+    temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Root-mean-square speed ``sqrt(3/2) v0`` [m s^-1]; arguments as :func:`most_probable_speed`.
 
     Examples
@@ -53,10 +69,17 @@ def rms_speed(temperature: Any, mass: Any) -> FloatOrArray:
     >>> round(rms_speed(300.0, "N2"))
     517
     """
-    return apply(_core.rms_speed, [("temperature", temperature, "K"), ("mass", mass, "kg")])
+    return apply(
+        _core.rms_speed,
+        [("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
+    )
 
 
-def speed_pdf(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
+def speed_pdf(
+    speed: Any, temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Probability density of the particle speed [s m^-1].
 
     Parameters
@@ -78,10 +101,14 @@ def speed_pdf(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
     return apply(
         _core.speed_pdf,
         [("speed", speed, "m/s"), ("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
     )
 
 
-def fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
+def fraction_faster(
+    speed: Any, temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Fraction of particles faster than ``speed`` [1]; no cancellation in the deep tail.
 
     Arguments as :func:`speed_pdf`.
@@ -94,10 +121,14 @@ def fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
     return apply(
         _core.fraction_faster,
         [("speed", speed, "m/s"), ("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
     )
 
 
-def log_fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
+def log_fraction_faster(
+    speed: Any, temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Natural log of :func:`fraction_faster`; finite where the fraction underflows to 0.
 
     Examples
@@ -108,4 +139,6 @@ def log_fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray
     return apply(
         _core.log_fraction_faster,
         [("speed", speed, "m/s"), ("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
     )

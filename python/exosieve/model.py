@@ -12,7 +12,7 @@ from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
+from numpy.typing import ArrayLike, DTypeLike, NDArray
 
 from . import _core
 from ._arrays import FloatOrArray, apply, to_si
@@ -788,7 +788,13 @@ def classify_regime(jeans_parameter: Any, thresholds: Any = None) -> Any:
 
 
 def roche_lobe_ratio(
-    planet_mass: Any, star_mass: Any, semi_major_axis: Any, radius: Any
+    planet_mass: Any,
+    star_mass: Any,
+    semi_major_axis: Any,
+    radius: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """``xi = a (M_p / (3 M_star))^(1/3) / R_p`` [1] (Erkaev et al. 2007).
 
@@ -818,6 +824,8 @@ def roche_lobe_ratio(
             ("radius", radius, "m"),
         ],
         species_argument=None,
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -839,6 +847,9 @@ def energy_limited_mass_loss(
     xuv_flux: Any,
     planet_mass: Any,
     roche_factor: Any = 1.0,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Energy-limited mass-loss rate ``eta pi R_p R_xuv^2 F_xuv / (G M_p K)`` [kg s^-1]
     (Watson et al. 1981; Erkaev et al. 2007).
@@ -877,6 +888,8 @@ def energy_limited_mass_loss(
             ("roche_factor", roche_factor, "1"),
         ],
         species_argument=None,
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -887,6 +900,9 @@ def crossover_mass(
     diffusion_parameter: Any,
     gravity: Any,
     light_mole_fraction: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Crossover mass ``m_1 + k T F_1 / (b g x_1)`` [kg] (Hunten, Pepin & Walker 1987).
 
@@ -924,6 +940,8 @@ def crossover_mass(
             ("light_mole_fraction", light_mole_fraction, "1"),
         ],
         species_argument=None,
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -934,6 +952,9 @@ def dragged_flux(
     light_flux: Any,
     light_mole_fraction: Any,
     crossover_mass: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Flux of a species dragged by the light one [m^-2 s^-1] (Hunten, Pepin & Walker 1987):
     ``(x_i/x_1) F_1 (m_c - m_i)/(m_c - m_1)`` below the crossover mass, else 0.
@@ -966,6 +987,8 @@ def dragged_flux(
             ("crossover_mass", crossover_mass, "kg"),
         ],
         species_argument=None,
+        out=out,
+        dtype=dtype,
     )
 
 
