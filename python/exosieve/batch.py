@@ -14,9 +14,11 @@ Carlo draws depend only on (seed, row, sample), so results are the same for any 
 threads or workers.
 
 Result files (DESIGN section 5): dimensions ``case`` (appendable; the coordinate holds the
+case names, so that xarray selects with ``.sel(case="name")``; the variable ``row`` holds the
 table row), ``species``, ``time`` (stellar age [s]) and ``sample``; every variable has
-``units`` and ``long_name``; the global attribute ``config`` holds the table's fingerprint and
-every option as JSON.
+``units`` and ``long_name``, ``regime_start`` has CF's ``flag_values``/``flag_meanings``; the
+global attribute ``config`` holds the table's fingerprint and every option as JSON, and
+``Conventions`` is ``"exosieve-1"`` (see the README: CF's attributes, not CF itself).
 
 Examples
 --------
@@ -63,7 +65,6 @@ __all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
 
 # Case variables of a result file: name, dtype, dimensions after `case`, units, long name.
 _VARIABLES: list[tuple[str, type, list[str], str, str]] = [
-    ("case_name", str, [], "1", "planet case"),
     ("error", str, [], "1", "why the row is invalid or its nominal run failed (empty: it ran)"),
     ("steps", int, [], "1", "accepted integration steps of the nominal run"),
     ("planet_mass", float, [], "kg", "planet mass"),
@@ -143,6 +144,11 @@ _SAMPLE_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
     ("sample_error", str, [], "1", "error of the lowest-numbered failed sample"),
 ]
 
+# CF flags of the code variables: values (of the variable's type) and one word per value.
+_FLAGS: dict[str, tuple[list[int], str]] = {
+    "regime_start": ([-1, 0, 1, 2, 3], " ".join(["none", *REGIMES])),
+}
+
 _UNITS = {
     "final_retained_fraction": "1",
     "depletion_time": "s",
@@ -210,8 +216,8 @@ class Comparison:
         return {name: (["case", *dims], units, text) for name, _, dims, units, text in spec}
 
     def __getitem__(self, name: str) -> NDArray[Any]:
-        if name == "case":
-            return self._load("case")
+        if name in ("case", "row"):
+            return self._load(name)
         if name not in self.variables:
             raise ValueError(f"no variable '{name}' (have {', '.join(self.variables)})")
         return self._load(name)
@@ -226,12 +232,12 @@ class Comparison:
     def __len__(self) -> int:
         if self._rows is not None:
             return self._rows
-        return len(self._data["case"])
+        return len(self._data["row"])
 
     @property
     def cases(self) -> list[str]:
-        """Case labels, in table order."""
-        return [str(x) for x in self["case_name"]]
+        """Case names (the ``case`` coordinate), in table order."""
+        return [str(x) for x in self["case"]]
 
     @property
     def total_cases(self) -> int:
@@ -264,8 +270,8 @@ class Comparison:
         keep = (error != "") | (failed > 0)
         return pd.DataFrame(
             {
-                "case": np.asarray(self["case_name"], dtype=object)[keep],
-                "row": self["case"][keep],
+                "case": np.asarray(self["case"], dtype=object)[keep],
+                "row": self["row"][keep],
                 "error": error[keep],
                 "samples_failed": failed[keep],
                 "sample_error": sample_error[keep],
@@ -340,8 +346,8 @@ class Comparison:
         regime = self["regime_start"][ci, sj] if s else np.full(len(ci), -1)
         names = np.array(["", *REGIMES], dtype=object)
         columns: dict[str, Any] = {
-            "case": np.asarray(self["case_name"], dtype=object)[ci],
-            "row": self["case"][ci],
+            "case": np.asarray(self["case"], dtype=object)[ci],
+            "row": self["row"][ci],
             "species": np.where(valid, np.array(self.species + [""], dtype=object)[si], ""),
             "final_retained_fraction": final,
             "retained": final > retain,
@@ -379,11 +385,57 @@ class Comparison:
         out = _create_file(path, self.config, self.species, self.times, self.samples)
         try:
             if len(self):
-                names = ["case"] + list(self.variables)
+                names = ["case", "row", *self.variables]
                 out.append({name: self[name] for name in names})
         finally:
             out.close()
         return path
+
+    def to_xarray(self) -> Any:
+        """The comparison as an ``xarray.Dataset`` laid out as its result file opens in xarray:
+        dimensions ``case`` (coordinate: the case names, so ``.sel(case="name")`` picks a
+        case), ``species``, ``time`` [s] and ``sample``; ``units`` and ``long_name`` on every
+        variable, ``flag_values``/``flag_meanings`` on ``regime_start``; the attributes
+        ``Conventions``, ``exosieve_version`` and ``config`` (JSON)."""
+        import xarray as xr
+
+        coords: dict[str, Any] = {
+            "case": (
+                "case",
+                np.asarray(self["case"], dtype=object),
+                {"units": "1", "long_name": "planet case (the table's case column)"},
+            ),
+            "species": (
+                "species",
+                np.array(self.species, dtype=object),
+                {"units": "1", "long_name": "species"},
+            ),
+            "time": ("time", self.times, {"units": "s", "long_name": "stellar age"}),
+        }
+        if self.samples:
+            coords["sample"] = (
+                "sample",
+                np.arange(self.samples, dtype=np.int64),
+                {"units": "1", "long_name": "Monte Carlo sample"},
+            )
+        data: dict[str, Any] = {
+            "row": ("case", self["row"], {"units": "1", "long_name": "row of the case table"})
+        }
+        for name, (dims, units, long_name) in self.variables.items():
+            attrs: dict[str, Any] = {"units": units, "long_name": long_name}
+            if name in _FLAGS:
+                values, meanings = _FLAGS[name]
+                attrs.update(flag_values=np.array(values, np.int64), flag_meanings=meanings)
+            data[name] = (dims, self[name], attrs)
+        return xr.Dataset(
+            data,
+            coords=coords,
+            attrs={
+                "Conventions": _core.RESULT_FILE_CONVENTIONS,
+                "exosieve_version": str(self.config.get("version", _core.__version__)),
+                "config": json.dumps(self.config, sort_keys=True),
+            },
+        )
 
     def __repr__(self) -> str:
         where = f", path={str(self.path)!r}" if self.path else ""
@@ -428,6 +480,7 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
         config = {}
     if config.get("kind") != "exosieve.compare":
         raise ValueError(f"{path} is not a comparison file written by exosieve.compare")
+    _require_layout(path)
     rows = int(read_int_attribute(path, "", "completed"))
     species = [str(name) for name in read_strings(path, "species")]
     times = np.asarray(read_doubles(path, "time"))
@@ -437,11 +490,28 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
     return Comparison(None, species, times, samples, config, path=path, rows=rows)
 
 
+def _require_layout(path: Path) -> None:
+    """Refuse a sweep file of an earlier layout (before ``Conventions``, whose ``case``
+    coordinate held row numbers), naming what to do."""
+    from .results import read_attribute
+
+    try:
+        layout = read_attribute(path, "", "Conventions")
+    except (OSError, ValueError):
+        layout = "none"
+    if layout != _core.RESULT_FILE_CONVENTIONS:
+        raise ValueError(
+            f"{path} is a sweep file of an earlier layout (Conventions {layout!r}, not "
+            f"{_core.RESULT_FILE_CONVENTIONS!r}); run the sweep again (with overwrite to "
+            "replace it)"
+        )
+
+
 def _read_variable(path: Path, name: str, rows: int, checked: bool = True) -> NDArray[Any]:
     """The first ``rows`` rows of ``name``; with ``checked``, refused if out of range."""
     from .results import read_doubles, read_int64s, read_strings
 
-    kind = "int" if name == "case" else None
+    kind = {"case": "str", "row": "int"}.get(name)
     for variable, dtype, *_ in _VARIABLES + _SAMPLE_VARIABLES:
         if variable == name:
             kind = {str: "str", int: "int", float: "float"}[dtype]
@@ -528,7 +598,7 @@ def _check_values(
             f"{path} is damaged: dataset '{name}' has shape {values.shape}, expected "
             f"({rows} or more, {', '.join(map(str, shape))})"
         )
-    if name == "case":
+    if name == "row":
         bad = values[:rows] != np.arange(rows)
     elif name in _RANGES:
         low, high = _RANGES[name]
@@ -537,7 +607,7 @@ def _check_values(
         return
     if bad.any():
         where = tuple(int(i) for i in np.argwhere(bad)[0])
-        allowed = "the row numbers" if name == "case" else "[{}, {}]".format(*_RANGES[name])
+        allowed = "the row numbers" if name == "row" else "[{}, {}]".format(*_RANGES[name])
         value = values[:rows][where].item()
         raise _damaged(
             f"{path} is damaged: dataset '{name}' holds {value!r} at {where}, "
@@ -554,7 +624,8 @@ def check_ranges(
     if times is None:
         times = len(read_doubles(path, "time"))
     sizes = {"species": species, "time": times, "sample": samples}
-    _check_values(path, "case", _read_variable(path, "case", rows, checked=False), rows, ())
+    _check_values(path, "row", _read_variable(path, "row", rows, checked=False), rows, ())
+    _read_variable(path, "case", rows)  # the labels: their string heaps are checked
     for name, _, dims, *_ in _VARIABLES + (_SAMPLE_VARIABLES if samples else []):
         values = _read_variable(path, name, rows, checked=False)
         _check_values(path, name, values, rows, tuple(sizes[d] for d in dims))
@@ -573,6 +644,8 @@ def _create_file(
     from .results import ResultAppender, ResultWriter
 
     schema = ResultWriter(path, config)
+    schema.set_attribute("Conventions", _core.RESULT_FILE_CONVENTIONS)
+    schema.label_cases(long_name="planet case (the table's case column)")
     schema.add_coordinate("species", list(species), long_name="species")
     schema.add_coordinate(
         "time", np.asarray(times, dtype=float), units="s", long_name="stellar age"
@@ -585,7 +658,10 @@ def _create_file(
         variables += _SAMPLE_VARIABLES
     for name, dtype, dims, units, long_name in variables:
         schema.add_case_variable(name, dtype, dims, units=units, long_name=long_name)
-    schema.set_attribute("long_name", "row of the case table", dataset="case")
+    schema.set_attribute("long_name", "row of the case table", dataset="row")
+    for name, (values, meanings) in _FLAGS.items():
+        schema.set_attribute("flag_values", values, dataset=name)
+        schema.set_attribute("flag_meanings", meanings, dataset=name)
     return ResultAppender(schema)
 
 
@@ -735,7 +811,7 @@ class _MemorySink:
 
     def append(self, chunk: dict[str, Any]) -> None:
         self.chunks.append(chunk)
-        self.completed += len(chunk["case"])
+        self.completed += len(chunk["row"])
 
     @property
     def target(self) -> Any:
@@ -748,7 +824,9 @@ class _MemorySink:
     def result(
         self, species: list[str], times: Any, samples: int, config: dict[str, Any]
     ) -> Comparison:
-        names = ["case"] + [v[0] for v in _VARIABLES + (_SAMPLE_VARIABLES if samples else [])]
+        names = ["case", "row"] + [
+            v[0] for v in _VARIABLES + (_SAMPLE_VARIABLES if samples else [])
+        ]
         data: dict[str, Any] = {}
         for name in names:
             parts = [chunk[name] for chunk in self.chunks]
@@ -760,8 +838,8 @@ class _MemorySink:
 
 
 def _empty(name: str, s: int, t: int, n: int) -> NDArray[Any]:
-    if name == "case":
-        return np.zeros(0, dtype=np.int64)
+    if name in ("case", "row"):
+        return np.zeros(0, dtype=object if name == "case" else np.int64)
     for variable, dtype, dims, *_ in _VARIABLES + _SAMPLE_VARIABLES:
         if variable == name:
             shape = (0, *[{"species": s, "time": t, "sample": n}[d] for d in dims])
@@ -790,6 +868,7 @@ class _FileSink:
         existing = _existing_output(path)
         if existing is not None and not overwrite and existing[1] > 0:
             old, rows = existing
+            _require_layout(path)
             if _run_key(old) != _run_key(config):
                 what = (
                     "of another case table"
@@ -1212,7 +1291,7 @@ def _run_distributed(
             while next_row in finished:
                 block = finished.pop(next_row)
                 sink.append(block)
-                next_row += len(block["case"])
+                next_row += len(block["row"])
                 written += 1
                 if not every or written % every == 0:
                     bar.update(next_row)

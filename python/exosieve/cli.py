@@ -107,7 +107,7 @@ def _print_hydrodynamic(result: Any, limit: int = 10) -> None:
     flagged = np.nonzero(np.asarray(result["hydrodynamic_unmodelled"]) == 1)[0]
     if not len(flagged):
         return
-    names, rows = result["case_name"], result["case"]
+    names, rows = result["case"], result["row"]
     lam = result["bulk_jeans_parameter_start"]
     print(
         f"{len(flagged)} case{'s start' if len(flagged) > 1 else ' starts'} with the bulk gas "

@@ -29,7 +29,7 @@ def test_demo_writes_table_file_and_chart(tmp_path, capsys):
     assert chart.stat().st_size > 10_000
     table = read_case_table(demo_catalogue_path())
     with xr.open_dataset(out, engine="h5netcdf") as ds:
-        assert list(ds.case_name.values) == table.names
+        assert list(ds.case.values) == table.names
         assert ds.sizes["sample"] == 10
         for name in ds.data_vars:
             assert "units" in ds[name].attrs and ds[name].attrs["long_name"], name
