@@ -4,6 +4,8 @@ files that say which conventions they follow and that xarray, h5py and pandas re
 
 from __future__ import annotations
 
+import json
+
 import numpy as np
 import pytest
 
@@ -226,3 +228,196 @@ def test_dask_arrays_stay_lazy_and_compute_to_the_numpy_result():
         bad.compute()
     with pytest.raises(ValueError, match="with dask arguments, assign the returned result"):
         exosieve.most_probable_speed(lazy, "H", out=np.zeros(10))
+
+
+# --- result files: Conventions, CF attributes, case names as the case coordinate ---------------
+
+SWEEP_HEADER = (
+    "case,planet_mass [M_earth],planet_mass_sigma [M_earth],planet_radius [R_earth],"
+    "exobase_altitude [km],exobase_density [m-3],exobase_temperature [K],inventory [particles],"
+    "x_N2,x_He,x_H"
+)
+
+
+def _sweep_file(tmp_path, samples=3):
+    """A sweep of four invented Earth-like planets (one name used twice) and its result."""
+    rows = [
+        "Vesk b,1.0,0.1,1.0,500,1e13,900,1e37,0.7,0.25,0.05",
+        "Vesk c,0.6,0.05,0.9,500,1e13,1500,1e37,0.7,0.25,0.05",
+        "Ondra,2.0,0.2,1.3,500,1e13,1200,1e37,0.7,0.25,0.05",
+        "Ondra,0.8,0.1,1.0,500,1e13,2500,1e37,0.7,0.25,0.05",
+    ]
+    cases = tmp_path / "cases.csv"
+    cases.write_text("\n".join([SWEEP_HEADER, *rows]) + "\n")
+    out = tmp_path / "sweep.h5"
+    result = exosieve.compare(
+        cases, output=out, samples=samples, threads=1, t_start=1e15, t_end=1e17, times=4
+    )
+    return out, result
+
+
+def _evolution_file(tmp_path):
+    planet = exosieve.Planet(M_EARTH, R_EARTH)  # invented: an Earth-sized planet
+    exobase = exosieve.PrescribedExobase(R_EARTH + 5e5, 1500.0, {"H": 1e11, "O": 1e13})
+    run = exosieve.evolve(planet, exobase, {"H": 1e35, "O": 1e40}, (1e15, 1e17))
+    path = tmp_path / "run.h5"
+    run.to_hdf5(path)
+    return path, run
+
+
+CF_MEANING = r"^[A-Za-z0-9_.+@-]+( [A-Za-z0-9_.+@-]+)*$"  # CF 1.8 section 3.5 characters
+
+
+def _check_flags(variable, expected_meanings):
+    # CF 1.8 conformance, 3.5 Flags: flag_values of the variable's type, as many blank-separated
+    # words in flag_meanings, mutually exclusive values.
+    import re
+
+    values, meanings = variable.attrs["flag_values"], variable.attrs["flag_meanings"]
+    meanings = meanings.decode() if isinstance(meanings, bytes) else meanings
+    assert isinstance(values, np.ndarray) and values.dtype == variable.dtype, values
+    assert re.match(CF_MEANING, meanings)
+    assert meanings.split() == expected_meanings
+    assert len(set(values.tolist())) == len(values) == len(expected_meanings)
+    assert set(np.unique(variable[...])) <= set(values.tolist())
+
+
+def test_both_result_files_name_their_conventions_and_flag_their_regimes(tmp_path):
+    h5py = pytest.importorskip("h5py")
+    sweep, _ = _sweep_file(tmp_path)
+    run, _ = _evolution_file(tmp_path)
+    with h5py.File(sweep, "r", locking=False) as f, h5py.File(run, "r", locking=False) as g:
+        for file in (f, g):
+            # text attributes are fixed-length UTF-8 strings, which h5py gives as bytes
+            assert file.attrs["Conventions"].decode() == "exosieve-1"
+        assert exosieve._core.RESULT_FILE_CONVENTIONS == "exosieve-1"
+        _check_flags(g["regime"], list(exosieve.REGIMES))
+        _check_flags(f["regime_start"], ["none", *exosieve.REGIMES])
+        assert g["regime"].attrs["flag_values"].tolist() == [0, 1, 2, 3]
+        assert f["regime_start"].attrs["flag_values"].tolist() == [-1, 0, 1, 2, 3]
+
+
+def _every_dataset(file):
+    return {name: file[name] for name in file if hasattr(file[name], "dtype")}
+
+
+def test_every_unit_string_of_both_files_is_one_udunits_reads(tmp_path):
+    # CF 3.1: units must be recognisable by UDUNITS. The reference: cf-units, the UDUNITS-2
+    # library's Python interface (test extra).
+    h5py = pytest.importorskip("h5py")
+    cf_units = pytest.importorskip("cf_units")
+    sweep, _ = _sweep_file(tmp_path)
+    run, _ = _evolution_file(tmp_path)
+    seen = set()
+    for path in (sweep, run):
+        with h5py.File(path, "r", locking=False) as f:
+            for name, dataset in _every_dataset(f).items():
+                units = dataset.attrs["units"]
+                units = units.decode() if isinstance(units, bytes) else units
+                assert cf_units.Unit(units).is_udunits(), (path.name, name, units)
+                assert dataset.attrs["long_name"], (path.name, name)
+                seen.add(units)
+    assert {"1", "kg", "m", "s", "K", "m s-1", "s-1", "W m-2"} <= seen
+    with pytest.raises(ValueError):  # the check can fail: a word UDUNITS does not know
+        cf_units.Unit("particles")
+
+
+def test_dimension_scales_and_what_is_not_cf(tmp_path):
+    h5py = pytest.importorskip("h5py")
+    sweep, _ = _sweep_file(tmp_path)
+    with h5py.File(sweep, "r", locking=False) as f:
+        for coordinate in ("case", "species", "time", "sample"):
+            assert f[coordinate].is_scale, coordinate
+        for name, dataset in _every_dataset(f).items():
+            if not dataset.is_scale:
+                assert dataset.dims[0][0].name == "/case", name  # every variable runs by case
+        # Numeric coordinates are strictly monotonic, as CF asks of coordinate variables.
+        assert np.all(np.diff(f["time"][...]) > 0) and np.all(np.diff(f["sample"][...]) > 0)
+        # The departure from CF the README names: string-valued coordinate variables.
+        assert h5py.check_string_dtype(f["species"].dtype) is not None
+        assert h5py.check_string_dtype(f["case"].dtype) is not None
+
+
+def test_cases_are_selected_by_name_in_xarray(tmp_path):
+    xr = pytest.importorskip("xarray")
+    out, result = _sweep_file(tmp_path)
+    with xr.open_dataset(out, engine="h5netcdf", driver_kwds={"locking": False}) as ds:
+        assert list(ds.case.values) == ["Vesk b", "Vesk c", "Ondra", "Ondra"]
+        one = ds.sel(case="Vesk c")
+        assert int(one.row) == 1
+        left = one.final_retained_fraction.sel(species="He").item()
+        assert (
+            left
+            == result.summary.set_index(["case", "species"]).loc[("Vesk c", "He")][
+                "final_retained_fraction"
+            ]
+        )
+        twice = ds.sel(case="Ondra")  # a repeated name selects every row that has it
+        assert twice.sizes["case"] == 2 and twice.row.values.tolist() == [2, 3]
+        assert ds.regime_start.attrs["flag_meanings"].split()[0] == "none"
+
+
+def test_to_xarray_is_the_file_as_xarray_opens_it(tmp_path):
+    xr = pytest.importorskip("xarray")
+    out, result = _sweep_file(tmp_path)
+    for comparison in (result, exosieve.open_comparison(out)):
+        mine = comparison.to_xarray()
+        with xr.open_dataset(out, engine="h5netcdf", driver_kwds={"locking": False}) as ds:
+            assert set(mine.variables) == set(ds.variables)
+            assert set(mine.coords) == set(ds.coords)
+            for name in ds.variables:
+                a, b = mine[name], ds[name]
+                assert a.dims == b.dims, name
+                if a.dtype.kind == "f":
+                    np.testing.assert_array_equal(a.values, b.values)
+                else:
+                    assert a.values.tolist() == b.values.tolist(), name
+                assert set(a.attrs) == set(b.attrs), name
+                for key in a.attrs:
+                    assert np.array_equal(np.asarray(a.attrs[key]), np.asarray(b.attrs[key])), (
+                        name,
+                        key,
+                    )
+            assert mine.attrs["Conventions"] == ds.attrs["Conventions"]
+            assert json.loads(mine.attrs["config"]) == json.loads(ds.attrs["config"])
+    # In memory too, without any file.
+    memory = exosieve.compare(
+        tmp_path / "cases.csv", samples=0, threads=1, t_start=1e15, t_end=1e17, times=4
+    ).to_xarray()
+    assert memory.sel(case="Vesk b").sizes == {"species": 3, "time": 4}
+    assert "sample" not in memory.dims
+
+
+def test_evolution_to_pandas_carries_units_and_to_xarray_its_flags(tmp_path):
+    xr = pytest.importorskip("xarray")
+    path, run = _evolution_file(tmp_path)
+    frame = run.to_pandas()
+    units = frame.attrs["units"]
+    assert units["time"] == "s" and units["escape_rate"] == "s-1" and units["regime"] == "1"
+    assert set(units) == {"time", *frame.columns.get_level_values("quantity")}
+    with xr.open_dataset(path, engine="h5netcdf") as ds:
+        for quantity in set(units) - {"time"}:
+            assert ds[quantity].attrs["units"] == units[quantity], quantity
+            assert ds[quantity].attrs["long_name"] == frame.attrs["long_names"][quantity]
+        mine = run.to_xarray()
+        for key in ("flag_values", "flag_meanings"):
+            assert np.array_equal(
+                np.asarray(mine.regime.attrs[key]), np.asarray(ds.regime.attrs[key])
+            )
+        assert mine.attrs["Conventions"] == ds.attrs["Conventions"] == "exosieve-1"
+    assert frame["escape_rate"].attrs["units"]["escape_rate"] == "s-1"  # kept by a selection
+
+
+def test_a_sweep_file_of_an_earlier_layout_is_refused_with_what_to_do(tmp_path):
+    h5py = pytest.importorskip("h5py")
+    out, _ = _sweep_file(tmp_path)
+    with h5py.File(out, "r+") as f:
+        del f.attrs["Conventions"]  # as files written before the case names were coordinates
+    with pytest.raises(ValueError, match="earlier layout .*run the sweep again"):
+        exosieve.open_comparison(out)
+    cases = tmp_path / "cases.csv"
+    options = {"samples": 3, "threads": 1, "t_start": 1e15, "t_end": 1e17, "times": 4}
+    with pytest.raises(ValueError, match="earlier layout"):
+        exosieve.compare(cases, output=out, **options)  # would resume it
+    again = exosieve.compare(cases, output=out, overwrite=True, **options)
+    assert again.cases == ["Vesk b", "Vesk c", "Ondra", "Ondra"]
