@@ -1428,8 +1428,8 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     // CF flags: flag_values of the variable's type, one blank-free word per value.
     std::vector<std::int64_t> codes;
     std::string meanings;
-    for (Regime k : {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition,
-                     Regime::Hydrodynamic}) {
+    for (Regime k :
+         {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition, Regime::Hydrodynamic}) {
         codes.push_back(static_cast<std::int64_t>(k));
         meanings += (meanings.empty() ? "" : " ") + std::string(regime_name(k));
     }

@@ -1054,9 +1054,9 @@ struct ResultWriter::Impl {
                                  in_quotes(target) +
                                  "; that name is reserved for the appendable dimension");
         QuietHdf5 quiet;
-        Handle dataset = create_dataset(file.get(), case_dim,
-                                        labelled ? ValueType::string : ValueType::int64, {0},
-                                        true, where());
+        Handle dataset =
+            create_dataset(file.get(), case_dim, labelled ? ValueType::string : ValueType::int64,
+                           {0}, true, where());
         check(H5DSset_scale(dataset.get(), case_dim),
               "make 'case' a dimension scale in " + where());
         describe(dataset.get(), case_dim, "1", labelled ? case_label : "case number");
@@ -1507,10 +1507,9 @@ struct ResultAppender::Impl {
                                 std::to_string(completed));
             discarded = std::max<std::size_t>(discarded, shape[0] - completed);
         }
-        const bool labelled = variables.count(case_dim) != 0 &&
-                              variables[case_dim].type == ValueType::string &&
-                              variables.count(row_variable) != 0 &&
-                              variables[row_variable].type == ValueType::int64;
+        const bool labelled =
+            variables.count(case_dim) != 0 && variables[case_dim].type == ValueType::string &&
+            variables.count(row_variable) != 0 && variables[row_variable].type == ValueType::int64;
         if (!labelled &&
             (variables.count(case_dim) == 0 || variables[case_dim].type != ValueType::int64))
             throw InputError(in_quotes(path) + " is not an appendable result file ('case' is not "

@@ -249,8 +249,8 @@ struct ChunkVariable {
 };
 
 //! The case variables of a chunk besides `case` (the case names) and `row` (the keys), in one
-//! order for every consumer: error, steps, planet_mass, planet_radius, exobase_radius, escape_speed,
-//! age_start, age_end, exobase_temperature_start, mole_fraction, exobase_temperature,
+//! order for every consumer: error, steps, planet_mass, planet_radius, exobase_radius,
+//! escape_speed, age_start, age_end, exobase_temperature_start, mole_fraction, exobase_temperature,
 //! retained_fraction, jeans_parameter, final_retained_fraction, depletion_time,
 //! efolding_time, jeans_parameter_start, jeans_parameter_end, regime_start,
 //! bulk_jeans_parameter_start, hydrodynamic_unmodelled, and with samples
