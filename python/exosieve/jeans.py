@@ -2,7 +2,9 @@
 
 ``lambda = G M m / (k T r) = (v_esc / v0)^2`` and
 ``Phi_J = n v0 / (2 sqrt(pi)) (1 + lambda) exp(-lambda)`` [m^-2 s^-1]. All functions broadcast
-like numpy ufuncs, return a float for scalar input, and release the GIL while they compute.
+their arguments as numpy does, return a float for scalar input, take numpy's keyword-only
+``out=`` and ``dtype=``, give pandas, xarray and dask arguments back in their container (see the
+README), and release the GIL while they compute.
 The flux functions take an optional ``tail_depletion``: a constant factor, a
 ``(jeans_parameters, factors)`` table (linear in lambda, held at the ends), or a
 :class:`TailDepletion`. Factors are at most 1 (a depleted tail); a factor above 1 is an

@@ -2,8 +2,9 @@
 
 With ``v0 = sqrt(2 k T / m)`` the most probable speed and ``x = v / v0`` the speed pdf is
 ``f(v) = 4/sqrt(pi) v^2 / v0^3 exp(-x^2)`` and the fraction faster than ``v`` is
-``erfc(x) + 2/sqrt(pi) x exp(-x^2)``. All functions broadcast like numpy ufuncs and return
-a float for scalar input.
+``erfc(x) + 2/sqrt(pi) x exp(-x^2)``. All functions broadcast their arguments as numpy does,
+return a float for scalar input, take numpy's keyword-only ``out=`` and ``dtype=``, and give
+pandas, xarray and dask arguments back in their container (see the README).
 """
 
 from __future__ import annotations

@@ -829,7 +829,7 @@ def roche_lobe_ratio(
     )
 
 
-def roche_lobe_factor(xi: Any) -> FloatOrArray:
+def roche_lobe_factor(xi: Any, *, out: Any = None, dtype: DTypeLike | None = None) -> FloatOrArray:
     """Roche-lobe factor ``K(xi) = 1 - 3/(2 xi) + 1/(2 xi^3)`` [1] (Erkaev et al. 2007), xi > 1.
 
     Examples
@@ -837,7 +837,13 @@ def roche_lobe_factor(xi: Any) -> FloatOrArray:
     >>> roche_lobe_factor(2.0)
     0.3125
     """
-    return _map(_core.roche_lobe_factor, xi, "xi", "1")
+    return apply(
+        lambda count, x: _core.roche_lobe_factor(x),
+        [("xi", xi, "1")],
+        species_argument=None,
+        out=out,
+        dtype=dtype,
+    )
 
 
 def energy_limited_mass_loss(

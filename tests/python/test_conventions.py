@@ -90,6 +90,9 @@ ARRAY_FUNCTIONS = {
         "H", "N2", x, **k
     ),
     "core_radius": lambda x, **k: exosieve.core_radius(x * 1e22, **k),
+    "roche_lobe_factor": lambda x, **k: exosieve.roche_lobe_factor(x, **k),
+    "lambert_w": lambda x, **k: exosieve.lambert_w(x, **k),
+    "crossover_mass": lambda x, **k: exosieve.crossover_mass(H, x, 1e15, 1e21, 9.8, 0.9, **k),
 }
 
 
