@@ -188,7 +188,7 @@ def test_version_and_python_dash_m():
     ("argv", "status"),
     [
         (["columns"], 128 + signal.SIGPIPE),  # as for a program that SIGPIPE ended
-        (["summary", "no-such.h5"], 2),  # its error goes to stderr as without a pipe
+        (["summary", "no-such.h5"], 2),  # bad input: its error goes to stderr as without a pipe
         (["--version"], 0),  # argparse ignores the failed write of --version and --help
         (["summary", "--help"], 0),
     ],
@@ -209,3 +209,10 @@ def test_a_closed_pipe_ends_the_command_quietly(argv, status):
         assert b"Traceback" not in child.stderr and b"Exception ignored" not in child.stderr
     if argv == ["columns"] or status == 0:
         assert child.stderr == b""
+
+
+def test_a_file_error_exits_with_status_1(tmp_path, capsys):
+    not_hdf5 = tmp_path / "notes.h5"
+    not_hdf5.write_text("not an HDF5 file\n")
+    assert main(["summary", str(not_hdf5)]) == 1
+    assert "exosieve: error: HDF5 could not open" in capsys.readouterr().err

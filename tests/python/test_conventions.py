@@ -126,6 +126,11 @@ def test_out_and_dtype_are_refused_where_numpy_refuses_them():
         f(T, "H", out=np.zeros(2))
     with pytest.raises(ValueError, match="out must be a numpy array, got list"):
         f(T, "H", out=[0.0, 0.0, 0.0])
+    pd = pytest.importorskip("pandas")
+    with pytest.raises(ValueError, match="out must be a numpy array, got Series"):
+        f(T, "H", out=pd.Series(np.zeros(3)))
+    with pytest.raises(ValueError, match="with pandas arguments, assign the returned result"):
+        f(pd.Series(T), "H", out=np.zeros(3))
     readonly = np.zeros(3)
     readonly.flags.writeable = False
     with pytest.raises(ValueError, match="out must be writeable"):
@@ -261,8 +266,8 @@ def _sweep_file(tmp_path, samples=3):
 
 def _evolution_file(tmp_path):
     planet = exosieve.Planet(M_EARTH, R_EARTH)  # invented: an Earth-sized planet
-    exobase = exosieve.PrescribedExobase(R_EARTH + 5e5, 1500.0, {"H": 1e11, "O": 1e13})
-    run = exosieve.evolve(planet, exobase, {"H": 1e35, "O": 1e40}, (1e15, 1e17))
+    exobase = exosieve.PrescribedExobase(R_EARTH + 5e5, 1500.0, {"H": 1e11, "D": 1e7, "O": 1e13})
+    run = exosieve.evolve(planet, exobase, {"H": 1e35, "D": 1e31, "O": 1e40}, (1e15, 1e17))
     path = tmp_path / "run.h5"
     run.to_hdf5(path)
     return path, run
@@ -328,6 +333,14 @@ def test_every_unit_string_of_both_files_is_one_udunits_reads(tmp_path):
 def test_dimension_scales_and_what_is_not_cf(tmp_path):
     h5py = pytest.importorskip("h5py")
     sweep, _ = _sweep_file(tmp_path)
+    run, _ = _evolution_file(tmp_path)
+    with h5py.File(run, "r") as g:
+        for coordinate in ("time", "species", "ratio"):
+            assert g[coordinate].is_scale, coordinate
+        assert h5py.check_string_dtype(g["ratio"].dtype) is not None
+        assert [r.decode() for r in g["ratio"][...]] == ["D/H"]
+        assert np.all(np.diff(g["time"][...]) > 0)
+        assert g["time"].attrs["units"].decode() == "s"  # an age: no "since <date>"
     with h5py.File(sweep, "r", locking=False) as f:
         for coordinate in ("case", "species", "time", "sample"):
             assert f[coordinate].is_scale, coordinate
@@ -408,7 +421,14 @@ def test_evolution_to_pandas_carries_units_and_to_xarray_its_flags(tmp_path):
                 np.asarray(mine.regime.attrs[key]), np.asarray(ds.regime.attrs[key])
             )
         assert mine.attrs["Conventions"] == ds.attrs["Conventions"] == "exosieve-1"
-    assert frame["escape_rate"].attrs["units"]["escape_rate"] == "s-1"  # kept by a selection
+    pd = pytest.importorskip("pandas")
+    # pandas keeps attrs through a selection and arithmetic, and drops them where frames with
+    # different attrs are combined.
+    assert frame["escape_rate"].attrs["units"]["escape_rate"] == "s-1"
+    assert (2 * frame).attrs["units"] == units
+    other = frame.copy()
+    other.attrs = {}
+    assert pd.concat([frame, other]).attrs == {}
 
 
 def test_a_sweep_file_of_an_earlier_layout_is_refused_with_what_to_do(tmp_path):
