@@ -145,8 +145,14 @@ def _module(name: str) -> Any:
     return sys.modules.get(name)
 
 
+# Types that are never a container: most calls have only these and skip the look-ups.
+_PLAIN = (float, int, str, np.ndarray, np.float64, list, tuple)
+
+
 def _kind_of(values: list[Any]) -> str:
     """Which container the arguments come in: "xarray", "dask", "pandas" or "numpy"."""
+    if all(type(v) in _PLAIN for v in values):
+        return "numpy"
     xr, da, pd = _module("xarray"), _module("dask.array"), _module("pandas")
     if xr is not None and any(isinstance(v, xr.DataArray) for v in values):
         return "xarray"
