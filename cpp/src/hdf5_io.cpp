@@ -1073,6 +1073,31 @@ struct ResultWriter::Impl {
         }
     }
 
+    // Check that attribute `name` may be set on `dataset` ("" or "/": the file), then
+    // write(object, where) on it.
+    template <class Write>
+    void set_attribute_on(const std::string& dataset, const std::string& name, Write write) {
+        check_object_name("attribute", name);
+        const bool root = dataset.empty() || dataset == "/";
+        static const std::set<std::string> reserved = {"CLASS", "NAME", "REFERENCE_LIST",
+                                                       "DIMENSION_LIST"};
+        if (reserved.count(name) != 0 ||
+            (root && (name == completed_attr || name == tail_check_attr)))
+            throw InputError("attribute name " + in_quotes(name) +
+                             " is reserved for the file layout");
+        if (!root && datasets.count(dataset) == 0)
+            throw InputError("cannot set attribute " + in_quotes(name) + ": no dataset " +
+                             in_quotes(dataset) + " in " + in_quotes(target));
+        QuietHdf5 quiet;
+        if (root) {
+            write(file.get(), where());
+            return;
+        }
+        Handle object = checked(H5Dopen2(file.get(), dataset.c_str(), H5P_DEFAULT), H5Dclose,
+                                "open dataset " + in_quotes(dataset) + " in " + where());
+        write(object.get(), "dataset " + in_quotes(dataset));
+    }
+
     std::string case_label; // long name of text case labels (label_cases)
 };
 
@@ -1237,26 +1262,11 @@ void ResultWriter::set_attribute(const std::string& name, const std::string& val
 
 void ResultWriter::set_attribute(const std::string& dataset, const std::string& name,
                                  const std::vector<std::int64_t>& values) {
-    Impl& w = live();
-    check_object_name("attribute", name);
-    const bool root = dataset.empty() || dataset == "/";
-    static const std::set<std::string> reserved = {"CLASS", "NAME", "REFERENCE_LIST",
-                                                   "DIMENSION_LIST"};
-    if (reserved.count(name) != 0 || (root && (name == completed_attr || name == tail_check_attr)))
-        throw InputError("attribute name " + in_quotes(name) + " is reserved for the file layout");
     if (values.empty())
         throw InputError("attribute " + in_quotes(name) + " needs at least one value");
-    if (!root && w.datasets.count(dataset) == 0)
-        throw InputError("cannot set attribute " + in_quotes(name) + ": no dataset " +
-                         in_quotes(dataset) + " in " + in_quotes(w.target));
-    QuietHdf5 quiet;
-    if (root) {
-        write_int_array_attribute(w.file.get(), name, values, w.where());
-    } else {
-        Handle object = checked(H5Dopen2(w.file.get(), dataset.c_str(), H5P_DEFAULT), H5Dclose,
-                                "open dataset " + in_quotes(dataset) + " in " + w.where());
-        write_int_array_attribute(object.get(), name, values, "dataset " + in_quotes(dataset));
-    }
+    live().set_attribute_on(dataset, name, [&](hid_t object, const std::string& where) {
+        write_int_array_attribute(object, name, values, where);
+    });
 }
 
 void ResultWriter::set_attribute(const std::string& dataset, const std::string& name,
@@ -1264,22 +1274,9 @@ void ResultWriter::set_attribute(const std::string& dataset, const std::string& 
     Impl& w = live();
     check_object_name("attribute", name);
     check_text("attribute " + in_quotes(name), value);
-    const bool root = dataset.empty() || dataset == "/";
-    static const std::set<std::string> reserved = {"CLASS", "NAME", "REFERENCE_LIST",
-                                                   "DIMENSION_LIST"};
-    if (reserved.count(name) != 0 || (root && (name == completed_attr || name == tail_check_attr)))
-        throw InputError("attribute name " + in_quotes(name) + " is reserved for the file layout");
-    if (!root && w.datasets.count(dataset) == 0)
-        throw InputError("cannot set attribute " + in_quotes(name) + ": no dataset " +
-                         in_quotes(dataset) + " in " + in_quotes(w.target));
-    QuietHdf5 quiet;
-    if (root) {
-        write_string_attribute(w.file.get(), name, value, w.where());
-    } else {
-        Handle object = checked(H5Dopen2(w.file.get(), dataset.c_str(), H5P_DEFAULT), H5Dclose,
-                                "open dataset " + in_quotes(dataset) + " in " + w.where());
-        write_string_attribute(object.get(), name, value, "dataset " + in_quotes(dataset));
-    }
+    w.set_attribute_on(dataset, name, [&](hid_t object, const std::string& where) {
+        write_string_attribute(object, name, value, where);
+    });
 }
 
 void ResultWriter::commit() {

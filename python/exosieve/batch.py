@@ -144,6 +144,15 @@ _SAMPLE_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
     ("sample_error", str, [], "1", "error of the lowest-numbered failed sample"),
 ]
 
+# Coordinates of a result file (and `row`, the table row of each case): units, long name.
+_COORDINATES: dict[str, tuple[str, str]] = {
+    "case": ("1", "planet case (the table's case column)"),
+    "row": ("1", "row of the case table"),
+    "species": ("1", "species"),
+    "time": ("s", "stellar age"),
+    "sample": ("1", "Monte Carlo sample"),
+}
+
 # CF flags of the code variables: values (of the variable's type) and one word per value.
 _FLAGS: dict[str, tuple[list[int], str]] = {
     "regime_start": ([-1, 0, 1, 2, 3], " ".join(["none", *REGIMES])),
@@ -399,28 +408,19 @@ class Comparison:
         ``Conventions``, ``exosieve_version`` and ``config`` (JSON)."""
         import xarray as xr
 
-        coords: dict[str, Any] = {
-            "case": (
-                "case",
-                np.asarray(self["case"], dtype=object),
-                {"units": "1", "long_name": "planet case (the table's case column)"},
-            ),
-            "species": (
-                "species",
-                np.array(self.species, dtype=object),
-                {"units": "1", "long_name": "species"},
-            ),
-            "time": ("time", self.times, {"units": "s", "long_name": "stellar age"}),
+        def described(name: str) -> dict[str, Any]:
+            units, long_name = _COORDINATES[name]
+            return {"units": units, "long_name": long_name}
+
+        labels = {
+            "case": np.asarray(self["case"], dtype=object),
+            "species": np.array(self.species, dtype=object),
+            "time": self.times,
         }
         if self.samples:
-            coords["sample"] = (
-                "sample",
-                np.arange(self.samples, dtype=np.int64),
-                {"units": "1", "long_name": "Monte Carlo sample"},
-            )
-        data: dict[str, Any] = {
-            "row": ("case", self["row"], {"units": "1", "long_name": "row of the case table"})
-        }
+            labels["sample"] = np.arange(self.samples, dtype=np.int64)
+        coords = {name: (name, v, described(name)) for name, v in labels.items()}
+        data: dict[str, Any] = {"row": ("case", self["row"], described("row"))}
         for name, (dims, units, long_name) in self.variables.items():
             attrs: dict[str, Any] = {"units": units, "long_name": long_name}
             if name in _FLAGS:
@@ -645,20 +645,20 @@ def _create_file(
 
     schema = ResultWriter(path, config)
     schema.set_attribute("Conventions", _core.RESULT_FILE_CONVENTIONS)
-    schema.label_cases(long_name="planet case (the table's case column)")
-    schema.add_coordinate("species", list(species), long_name="species")
-    schema.add_coordinate(
-        "time", np.asarray(times, dtype=float), units="s", long_name="stellar age"
-    )
+    schema.label_cases(long_name=_COORDINATES["case"][1])
+    schema.add_coordinate("species", list(species), long_name=_COORDINATES["species"][1])
+    units, long_name = _COORDINATES["time"]
+    schema.add_coordinate("time", np.asarray(times, dtype=float), units=units, long_name=long_name)
     variables = list(_VARIABLES)
     if samples:
+        units, long_name = _COORDINATES["sample"]
         schema.add_coordinate(
-            "sample", np.arange(samples, dtype=np.int64), units="1", long_name="Monte Carlo sample"
+            "sample", np.arange(samples, dtype=np.int64), units=units, long_name=long_name
         )
         variables += _SAMPLE_VARIABLES
     for name, dtype, dims, units, long_name in variables:
         schema.add_case_variable(name, dtype, dims, units=units, long_name=long_name)
-    schema.set_attribute("long_name", "row of the case table", dataset="row")
+    schema.set_attribute("long_name", _COORDINATES["row"][1], dataset="row")
     for name, (values, meanings) in _FLAGS.items():
         schema.set_attribute("flag_values", values, dataset=name)
         schema.set_attribute("flag_meanings", meanings, dataset=name)
