@@ -179,13 +179,11 @@ def append_cost(rows: int, samples: int, repeat: int, blocks: int = 20) -> tuple
     random = np.random.default_rng(1)
     data = []
     for k in range(blocks):
-        block: dict[str, object] = {}
+        block: dict[str, object] = {"case": [f"P{k * rows + i}" for i in range(rows)]}
         for name, dtype, dims, *_ in _VARIABLES + (_SAMPLE_VARIABLES if samples else []):
             shape = (rows, *(sizes[d] for d in dims))
             if dtype is str:
-                block[name] = [
-                    f"P{k * rows + i}" if name == "case_name" else "" for i in range(rows)
-                ]
+                block[name] = [""] * rows
             elif dtype is int:
                 block[name] = np.zeros(shape, dtype=np.int64)
             else:

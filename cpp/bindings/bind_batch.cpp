@@ -36,7 +36,8 @@ py::array strings(const std::vector<std::string>& data) {
 py::dict chunk_dict(const BatchChunk& c) {
     const auto n = static_cast<py::ssize_t>(c.count);
     py::dict d;
-    d["case"] = shaped(std::vector<std::int64_t>(c.key.begin(), c.key.end()), {n});
+    d["case"] = strings(c.name);
+    d["row"] = shaped(std::vector<std::int64_t>(c.key.begin(), c.key.end()), {n});
     for (const ChunkVariable& v : chunk_variables(c)) {
         std::vector<py::ssize_t> shape{n};
         for (std::size_t size : v.trailing)

@@ -162,23 +162,38 @@ void bind_evolution(py::module_& m) {
             throw InputError("regime code must be 0..3, got " + std::to_string(code));
         return std::string(regime_name(static_cast<Regime>(code)));
     });
-    m.def("roche_lobe_ratio", &roche_lobe_ratio, py::arg("planet_mass"), py::arg("star_mass"),
-          py::arg("semi_major_axis"), py::arg("radius"));
+    // The hydrodynamic helpers as array kernels: f(count, arg...) -> 1-D array; the Python
+    // facade broadcasts and flattens, so every argument arrives with length 1 or `count`.
+    using A = const DoubleArray&;
+    m.def("roche_lobe_ratio", [](std::size_t n, A mp, A ms, A a, A r) {
+        return with_output(n, [&](double* out) {
+            roche_lobe_ratio(as_arg(mp), as_arg(ms), as_arg(a), as_arg(r), out, n);
+        });
+    });
     m.def(
         "roche_lobe_factor",
         [](const DoubleArray& xi) {
             return map(xi, [](double x) { return roche_lobe_factor(x); });
         },
         py::arg("xi"));
-    m.def("energy_limited_mass_loss", &energy_limited_mass_loss, py::arg("efficiency"),
-          py::arg("planet_radius"), py::arg("xuv_radius"), py::arg("xuv_flux"),
-          py::arg("planet_mass"), py::arg("roche_factor") = 1.0);
-    m.def("crossover_mass", &crossover_mass, py::arg("light_mass"), py::arg("temperature"),
-          py::arg("light_flux"), py::arg("diffusion_parameter"), py::arg("gravity"),
-          py::arg("light_mole_fraction"));
-    m.def("dragged_flux", &dragged_flux, py::arg("mass"), py::arg("mole_fraction"),
-          py::arg("light_mass"), py::arg("light_flux"), py::arg("light_mole_fraction"),
-          py::arg("crossover_mass"));
+    m.def("energy_limited_mass_loss", [](std::size_t n, A eta, A rp, A rx, A f, A mp, A k) {
+        return with_output(n, [&](double* out) {
+            energy_limited_mass_loss(as_arg(eta), as_arg(rp), as_arg(rx), as_arg(f), as_arg(mp),
+                                     as_arg(k), out, n);
+        });
+    });
+    m.def("crossover_mass", [](std::size_t n, A m1, A t, A f1, A b, A g, A x1) {
+        return with_output(n, [&](double* out) {
+            crossover_mass(as_arg(m1), as_arg(t), as_arg(f1), as_arg(b), as_arg(g), as_arg(x1), out,
+                           n);
+        });
+    });
+    m.def("dragged_flux", [](std::size_t n, A mi, A xi, A m1, A f1, A x1, A mc) {
+        return with_output(n, [&](double* out) {
+            dragged_flux(as_arg(mi), as_arg(xi), as_arg(m1), as_arg(f1), as_arg(x1), as_arg(mc),
+                         out, n);
+        });
+    });
 
     py::enum_<HydrodynamicActivation>(m, "HydrodynamicActivation")
         .value("hydrodynamic", HydrodynamicActivation::Hydrodynamic)

@@ -246,6 +246,7 @@ void append(ResultAppender& appender, const py::handle& columns) {
 } // namespace
 
 void bind_hdf5_io(py::module_& m) {
+    m.attr("RESULT_FILE_CONVENTIONS") = result_file_conventions;
     py::class_<ResultWriter>(
         m, "ResultWriter",
         "Builds one HDF5 result file (readable by h5py and xarray) under a temporary name and "
@@ -281,11 +282,34 @@ void bind_hdf5_io(py::module_& m) {
             "Variable along the appendable dimension 'case' (then `dims`), filled later by a "
             "ResultAppender; `dtype` is float, int or str.")
         .def(
+            "label_cases",
+            [](ResultWriter& w, const std::string& long_name) {
+                py::gil_scoped_release release;
+                w.label_cases(long_name);
+            },
+            py::kw_only(), py::arg("long_name"),
+            "Make the coordinate 'case' hold text labels (every appended block sets 'case'; "
+            "xarray then selects rows with .sel(case=label)) and the row numbers the int64 "
+            "case variable 'row'. Call before the first add_case_variable.")
+        .def(
             "set_attribute",
-            [](ResultWriter& w, const std::string& name, const std::string& value,
-               const std::string& dataset) { w.set_attribute(dataset, name, value); },
+            [](ResultWriter& w, const std::string& name, const py::handle& value,
+               const std::string& dataset) {
+                if (py::isinstance<py::str>(value))
+                    return w.set_attribute(dataset, name, value.cast<std::string>());
+                std::vector<std::int64_t> numbers;
+                try {
+                    numbers = value.cast<std::vector<std::int64_t>>();
+                } catch (const py::cast_error&) {
+                    throw InputError("attribute '" + name +
+                                     "' must be a str or a sequence of integers, got " +
+                                     py::repr(value).cast<std::string>());
+                }
+                w.set_attribute(dataset, name, numbers);
+            },
             py::arg("name"), py::arg("value"), py::kw_only(), py::arg("dataset") = "/",
-            "String attribute on the file (default) or on dataset `dataset`.")
+            "String attribute, or int64 array attribute from a sequence of integers (e.g. CF "
+            "flag_values), on the file (default) or on dataset `dataset`.")
         .def("commit", &ResultWriter::commit, py::call_guard<py::gil_scoped_release>(),
              "Close, fsync and rename the file over the target.")
         .def("discard", &ResultWriter::discard, py::call_guard<py::gil_scoped_release>(),

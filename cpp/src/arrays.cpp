@@ -56,6 +56,19 @@ void require_non_negative(const char* what, ArrayArg values) {
         what, values, [](double v) { return (v >= 0.0) & (v <= big); }, ">= 0");
 }
 
+void require_at_most(const char* what, ArrayArg values, double limit) {
+    if (all_of(values, [limit](double v) { return v <= limit; }))
+        return;
+    for (std::size_t i = 0; i < values.size; ++i) {
+        const double v = values.data[i];
+        if (!(v <= limit)) {
+            std::string where = values.size == 1 ? "" : " (element " + std::to_string(i) + ")";
+            throw InputError(std::string(what) + " must be <= " + format_value(limit) + ", got " +
+                             format_value(v) + where);
+        }
+    }
+}
+
 void parallel_for(std::size_t count, const std::function<void(std::size_t, std::size_t)>& body) {
     // Threads pay off only when each one gets a few hundred microseconds of work.
     constexpr std::size_t min_per_thread = 1u << 16;

@@ -1278,7 +1278,6 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
 std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
     const std::size_t S = c.species, T = c.times, N = c.samples;
     std::vector<ChunkVariable> v{
-        {"case_name", {}, nullptr, nullptr, &c.name},
         {"error", {}, nullptr, nullptr, &c.error},
         {"steps", {}, nullptr, &c.steps},
         {"planet_mass", {}, &c.planet_mass},
@@ -1320,7 +1319,8 @@ std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
 
 RowBlock chunk_rows(const BatchChunk& c) {
     RowBlock b(c.count);
-    b.set("case", std::vector<std::int64_t>(c.key.begin(), c.key.end()));
+    b.set("case", c.name); // the labels: xarray selects rows with .sel(case=name)
+    b.set("row", std::vector<std::int64_t>(c.key.begin(), c.key.end()));
     for (const ChunkVariable& v : chunk_variables(c)) {
         if (v.f)
             b.set(v.name, *v.f);

@@ -1642,8 +1642,16 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     w.add_variable("xuv_flux", t, r.xuv_flux, "W m-2", "XUV flux at the planet");
     const std::vector<std::int64_t> regime(r.regime.begin(), r.regime.end());
     w.add_variable("regime", t, regime, "1", "escape regime of the bulk gas at the exobase");
-    w.set_attribute("regime", "flag_values", "0 1 2 3");
-    w.set_attribute("regime", "flag_meanings", "jeans enhanced_jeans transition hydrodynamic");
+    // CF flags: flag_values of the variable's type, one blank-free word per value.
+    std::vector<std::int64_t> codes;
+    std::string meanings;
+    for (Regime k :
+         {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition, Regime::Hydrodynamic}) {
+        codes.push_back(static_cast<std::int64_t>(k));
+        meanings += (meanings.empty() ? "" : " ") + std::string(regime_name(k));
+    }
+    w.set_attribute("regime", "flag_values", codes);
+    w.set_attribute("regime", "flag_meanings", meanings);
     const std::vector<std::int64_t> limited(r.energy_limited.begin(), r.energy_limited.end());
     w.add_variable("energy_limited", t, limited, "1",
                    "1 where energy-limited hydrodynamic loss acted");
@@ -1684,6 +1692,7 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     }
     w.set_attribute("regime_changes", changes + "]");
     w.set_attribute("title", "exosieve evolution result");
+    w.set_attribute("Conventions", result_file_conventions);
     w.set_attribute("stepper", r.stepper);
     w.commit();
 }

@@ -45,6 +45,8 @@ namespace {
 namespace fs = std::filesystem;
 
 const char* const case_dim = "case";
+// The row numbers of a file whose `case` coordinate holds text labels (label_cases).
+const char* const row_variable = "row";
 const char* const completed_attr = "completed";
 // [completed, tail hash]: vouches for the committed rows of each case variable's last, partly
 // filled chunk (see ResultAppender::Impl::check_tails).
@@ -379,6 +381,21 @@ void write_int_attribute(hid_t object, const std::string& name, std::int64_t val
             H5Aclose, what);
     }
     check(H5Awrite(attribute.get(), H5T_NATIVE_INT64, &value), what);
+}
+
+void write_int_array_attribute(hid_t object, const std::string& name,
+                               const std::vector<std::int64_t>& values, const std::string& where) {
+    const std::string what = "write attribute " + in_quotes(name) + " of " + where;
+    const htri_t exists = H5Aexists(object, name.c_str());
+    check(exists, what);
+    if (exists > 0)
+        check(H5Adelete(object, name.c_str()), what);
+    const hsize_t count = values.size();
+    Handle space = checked(H5Screate_simple(1, &count, nullptr), H5Sclose, what);
+    Handle attribute = checked(
+        H5Acreate2(object, name.c_str(), H5T_STD_I64LE, space.get(), H5P_DEFAULT, H5P_DEFAULT),
+        H5Aclose, what);
+    check(H5Awrite(attribute.get(), H5T_NATIVE_INT64, values.data()), what);
 }
 
 void write_int_pair_attribute(hid_t object, const std::string& name,
@@ -1028,22 +1045,60 @@ struct ResultWriter::Impl {
         }
     }
 
-    void ensure_case() {
+    void ensure_case(bool labelled = false) {
         if (has_case)
             return;
-        if (datasets.count(case_dim) != 0)
-            throw InputError("a dataset named 'case' already exists in " + in_quotes(target) +
-                             "; that name is reserved for the appendable dimension");
+        for (const char* name : {case_dim, labelled ? row_variable : case_dim})
+            if (datasets.count(name) != 0)
+                throw InputError("a dataset named " + in_quotes(name) + " already exists in " +
+                                 in_quotes(target) +
+                                 "; that name is reserved for the appendable dimension");
         QuietHdf5 quiet;
-        Handle dataset = create_dataset(file.get(), case_dim, ValueType::int64, {0}, true, where());
+        Handle dataset =
+            create_dataset(file.get(), case_dim, labelled ? ValueType::string : ValueType::int64,
+                           {0}, true, where());
         check(H5DSset_scale(dataset.get(), case_dim),
               "make 'case' a dimension scale in " + where());
-        describe(dataset.get(), case_dim, "1", "case number");
+        describe(dataset.get(), case_dim, "1", labelled ? case_label : "case number");
         write_int_attribute(file.get(), completed_attr, 0, where());
         datasets.insert(case_dim);
         dims[case_dim] = 0;
         has_case = true;
+        if (labelled) {
+            Handle rows =
+                create_dataset(file.get(), row_variable, ValueType::int64, {0}, true, where());
+            attach(rows.get(), row_variable, {case_dim});
+            describe(rows.get(), row_variable, "1", "row number");
+            datasets.insert(row_variable);
+        }
     }
+
+    // Check that attribute `name` may be set on `dataset` ("" or "/": the file), then
+    // write(object, where) on it.
+    template <class Write>
+    void set_attribute_on(const std::string& dataset, const std::string& name, Write write) {
+        check_object_name("attribute", name);
+        const bool root = dataset.empty() || dataset == "/";
+        static const std::set<std::string> reserved = {"CLASS", "NAME", "REFERENCE_LIST",
+                                                       "DIMENSION_LIST"};
+        if (reserved.count(name) != 0 ||
+            (root && (name == completed_attr || name == tail_check_attr)))
+            throw InputError("attribute name " + in_quotes(name) +
+                             " is reserved for the file layout");
+        if (!root && datasets.count(dataset) == 0)
+            throw InputError("cannot set attribute " + in_quotes(name) + ": no dataset " +
+                             in_quotes(dataset) + " in " + in_quotes(target));
+        QuietHdf5 quiet;
+        if (root) {
+            write(file.get(), where());
+            return;
+        }
+        Handle object = checked(H5Dopen2(file.get(), dataset.c_str(), H5P_DEFAULT), H5Dclose,
+                                "open dataset " + in_quotes(dataset) + " in " + where());
+        write(object.get(), "dataset " + in_quotes(dataset));
+    }
+
+    std::string case_label; // long name of text case labels (label_cases)
 };
 
 ResultWriter::ResultWriter(const std::string& path, const std::string& config_json)
@@ -1191,8 +1246,27 @@ void ResultWriter::add_case_variable(const std::string& name, ValueType type,
     w.datasets.insert(name);
 }
 
+void ResultWriter::label_cases(const std::string& long_name) {
+    Impl& w = live();
+    if (w.has_case)
+        throw InputError("label_cases must come before the first case variable of " +
+                         in_quotes(w.target));
+    check_description("case", "1", long_name);
+    w.case_label = long_name;
+    w.ensure_case(true);
+}
+
 void ResultWriter::set_attribute(const std::string& name, const std::string& value) {
     set_attribute("/", name, value);
+}
+
+void ResultWriter::set_attribute(const std::string& dataset, const std::string& name,
+                                 const std::vector<std::int64_t>& values) {
+    if (values.empty())
+        throw InputError("attribute " + in_quotes(name) + " needs at least one value");
+    live().set_attribute_on(dataset, name, [&](hid_t object, const std::string& where) {
+        write_int_array_attribute(object, name, values, where);
+    });
 }
 
 void ResultWriter::set_attribute(const std::string& dataset, const std::string& name,
@@ -1200,22 +1274,9 @@ void ResultWriter::set_attribute(const std::string& dataset, const std::string& 
     Impl& w = live();
     check_object_name("attribute", name);
     check_text("attribute " + in_quotes(name), value);
-    const bool root = dataset.empty() || dataset == "/";
-    static const std::set<std::string> reserved = {"CLASS", "NAME", "REFERENCE_LIST",
-                                                   "DIMENSION_LIST"};
-    if (reserved.count(name) != 0 || (root && (name == completed_attr || name == tail_check_attr)))
-        throw InputError("attribute name " + in_quotes(name) + " is reserved for the file layout");
-    if (!root && w.datasets.count(dataset) == 0)
-        throw InputError("cannot set attribute " + in_quotes(name) + ": no dataset " +
-                         in_quotes(dataset) + " in " + in_quotes(w.target));
-    QuietHdf5 quiet;
-    if (root) {
-        write_string_attribute(w.file.get(), name, value, w.where());
-    } else {
-        Handle object = checked(H5Dopen2(w.file.get(), dataset.c_str(), H5P_DEFAULT), H5Dclose,
-                                "open dataset " + in_quotes(dataset) + " in " + w.where());
-        write_string_attribute(object.get(), name, value, "dataset " + in_quotes(dataset));
-    }
+    w.set_attribute_on(dataset, name, [&](hid_t object, const std::string& where) {
+        write_string_attribute(object, name, value, where);
+    });
 }
 
 void ResultWriter::commit() {
@@ -1330,6 +1391,9 @@ struct ResultAppender::Impl {
     std::size_t discarded = 0;
     bool repaired = false; // the end of allocation was moved on reopening
     std::map<std::string, Variable> variables;
+    // The case variable the appender numbers when a block does not set it: `case` itself, or
+    // `row` where `case` holds text labels.
+    std::string numbered = case_dim;
 
     void durable_flush() {
         check(H5Fflush(file.get(), H5F_SCOPE_GLOBAL), "flush " + in_quotes(path));
@@ -1440,9 +1504,15 @@ struct ResultAppender::Impl {
                                 std::to_string(completed));
             discarded = std::max<std::size_t>(discarded, shape[0] - completed);
         }
-        if (variables.count(case_dim) == 0 || variables[case_dim].type != ValueType::int64)
+        const bool labelled =
+            variables.count(case_dim) != 0 && variables[case_dim].type == ValueType::string &&
+            variables.count(row_variable) != 0 && variables[row_variable].type == ValueType::int64;
+        if (!labelled &&
+            (variables.count(case_dim) == 0 || variables[case_dim].type != ValueType::int64))
             throw InputError(in_quotes(path) + " is not an appendable result file ('case' is not "
-                                               "an appendable int64 coordinate)");
+                                               "an appendable int64 coordinate, nor text labels "
+                                               "beside an int64 'row')");
+        numbered = labelled ? row_variable : case_dim;
     }
 
     // The hash that `completed_check` records beside `completed`: every numeric case
@@ -1620,13 +1690,14 @@ void ResultAppender::append(const RowBlock& block) {
                              std::to_string(rows * v.row_size));
     }
     for (const auto& entry : a.variables)
-        if (entry.first != case_dim && block.columns_.count(entry.first) == 0)
-            throw InputError("row block lacks case variable " + in_quotes(entry.first));
+        if (entry.first != a.numbered && block.columns_.count(entry.first) == 0)
+            throw InputError("row block lacks case variable " + in_quotes(entry.first) +
+                             (entry.first == case_dim ? " (the case labels)" : ""));
     if (rows == 0)
         return;
 
     std::vector<std::int64_t> numbers;
-    if (block.columns_.count(case_dim) == 0) {
+    if (block.columns_.count(a.numbered) == 0) {
         numbers.resize(rows);
         for (std::size_t i = 0; i < rows; ++i)
             numbers[i] = static_cast<std::int64_t>(a.completed + i);

@@ -48,13 +48,75 @@ Regime classify_regime(double lambda, const RegimeThresholds& t) {
     return Regime::Hydrodynamic;
 }
 
+namespace {
+// The formulas on checked arguments, shared by the scalar and the array forms.
+double roche_ratio_of(double planet_mass, double star_mass, double a, double radius) {
+    return a * std::cbrt(planet_mass / (3.0 * star_mass)) / radius;
+}
+
+double energy_limited_of(double efficiency, double planet_radius, double xuv_radius,
+                         double xuv_flux, double planet_mass, double roche_factor) {
+    return efficiency * constants::pi * planet_radius * xuv_radius * xuv_radius * xuv_flux /
+           (G * planet_mass * roche_factor);
+}
+
+double crossover_of(double light_mass, double temperature, double light_flux, double b,
+                    double gravity, double light_mole_fraction) {
+    return light_mass + k_B * temperature * light_flux / (b * gravity * light_mole_fraction);
+}
+
+double dragged_of(double mass, double mole_fraction, double light_mass, double light_flux,
+                  double light_mole_fraction, double crossover) {
+    if (!(mass < crossover) || !(crossover > light_mass))
+        return 0.0;
+    return mole_fraction / light_mole_fraction * light_flux * (crossover - mass) /
+           (crossover - light_mass);
+}
+
+void check_energy_limited(ArrayArg efficiency, ArrayArg planet_radius, ArrayArg xuv_radius,
+                          ArrayArg xuv_flux, ArrayArg planet_mass, ArrayArg roche_factor) {
+    require_positive("efficiency", efficiency);
+    require_at_most("efficiency", efficiency, 1.0);
+    require_positive("planet_radius", planet_radius);
+    require_positive("xuv_radius", xuv_radius);
+    require_non_negative("xuv_flux", xuv_flux);
+    require_positive("planet_mass", planet_mass);
+    require_positive("roche_factor", roche_factor);
+    require_at_most("roche_factor", roche_factor, 1.0);
+}
+
+void check_crossover(ArrayArg light_mass, ArrayArg temperature, ArrayArg light_flux,
+                     ArrayArg diffusion_parameter, ArrayArg gravity, ArrayArg light_mole_fraction) {
+    require_positive("light_mass", light_mass);
+    require_positive("temperature", temperature);
+    require_non_negative("light_flux", light_flux);
+    require_positive("diffusion_parameter", diffusion_parameter);
+    require_positive("gravity", gravity);
+    require_positive("light_mole_fraction", light_mole_fraction);
+}
+
+void check_dragged(ArrayArg mass, ArrayArg mole_fraction, ArrayArg light_mass, ArrayArg light_flux,
+                   ArrayArg light_mole_fraction, ArrayArg crossover) {
+    require_positive("mass", mass);
+    require_non_negative("mole_fraction", mole_fraction);
+    require_positive("light_mass", light_mass);
+    require_non_negative("light_flux", light_flux);
+    require_positive("light_mole_fraction", light_mole_fraction);
+    require_positive("crossover_mass", crossover);
+}
+
+ArrayArg one(const double& value) {
+    return ArrayArg{&value, 1};
+}
+} // namespace
+
 double roche_lobe_ratio(double planet_mass, double star_mass, double semi_major_axis,
                         double radius) {
     require_positive("planet_mass", planet_mass);
     require_positive("star_mass", star_mass);
     require_positive("semi_major_axis", semi_major_axis);
     require_positive("radius", radius);
-    return semi_major_axis * std::cbrt(planet_mass / (3.0 * star_mass)) / radius;
+    return roche_ratio_of(planet_mass, star_mass, semi_major_axis, radius);
 }
 
 double roche_lobe_factor(double xi) {
@@ -68,44 +130,71 @@ double roche_lobe_factor(double xi) {
 
 double energy_limited_mass_loss(double efficiency, double planet_radius, double xuv_radius,
                                 double xuv_flux, double planet_mass, double roche_factor) {
-    require_positive("efficiency", efficiency);
-    if (efficiency > 1.0)
-        throw InputError("efficiency must be <= 1, got " + format_value(efficiency));
-    require_positive("planet_radius", planet_radius);
-    require_positive("xuv_radius", xuv_radius);
-    require_non_negative("xuv_flux", xuv_flux);
-    require_positive("planet_mass", planet_mass);
-    require_positive("roche_factor", roche_factor);
-    if (roche_factor > 1.0)
-        throw InputError("roche_factor must be <= 1, got " + format_value(roche_factor));
-    return efficiency * constants::pi * planet_radius * xuv_radius * xuv_radius * xuv_flux /
-           (G * planet_mass * roche_factor);
+    check_energy_limited(one(efficiency), one(planet_radius), one(xuv_radius), one(xuv_flux),
+                         one(planet_mass), one(roche_factor));
+    return energy_limited_of(efficiency, planet_radius, xuv_radius, xuv_flux, planet_mass,
+                             roche_factor);
 }
 
 double crossover_mass(double light_mass, double temperature, double light_flux,
                       double diffusion_parameter, double gravity, double light_mole_fraction) {
-    require_positive("light_mass", light_mass);
-    require_positive("temperature", temperature);
-    require_non_negative("light_flux", light_flux);
-    require_positive("diffusion_parameter", diffusion_parameter);
-    require_positive("gravity", gravity);
-    require_positive("light_mole_fraction", light_mole_fraction);
-    return light_mass +
-           k_B * temperature * light_flux / (diffusion_parameter * gravity * light_mole_fraction);
+    check_crossover(one(light_mass), one(temperature), one(light_flux), one(diffusion_parameter),
+                    one(gravity), one(light_mole_fraction));
+    return crossover_of(light_mass, temperature, light_flux, diffusion_parameter, gravity,
+                        light_mole_fraction);
 }
 
 double dragged_flux(double mass, double mole_fraction, double light_mass, double light_flux,
                     double light_mole_fraction, double crossover) {
-    require_positive("mass", mass);
-    require_non_negative("mole_fraction", mole_fraction);
-    require_positive("light_mass", light_mass);
-    require_non_negative("light_flux", light_flux);
-    require_positive("light_mole_fraction", light_mole_fraction);
-    require_positive("crossover_mass", crossover);
-    if (!(mass < crossover) || !(crossover > light_mass))
-        return 0.0;
-    return mole_fraction / light_mole_fraction * light_flux * (crossover - mass) /
-           (crossover - light_mass);
+    check_dragged(one(mass), one(mole_fraction), one(light_mass), one(light_flux),
+                  one(light_mole_fraction), one(crossover));
+    return dragged_of(mass, mole_fraction, light_mass, light_flux, light_mole_fraction, crossover);
+}
+
+void roche_lobe_ratio(ArrayArg planet_mass, ArrayArg star_mass, ArrayArg semi_major_axis,
+                      ArrayArg radius, double* out, std::size_t count) {
+    check_lengths(count, {planet_mass, star_mass, semi_major_axis, radius});
+    require_positive("planet_mass", planet_mass);
+    require_positive("star_mass", star_mass);
+    require_positive("semi_major_axis", semi_major_axis);
+    require_positive("radius", radius);
+    for (std::size_t i = 0; i < count; ++i)
+        out[i] = roche_ratio_of(planet_mass[i], star_mass[i], semi_major_axis[i], radius[i]);
+}
+
+void energy_limited_mass_loss(ArrayArg efficiency, ArrayArg planet_radius, ArrayArg xuv_radius,
+                              ArrayArg xuv_flux, ArrayArg planet_mass, ArrayArg roche_factor,
+                              double* out, std::size_t count) {
+    check_lengths(count,
+                  {efficiency, planet_radius, xuv_radius, xuv_flux, planet_mass, roche_factor});
+    check_energy_limited(efficiency, planet_radius, xuv_radius, xuv_flux, planet_mass,
+                         roche_factor);
+    for (std::size_t i = 0; i < count; ++i)
+        out[i] = energy_limited_of(efficiency[i], planet_radius[i], xuv_radius[i], xuv_flux[i],
+                                   planet_mass[i], roche_factor[i]);
+}
+
+void crossover_mass(ArrayArg light_mass, ArrayArg temperature, ArrayArg light_flux,
+                    ArrayArg diffusion_parameter, ArrayArg gravity, ArrayArg light_mole_fraction,
+                    double* out, std::size_t count) {
+    check_lengths(count, {light_mass, temperature, light_flux, diffusion_parameter, gravity,
+                          light_mole_fraction});
+    check_crossover(light_mass, temperature, light_flux, diffusion_parameter, gravity,
+                    light_mole_fraction);
+    for (std::size_t i = 0; i < count; ++i)
+        out[i] = crossover_of(light_mass[i], temperature[i], light_flux[i], diffusion_parameter[i],
+                              gravity[i], light_mole_fraction[i]);
+}
+
+void dragged_flux(ArrayArg mass, ArrayArg mole_fraction, ArrayArg light_mass, ArrayArg light_flux,
+                  ArrayArg light_mole_fraction, ArrayArg crossover, double* out,
+                  std::size_t count) {
+    check_lengths(count,
+                  {mass, mole_fraction, light_mass, light_flux, light_mole_fraction, crossover});
+    check_dragged(mass, mole_fraction, light_mass, light_flux, light_mole_fraction, crossover);
+    for (std::size_t i = 0; i < count; ++i)
+        out[i] = dragged_of(mass[i], mole_fraction[i], light_mass[i], light_flux[i],
+                            light_mole_fraction[i], crossover[i]);
 }
 
 double DiffusionLaw::operator()(double temperature) const {

@@ -2,15 +2,19 @@
 
 from __future__ import annotations
 
+import sys
 from collections.abc import Callable
 from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import DTypeLike, NDArray
 
 from . import _core
 
-FloatOrArray = float | NDArray[np.float64]
+#: What an array function returns: a float for scalar input (a numpy scalar with a ``dtype``
+#: other than float64), else an array in the container the arguments came in (numpy array,
+#: pandas Series or DataFrame, xarray DataArray, dask array), or ``out`` when given.
+FloatOrArray = float | NDArray[np.floating[Any]] | Any
 
 
 def _refuse_kind(array: NDArray[Any], value: Any, name: str) -> None:
@@ -124,21 +128,188 @@ def flat_for_kernel(array: NDArray[np.float64], shape: tuple[int, ...]) -> NDArr
     return np.ascontiguousarray(array).reshape(-1)
 
 
+def _floating(dtype: DTypeLike, name: str = "dtype") -> np.dtype[Any]:
+    """``dtype`` as a numpy floating dtype; a ValueError naming ``name`` otherwise."""
+    try:
+        kind = np.dtype(dtype)
+    except TypeError as err:
+        raise ValueError(f"{name} must be a floating-point dtype, got {dtype!r}") from err
+    if kind.kind != "f":
+        raise ValueError(f"{name} must be a floating-point dtype, got {kind}")
+    return kind
+
+
+def _module(name: str) -> Any:
+    """The module ``name`` if the caller's program has imported it already, else None: a
+    container type can only come from a library that is loaded, so none is imported here."""
+    return sys.modules.get(name)
+
+
+# Types that are never a container: most calls have only these and skip the look-ups.
+_PLAIN = (float, int, str, np.ndarray, np.float64, list, tuple)
+
+
+def _kind_of(values: list[Any]) -> str:
+    """Which container the arguments come in: "xarray", "dask", "pandas" or "numpy"."""
+    if all(type(v) in _PLAIN for v in values):
+        return "numpy"
+    xr, da, pd = _module("xarray"), _module("dask.array"), _module("pandas")
+    if xr is not None and any(isinstance(v, xr.DataArray) for v in values):
+        return "xarray"
+    if da is not None and any(isinstance(v, da.Array) for v in values):
+        return "dask"
+    if pd is not None and any(isinstance(v, (pd.Series, pd.DataFrame)) for v in values):
+        return "pandas"
+    return "numpy"
+
+
 def apply(
-    kernel: Callable[..., NDArray[np.float64]], args: list[tuple[str, Any, str]], *extra: Any
+    kernel: Callable[..., NDArray[np.float64]],
+    args: list[tuple[str, Any, str]],
+    *extra: Any,
+    species_argument: str | None = "mass",
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Call ``kernel(count, *flat_args, *extra)`` with numpy broadcasting of ``args``.
 
-    ``args`` holds ``(name, value, unit)``; returns a float for all-scalar input. A species
-    name is taken only for the argument called ``mass``.
+    ``args`` holds ``(name, value, unit)``. A species name is taken only for the argument
+    called ``species_argument`` (None: for none). As numpy ufuncs do: ``out`` (a float array
+    of the broadcast shape) receives the result and is returned, ``dtype`` (a floating type)
+    is the result's type (the kernels compute in float64), a float comes back for all-scalar
+    input, and pandas Series/DataFrames, xarray DataArrays and dask arrays come back as the
+    container they came in (see :func:`_rewrap`).
     """
-    arrays = [to_si(value, name, unit, species_names=name == "mass") for name, value, unit in args]
+    result_dtype = None if dtype is None else _floating(dtype)
+    values = [value for _, value, _ in args]
+    kind = _kind_of(values)
+    if kind == "numpy":
+        return _compute(kernel, args, extra, species_argument, out, result_dtype)
+    if out is not None:
+        raise ValueError(
+            f"out= takes a numpy array and numpy, Python or astropy arguments; with {kind} "
+            "arguments, assign the returned result instead"
+        )
+    return _rewrap(kind, kernel, args, extra, species_argument, result_dtype)
+
+
+def _compute(
+    kernel: Callable[..., NDArray[np.float64]],
+    args: list[tuple[str, Any, str]],
+    extra: tuple[Any, ...],
+    species_argument: str | None,
+    out: Any,
+    dtype: np.dtype[Any] | None,
+) -> FloatOrArray:
+    arrays = [
+        to_si(value, name, unit, species_names=name == species_argument)
+        for name, value, unit in args
+    ]
+    if out is not None:
+        out = _output(out)
     try:
         shape = np.broadcast_shapes(*(a.shape for a in arrays))
     except ValueError as err:
         shapes = ", ".join(f"{name}{a.shape}" for (name, _, _), a in zip(args, arrays, strict=True))
         raise ValueError(f"arguments do not broadcast together: {shapes}") from err
+    if out is not None:
+        try:
+            fits = np.broadcast_shapes(shape, out.shape) == out.shape
+        except ValueError:
+            fits = False
+        if not fits:
+            raise ValueError(f"out has shape {out.shape}; the arguments broadcast to {shape}")
+        shape = out.shape
     count = int(np.prod(shape, dtype=np.int64))
     flat = [flat_for_kernel(a, shape) for a in arrays]
     result = kernel(count, *flat, *extra).reshape(shape)
-    return float(result) if shape == () else result
+    if dtype is not None:
+        result = result.astype(dtype, copy=False)
+    if out is not None:
+        np.copyto(out, result, casting="same_kind")
+        return out
+    if shape == ():
+        return float(result) if dtype is None or dtype == np.float64 else result[()]
+    return result
+
+
+def _output(out: Any) -> NDArray[Any]:
+    """``out`` as numpy ufuncs take it: a writeable float array, or a tuple of one."""
+    if isinstance(out, tuple) and len(out) == 1:
+        out = out[0]
+    if not isinstance(out, np.ndarray):
+        raise ValueError(f"out must be a numpy array, got {type(out).__name__}")
+    if out.dtype.kind != "f":
+        raise ValueError(f"out must be an array of floats, got dtype {out.dtype}")
+    if not out.flags.writeable:
+        raise ValueError("out must be writeable, got a read-only array")
+    return out
+
+
+def _rewrap(
+    kind: str,
+    kernel: Callable[..., NDArray[np.float64]],
+    args: list[tuple[str, Any, str]],
+    extra: tuple[Any, ...],
+    species_argument: str | None,
+    dtype: np.dtype[Any] | None,
+) -> Any:
+    """The result in the arguments' container: a pandas Series or DataFrame with their index
+    (all pandas arguments must share it), an xarray DataArray broadcast by dimension names
+    (xarray.apply_ufunc, lazy for dask-backed data), or a lazy dask array (map_blocks). Lazy
+    results check their values when computed, not before."""
+    names = [(name, unit) for name, _, unit in args]
+    values = [value for _, value, _ in args]
+
+    def block(*parts: Any) -> Any:
+        given = [(name, part, unit) for (name, unit), part in zip(names, parts, strict=True)]
+        return np.asarray(_compute(kernel, given, extra, species_argument, None, dtype))
+
+    out_dtype = np.dtype(np.float64) if dtype is None else dtype
+    if kind in ("xarray", "dask"):
+        # The other arguments (numbers, species names, astropy quantities) are read once, here;
+        # the blocks then hold plain numbers in SI.
+        xr, da = _module("xarray"), _module("dask.array")
+        lazy = (xr.DataArray,) if kind == "xarray" else (da.Array,)
+        inputs = [
+            v
+            if isinstance(v, lazy)
+            else to_si(v, name, unit, species_names=name == species_argument)
+            for name, v, unit in args
+        ]
+
+        def si_block(*parts: Any) -> Any:
+            given = [(name, part, unit) for (name, unit), part in zip(names, parts, strict=True)]
+            return np.asarray(_compute(kernel, given, extra, None, None, dtype))
+
+        if kind == "xarray":
+            return xr.apply_ufunc(
+                si_block, *inputs, dask="parallelized", output_dtypes=[out_dtype], keep_attrs=False
+            )
+        arrays = da.broadcast_arrays(*(da.asarray(v) for v in inputs))
+        return da.map_blocks(si_block, *arrays, dtype=out_dtype)
+    pd = _module("pandas")
+    frames = [(name, v) for (name, _), v in zip(names, values, strict=True)]
+    frames = [(name, v) for name, v in frames if isinstance(v, (pd.Series, pd.DataFrame))]
+    first_name, first = frames[0]
+    for name, other in frames[1:]:
+        same = type(other) is type(first) and other.index.equals(first.index)
+        if same and isinstance(first, pd.DataFrame):
+            same = other.columns.equals(first.columns)
+        if not same:
+            raise ValueError(
+                f"pandas arguments {first_name} and {name} must be of one kind (Series or "
+                "DataFrame) with one index (and columns); align them first, e.g. with "
+                ".align()"
+            )
+    plain = [v.to_numpy() if isinstance(v, (pd.Series, pd.DataFrame)) else v for v in values]
+    result = np.asarray(block(*plain))
+    if result.shape != first.shape:
+        raise ValueError(
+            f"the arguments broadcast to shape {result.shape}, not to the shape {first.shape} "
+            f"of the pandas argument {first_name}"
+        )
+    if isinstance(first, pd.Series):
+        labels = {v.name for _, v in frames}
+        return pd.Series(result, index=first.index, name=labels.pop() if len(labels) == 1 else None)
+    return pd.DataFrame(result, index=first.index, columns=first.columns)

@@ -14,9 +14,11 @@ Carlo draws depend only on (seed, row, sample), so results are the same for any 
 threads or workers.
 
 Result files (DESIGN section 5): dimensions ``case`` (appendable; the coordinate holds the
+case names, so that xarray selects with ``.sel(case="name")``; the variable ``row`` holds the
 table row), ``species``, ``time`` (stellar age [s]) and ``sample``; every variable has
-``units`` and ``long_name``; the global attribute ``config`` holds the table's fingerprint and
-every option as JSON.
+``units`` and ``long_name``, ``regime_start`` has CF's ``flag_values``/``flag_meanings``; the
+global attribute ``config`` holds the table's fingerprint and every option as JSON, and
+``Conventions`` is ``"exosieve-1"`` (see the README: CF's attributes, not CF itself).
 
 Examples
 --------
@@ -63,7 +65,6 @@ __all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
 
 # Case variables of a result file: name, dtype, dimensions after `case`, units, long name.
 _VARIABLES: list[tuple[str, type, list[str], str, str]] = [
-    ("case_name", str, [], "1", "planet case"),
     ("error", str, [], "1", "why the row is invalid or its nominal run failed (empty: it ran)"),
     ("steps", int, [], "1", "accepted integration steps of the nominal run"),
     ("planet_mass", float, [], "kg", "planet mass (with an envelope: at the start)"),
@@ -198,6 +199,20 @@ _INPUT_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
 ]
 DESIGNS = ("monte_carlo", "saltelli")
 
+# Coordinates of a result file (and `row`, the table row of each case): units, long name.
+_COORDINATES: dict[str, tuple[str, str]] = {
+    "case": ("1", "planet case (the table's case column)"),
+    "row": ("1", "row of the case table"),
+    "species": ("1", "species"),
+    "time": ("s", "stellar age"),
+    "sample": ("1", "Monte Carlo sample"),
+}
+
+# CF flags of the code variables: values (of the variable's type) and one word per value.
+_FLAGS: dict[str, tuple[list[int], str]] = {
+    "regime_start": ([-1, 0, 1, 2, 3], " ".join(["none", *REGIMES])),
+}
+
 _UNITS = {
     "final_retained_fraction": "1",
     "depletion_time": "s",
@@ -308,8 +323,8 @@ class Comparison:
         )
 
     def __getitem__(self, name: str) -> NDArray[Any]:
-        if name == "case":
-            return self._load("case")
+        if name in ("case", "row"):
+            return self._load(name)
         if name not in self.variables:
             raise ValueError(f"no variable '{name}' (have {', '.join(self.variables)})")
         return self._load(name)
@@ -324,12 +339,12 @@ class Comparison:
     def __len__(self) -> int:
         if self._rows is not None:
             return self._rows
-        return len(self._data["case"])
+        return len(self._data["row"])
 
     @property
     def cases(self) -> list[str]:
-        """Case labels, in table order."""
-        return [str(x) for x in self["case_name"]]
+        """Case names (the ``case`` coordinate), in table order."""
+        return [str(x) for x in self["case"]]
 
     @property
     def total_cases(self) -> int:
@@ -362,8 +377,8 @@ class Comparison:
         keep = (error != "") | (failed > 0)
         return pd.DataFrame(
             {
-                "case": np.asarray(self["case_name"], dtype=object)[keep],
-                "row": self["case"][keep],
+                "case": np.asarray(self["case"], dtype=object)[keep],
+                "row": self["row"][keep],
                 "error": error[keep],
                 "samples_failed": failed[keep],
                 "sample_error": sample_error[keep],
@@ -440,8 +455,8 @@ class Comparison:
         regime = self["regime_start"][ci, sj] if s else np.full(len(ci), -1)
         names = np.array(["", *REGIMES], dtype=object)
         columns: dict[str, Any] = {
-            "case": np.asarray(self["case_name"], dtype=object)[ci],
-            "row": self["case"][ci],
+            "case": np.asarray(self["case"], dtype=object)[ci],
+            "row": self["row"][ci],
             "species": np.where(valid, np.array(self.species + [""], dtype=object)[si], ""),
             "final_retained_fraction": final,
             "retained": final > retain,
@@ -481,11 +496,48 @@ class Comparison:
         out = _create_file(path, self.config, self.species, self.times, self.samples, self.inputs)
         try:
             if len(self):
-                names = ["case"] + list(self.variables)
+                names = ["case", "row", *self.variables]
                 out.append({name: self[name] for name in names})
         finally:
             out.close()
         return path
+
+    def to_xarray(self) -> Any:
+        """The comparison as an ``xarray.Dataset`` laid out as its result file opens in xarray:
+        dimensions ``case`` (coordinate: the case names, so ``.sel(case="name")`` picks a
+        case), ``species``, ``time`` [s] and ``sample``; ``units`` and ``long_name`` on every
+        variable, ``flag_values``/``flag_meanings`` on ``regime_start``; the attributes
+        ``Conventions``, ``exosieve_version`` and ``config`` (JSON)."""
+        import xarray as xr
+
+        def described(name: str) -> dict[str, Any]:
+            units, long_name = _COORDINATES[name]
+            return {"units": units, "long_name": long_name}
+
+        labels = {
+            "case": np.asarray(self["case"], dtype=object),
+            "species": np.array(self.species, dtype=object),
+            "time": self.times,
+        }
+        if self.samples:
+            labels["sample"] = np.arange(self.samples, dtype=np.int64)
+        coords = {name: (name, v, described(name)) for name, v in labels.items()}
+        data: dict[str, Any] = {"row": ("case", self["row"], described("row"))}
+        for name, (dims, units, long_name) in self.variables.items():
+            attrs: dict[str, Any] = {"units": units, "long_name": long_name}
+            if name in _FLAGS:
+                values, meanings = _FLAGS[name]
+                attrs.update(flag_values=np.array(values, np.int64), flag_meanings=meanings)
+            data[name] = (dims, self[name], attrs)
+        return xr.Dataset(
+            data,
+            coords=coords,
+            attrs={
+                "Conventions": _core.RESULT_FILE_CONVENTIONS,
+                "exosieve_version": str(self.config.get("version", _core.__version__)),
+                "config": json.dumps(self.config, sort_keys=True),
+            },
+        )
 
     def __repr__(self) -> str:
         where = f", path={str(self.path)!r}" if self.path else ""
@@ -530,6 +582,7 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
         config = {}
     if config.get("kind") != "exosieve.compare":
         raise ValueError(f"{path} is not a comparison file written by exosieve.compare")
+    _require_layout(path)
     rows = int(read_int_attribute(path, "", "completed"))
     species = [str(name) for name in read_strings(path, "species")]
     times = np.asarray(read_doubles(path, "time"))
@@ -539,9 +592,26 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
     return Comparison(None, species, times, samples, config, path=path, rows=rows)
 
 
-# Variables that sweep files of earlier versions lack, and what such a file stands for where a
-# species ran: those versions had no given losses and did not record the thermal rate.
+# Variables that sweep files of this layout written before them lack, and what such a file
+# stands for where a species ran: no given losses, and the thermal rate not recorded.
 _ADDED_LATER: dict[str, float] = {"given_loss_rate_start": 0.0, "escape_rate_start": math.nan}
+
+
+def _require_layout(path: Path) -> None:
+    """Refuse a sweep file of an earlier layout (before ``Conventions``, whose ``case``
+    coordinate held row numbers), naming what to do."""
+    from .results import read_attribute
+
+    try:
+        layout = read_attribute(path, "", "Conventions")
+    except (OSError, ValueError):
+        layout = "none"
+    if layout != _core.RESULT_FILE_CONVENTIONS:
+        raise ValueError(
+            f"{path} is a sweep file of an earlier layout (Conventions {layout!r}, not "
+            f"{_core.RESULT_FILE_CONVENTIONS!r}); run the sweep again (with overwrite to "
+            "replace it)"
+        )
 
 
 def _read_variable(path: Path, name: str, rows: int, checked: bool = True) -> NDArray[Any]:
@@ -552,7 +622,7 @@ def _read_variable(path: Path, name: str, rows: int, checked: bool = True) -> ND
         # A species ran where its e-folding time is a number (NaN: absent, or not run).
         ran = ~np.isnan(_read_variable(path, "efolding_time", rows, checked))
         return np.where(ran, _ADDED_LATER[name], np.nan)
-    kind = "int" if name == "case" else None
+    kind = {"case": "str", "row": "int"}.get(name)
     for variable, dtype, *_ in _VARIABLES + _SAMPLE_VARIABLES + _INPUT_VARIABLES:
         if variable == name:
             kind = {str: "str", int: "int", float: "float"}[dtype]
@@ -644,7 +714,7 @@ def _check_values(
             f"{path} is damaged: dataset '{name}' has shape {values.shape}, expected "
             f"({rows} or more, {', '.join(map(str, shape))})"
         )
-    if name == "case":
+    if name == "row":
         bad = values[:rows] != np.arange(rows)
     elif name in _RANGES:
         low, high = _RANGES[name]
@@ -653,7 +723,7 @@ def _check_values(
         return
     if bad.any():
         where = tuple(int(i) for i in np.argwhere(bad)[0])
-        allowed = "the row numbers" if name == "case" else "[{}, {}]".format(*_RANGES[name])
+        allowed = "the row numbers" if name == "row" else "[{}, {}]".format(*_RANGES[name])
         value = values[:rows][where].item()
         raise _damaged(
             f"{path} is damaged: dataset '{name}' holds {value!r} at {where}, "
@@ -675,7 +745,8 @@ def check_ranges(
     if times is None:
         times = len(read_doubles(path, "time"))
     sizes = {"species": species, "time": times, "sample": samples, "input": inputs}
-    _check_values(path, "case", _read_variable(path, "case", rows, checked=False), rows, ())
+    _check_values(path, "row", _read_variable(path, "row", rows, checked=False), rows, ())
+    _read_variable(path, "case", rows)  # the labels: their string heaps are checked
     for name, _, dims, *_ in _variable_specs(samples, inputs):
         values = _read_variable(path, name, rows, checked=False)
         _check_values(path, name, values, rows, tuple(sizes[d] for d in dims))
@@ -735,14 +806,16 @@ def _create_file(
     from .results import ResultAppender, ResultWriter
 
     schema = ResultWriter(path, config)
-    schema.add_coordinate("species", list(species), long_name="species")
-    schema.add_coordinate(
-        "time", np.asarray(times, dtype=float), units="s", long_name="stellar age"
-    )
+    schema.set_attribute("Conventions", _core.RESULT_FILE_CONVENTIONS)
+    schema.label_cases(long_name=_COORDINATES["case"][1])
+    schema.add_coordinate("species", list(species), long_name=_COORDINATES["species"][1])
+    units, long_name = _COORDINATES["time"]
+    schema.add_coordinate("time", np.asarray(times, dtype=float), units=units, long_name=long_name)
     variables = list(_VARIABLES)
     if samples:
+        units, long_name = _COORDINATES["sample"]
         schema.add_coordinate(
-            "sample", np.arange(samples, dtype=np.int64), units="1", long_name="Monte Carlo sample"
+            "sample", np.arange(samples, dtype=np.int64), units=units, long_name=long_name
         )
         variables += _SAMPLE_VARIABLES
         if inputs:
@@ -757,7 +830,10 @@ def _create_file(
             variables += _INPUT_VARIABLES
     for name, dtype, dims, units, long_name in variables:
         schema.add_case_variable(name, dtype, dims, units=units, long_name=long_name)
-    schema.set_attribute("long_name", "row of the case table", dataset="case")
+    schema.set_attribute("long_name", _COORDINATES["row"][1], dataset="row")
+    for name, (values, meanings) in _FLAGS.items():
+        schema.set_attribute("flag_values", values, dataset=name)
+        schema.set_attribute("flag_meanings", meanings, dataset=name)
     return ResultAppender(schema)
 
 
@@ -907,7 +983,7 @@ class _MemorySink:
 
     def append(self, chunk: dict[str, Any]) -> None:
         self.chunks.append(chunk)
-        self.completed += len(chunk["case"])
+        self.completed += len(chunk["row"])
 
     @property
     def target(self) -> Any:
@@ -921,7 +997,7 @@ class _MemorySink:
         self, species: list[str], times: Any, samples: int, config: dict[str, Any]
     ) -> Comparison:
         inputs = len(config["options"].get("inputs", []))
-        names = ["case"] + [v[0] for v in _variable_specs(samples, inputs)]
+        names = ["case", "row"] + [v[0] for v in _variable_specs(samples, inputs)]
         data: dict[str, Any] = {}
         for name in names:
             parts = [chunk[name] for chunk in self.chunks]
@@ -933,8 +1009,8 @@ class _MemorySink:
 
 
 def _empty(name: str, s: int, t: int, n: int, k: int = 0) -> NDArray[Any]:
-    if name == "case":
-        return np.zeros(0, dtype=np.int64)
+    if name in ("case", "row"):
+        return np.zeros(0, dtype=object if name == "case" else np.int64)
     for variable, dtype, dims, *_ in _VARIABLES + _SAMPLE_VARIABLES + _INPUT_VARIABLES:
         if variable == name:
             shape = (0, *[{"species": s, "time": t, "sample": n, "input": k}[d] for d in dims])
@@ -964,6 +1040,7 @@ class _FileSink:
         existing = _existing_output(path)
         if existing is not None and not overwrite and existing[1] > 0:
             old, rows = existing
+            _require_layout(path)
             if _run_key(old) != _run_key(config):
                 what = (
                     "of another case table"
@@ -1423,7 +1500,7 @@ def _run_distributed(
             while next_row in finished:
                 block = finished.pop(next_row)
                 sink.append(block)
-                next_row += len(block["case"])
+                next_row += len(block["row"])
                 written += 1
                 if not every or written % every == 0:
                     bar.update(next_row)

@@ -5,6 +5,7 @@ isotope ratio for the initial inventory, run the demo."""
 from __future__ import annotations
 
 import argparse
+import os
 import signal
 import sys
 from pathlib import Path
@@ -108,7 +109,7 @@ def _print_hydrodynamic(result: Any, limit: int = 10) -> None:
     flagged = np.nonzero(np.asarray(result["hydrodynamic_unmodelled"]) == 1)[0]
     if not len(flagged):
         return
-    names, rows = result["case_name"], result["case"]
+    names, rows = result["case"], result["row"]
     lam = result["bulk_jeans_parameter_start"]
     print(
         f"{len(flagged)} case{'s start' if len(flagged) > 1 else ' starts'} with the bulk gas "
@@ -481,11 +482,14 @@ def _invert(args: argparse.Namespace) -> int:
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``exosieve`` command."""
+    from . import __version__
+
     parser = argparse.ArgumentParser(
         prog="exosieve",
         description="Thermal (Jeans) escape of planetary atmospheres: which planets keep which "
         "gases. SI units unless a column or option says otherwise.",
     )
+    parser.add_argument("--version", action="version", version=f"exosieve {__version__}")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
     sweep = commands.add_parser(
@@ -904,17 +908,45 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def main(argv: list[str] | None = None) -> int:
-    """Entry point of the ``exosieve`` command."""
-    args = build_parser().parse_args(argv)
+def _silence_stdout() -> None:
+    """Point standard output at /dev/null, so that the interpreter's final flush of what is
+    still buffered finds no closed pipe to complain about."""
     try:
-        return int(args.run(args))
-    except ValueError as err:
-        print(f"exosieve: error: {err}", file=sys.stderr)
-        return 2
-    except OSError as err:  # includes exosieve.FileError
-        print(f"exosieve: error: {err}", file=sys.stderr)
-        return 1
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):  # stdout is not a file (e.g. captured in-process)
+        pass
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``exosieve`` command.
+
+    Returns the exit status: 0 on success, 1 for a file error, 2 for bad input, 130 when a
+    sweep was interrupted, and 141 (128 + SIGPIPE, as for a program the signal ended) when
+    the reader of standard output went away, e.g. ``exosieve columns | head -1``; that case
+    prints nothing more.
+    """
+    try:
+        try:
+            args = build_parser().parse_args(argv)
+        except SystemExit:  # --help, --version and usage errors print before they exit
+            sys.stdout.flush()
+            raise
+        try:
+            status = int(args.run(args))
+        except BrokenPipeError:
+            raise
+        except ValueError as err:
+            print(f"exosieve: error: {err}", file=sys.stderr)
+            status = 2
+        except OSError as err:  # includes exosieve.FileError
+            print(f"exosieve: error: {err}", file=sys.stderr)
+            status = 1
+        sys.stdout.flush()  # a closed pipe shows here, not at the interpreter's exit
+        return status
+    except BrokenPipeError:
+        _silence_stdout()
+        return 128 + int(signal.SIGPIPE)
 
 
 if __name__ == "__main__":

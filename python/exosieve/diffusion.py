@@ -13,6 +13,8 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any, NamedTuple
 
+from numpy.typing import DTypeLike
+
 from . import _core
 from ._arrays import FloatOrArray, apply, to_si
 from .species import Species, species
@@ -67,7 +69,13 @@ def _method(method: str) -> str:
 
 
 def binary_diffusion_parameter(
-    species_a: SpeciesLike, species_b: SpeciesLike, temperature: Any, *, method: str = "measured"
+    species_a: SpeciesLike,
+    species_b: SpeciesLike,
+    temperature: Any,
+    *,
+    method: str = "measured",
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Binary diffusion parameter ``b = n D`` of a gas pair [m^-1 s^-1].
 
@@ -97,6 +105,8 @@ def binary_diffusion_parameter(
     return apply(
         lambda count, t: _core.binary_diffusion_parameter(count, a, b, t, how),
         [("temperature", temperature, "K")],
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -109,6 +119,8 @@ def diffusion_limited_flux(
     radius: Any,
     *,
     method: str = "measured",
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Diffusion-limited upward flux of a species through a background gas [m^-2 s^-1].
 
@@ -152,11 +164,20 @@ def diffusion_limited_flux(
             ("planet_mass", planet_mass, "kg"),
             ("radius", radius, "m"),
         ],
+        out=out,
+        dtype=dtype,
     )
 
 
 def coupled_escape_flux(
-    jeans_flux_eq: Any, diffusion_parameter: Any, mixing_ratio: Any, beta: Any, thickness: Any
+    jeans_flux_eq: Any,
+    diffusion_parameter: Any,
+    mixing_ratio: Any,
+    beta: Any,
+    thickness: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Escape flux limited by both diffusion and Jeans effusion [m^-2 s^-1].
 
@@ -193,6 +214,8 @@ def coupled_escape_flux(
             ("beta", beta, "m-1"),
             ("thickness", thickness, "m"),
         ],
+        out=out,
+        dtype=dtype,
     )
 
 

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import DTypeLike, NDArray
 
 from . import _core
 from ._arrays import FloatOrArray, apply, to_si
@@ -52,7 +52,7 @@ def _opacity(opacity: str) -> int:
     return _OPACITY[opacity]
 
 
-def core_radius(core_mass: Any) -> FloatOrArray:
+def core_radius(core_mass: Any, *, out: Any = None, dtype: DTypeLike | None = None) -> FloatOrArray:
     """Radius of an Earth-like rock/iron core ``R_E (M_core / M_E)^0.25`` [m] (the scaling of
     Lopez & Fortney 2014; from memory).
 
@@ -67,7 +67,7 @@ def core_radius(core_mass: Any) -> FloatOrArray:
     >>> round(core_radius(16 * c.M_EARTH) / c.R_EARTH, 12)
     2.0
     """
-    return apply(_core.core_radius, [("core_mass", core_mass, "kg")])
+    return apply(_core.core_radius, [("core_mass", core_mass, "kg")], out=out, dtype=dtype)
 
 
 def envelope_radius(
@@ -76,6 +76,9 @@ def envelope_radius(
     incident_flux: Any,
     age: Any,
     opacity: str = "solar",
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Thickness of an H/He envelope [m] (Lopez & Fortney 2014 fit, coefficients from memory).
 
@@ -108,6 +111,8 @@ def envelope_radius(
             ("age", age, "s"),
         ],
         _opacity(opacity),
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -117,6 +122,9 @@ def envelope_planet_radius(
     incident_flux: Any,
     age: Any,
     opacity: str = "solar",
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Radius of a core with an H/He envelope ``R_core + R_env`` [m], planet mass
     ``M_core / (1 - f_env)``.
@@ -150,6 +158,8 @@ def envelope_planet_radius(
             ("age", age, "s"),
         ],
         _opacity(opacity),
+        out=out,
+        dtype=dtype,
     )
 
 

@@ -2,7 +2,9 @@
 
 ``lambda = G M m / (k T r) = (v_esc / v0)^2`` and
 ``Phi_J = n v0 / (2 sqrt(pi)) (1 + lambda) exp(-lambda)`` [m^-2 s^-1]. All functions broadcast
-like numpy ufuncs, return a float for scalar input, and release the GIL while they compute.
+their arguments as numpy does, return a float for scalar input, take numpy's keyword-only
+``out=`` and ``dtype=``, give pandas, xarray and dask arguments back in their container (see the
+README), and release the GIL while they compute.
 The flux functions take an optional ``tail_depletion``: a constant factor, a
 ``(jeans_parameters, factors)`` table (linear in lambda, held at the ends), or a
 :class:`TailDepletion`. Factors are at most 1 (a depleted tail); a factor above 1 is an
@@ -14,6 +16,8 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from typing import Any
+
+from numpy.typing import DTypeLike
 
 from . import _core
 from ._arrays import FloatOrArray, apply, to_si
@@ -49,7 +53,9 @@ def _flux_args(
     ]
 
 
-def escape_speed(planet_mass: Any, radius: Any) -> FloatOrArray:
+def escape_speed(
+    planet_mass: Any, radius: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Escape speed ``sqrt(2 G M / r)`` [m s^-1].
 
     Parameters
@@ -65,10 +71,23 @@ def escape_speed(planet_mass: Any, radius: Any) -> FloatOrArray:
     >>> round(escape_speed(c.M_EARTH, c.R_EARTH))
     11180
     """
-    return apply(_core.escape_speed, [("planet_mass", planet_mass, "kg"), ("radius", radius, "m")])
+    return apply(
+        _core.escape_speed,
+        [("planet_mass", planet_mass, "kg"), ("radius", radius, "m")],
+        out=out,
+        dtype=dtype,
+    )
 
 
-def jeans_parameter(temperature: Any, mass: Any, planet_mass: Any, radius: Any) -> FloatOrArray:
+def jeans_parameter(
+    temperature: Any,
+    mass: Any,
+    planet_mass: Any,
+    radius: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
+) -> FloatOrArray:
     """Jeans parameter ``lambda = G M m / (k T r)`` [1]: escape energy over ``k T``.
 
     Parameters
@@ -88,7 +107,12 @@ def jeans_parameter(temperature: Any, mass: Any, planet_mass: Any, radius: Any) 
     >>> round(jeans_parameter(1000.0, "H", c.M_EARTH, c.R_EARTH + 500e3), 2)
     7.02
     """
-    return apply(_core.jeans_parameter, _flux_args(1.0, temperature, mass, planet_mass, radius)[1:])
+    return apply(
+        _core.jeans_parameter,
+        _flux_args(1.0, temperature, mass, planet_mass, radius)[1:],
+        out=out,
+        dtype=dtype,
+    )
 
 
 def jeans_flux(
@@ -98,6 +122,9 @@ def jeans_flux(
     planet_mass: Any,
     radius: Any,
     tail_depletion: TailLike = 1.0,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Jeans escape flux at the exobase [m^-2 s^-1].
 
@@ -120,6 +147,8 @@ def jeans_flux(
         _core.jeans_flux,
         _flux_args(density, temperature, mass, planet_mass, radius),
         _tail(tail_depletion),
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -130,6 +159,9 @@ def log_jeans_flux(
     planet_mass: Any,
     radius: Any,
     tail_depletion: TailLike = 1.0,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Natural log of :func:`jeans_flux` (of the flux in m^-2 s^-1); finite where it underflows.
 
@@ -143,6 +175,8 @@ def log_jeans_flux(
         _core.log_jeans_flux,
         _flux_args(density, temperature, mass, planet_mass, radius),
         _tail(tail_depletion),
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -153,6 +187,9 @@ def jeans_energy_flux(
     planet_mass: Any,
     radius: Any,
     tail_depletion: TailLike = 1.0,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Kinetic-energy flux carried away by escaping particles [W m^-2].
 
@@ -168,6 +205,8 @@ def jeans_energy_flux(
         _core.jeans_energy_flux,
         _flux_args(density, temperature, mass, planet_mass, radius),
         _tail(tail_depletion),
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -178,6 +217,9 @@ def jeans_escape_rate(
     planet_mass: Any,
     radius: Any,
     tail_depletion: TailLike = 1.0,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Global escape rate ``4 pi r^2 Phi_J`` [s^-1]; arguments as :func:`jeans_flux`.
 
@@ -191,6 +233,8 @@ def jeans_escape_rate(
         _core.jeans_escape_rate,
         _flux_args(density, temperature, mass, planet_mass, radius),
         _tail(tail_depletion),
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -201,6 +245,9 @@ def log_jeans_escape_rate(
     planet_mass: Any,
     radius: Any,
     tail_depletion: TailLike = 1.0,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Natural log of :func:`jeans_escape_rate` (of the rate in s^-1).
 
@@ -214,4 +261,6 @@ def log_jeans_escape_rate(
         _core.log_jeans_escape_rate,
         _flux_args(density, temperature, mass, planet_mass, radius),
         _tail(tail_depletion),
+        out=out,
+        dtype=dtype,
     )

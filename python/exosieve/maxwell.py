@@ -2,19 +2,24 @@
 
 With ``v0 = sqrt(2 k T / m)`` the most probable speed and ``x = v / v0`` the speed pdf is
 ``f(v) = 4/sqrt(pi) v^2 / v0^3 exp(-x^2)`` and the fraction faster than ``v`` is
-``erfc(x) + 2/sqrt(pi) x exp(-x^2)``. All functions broadcast like numpy ufuncs and return
-a float for scalar input.
+``erfc(x) + 2/sqrt(pi) x exp(-x^2)``. All functions broadcast their arguments as numpy does,
+return a float for scalar input, take numpy's keyword-only ``out=`` and ``dtype=``, and give
+pandas, xarray and dask arguments back in their container (see the README).
 """
 
 from __future__ import annotations
 
 from typing import Any
 
+from numpy.typing import DTypeLike
+
 from . import _core
 from ._arrays import FloatOrArray, apply
 
 
-def most_probable_speed(temperature: Any, mass: Any) -> FloatOrArray:
+def most_probable_speed(
+    temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Most probable speed ``v0 = sqrt(2 k T / m)`` [m s^-1].
 
     Parameters
@@ -30,11 +35,16 @@ def most_probable_speed(temperature: Any, mass: Any) -> FloatOrArray:
     4062
     """
     return apply(
-        _core.most_probable_speed, [("temperature", temperature, "K"), ("mass", mass, "kg")]
+        _core.most_probable_speed,
+        [("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
     )
 
 
-def mean_speed(temperature: Any, mass: Any) -> FloatOrArray:
+def mean_speed(
+    temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Mean speed ``2 v0 / sqrt(pi)`` [m s^-1]; arguments as :func:`most_probable_speed`.
 
     Examples
@@ -42,10 +52,17 @@ def mean_speed(temperature: Any, mass: Any) -> FloatOrArray:
     >>> round(mean_speed(300.0, "N2"))
     476
     """
-    return apply(_core.mean_speed, [("temperature", temperature, "K"), ("mass", mass, "kg")])
+    return apply(
+        _core.mean_speed,
+        [("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
+    )
 
 
-def rms_speed(temperature: Any, mass: Any) -> FloatOrArray:
+def rms_speed(
+    temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Root-mean-square speed ``sqrt(3/2) v0`` [m s^-1]; arguments as :func:`most_probable_speed`.
 
     Examples
@@ -53,10 +70,17 @@ def rms_speed(temperature: Any, mass: Any) -> FloatOrArray:
     >>> round(rms_speed(300.0, "N2"))
     517
     """
-    return apply(_core.rms_speed, [("temperature", temperature, "K"), ("mass", mass, "kg")])
+    return apply(
+        _core.rms_speed,
+        [("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
+    )
 
 
-def speed_pdf(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
+def speed_pdf(
+    speed: Any, temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Probability density of the particle speed [s m^-1].
 
     Parameters
@@ -78,10 +102,14 @@ def speed_pdf(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
     return apply(
         _core.speed_pdf,
         [("speed", speed, "m/s"), ("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
     )
 
 
-def fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
+def fraction_faster(
+    speed: Any, temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Fraction of particles faster than ``speed`` [1]; no cancellation in the deep tail.
 
     Arguments as :func:`speed_pdf`.
@@ -94,10 +122,14 @@ def fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
     return apply(
         _core.fraction_faster,
         [("speed", speed, "m/s"), ("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
     )
 
 
-def log_fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray:
+def log_fraction_faster(
+    speed: Any, temperature: Any, mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Natural log of :func:`fraction_faster`; finite where the fraction underflows to 0.
 
     Examples
@@ -108,4 +140,6 @@ def log_fraction_faster(speed: Any, temperature: Any, mass: Any) -> FloatOrArray
     return apply(
         _core.log_fraction_faster,
         [("speed", speed, "m/s"), ("temperature", temperature, "K"), ("mass", mass, "kg")],
+        out=out,
+        dtype=dtype,
     )

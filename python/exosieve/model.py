@@ -12,10 +12,10 @@ from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
+from numpy.typing import ArrayLike, DTypeLike, NDArray
 
 from . import _core
-from ._arrays import FloatOrArray, to_si
+from ._arrays import FloatOrArray, apply, to_si
 
 __all__ = [
     "Star",
@@ -787,19 +787,49 @@ def classify_regime(jeans_parameter: Any, thresholds: Any = None) -> Any:
     return int(codes) if lam.ndim == 0 else codes
 
 
-def roche_lobe_ratio(planet_mass: Any, star_mass: Any, semi_major_axis: Any, radius: Any) -> float:
-    """``xi = a (M_p / (3 M_star))^(1/3) / R_p`` [1] (Erkaev et al. 2007)."""
-    return float(
-        _core.roche_lobe_ratio(
-            _scalar(planet_mass, "planet_mass", "kg"),
-            _scalar(star_mass, "star_mass", "kg"),
-            _scalar(semi_major_axis, "semi_major_axis", "m"),
-            _scalar(radius, "radius", "m"),
-        )
+def roche_lobe_ratio(
+    planet_mass: Any,
+    star_mass: Any,
+    semi_major_axis: Any,
+    radius: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
+) -> FloatOrArray:
+    """``xi = a (M_p / (3 M_star))^(1/3) / R_p`` [1] (Erkaev et al. 2007).
+
+    Parameters
+    ----------
+    planet_mass, star_mass : float or array_like
+        Masses of the planet and of its star [kg].
+    semi_major_axis : float or array_like
+        Orbital distance [m].
+    radius : float or array_like
+        Planet radius [m].
+
+    Arguments broadcast against each other like numpy arrays (as all array functions do).
+
+    Examples
+    --------
+    >>> from exosieve import constants as c
+    >>> round(roche_lobe_ratio(c.M_EARTH, c.M_SUN, c.AU, c.R_EARTH), 1)
+    234.6
+    """
+    return apply(
+        _core.roche_lobe_ratio,
+        [
+            ("planet_mass", planet_mass, "kg"),
+            ("star_mass", star_mass, "kg"),
+            ("semi_major_axis", semi_major_axis, "m"),
+            ("radius", radius, "m"),
+        ],
+        species_argument=None,
+        out=out,
+        dtype=dtype,
     )
 
 
-def roche_lobe_factor(xi: Any) -> FloatOrArray:
+def roche_lobe_factor(xi: Any, *, out: Any = None, dtype: DTypeLike | None = None) -> FloatOrArray:
     """Roche-lobe factor ``K(xi) = 1 - 3/(2 xi) + 1/(2 xi^3)`` [1] (Erkaev et al. 2007), xi > 1.
 
     Examples
@@ -807,35 +837,65 @@ def roche_lobe_factor(xi: Any) -> FloatOrArray:
     >>> roche_lobe_factor(2.0)
     0.3125
     """
-    return _map(_core.roche_lobe_factor, xi, "xi", "1")
+    return apply(
+        lambda count, x: _core.roche_lobe_factor(x),
+        [("xi", xi, "1")],
+        species_argument=None,
+        out=out,
+        dtype=dtype,
+    )
 
 
 def energy_limited_mass_loss(
-    efficiency: float,
+    efficiency: Any,
     planet_radius: Any,
     xuv_radius: Any,
     xuv_flux: Any,
     planet_mass: Any,
-    roche_factor: float = 1.0,
-) -> float:
+    roche_factor: Any = 1.0,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
+) -> FloatOrArray:
     """Energy-limited mass-loss rate ``eta pi R_p R_xuv^2 F_xuv / (G M_p K)`` [kg s^-1]
     (Watson et al. 1981; Erkaev et al. 2007).
+
+    Parameters
+    ----------
+    efficiency : float or array_like
+        Heating efficiency ``eta`` [1], in (0, 1].
+    planet_radius, xuv_radius : float or array_like
+        Planet radius and the radius where the XUV is absorbed [m].
+    xuv_flux : float or array_like
+        XUV flux at the planet [W m^-2].
+    planet_mass : float or array_like
+        Planet mass [kg].
+    roche_factor : float or array_like, optional
+        Roche-lobe factor ``K`` [1], in (0, 1] (default 1: no correction).
+
+    Arguments broadcast against each other like numpy arrays.
 
     Examples
     --------
     >>> from exosieve import constants as c
     >>> f"{energy_limited_mass_loss(0.15, 2 * c.R_EARTH, 2 * c.R_EARTH, 10.0, 5 * c.M_EARTH):.4e}"
     '4.9079e+06'
+    >>> energy_limited_mass_loss(0.15, c.R_EARTH, c.R_EARTH, [1.0, 10.0], c.M_EARTH).shape
+    (2,)
     """
-    return float(
-        _core.energy_limited_mass_loss(
-            _scalar(efficiency, "efficiency", "1"),
-            _scalar(planet_radius, "planet_radius", "m"),
-            _scalar(xuv_radius, "xuv_radius", "m"),
-            _scalar(xuv_flux, "xuv_flux", "W m-2"),
-            _scalar(planet_mass, "planet_mass", "kg"),
-            _scalar(roche_factor, "roche_factor", "1"),
-        )
+    return apply(
+        _core.energy_limited_mass_loss,
+        [
+            ("efficiency", efficiency, "1"),
+            ("planet_radius", planet_radius, "m"),
+            ("xuv_radius", xuv_radius, "m"),
+            ("xuv_flux", xuv_flux, "W m-2"),
+            ("planet_mass", planet_mass, "kg"),
+            ("roche_factor", roche_factor, "1"),
+        ],
+        species_argument=None,
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -845,40 +905,96 @@ def crossover_mass(
     light_flux: Any,
     diffusion_parameter: Any,
     gravity: Any,
-    light_mole_fraction: float,
-) -> float:
-    """Crossover mass ``m_1 + k T F_1 / (b g x_1)`` [kg] (Hunten, Pepin & Walker 1987)."""
-    return float(
-        _core.crossover_mass(
-            _scalar(light_mass, "light_mass", "kg"),
-            _scalar(temperature, "temperature", "K"),
-            _scalar(light_flux, "light_flux", "m-2 s-1"),
-            _scalar(diffusion_parameter, "diffusion_parameter", "m-1 s-1"),
-            _scalar(gravity, "gravity", "m s-2"),
-            _scalar(light_mole_fraction, "light_mole_fraction", "1"),
-        )
+    light_mole_fraction: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
+) -> FloatOrArray:
+    """Crossover mass ``m_1 + k T F_1 / (b g x_1)`` [kg] (Hunten, Pepin & Walker 1987).
+
+    Parameters
+    ----------
+    light_mass : float or array_like
+        Mass of the escaping light species [kg].
+    temperature : float or array_like
+        Temperature [K].
+    light_flux : float or array_like
+        Escape flux of the light species [m^-2 s^-1].
+    diffusion_parameter : float or array_like
+        Binary diffusion parameter ``b`` of the heavy species in the light one [m^-1 s^-1].
+    gravity : float or array_like
+        Gravitational acceleration [m s^-2].
+    light_mole_fraction : float or array_like
+        Mole fraction of the light species [1].
+
+    Arguments broadcast against each other like numpy arrays.
+
+    Examples
+    --------
+    >>> from exosieve.constants import AMU
+    >>> bool(crossover_mass(AMU, 1000.0, [0.0, 1e16], 1e21, 9.8, 0.5)[0] == AMU)
+    True
+    """
+    return apply(
+        _core.crossover_mass,
+        [
+            ("light_mass", light_mass, "kg"),
+            ("temperature", temperature, "K"),
+            ("light_flux", light_flux, "m-2 s-1"),
+            ("diffusion_parameter", diffusion_parameter, "m-1 s-1"),
+            ("gravity", gravity, "m s-2"),
+            ("light_mole_fraction", light_mole_fraction, "1"),
+        ],
+        species_argument=None,
+        out=out,
+        dtype=dtype,
     )
 
 
 def dragged_flux(
     mass: Any,
-    mole_fraction: float,
+    mole_fraction: Any,
     light_mass: Any,
     light_flux: Any,
-    light_mole_fraction: float,
+    light_mole_fraction: Any,
     crossover_mass: Any,
-) -> float:
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
+) -> FloatOrArray:
     """Flux of a species dragged by the light one [m^-2 s^-1] (Hunten, Pepin & Walker 1987):
-    ``(x_i/x_1) F_1 (m_c - m_i)/(m_c - m_1)`` below the crossover mass, else 0."""
-    return float(
-        _core.dragged_flux(
-            _scalar(mass, "mass", "kg"),
-            _scalar(mole_fraction, "mole_fraction", "1"),
-            _scalar(light_mass, "light_mass", "kg"),
-            _scalar(light_flux, "light_flux", "m-2 s-1"),
-            _scalar(light_mole_fraction, "light_mole_fraction", "1"),
-            _scalar(crossover_mass, "crossover_mass", "kg"),
-        )
+    ``(x_i/x_1) F_1 (m_c - m_i)/(m_c - m_1)`` below the crossover mass, else 0.
+
+    Parameters
+    ----------
+    mass, mole_fraction : float or array_like
+        Mass [kg] and mole fraction [1] of the dragged species.
+    light_mass, light_flux, light_mole_fraction : float or array_like
+        Mass [kg], escape flux [m^-2 s^-1] and mole fraction [1] of the light species.
+    crossover_mass : float or array_like
+        Crossover mass [kg] (:func:`crossover_mass`).
+
+    Arguments broadcast against each other like numpy arrays.
+
+    Examples
+    --------
+    >>> from exosieve.constants import AMU
+    >>> [f"{f:.4e}" for f in dragged_flux([2 * AMU, 20 * AMU], 0.1, AMU, 1e12, 0.5, 10 * AMU)]
+    ['1.7778e+11', '0.0000e+00']
+    """
+    return apply(
+        _core.dragged_flux,
+        [
+            ("mass", mass, "kg"),
+            ("mole_fraction", mole_fraction, "1"),
+            ("light_mass", light_mass, "kg"),
+            ("light_flux", light_flux, "m-2 s-1"),
+            ("light_mole_fraction", light_mole_fraction, "1"),
+            ("crossover_mass", crossover_mass, "kg"),
+        ],
+        species_argument=None,
+        out=out,
+        dtype=dtype,
     )
 
 

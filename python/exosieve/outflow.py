@@ -27,6 +27,8 @@ from __future__ import annotations
 
 from typing import Any
 
+from numpy.typing import DTypeLike
+
 from . import _core
 from ._arrays import FloatOrArray, apply
 
@@ -61,7 +63,9 @@ RECOMBINATION_COEFFICIENT: float = float(_core.RECOMBINATION_COEFFICIENT)
 RECOMBINATION_PHOTON_ENERGY: float = float(_core.RECOMBINATION_PHOTON_ENERGY)
 
 
-def lambert_w(x: Any, branch: int = 0) -> FloatOrArray:
+def lambert_w(
+    x: Any, branch: int = 0, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Real branches of the Lambert W function: the solution ``w`` of ``w e^w = x`` [1].
 
     Parameters
@@ -80,10 +84,12 @@ def lambert_w(x: Any, branch: int = 0) -> FloatOrArray:
     """
     if isinstance(branch, bool) or not isinstance(branch, int) or branch not in (0, -1):
         raise ValueError(f"branch must be 0 or -1, got {branch!r}")
-    return apply(_core.lambert_w, [("x", x, "1")], branch)
+    return apply(_core.lambert_w, [("x", x, "1")], branch, out=out, dtype=dtype)
 
 
-def isothermal_sound_speed(temperature: Any, mean_molecular_mass: Any) -> FloatOrArray:
+def isothermal_sound_speed(
+    temperature: Any, mean_molecular_mass: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Isothermal sound speed ``sqrt(k T / m)`` [m s^-1].
 
     Parameters
@@ -101,10 +107,19 @@ def isothermal_sound_speed(temperature: Any, mean_molecular_mass: Any) -> FloatO
     return apply(
         _core.isothermal_sound_speed,
         [("temperature", temperature, "K"), ("mean_molecular_mass", mean_molecular_mass, "kg")],
+        out=out,
+        dtype=dtype,
     )
 
 
-def sonic_radius(temperature: Any, mean_molecular_mass: Any, planet_mass: Any) -> FloatOrArray:
+def sonic_radius(
+    temperature: Any,
+    mean_molecular_mass: Any,
+    planet_mass: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
+) -> FloatOrArray:
     """Sonic radius of the isothermal wind ``r_s = G M / (2 c_s^2)`` [m].
 
     Parameters
@@ -129,10 +144,14 @@ def sonic_radius(temperature: Any, mean_molecular_mass: Any, planet_mass: Any) -
             ("mean_molecular_mass", mean_molecular_mass, "kg"),
             ("planet_mass", planet_mass, "kg"),
         ],
+        out=out,
+        dtype=dtype,
     )
 
 
-def parker_mach_number(radius_ratio: Any) -> FloatOrArray:
+def parker_mach_number(
+    radius_ratio: Any, *, out: Any = None, dtype: DTypeLike | None = None
+) -> FloatOrArray:
     """Mach number ``u = v / c_s`` of the transonic isothermal wind at ``x = r / r_s`` [1].
 
     ``u^2 = -W_0(-D)`` for ``x <= 1`` and ``-W_-1(-D)`` for ``x > 1``,
@@ -150,7 +169,9 @@ def parker_mach_number(radius_ratio: Any) -> FloatOrArray:
     >>> round(parker_mach_number(10.0), 6)
     2.963643
     """
-    return apply(_core.parker_mach_number, [("radius_ratio", radius_ratio, "1")])
+    return apply(
+        _core.parker_mach_number, [("radius_ratio", radius_ratio, "1")], out=out, dtype=dtype
+    )
 
 
 def _wind_args(temperature: Any, mean_molecular_mass: Any, planet_mass: Any) -> list[Any]:
@@ -162,7 +183,13 @@ def _wind_args(temperature: Any, mean_molecular_mass: Any, planet_mass: Any) -> 
 
 
 def parker_wind_speed(
-    radius: Any, temperature: Any, mean_molecular_mass: Any, planet_mass: Any
+    radius: Any,
+    temperature: Any,
+    mean_molecular_mass: Any,
+    planet_mass: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Speed of the transonic isothermal wind [m s^-1] at ``radius``.
 
@@ -187,6 +214,8 @@ def parker_wind_speed(
     return apply(
         _core.parker_wind_speed,
         [("radius", radius, "m"), *_wind_args(temperature, mean_molecular_mass, planet_mass)],
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -197,6 +226,9 @@ def parker_density(
     temperature: Any,
     mean_molecular_mass: Any,
     planet_mass: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Number density of the transonic wind [m^-3] at ``radius``, from ``n r^2 v`` constant.
 
@@ -226,6 +258,8 @@ def parker_density(
             ("base_density", base_density, "m-3"),
             *_wind_args(temperature, mean_molecular_mass, planet_mass),
         ],
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -235,6 +269,9 @@ def parker_mass_loss(
     temperature: Any,
     mean_molecular_mass: Any,
     planet_mass: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Mass-loss rate of the transonic isothermal wind ``4 pi r0^2 n0 m v(r0)`` [kg s^-1].
 
@@ -267,6 +304,8 @@ def parker_mass_loss(
             ("base_density", base_density, "m-3"),
             *_wind_args(temperature, mean_molecular_mass, planet_mass),
         ],
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -287,6 +326,9 @@ def recombination_limited_mass_loss(
     temperature: Any = RECOMBINATION_TEMPERATURE,
     recombination_coefficient: Any = RECOMBINATION_COEFFICIENT,
     photon_energy: Any = RECOMBINATION_PHOTON_ENERGY,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Recombination-limited mass-loss rate [kg s^-1] (Murray-Clay, Chiang & Murray 2009).
 
@@ -327,6 +369,8 @@ def recombination_limited_mass_loss(
             ("planet_radius", planet_radius, "m"),
             *_recombination_args(temperature, recombination_coefficient, photon_energy),
         ],
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -340,6 +384,9 @@ def xuv_driven_mass_loss(
     temperature: Any = RECOMBINATION_TEMPERATURE,
     recombination_coefficient: Any = RECOMBINATION_COEFFICIENT,
     photon_energy: Any = RECOMBINATION_PHOTON_ENERGY,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """XUV-driven mass-loss rate [kg s^-1]: the smaller of the energy-limited and the
     recombination-limited rates (Murray-Clay, Chiang & Murray 2009).
@@ -383,6 +430,8 @@ def xuv_driven_mass_loss(
             ("roche_factor", roche_factor, "1"),
             *_recombination_args(temperature, recombination_coefficient, photon_energy),
         ],
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -395,6 +444,9 @@ def recombination_transition_flux(
     temperature: Any = RECOMBINATION_TEMPERATURE,
     recombination_coefficient: Any = RECOMBINATION_COEFFICIENT,
     photon_energy: Any = RECOMBINATION_PHOTON_ENERGY,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """XUV flux [W m^-2] at which the energy-limited and recombination-limited rates are equal.
 
@@ -416,11 +468,19 @@ def recombination_transition_flux(
             ("roche_factor", roche_factor, "1"),
             *_recombination_args(temperature, recombination_coefficient, photon_energy),
         ],
+        out=out,
+        dtype=dtype,
     )
 
 
 def scale_height(
-    temperature: Any, mean_molecular_mass: Any, planet_mass: Any, radius: Any
+    temperature: Any,
+    mean_molecular_mass: Any,
+    planet_mass: Any,
+    radius: Any,
+    *,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Pressure scale height ``k T r^2 / (m G M)`` [m] of an isothermal atmosphere.
 
@@ -449,6 +509,8 @@ def scale_height(
             ("planet_mass", planet_mass, "kg"),
             ("radius", radius, "m"),
         ],
+        out=out,
+        dtype=dtype,
     )
 
 
@@ -459,6 +521,8 @@ def xuv_absorption_radius(
     cross_section: Any,
     *,
     chord: bool = False,
+    out: Any = None,
+    dtype: DTypeLike | None = None,
 ) -> FloatOrArray:
     """Radius [m] where the XUV optical depth of an exponential atmosphere is one.
 
@@ -500,4 +564,6 @@ def xuv_absorption_radius(
             ("cross_section", cross_section, "m2"),
         ],
         chord,
+        out=out,
+        dtype=dtype,
     )

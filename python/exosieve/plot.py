@@ -192,7 +192,7 @@ def retention_chart(
             ax.plot(v, mass * (v * 1e3) ** 2 / (2.0 * K_B * value), color="0.35", ls=style, lw=1)
         here = ok & present[:, j]
         failed = int((~ok & present[:, j]).sum())
-        rows_here = comparison["case"][here]
+        rows_here = comparison["row"][here]
         keys = [(int(r), name) for r in rows_here]
         kept = index.loc[keys, "retained"].to_numpy(dtype=bool) if keys else np.zeros(0, bool)
         if with_samples and keys:
@@ -223,7 +223,7 @@ def retention_chart(
                 zorder=3,
             )
         if here.sum() <= 20:
-            for label, xi, yi in zip(np.asarray(comparison["case_name"])[here], x, y, strict=True):
+            for label, xi, yi in zip(np.asarray(comparison["case"])[here], x, y, strict=True):
                 ax.annotate(
                     str(label),
                     (xi, yi),
@@ -425,7 +425,7 @@ def retention_intervals(comparison: Any, gas: str, ax: Any = None) -> Any:
         raise ValueError(f"gas {gas!r} is not in the comparison (have {comparison.species})")
     ax = _axes(ax)
     j = comparison.species.index(gas)
-    names = [str(n) for n in comparison["case_name"]]
+    names = [str(n) for n in comparison["case"]]
     samples = np.asarray(comparison["sample_retained_fraction"], dtype=float)[:, :, j]
     nominal = np.asarray(comparison["final_retained_fraction"], dtype=float)[:, j]
     floor = 1e-30  # retained fractions below this are drawn at the axis floor

@@ -61,7 +61,11 @@ VARIABLES: dict[str, tuple[str, str]] = {
     "core_mass": ("kg", "core mass"),
     "stripping_time": ("s", "stellar age when the envelope is gone (NaN: not stripped)"),
 }
-REGIME_FLAGS = {"flag_values": "0 1 2 3", "flag_meanings": " ".join(REGIMES)}
+#: CF flags of ``regime``: its codes (int64, the variable's type) and one word per code.
+REGIME_FLAGS: dict[str, Any] = {
+    "flag_values": np.arange(len(REGIMES), dtype=np.int64),
+    "flag_meanings": " ".join(REGIMES),
+}
 
 
 class PerName(Mapping[str, Any]):
@@ -364,6 +368,7 @@ class EvolutionResult:
             data,
             coords=coords,
             attrs={
+                "Conventions": _core.RESULT_FILE_CONVENTIONS,
                 "config": self.config_json,
                 "regime_changes": f["regime_changes"],
                 "exosieve_version": str(self.config.get("version", "")),
@@ -373,7 +378,25 @@ class EvolutionResult:
 
     def to_pandas(self) -> Any:
         """A ``pandas.DataFrame`` indexed by time [s] with (quantity, species) columns;
-        per-time quantities have an empty species label."""
+        per-time quantities have an empty species label.
+
+        Units follow the convention of :attr:`exosieve.Comparison.summary`:
+        ``frame.attrs["units"]`` maps each quantity (and the index, ``"time"``) to its unit
+        string, as in the result file's ``units`` attributes; ``frame.attrs["long_names"]``
+        gives their descriptions. pandas keeps ``attrs`` through most operations on the frame
+        (selections, arithmetic) but drops them where frames with different ``attrs`` are
+        combined (``pd.concat``, ``merge``).
+
+        Examples
+        --------
+        >>> import exosieve
+        >>> from exosieve import constants as c
+        >>> planet = exosieve.Planet(c.M_EARTH, c.R_EARTH)
+        >>> exo = exosieve.PrescribedExobase(c.R_EARTH + 500e3, 1000.0, {"H": 1e11})
+        >>> frame = exosieve.evolve(planet, exo, {"H": 1e40}, (0.0, c.GYR)).to_pandas()
+        >>> frame.attrs["units"]["escape_rate"], frame.attrs["units"]["time"]
+        ('s-1', 's')
+        """
         import pandas as pd
 
         columns: dict[tuple[str, str], Any] = {}
@@ -390,6 +413,10 @@ class EvolutionResult:
                 columns[(name, "")] = getattr(self, name)
         frame = pd.DataFrame(columns, index=pd.Index(self.time, name="time"))
         frame.columns = pd.MultiIndex.from_tuples(frame.columns, names=["quantity", "species"])
+        quantities = ["time", *dict.fromkeys(frame.columns.get_level_values("quantity"))]
+        described = {"time": ("s", "time (stellar age)"), **VARIABLES}
+        frame.attrs["units"] = {q: described[q][0] for q in quantities}
+        frame.attrs["long_names"] = {q: described[q][1] for q in quantities}
         return frame
 
 

@@ -389,6 +389,47 @@ TEST_CASE("hdf5_io: append blocks, reopen, continue") {
     CHECK(cases[307] == 1001);
 }
 
+TEST_CASE("hdf5_io: text case labels, row numbers beside them, and int64 attributes") {
+    TempDir dir;
+    const std::string path = dir.file("labelled.h5");
+    {
+        ResultWriter w(path, R"({"sweep": "labels"})");
+        w.label_cases("planet name");
+        w.add_coordinate("species", species_names, "species name");
+        w.add_case_variable("regime", ValueType::int64, {}, "1", "escape regime code");
+        CHECK_THROWS_WITH_AS(w.label_cases("too late"), doctest::Contains("before the first"),
+                             InputError);
+        CHECK_THROWS_AS(w.add_case_variable("row", ValueType::int64, {}, "1", "x"), InputError);
+        w.set_attribute("regime", "flag_values", std::vector<std::int64_t>{0, 1, 2, 3});
+        w.set_attribute("regime", "flag_meanings", "a b c d");
+        CHECK_THROWS_AS(w.set_attribute("regime", "flag_values", std::vector<std::int64_t>{}),
+                        InputError);
+        ResultAppender a(std::move(w));
+        CHECK(a.case_variables() == std::vector<std::string>{"case", "regime", "row"});
+        RowBlock block(3);
+        block.set("regime", std::vector<std::int64_t>{2, 0, 3});
+        std::string m = message_of([&] { a.append(block); });
+        CHECK(contains(m, "lacks case variable 'case' (the case labels)"));
+        block.set("case", std::vector<std::string>{"Vesk b", "Ondra", "Vesk b"});
+        a.append(block); // row is numbered as an unlabelled case would be
+    }
+    {
+        ResultAppender a(path); // reopened: still labelled
+        RowBlock block(1);
+        block.set("regime", std::vector<std::int64_t>{1});
+        block.set("case", std::vector<std::string>{"Tarn"});
+        a.append(block);
+    }
+    CHECK(read_strings(path, "case") ==
+          std::vector<std::string>{"Vesk b", "Ondra", "Vesk b", "Tarn"});
+    CHECK(read_int64s(path, "row") == std::vector<std::int64_t>{0, 1, 2, 3});
+    CHECK(read_int64s(path, "regime") == std::vector<std::int64_t>{2, 0, 3, 1});
+    CHECK(read_dimensions(path, "row") == std::vector<std::string>{"case"});
+    CHECK(read_dimensions(path, "regime") == std::vector<std::string>{"case"});
+    CHECK(read_attribute(path, "case", "long_name") == "planet name");
+    CHECK(read_attribute(path, "regime", "flag_meanings") == "a b c d");
+}
+
 TEST_CASE("hdf5_io: a malformed row block is refused before anything is written") {
     TempDir dir;
     const std::string path = dir.file("sweep.h5");

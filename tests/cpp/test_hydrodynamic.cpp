@@ -132,3 +132,46 @@ TEST_CASE("sharing an energy-limited mass loss conserves mass and matches the HP
     CHECK(rates[0] == doctest::Approx(1e6 / mass[0]).epsilon(1e-15));
     CHECK(rates[1] == 0.0);
 }
+
+TEST_CASE("array forms of the hydrodynamic helpers: the scalar forms element by element") {
+    // Invented planets: the array form of each helper gives, for every element, exactly what
+    // the scalar form gives, with length-1 arguments broadcast.
+    const double Mp[] = {0.5 * constants::M_earth, constants::M_earth, 5 * constants::M_earth};
+    const double Rp[] = {0.8 * constants::R_earth, constants::R_earth, 2 * constants::R_earth};
+    const double Ms = constants::M_sun, a = constants::au, eta = 0.15, F = 10.0, K = 0.5;
+    double out[3];
+    roche_lobe_ratio(ArrayArg{Mp, 3}, ArrayArg{&Ms, 1}, ArrayArg{&a, 1}, ArrayArg{Rp, 3}, out, 3);
+    for (int i = 0; i < 3; ++i)
+        CHECK(out[i] == roche_lobe_ratio(Mp[i], Ms, a, Rp[i]));
+    energy_limited_mass_loss(ArrayArg{&eta, 1}, ArrayArg{Rp, 3}, ArrayArg{Rp, 3}, ArrayArg{&F, 1},
+                             ArrayArg{Mp, 3}, ArrayArg{&K, 1}, out, 3);
+    for (int i = 0; i < 3; ++i)
+        CHECK(out[i] == energy_limited_mass_loss(eta, Rp[i], Rp[i], F, Mp[i], K));
+    const double m1 = 1.008 * amu, T = 1000.0, b = 1e21, g = 9.8, x1 = 0.9;
+    const double F1[] = {0.0, 1e14, 1e16};
+    crossover_mass(ArrayArg{&m1, 1}, ArrayArg{&T, 1}, ArrayArg{F1, 3}, ArrayArg{&b, 1},
+                   ArrayArg{&g, 1}, ArrayArg{&x1, 1}, out, 3);
+    for (int i = 0; i < 3; ++i)
+        CHECK(out[i] == crossover_mass(m1, T, F1[i], b, g, x1));
+    const double mass[] = {2 * amu, 4 * amu, 40 * amu}, x = 0.05, mc = 10 * amu, f = 1e16;
+    dragged_flux(ArrayArg{mass, 3}, ArrayArg{&x, 1}, ArrayArg{&m1, 1}, ArrayArg{&f, 1},
+                 ArrayArg{&x1, 1}, ArrayArg{&mc, 1}, out, 3);
+    for (int i = 0; i < 3; ++i)
+        CHECK(out[i] == dragged_flux(mass[i], x, m1, f, x1, mc));
+    CHECK(out[2] == 0.0); // heavier than the crossover mass: not dragged
+    // A bad element is named, with its index, before anything is computed.
+    const double efficiencies[] = {0.1, 0.2, 1.5};
+    CHECK_THROWS_WITH_AS(
+        energy_limited_mass_loss(ArrayArg{efficiencies, 3}, ArrayArg{Rp, 3}, ArrayArg{Rp, 3},
+                                 ArrayArg{&F, 1}, ArrayArg{Mp, 3}, ArrayArg{&K, 1}, out, 3),
+        doctest::Contains("efficiency must be <= 1, got 1.5 (element 2)"), InputError);
+    const double fractions[] = {0.5, -0.5, 0.2};
+    CHECK_THROWS_WITH_AS(dragged_flux(ArrayArg{mass, 3}, ArrayArg{fractions, 3}, ArrayArg{&m1, 1},
+                                      ArrayArg{&f, 1}, ArrayArg{&x1, 1}, ArrayArg{&mc, 1}, out, 3),
+                         doctest::Contains("mole_fraction must be finite and >= 0, got -0.5 "
+                                           "(element 1)"),
+                         InputError);
+    CHECK_THROWS_AS(roche_lobe_ratio(ArrayArg{Mp, 3}, ArrayArg{&Ms, 1}, ArrayArg{&a, 1},
+                                     ArrayArg{Rp, 2}, out, 3),
+                    InputError); // lengths that do not broadcast
+}

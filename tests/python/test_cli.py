@@ -1,5 +1,6 @@
 """The command line: the demo runs, prints a table and writes a file xarray opens."""
 
+import os
 import signal
 import subprocess
 import sys
@@ -28,7 +29,7 @@ def test_demo_writes_table_file_and_chart(tmp_path, capsys):
     assert chart.stat().st_size > 10_000
     table = read_case_table(demo_catalogue_path())
     with xr.open_dataset(out, engine="h5netcdf") as ds:
-        assert list(ds.case_name.values) == table.names
+        assert list(ds.case.values) == table.names
         assert ds.sizes["sample"] == 10
         for name in ds.data_vars:
             assert "units" in ds[name].attrs and ds[name].attrs["long_name"], name
@@ -163,3 +164,55 @@ def test_interrupted_sweep_resumes_to_the_same_file(tmp_path, sig):
         else:
             assert np.array_equal(x, y, equal_nan=x.dtype.kind == "f"), name
     assert a.config == b.config
+
+
+# --- conventions of a command-line tool ---------------------------------------------------------
+
+
+def test_version_and_python_dash_m():
+    for command in ([sys.executable, "-m", "exosieve", "--version"], ["--version"]):
+        if command == ["--version"]:
+            with pytest.raises(SystemExit) as stop:
+                main(command)
+            assert stop.value.code == 0
+            continue
+        child = subprocess.run(command, capture_output=True, text=True)
+        assert child.returncode == 0, child.stderr
+        assert child.stdout == f"exosieve {exosieve.__version__}\n"
+    # python -m exosieve is the same command as the console script
+    child = subprocess.run([sys.executable, "-m", "exosieve", "columns"], capture_output=True)
+    assert child.returncode == 0 and b"Template:" in child.stdout
+
+
+@pytest.mark.parametrize(
+    ("argv", "status"),
+    [
+        (["columns"], 128 + signal.SIGPIPE),  # as for a program that SIGPIPE ended
+        (["summary", "no-such.h5"], 2),  # bad input: its error goes to stderr as without a pipe
+        (["--version"], 0),  # argparse ignores the failed write of --version and --help
+        (["summary", "--help"], 0),
+    ],
+)
+def test_a_closed_pipe_ends_the_command_quietly(argv, status):
+    # Like `exosieve columns | head -1` after head has gone: the reading end is closed before
+    # the command writes anything, so every write fails (no timing involved).
+    read_end, write_end = os.pipe()
+    os.close(read_end)
+    try:
+        child = subprocess.run(
+            [sys.executable, "-m", "exosieve", *argv], stdout=write_end, stderr=subprocess.PIPE
+        )
+    finally:
+        os.close(write_end)
+    assert child.returncode == status, child.stderr
+    if status:
+        assert b"Traceback" not in child.stderr and b"Exception ignored" not in child.stderr
+    if argv == ["columns"] or status == 0:
+        assert child.stderr == b""
+
+
+def test_a_file_error_exits_with_status_1(tmp_path, capsys):
+    not_hdf5 = tmp_path / "notes.h5"
+    not_hdf5.write_text("not an HDF5 file\n")
+    assert main(["summary", str(not_hdf5)]) == 1
+    assert "exosieve: error: HDF5 could not open" in capsys.readouterr().err

@@ -151,7 +151,7 @@ ENTRIES: dict[str, Entry] = {
     "energy_limited_mass_loss(roche_factor)": (
         lambda **k: exosieve.energy_limited_mass_loss(0.15, R_EARTH, R_EARTH, 10.0, M_EARTH, **k),
         {"roche_factor": 1.0},
-        None,
+        frozenset(),
     ),
     "crossover_mass": (
         exosieve.crossover_mass,
@@ -163,7 +163,7 @@ ENTRIES: dict[str, Entry] = {
             "gravity": 9.8,
             "light_mole_fraction": 0.1,
         },
-        None,
+        frozenset(),
     ),
     "dragged_flux": (
         exosieve.dragged_flux,
@@ -175,7 +175,7 @@ ENTRIES: dict[str, Entry] = {
             "light_mole_fraction": 0.1,
             "crossover_mass": 20 * H,
         },
-        None,
+        frozenset(),
     ),
     "register_species": (
         lambda **k: exosieve.register_species("Xhostile", **k),

@@ -95,7 +95,7 @@ ENTRIES: dict[str, Entry] = {
     "roche_lobe_ratio": (
         exosieve.roche_lobe_ratio,
         {"planet_mass": M_EARTH, "star_mass": M_SUN, "semi_major_axis": 1.5e11, "radius": R_EARTH},
-        None,
+        NONE,
     ),
     "energy_limited_mass_loss": (
         exosieve.energy_limited_mass_loss,
@@ -106,7 +106,7 @@ ENTRIES: dict[str, Entry] = {
             "xuv_flux": 10.0,
             "planet_mass": M_EARTH,
         },
-        None,
+        NONE,
     ),
     "Star": (
         exosieve.Star,

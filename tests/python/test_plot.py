@@ -61,5 +61,5 @@ def test_retention_intervals_need_samples(tmp_path):
         plot.retention_intervals(sampled, "Xe")
     ax = plot.retention_intervals(sampled, "He")
     assert _has_unit(ax.get_xlabel())
-    assert [t.get_text() for t in ax.get_yticklabels()] == list(sampled["case_name"])
+    assert [t.get_text() for t in ax.get_yticklabels()] == list(sampled["case"])
     plt.close("all")

@@ -150,7 +150,7 @@ def test_every_numeric_dataset_appendable_ones_too_carries_a_fletcher32_checksum
         for name in ("time", "sample"):
             assert f[name].fletcher32 and f[name].chunks, name
         numeric = [name for name, d in f.items() if d.dtype.kind in "fi" and d.ndim > 0]
-        assert {"case", "steps", "retained_fraction", "sample_failed"} <= set(numeric)
+        assert {"row", "steps", "retained_fraction", "sample_failed"} <= set(numeric)
         for name in numeric:
             assert f[name].fletcher32 and f[name].chunks, name
 
@@ -171,7 +171,7 @@ def test_a_flipped_byte_in_numbers_is_refused_naming_the_dataset(tmp_path, name,
 
 
 @pytest.mark.parametrize(
-    "name", ["case", "steps", "planet_mass", "retained_fraction", "sample_failed", "regime_start"]
+    "name", ["row", "steps", "planet_mass", "retained_fraction", "sample_failed", "regime_start"]
 )
 def test_a_flipped_byte_in_an_appended_chunk_is_refused_by_every_reader(tmp_path, capsys, name):
     # A low-order byte of the first row: a value still in range, so only the checksum can tell.
@@ -257,7 +257,7 @@ def test_a_last_chunk_torn_by_a_kill_is_repaired_when_the_sweep_resumes(tmp_path
         assert open_comparison(damaged)["steps"] is None
     resumed = compare(cases, output=damaged, threads=1, samples=3, chunk_size=4)
     assert torn > 20 and resumed.resumed_from == 4 and len(resumed) == 6
-    for name in ("steps", "retained_fraction", "sample_retained_fraction", "case_name"):
+    for name in ("steps", "retained_fraction", "sample_retained_fraction", "case"):
         np.testing.assert_array_equal(resumed[name], full[name])
 
 

@@ -25,6 +25,10 @@ void require_positive(const char* what, ArrayArg values);
 //! Throw InputError naming `what` and the first offending element unless all are finite and >= 0.
 void require_non_negative(const char* what, ArrayArg values);
 
+//! Throw InputError naming `what` and the first offending element unless all are <= `limit`
+//! (NaN fails); the message gives `limit` as "must be <= limit".
+void require_at_most(const char* what, ArrayArg values, double limit);
+
 //! Run body(begin, end) over [0, count) split across hardware threads when count is large.
 void parallel_for(std::size_t count, const std::function<void(std::size_t, std::size_t)>& body);
 

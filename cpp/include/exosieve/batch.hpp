@@ -299,9 +299,9 @@ struct ChunkVariable {
     const std::vector<std::string>* s = nullptr;  //!< string values
 };
 
-//! The case variables of a chunk besides `case` (its keys), in one order for every consumer:
-//! case_name, error, steps, planet_mass, planet_radius, exobase_radius, escape_speed,
-//! age_start, age_end, exobase_temperature_start, mole_fraction, exobase_temperature,
+//! The case variables of a chunk besides `case` (the case names) and `row` (the keys), in one
+//! order for every consumer: error, steps, planet_mass, planet_radius, exobase_radius,
+//! escape_speed, age_start, age_end, exobase_temperature_start, mole_fraction, exobase_temperature,
 //! retained_fraction, jeans_parameter, final_retained_fraction, depletion_time,
 //! efolding_time, escape_rate_start, given_loss_rate_start, jeans_parameter_start,
 //! jeans_parameter_end, regime_start, bulk_jeans_parameter_start, hydrodynamic_unmodelled,
@@ -310,7 +310,8 @@ struct ChunkVariable {
 //! sample_input, input_uncertain. They point into `chunk`.
 std::vector<ChunkVariable> chunk_variables(const BatchChunk& chunk);
 
-//! A chunk as rows of a sweep file: `case` (the keys) and chunk_variables(). Written straight
+//! A chunk as rows of a sweep file: `case` (the names, the labels of the file's `case`
+//! coordinate), `row` (the keys) and chunk_variables(). Written straight
 //! from C++, a chunk costs the file no interpreter objects.
 RowBlock chunk_rows(const BatchChunk& chunk);
 

@@ -11,7 +11,8 @@
 //!   get units "1"); unit words that xarray would decode to timedelta or datetime ("seconds",
 //!   "days since ...") are refused: write time in "s";
 //! - global attributes: `exosieve_version`, `config` (the caller's JSON), `created` (UTC
-//!   ISO-8601), and in appendable files `completed` (int64, see ResultAppender).
+//!   ISO-8601), and in appendable files `completed` (int64, see ResultAppender); integer
+//!   attributes such as CF's `flag_values` are int64 arrays (set_attribute).
 //!
 //! Atomic replacement: a ResultWriter builds the file under a hidden temporary name in the
 //! target's directory and renames it over the target on commit(), after an fsync; without
@@ -20,6 +21,9 @@
 //!
 //! Appending (long sweeps): variables declared with ResultWriter::add_case_variable have an
 //! unlimited, chunked leading dimension `case`. A ResultAppender adds blocks of rows to them.
+//! The `case` coordinate holds row numbers, or, after label_cases(), text labels (so that
+//! xarray selects rows with `.sel(case="label")`) with the row numbers in the case variable
+//! `row`.
 //!
 //! Recovery rule: the root attribute `completed` counts the rows of `case` that are complete.
 //! Each append writes the rows of every case variable, flushes and fsyncs, and only then
@@ -55,6 +59,13 @@
 #include <vector>
 
 namespace exosieve {
+
+//! The global `Conventions` attribute of exosieve's result files (the evolution file and the
+//! sweep file): the layout of this header, version 1. It borrows CF's `units` (UDUNITS
+//! strings), `long_name` and `flag_values`/`flag_meanings`, but is not CF: its string-valued
+//! coordinate variables (species, ratio, case labels) are outside CF, which wants coordinate
+//! variables numeric and monotonic.
+inline constexpr const char* result_file_conventions = "exosieve-1";
 
 //! Element type of a stored variable.
 enum class ValueType { float64, int64, string };
@@ -123,11 +134,21 @@ class ResultWriter {
                            const std::vector<std::string>& trailing_dims, const std::string& units,
                            const std::string& long_name);
 
+    //! Make the appendable coordinate `case` hold text labels (variable-length UTF-8, units
+    //! "1", described by `long_name`; labels may repeat) and the row numbers an int64 case
+    //! variable `row`. Must come before the first add_case_variable; every RowBlock then sets
+    //! "case", and "row" is numbered like an unlabelled `case` unless the block sets it.
+    void label_cases(const std::string& long_name);
+
     //! Global string attribute (not `completed`, which the appender owns).
     void set_attribute(const std::string& name, const std::string& value);
     //! String attribute on an existing dataset ("" or "/" means the file).
     void set_attribute(const std::string& dataset, const std::string& name,
                        const std::string& value);
+    //! Int64 array attribute (at least one value) on an existing dataset or the file ("" or
+    //! "/"), e.g. CF's `flag_values`, which must have the variable's type.
+    void set_attribute(const std::string& dataset, const std::string& name,
+                       const std::vector<std::int64_t>& values);
 
     //! Shape of a variable over `dims` (InputError naming `variable` for unknown dims).
     std::vector<std::size_t> shape_of(const std::string& variable,

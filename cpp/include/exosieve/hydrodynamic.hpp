@@ -9,6 +9,8 @@
 #include <string>
 #include <vector>
 
+#include "exosieve/arrays.hpp"
+
 namespace exosieve {
 
 //! Escape regime at the exobase, by the Jeans parameter of the bulk gas (Volkov et al. 2011).
@@ -62,6 +64,21 @@ double crossover_mass(double light_mass, double temperature, double light_flux,
 //! Walker 1987): F_i = (x_i/x_1) F_1 (m_c - m_i)/(m_c - m_1) for m_i < m_c, else 0.
 double dragged_flux(double mass, double mole_fraction, double light_mass, double light_flux,
                     double light_mole_fraction, double crossover_mass);
+
+//! Array forms of the four functions above: each argument has length 1 or `count`; results go
+//! to `out` (length `count`). Every element is checked as the scalar form checks it, and an
+//! InputError names the argument and the element, before any result is written.
+void roche_lobe_ratio(ArrayArg planet_mass, ArrayArg star_mass, ArrayArg semi_major_axis,
+                      ArrayArg radius, double* out, std::size_t count);
+void energy_limited_mass_loss(ArrayArg efficiency, ArrayArg planet_radius, ArrayArg xuv_radius,
+                              ArrayArg xuv_flux, ArrayArg planet_mass, ArrayArg roche_factor,
+                              double* out, std::size_t count);
+void crossover_mass(ArrayArg light_mass, ArrayArg temperature, ArrayArg light_flux,
+                    ArrayArg diffusion_parameter, ArrayArg gravity, ArrayArg light_mole_fraction,
+                    double* out, std::size_t count);
+void dragged_flux(ArrayArg mass, ArrayArg mole_fraction, ArrayArg light_mass, ArrayArg light_flux,
+                  ArrayArg light_mole_fraction, ArrayArg crossover_mass, double* out,
+                  std::size_t count);
 
 //! Binary diffusion parameter law b(T) = A (T / 1 K)^s [m^-1 s^-1] of one species in the
 //! escaping light gas. A zero coefficient means "not dragged".

@@ -1,0 +1,7 @@
+"""``python -m exosieve``: the ``exosieve`` command."""
+
+import sys
+
+from .cli import main
+
+sys.exit(main())
