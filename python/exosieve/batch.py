@@ -481,8 +481,9 @@ class Comparison:
     def to_xarray(self) -> Any:
         """The comparison as an ``xarray.Dataset`` laid out as its result file opens in xarray:
         dimensions ``case`` (coordinate: the case names, so ``.sel(case="name")`` picks a
-        case), ``species``, ``time`` [s], ``sample`` and ``input`` (the uncertain inputs); ``units`` and ``long_name`` on every
-        variable, ``flag_values``/``flag_meanings`` on ``regime_start``; the attributes
+        case), ``species``, ``time`` [s], ``sample`` and ``input`` (the uncertain inputs);
+        ``units`` and ``long_name`` on every variable, ``flag_values``/``flag_meanings`` on
+        ``regime_start``; the attributes
         ``Conventions``, ``exosieve_version`` and ``config`` (JSON)."""
         import xarray as xr
 
