@@ -206,7 +206,10 @@ _COORDINATES: dict[str, tuple[str, str]] = {
     "species": ("1", "species"),
     "time": ("s", "stellar age"),
     "sample": ("1", "Monte Carlo sample"),
+    "input": ("1", "uncertain input"),
 }
+# The variable beside the `input` coordinate: (units, long name).
+_INPUT_UNIT = ("1", "SI unit of the input's values in sample_input")
 
 # CF flags of the code variables: values (of the variable's type) and one word per value.
 _FLAGS: dict[str, tuple[list[int], str]] = {
@@ -505,8 +508,9 @@ class Comparison:
     def to_xarray(self) -> Any:
         """The comparison as an ``xarray.Dataset`` laid out as its result file opens in xarray:
         dimensions ``case`` (coordinate: the case names, so ``.sel(case="name")`` picks a
-        case), ``species``, ``time`` [s] and ``sample``; ``units`` and ``long_name`` on every
-        variable, ``flag_values``/``flag_meanings`` on ``regime_start``; the attributes
+        case), ``species``, ``time`` [s], ``sample`` and ``input`` (the uncertain inputs);
+        ``units`` and ``long_name`` on every variable, ``flag_values``/``flag_meanings`` on
+        ``regime_start``; the attributes
         ``Conventions``, ``exosieve_version`` and ``config`` (JSON)."""
         import xarray as xr
 
@@ -521,8 +525,17 @@ class Comparison:
         }
         if self.samples:
             labels["sample"] = np.arange(self.samples, dtype=np.int64)
+            if self.inputs:
+                labels["input"] = np.array(self.inputs, dtype=object)
         coords = {name: (name, v, described(name)) for name, v in labels.items()}
         data: dict[str, Any] = {"row": ("case", self["row"], described("row"))}
+        if self.samples and self.inputs:
+            units, long_name = _INPUT_UNIT
+            data["input_unit"] = (
+                "input",
+                np.array(self.input_units, dtype=object),
+                {"units": units, "long_name": long_name},
+            )
         for name, (dims, units, long_name) in self.variables.items():
             attrs: dict[str, Any] = {"units": units, "long_name": long_name}
             if name in _FLAGS:
@@ -819,13 +832,13 @@ def _create_file(
         )
         variables += _SAMPLE_VARIABLES
         if inputs:
-            schema.add_coordinate("input", list(inputs), long_name="uncertain input")
+            schema.add_coordinate("input", list(inputs), long_name=_COORDINATES["input"][1])
             schema.add_variable(
                 "input_unit",
                 ["input"],
                 input_units(inputs),
-                units="1",
-                long_name="SI unit of the input's values in sample_input",
+                units=_INPUT_UNIT[0],
+                long_name=_INPUT_UNIT[1],
             )
             variables += _INPUT_VARIABLES
     for name, dtype, dims, units, long_name in variables:

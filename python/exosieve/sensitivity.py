@@ -293,8 +293,8 @@ def comparison_indices(
     rows = len(ci)
     frame = pd.DataFrame(
         {
-            "case": np.repeat(np.asarray(comparison["case_name"], dtype=object)[ci], k),
-            "row": np.repeat(np.asarray(comparison["case"])[ci], k),
+            "case": np.repeat(np.asarray(comparison["case"], dtype=object)[ci], k),
+            "row": np.repeat(np.asarray(comparison["row"])[ci], k),
             "species": np.repeat(np.array(comparison.species, dtype=object)[si], k)
             if s
             else np.array([], dtype=object),
