@@ -237,24 +237,7 @@ void bind_batch(py::module_& m) {
                     throw PythonHookFailed{};
                 }
             };
-            hooks.on_progress = [&](std::size_t done, std::size_t total) {
-                py::gil_scoped_acquire gil;
-                if (PyErr_CheckSignals() != 0) {
-                    failure = std::make_unique<py::error_already_set>();
-                    return false;
-                }
-                try {
-                    if (!on_progress.is_none()) {
-                        py::object keep = on_progress(done, total);
-                        if (!keep.is_none() && !py::cast<bool>(keep))
-                            return false;
-                    }
-                } catch (py::error_already_set& e) {
-                    failure = std::make_unique<py::error_already_set>(std::move(e));
-                    return false;
-                }
-                return true;
-            };
+            hooks.on_progress = progress_hook(on_progress, failure);
             BatchStatus status;
             try {
                 py::gil_scoped_release release;

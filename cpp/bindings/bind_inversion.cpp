@@ -86,24 +86,7 @@ py::dict with_hooks(py::object on_progress, unsigned interval_ms, std::size_t ev
     InversionHooks hooks;
     hooks.progress_interval_ms = interval_ms;
     hooks.progress_every = every;
-    hooks.on_progress = [&](std::size_t done, std::size_t total) {
-        py::gil_scoped_acquire gil;
-        if (PyErr_CheckSignals() != 0) {
-            failure = std::make_unique<py::error_already_set>();
-            return false;
-        }
-        try {
-            if (!on_progress.is_none()) {
-                py::object keep = on_progress(done, total);
-                if (!keep.is_none() && !py::cast<bool>(keep))
-                    return false;
-            }
-        } catch (py::error_already_set& e) {
-            failure = std::make_unique<py::error_already_set>(std::move(e));
-            return false;
-        }
-        return true;
-    };
+    hooks.on_progress = progress_hook(on_progress, failure);
     InversionSamples s;
     {
         py::gil_scoped_release release;

@@ -5,12 +5,40 @@
 #include <pybind11/pybind11.h>
 
 #include <cstddef>
+#include <functional>
+#include <memory>
 
 #include "exosieve/arrays.hpp"
 
 namespace exosieve::bindings {
 
 namespace py = pybind11;
+
+//! A progress hook (runs done, runs total) -> keep going, for engines that run without the GIL:
+//! takes the GIL, turns a pending signal (Ctrl-C) or an exception of `on_progress` into
+//! `failure` (raised by the caller once the engine has stopped) and stops; `on_progress(done,
+//! total)` returning False stops too. `on_progress` may be None.
+inline std::function<bool(std::size_t, std::size_t)>
+progress_hook(const py::object& on_progress, std::unique_ptr<py::error_already_set>& failure) {
+    return [&on_progress, &failure](std::size_t done, std::size_t total) {
+        py::gil_scoped_acquire gil;
+        if (PyErr_CheckSignals() != 0) {
+            failure = std::make_unique<py::error_already_set>();
+            return false;
+        }
+        try {
+            if (!on_progress.is_none()) {
+                py::object keep = on_progress(done, total);
+                if (!keep.is_none() && !py::cast<bool>(keep))
+                    return false;
+            }
+        } catch (py::error_already_set& e) {
+            failure = std::make_unique<py::error_already_set>(std::move(e));
+            return false;
+        }
+        return true;
+    };
+}
 
 //! A C-contiguous float64 array; other dtypes and layouts are converted on the way in.
 using DoubleArray = py::array_t<double, py::array::c_style | py::array::forcecast>;
