@@ -32,8 +32,11 @@ The Ishigami function (Ishigami & Homma 1990), whose indices are known in closed
 >>> x = saltelli_inputs(a, b)                       # (4096 * 5, 3)
 >>> y = np.sin(x[:, 0]) + 7 * np.sin(x[:, 1]) ** 2 + 0.1 * x[:, 2] ** 4 * np.sin(x[:, 0])
 >>> r = sobol_indices(y, ["x1", "x2", "x3"], resamples=200)
->>> np.round(r.first_order, 1), np.round(r.total, 1)
-(array([0.3, 0.4, 0. ]), array([0.5, 0.4, 0.2]))
+>>> # closed form (Sobol' & Levitan 1999): S1 = 0.314, 0.442, 0; ST = 0.558, 0.442, 0.244
+>>> bool(np.allclose(r.first_order, [0.314, 0.442, 0.0], atol=0.03))
+True
+>>> bool(np.allclose(r.total, [0.558, 0.442, 0.244], atol=0.03))
+True
 """
 
 from __future__ import annotations
