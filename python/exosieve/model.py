@@ -726,7 +726,8 @@ class EnergyLimitedEscape:
             unknown = sorted(set(transonic_wind) - set(wind_units))
             if unknown:
                 raise ValueError(
-                    f"transonic_wind: unknown keys {unknown}; known: {', '.join(sorted(wind_units))}"
+                    f"transonic_wind: unknown keys {unknown}; "
+                    f"known: {', '.join(sorted(wind_units))}"
                 )
             missing = sorted({"temperature", "base_density"} - set(transonic_wind))
             if missing:
