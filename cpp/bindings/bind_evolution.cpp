@@ -246,15 +246,32 @@ void bind_evolution(py::module_& m) {
         .def_readonly("recombination_coefficient", &RecombinationLimit::recombination_coefficient)
         .def_readonly("photon_energy", &RecombinationLimit::photon_energy);
 
+    py::class_<TransonicWind>(m, "TransonicWind",
+                              "Transonic (Parker) wind cap on energy-limited loss [SI]")
+        .def(py::init([](double temperature, double base_density, double mean_molecular_mass) {
+                 TransonicWind w;
+                 w.temperature = temperature;
+                 w.base_density = base_density;
+                 w.mean_molecular_mass = mean_molecular_mass;
+                 w.validate();
+                 return w;
+             }),
+             py::arg("temperature"), py::arg("base_density"), py::arg("mean_molecular_mass") = 0.0)
+        .def_readonly("temperature", &TransonicWind::temperature)
+        .def_readonly("base_density", &TransonicWind::base_density)
+        .def_readonly("mean_molecular_mass", &TransonicWind::mean_molecular_mass);
+
     py::class_<HydrodynamicOptions>(m, "HydrodynamicOptions")
         .def(py::init([](double efficiency, double xuv_radius, bool roche_lobe,
                          const std::string& escaping, HydrodynamicActivation activation,
                          std::vector<std::pair<std::string, DiffusionLaw>> diffusion,
                          std::optional<XuvAbsorption> absorption,
-                         std::optional<RecombinationLimit> recombination) {
+                         std::optional<RecombinationLimit> recombination,
+                         std::optional<TransonicWind> transonic) {
                  HydrodynamicOptions h;
                  h.absorption = absorption;
                  h.recombination = recombination;
+                 h.transonic = transonic;
                  h.efficiency = efficiency;
                  h.xuv_radius = xuv_radius;
                  h.roche_lobe = roche_lobe;
@@ -266,7 +283,8 @@ void bind_evolution(py::module_& m) {
              }),
              py::arg("efficiency"), py::arg("xuv_radius"), py::arg("roche_lobe"),
              py::arg("escaping_species"), py::arg("activation"), py::arg("diffusion"),
-             py::arg("absorption") = py::none(), py::arg("recombination") = py::none())
+             py::arg("absorption") = py::none(), py::arg("recombination") = py::none(),
+             py::arg("transonic") = py::none())
         .def_readonly("efficiency", &HydrodynamicOptions::efficiency)
         .def_readonly("xuv_radius", &HydrodynamicOptions::xuv_radius)
         .def_readonly("roche_lobe", &HydrodynamicOptions::roche_lobe)
@@ -274,7 +292,8 @@ void bind_evolution(py::module_& m) {
         .def_readonly("activation", &HydrodynamicOptions::activation)
         .def_readonly("diffusion", &HydrodynamicOptions::diffusion)
         .def_readonly("absorption", &HydrodynamicOptions::absorption)
-        .def_readonly("recombination", &HydrodynamicOptions::recombination);
+        .def_readonly("recombination", &HydrodynamicOptions::recombination)
+        .def_readonly("transonic", &HydrodynamicOptions::transonic);
 
     // --- exobase models and histories -----------------------------------------------------------
     py::class_<ExobaseTemperature>(m, "ExobaseTemperature", "Exobase temperature history")

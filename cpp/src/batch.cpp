@@ -218,6 +218,18 @@ const std::vector<CaseParameter>& case_parameters() {
          "recombination limit: mean energy of the ionising photons (default " +
              shown(RecombinationDefaults::photon_energy / electron_volt) + " eV)",
          false, true, 0.0, true, inf},
+        {"transonic_wind", "1",
+         "energy-limited: 1 caps the rate by that of an isothermal transonic (Parker) wind from "
+         "the planet radius, 0 (default) does not",
+         false, false, 0.0, false, 1.0},
+        {"transonic_temperature", "K", "transonic wind: temperature (needed with the wind)", false,
+         true, 0.0, true, inf},
+        {"transonic_base_density", "m-3",
+         "transonic wind: number density at its base, the planet radius (needed with the wind)",
+         false, true, 0.0, true, inf},
+        {"transonic_molecular_mass", "kg",
+         "transonic wind: mean molecular mass (default: the escaping species' mass)", false, true,
+         0.0, true, inf},
         {"given_loss_reference_flux", "W m-2",
          "F_ref of the given losses' XUV power law L = L_ref (F_xuv/F_ref)^p "
          "(given_loss_exponent_<species>)",
@@ -505,6 +517,10 @@ struct LossSlots {
                 recombination_temperature = slot_of("recombination_temperature"),
                 recombination_coefficient = slot_of("recombination_coefficient"),
                 photon_energy = slot_of("recombination_photon_energy"),
+                transonic_wind = slot_of("transonic_wind"),
+                transonic_temperature = slot_of("transonic_temperature"),
+                transonic_base_density = slot_of("transonic_base_density"),
+                transonic_molecular_mass = slot_of("transonic_molecular_mass"),
                 given_loss_reference_flux = slot_of("given_loss_reference_flux");
 };
 
@@ -516,7 +532,7 @@ const LossSlots& loss_slots() {
 // Parameters that are 0 or 1.
 bool is_flag(std::size_t slot) {
     return slot == slots().diffusion_limited || slot == loss_slots().chord ||
-           slot == loss_slots().recombination_limit;
+           slot == loss_slots().recombination_limit || slot == loss_slots().transonic_wind;
 }
 
 // What a numeric column of a table holds, worked out once per table instead of once per row.
@@ -782,10 +798,11 @@ std::vector<double> case_times(const BatchOptions& o, double t0, double t1) {
 
 namespace {
 
-// The options of energy-limited escape (XUV absorption radius, recombination limit) and the
-// given losses of case `s`, into `c` (whose hydrodynamic options are set when the row has a
-// heating efficiency), as EnergyLimitedEscape(absorption=..., recombination_limit=...) and
-// evolve(given_losses=...) build them. mean_mass: the bulk gas's mean particle mass [kg].
+// The options of energy-limited escape (XUV absorption radius, recombination limit, transonic
+// wind) and the given losses of case `s`, into `c` (whose hydrodynamic options are set when the
+// row has a heating efficiency), as EnergyLimitedEscape(absorption=..., recombination_limit=...,
+// transonic_wind=...) and evolve(given_losses=...) build them. mean_mass: the bulk gas's mean
+// particle mass [kg].
 void add_loss_options(const CaseSpec& s, bool with_star, double mean_mass, EvolutionConfig& c) {
     const LossSlots& k = loss_slots();
     const auto& params = case_parameters();
@@ -801,6 +818,7 @@ void add_loss_options(const CaseSpec& s, bool with_star, double mean_mass, Evolu
                 bad_value(params[slot].name, given(slot) + ", but it is for " + model);
     };
     const bool recombination = has(k.recombination_limit) && s.values[k.recombination_limit] == 1.0;
+    const bool transonic = has(k.transonic_wind) && s.values[k.transonic_wind] == 1.0;
     if (c.envelope && recombination)
         bad_value("recombination_limit",
                   "got 1, but the recombination limit is not supported with an envelope "
@@ -853,14 +871,32 @@ void add_loss_options(const CaseSpec& s, bool with_star, double mean_mass, Evolu
                    "the recombination limit ('recombination_limit' 1), which this row does not "
                    "switch on");
         }
+        if (transonic) {
+            for (std::size_t slot : {k.transonic_temperature, k.transonic_base_density})
+                if (!has(slot))
+                    bad_value(params[slot].name,
+                              "no value given (the transonic wind of 'transonic_wind' 1 needs it)");
+            TransonicWind w;
+            w.temperature = s.values[k.transonic_temperature];
+            w.base_density = s.values[k.transonic_base_density];
+            if (has(k.transonic_molecular_mass))
+                w.mean_molecular_mass = s.values[k.transonic_molecular_mass];
+            h.transonic = w;
+        } else {
+            refuse({k.transonic_temperature, k.transonic_base_density, k.transonic_molecular_mass},
+                   "the transonic wind ('transonic_wind' 1), which this row does not switch on");
+        }
     } else {
         const std::string energy_limited =
             "energy-limited escape ('heating_efficiency'), which this row does not switch on";
         refuse({k.cross_section, k.base_density, k.absorption_temperature, k.molecular_mass,
-                k.chord, k.recombination_temperature, k.recombination_coefficient, k.photon_energy},
+                k.chord, k.recombination_temperature, k.recombination_coefficient, k.photon_energy,
+                k.transonic_temperature, k.transonic_base_density, k.transonic_molecular_mass},
                energy_limited);
         if (recombination)
             bad_value("recombination_limit", "got 1, but it caps " + energy_limited);
+        if (transonic)
+            bad_value("transonic_wind", "got 1, but it caps " + energy_limited);
     }
 
     // Given losses: once a species has one, every species gets one (GivenLoss(): none).

@@ -435,7 +435,8 @@ class Model {
     // species keeps its Jeans rate where that is larger. With the absorption model the XUV is
     // absorbed at its radius (at the exobase temperature unless a temperature is given); with
     // the recombination limit the smaller of the energy-limited and recombination-limited
-    // rates applies (xuv_driven_mass_loss, Murray-Clay et al. 2009).
+    // rates applies (xuv_driven_mass_loss, Murray-Clay et al. 2009); with the transonic wind
+    // the smaller of that and the wind's rate from its base at the planet radius.
     void apply_energy_limited(const State& y) {
         const HydrodynamicOptions& h = *c_.hydrodynamic;
         double xuv_radius = xuv_radius_, roche = roche_;
@@ -451,7 +452,7 @@ class Model {
                                                            planet_radius_));
         }
         const double flux = std::exp(log_flux_);
-        const double mass_loss =
+        const double driven =
             h.recombination
                 ? xuv_driven_mass_loss(h.efficiency, planet_radius_, xuv_radius, flux, planet_mass_,
                                        roche, h.recombination->temperature,
@@ -459,6 +460,7 @@ class Model {
                                        h.recombination->photon_energy)
                 : energy_limited_mass_loss(h.efficiency, planet_radius_, xuv_radius, flux,
                                            planet_mass_, roche);
+        const double mass_loss = h.transonic ? std::min(driven, transonic_mass_loss()) : driven;
         envelope_rate_ = mass_loss;
         double y_max = -inf;
         for (std::size_t i = 0; i < n_; ++i)
@@ -486,6 +488,14 @@ class Model {
         // A vanishing mole fraction makes the shared rate 0 * inf: rebuild it in logs.
         if (!(mole_fraction_[escaping_] > 0.0))
             log_scaled_rate_[escaping_] = -inf;
+    }
+
+    // Mass-loss rate of the transonic wind [kg s^-1] from its base at the planet radius, of the
+    // escaping species' mass unless a mean molecular mass is given.
+    double transonic_mass_loss() const {
+        const TransonicWind& w = *c_.hydrodynamic->transonic;
+        const double m = w.mean_molecular_mass > 0.0 ? w.mean_molecular_mass : mass_[escaping_];
+        return parker_mass_loss(planet_radius_, w.base_density, w.temperature, m, planet_mass_);
     }
 
     // ln Q_i of the last evaluation.
@@ -533,6 +543,31 @@ class Model {
         return recombination_transition_flux(h.efficiency, planet_radius_, xuv_radius_,
                                              planet_mass_, roche_, r.temperature,
                                              r.recombination_coefficient, r.photon_energy);
+    }
+
+    // XUV flux [W m^-2] where the transonic wind's rate meets the energy-limited (or XUV-driven)
+    // one, where both are fixed (no envelope, no absorption layer at the evolving exobase
+    // temperature): the first is constant, the second a F, or min(a F, b F^(1/2)) with the
+    // recombination limit; NaN otherwise.
+    double transonic_switch_flux() const {
+        if (!c_.hydrodynamic || !c_.hydrodynamic->transonic || envelope_)
+            return nan;
+        const HydrodynamicOptions& h = *c_.hydrodynamic;
+        if (h.absorption && !(h.absorption->temperature > 0.0))
+            return nan;
+        const double wind = transonic_mass_loss();
+        const double a = energy_limited_mass_loss(h.efficiency, planet_radius_, xuv_radius_, 1.0,
+                                                  planet_mass_, roche_);
+        const double linear = wind / a;
+        if (!h.recombination)
+            return linear;
+        const RecombinationLimit& r = *h.recombination;
+        if (!(linear > recombination_switch_flux())) // met on the energy-limited part
+            return linear;
+        const double b =
+            recombination_limited_mass_loss(1.0, planet_mass_, planet_radius_, r.temperature,
+                                            r.recombination_coefficient, r.photon_energy);
+        return (wind / b) * (wind / b);
     }
 };
 
@@ -1081,6 +1116,17 @@ std::string EvolutionConfig::to_json() const {
                                h.recombination->recombination_coefficient)
                        .number("photon_energy_J", h.recombination->photon_energy)
                        .str());
+        if (h.transonic) {
+            JsonObject w;
+            w.number("temperature_K", h.transonic->temperature)
+                .number("base_density_m-3", h.transonic->base_density);
+            if (h.transonic->mean_molecular_mass > 0.0)
+                w.number("mean_molecular_mass_kg", h.transonic->mean_molecular_mass);
+            else
+                w.string("mean_molecular_mass", "the escaping species' mass");
+            w.string("base_radius", "the planet radius");
+            hj.add("transonic_wind", w.str());
+        }
         hj.add("roche_lobe", h.roche_lobe ? "true" : "false")
             .add("drag", h.drag ? "true" : "false")
             .string("escaping_species", h.escaping_species)
@@ -1213,6 +1259,15 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         const double a = c.planet.semi_major_axis();
         const double ts =
             c.planet.star().age_at_xuv_luminosity(switch_flux * 4.0 * constants::pi * a * a);
+        if (ts > c.t_start && ts < c.t_end && ts > c.planet.star().xuv().saturation_time)
+            stops.push_back(ts);
+    }
+    // The transonic wind's rate meets the XUV-driven one: a kink likewise.
+    const double wind_flux = model.transonic_switch_flux();
+    if (wind_flux > 0.0 && std::isfinite(wind_flux)) {
+        const double a = c.planet.semi_major_axis();
+        const double ts =
+            c.planet.star().age_at_xuv_luminosity(wind_flux * 4.0 * constants::pi * a * a);
         if (ts > c.t_start && ts < c.t_end && ts > c.planet.star().xuv().saturation_time)
             stops.push_back(ts);
     }

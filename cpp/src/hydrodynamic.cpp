@@ -268,6 +268,12 @@ void RecombinationLimit::validate() const {
     require_positive("photon_energy", photon_energy);
 }
 
+void TransonicWind::validate() const {
+    require_positive("transonic temperature", temperature);
+    require_positive("transonic base_density", base_density);
+    require_non_negative("transonic mean_molecular_mass", mean_molecular_mass);
+}
+
 // The defaults of RecombinationLimit are those of the standalone functions.
 static_assert(RecombinationLimit{}.temperature == RecombinationDefaults::temperature);
 static_assert(RecombinationLimit{}.recombination_coefficient ==
@@ -293,6 +299,8 @@ void HydrodynamicOptions::validate() const {
     }
     if (recombination)
         recombination->validate();
+    if (transonic)
+        transonic->validate();
 }
 
 } // namespace exosieve

@@ -618,6 +618,15 @@ class EnergyLimitedEscape:
         Murray (2009) (``exosieve.xuv_driven_mass_loss``: the smaller of the two, with the
         planet radius as the wind base). True takes its defaults; a mapping may set
         ``temperature`` [K], ``recombination_coefficient`` [m^3 s^-1] and ``photon_energy`` [J].
+    transonic_wind : mapping, optional
+        Cap the rate (energy-limited, or with ``recombination_limit`` the smaller of the two)
+        by that of an isothermal transonic (Parker) wind from a base at the planet radius (the
+        evolving radius with an envelope; ``exosieve.parker_mass_loss``): the smaller applies,
+        since the wind carries no more than its base supplies and the XUV energy bounds what
+        any wind lifts. Keys ``temperature`` [K] and ``base_density`` [m^-3] (both needed, held
+        fixed) and optionally ``mean_molecular_mass`` [kg] (default: the escaping species'
+        mass). Assumes a steady, spherically symmetric, isothermal wind of one gas in the
+        planet's gravity alone.
 
     Examples
     --------
@@ -635,6 +644,7 @@ class EnergyLimitedEscape:
         diffusion: Mapping[str, DiffusionLike] | None = None,
         absorption: Mapping[str, Any] | None = None,
         recombination_limit: bool | Mapping[str, float] = False,
+        transonic_wind: Mapping[str, float] | None = None,
     ) -> None:
         if activation not in ("hydrodynamic", "transition", "always"):
             raise ValueError(
@@ -707,6 +717,25 @@ class EnergyLimitedEscape:
             raise ValueError(
                 f"recombination_limit must be True, False or a mapping, got {recombination_limit!r}"
             )
+        self.transonic_wind: dict[str, float] | None = None
+        core_wind = None
+        if transonic_wind is not None:
+            if not isinstance(transonic_wind, Mapping):
+                raise ValueError(f"transonic_wind must be a mapping, got {transonic_wind!r}")
+            wind_units = {"temperature": "K", "base_density": "m-3", "mean_molecular_mass": "kg"}
+            unknown = sorted(set(transonic_wind) - set(wind_units))
+            if unknown:
+                raise ValueError(
+                    f"transonic_wind: unknown keys {unknown}; "
+                    f"known: {', '.join(sorted(wind_units))}"
+                )
+            missing = sorted({"temperature", "base_density"} - set(transonic_wind))
+            if missing:
+                raise ValueError(f"transonic_wind: missing {', '.join(missing)}")
+            self.transonic_wind = {
+                k: _scalar(v, k, wind_units[k]) for k, v in transonic_wind.items()
+            }
+            core_wind = _core.TransonicWind(**self.transonic_wind)
         self._core = _core.HydrodynamicOptions(
             self.efficiency,
             0.0 if self.xuv_radius is None else self.xuv_radius,
@@ -716,6 +745,7 @@ class EnergyLimitedEscape:
             [(k, _core.DiffusionLaw(a, s)) for k, (a, s) in self.diffusion.items()],
             core_absorption,
             core_recombination,
+            core_wind,
         )
 
     def __reduce__(self) -> tuple[Any, ...]:
@@ -730,6 +760,7 @@ class EnergyLimitedEscape:
                 self.diffusion,
                 self.absorption,
                 False if self.recombination_limit is None else self.recombination_limit or True,
+                self.transonic_wind,
             ),
         )
 
@@ -739,7 +770,8 @@ class EnergyLimitedEscape:
             f"xuv_radius={self.xuv_radius!r}, roche_lobe={self.roche_lobe!r}, "
             f"escaping_species={self.escaping_species!r}, activation={self.activation!r}, "
             f"diffusion={self.diffusion!r}, absorption={self.absorption!r}, "
-            f"recombination_limit={self.recombination_limit!r})"
+            f"recombination_limit={self.recombination_limit!r}, "
+            f"transonic_wind={self.transonic_wind!r})"
         )
 
 

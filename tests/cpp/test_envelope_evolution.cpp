@@ -9,6 +9,8 @@
 #include "exosieve/envelope.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/evolution.hpp"
+#include "exosieve/hydrodynamic.hpp"
+#include "exosieve/outflow.hpp"
 #include "exosieve/thermosphere.hpp"
 
 using namespace exosieve;
@@ -236,4 +238,50 @@ TEST_CASE("bad envelope input raises InputError naming the argument before any s
     c.exobase = std::make_shared<ThermosphereExobase>(th, std::vector<std::string>{"H"}, false);
     expect(c, "an envelope needs a prescribed exobase");
     CHECK(calls == 0);
+}
+
+TEST_CASE("an envelope lost through a transonic wind from the evolving radius") {
+    // The wind's base is the evolving planet radius: at every output the envelope's loss rate is
+    // the smaller of the energy-limited rate and parker_mass_loss (outflow.hpp) at the radius
+    // and mass of that output. The two meet at a time the evolving radius sets, not marked as a
+    // kink: the step control must keep each output within 10 rtol of a run at rtol 1e-12.
+    TransonicWind w;
+    w.temperature = 5000.0;
+    w.base_density = 1.5e15;
+    const double m = species("H").mass;
+    auto run = [&](double rtol) {
+        EvolutionConfig c = sub_neptune(0.03, 20 * Myr, 10 * Gyr, rtol);
+        c.hydrodynamic->efficiency = 0.02;
+        c.hydrodynamic->transonic = w;
+        c.t_eval.clear();
+        for (int k = 0; k <= 30; ++k)
+            c.t_eval.push_back(20 * Myr * std::pow(500.0, k / 30.0));
+        return evolve(c);
+    };
+    const EvolutionResult r = run(1e-12);
+    const Star star = sunlike();
+    int wind_smaller = 0, energy_smaller = 0;
+    for (std::size_t k = 0; k < r.time_count(); ++k) {
+        if (!(r.envelope_mass[k] > 0.0))
+            continue;
+        CAPTURE(k);
+        const double mass = core + r.envelope_mass[k], radius = r.planet_radius[k];
+        const double flux = star.xuv_luminosity(r.time[k]) / (4 * constants::pi * orbit * orbit);
+        const double el = energy_limited_mass_loss(0.02, radius, radius, flux, mass);
+        const double wind = parker_mass_loss(radius, w.base_density, w.temperature, m, mass);
+        (wind < el ? wind_smaller : energy_smaller) += 1;
+        CHECK(r.envelope_loss_rate[k] == doctest::Approx(std::min(el, wind)).epsilon(1e-12));
+    }
+    CHECK(wind_smaller >= 3); // both laws act during the run
+    CHECK(energy_smaller >= 3);
+    for (double rtol : {1e-6, 1e-8}) {
+        CAPTURE(rtol);
+        const EvolutionResult coarse = run(rtol);
+        const double atol = rtol * 1e-3 * r.envelope_mass[0]; // depletion_fraction 1e-3
+        for (std::size_t k = 0; k < r.time_count(); ++k) {
+            CAPTURE(k);
+            CHECK(std::abs(coarse.envelope_mass[k] - r.envelope_mass[k]) <=
+                  10 * (rtol * r.envelope_mass[k] + atol));
+        }
+    }
 }

@@ -3,6 +3,7 @@
 #include <atomic>
 #include <cmath>
 #include <memory>
+#include <optional>
 #include <string>
 #include <thread>
 #include <vector>
@@ -679,4 +680,132 @@ TEST_CASE("energy-limited loss at the XUV absorption radius, capped by recombina
     CHECK(r.inventory[1] == doctest::Approx(1e52 - q * 80 * Myr).epsilon(1e-9));
     h.xuv_radius = 2.0 * planet.radius();
     CHECK_THROWS_AS(h.validate(), InputError); // a radius and an absorption model
+}
+
+namespace {
+
+// A sub-Neptune-like invented planet losing hydrogen at the rate of energy-limited escape,
+// optionally capped by a transonic wind; densities irrelevant (activation always).
+EvolutionConfig wind_config(std::optional<TransonicWind> wind, double t_end, bool recombination,
+                            double n0 = 1e50) {
+    XuvHistory x;
+    x.saturation_time = 100 * Myr;
+    const Star star(constants::M_sun, constants::L_sun, x);
+    const Planet planet(5 * constants::M_earth, 2.5 * constants::R_earth, 0.02 * constants::au,
+                        star);
+    EvolutionConfig c(planet);
+    c.species = {species("H")};
+    c.initial_inventory = {n0};
+    c.exobase =
+        std::make_shared<PrescribedExobase>(1.1 * planet.radius(), std::vector<std::string>{"H"},
+                                            std::vector<double>{1e13}, DensityScaling::Inventory);
+    c.temperature = ExobaseTemperature::constant(3000.0);
+    HydrodynamicOptions h;
+    h.activation = HydrodynamicActivation::Always;
+    h.roche_lobe = false;
+    if (recombination)
+        h.recombination = RecombinationLimit{};
+    h.transonic = wind;
+    c.hydrodynamic = h;
+    c.t_start = 10 * Myr;
+    c.t_end = t_end;
+    c.rtol = 1e-10;
+    for (int k = 0; k <= 40; ++k)
+        c.t_eval.push_back(c.t_start + (t_end - c.t_start) * k / 40.0);
+    return c;
+}
+
+} // namespace
+
+TEST_CASE("transonic wind: the smaller rate throughout gives linear loss at the Parker rate") {
+    // Worked: a constant wind rate Mdot takes dN/dt = -Mdot / m_H from the single escaping
+    // species, N(t) = N0 - Mdot (t - t0) / m_H, while the energy-limited rate stays larger
+    // (the flux falls after 100 Myr, still above the crossing at 2 Gyr).
+    TransonicWind w;
+    w.temperature = 5000.0;
+    w.base_density = 1e13;
+    const auto c = wind_config(w, 2 * Gyr, false);
+    const Planet& p = c.planet;
+    const double m = species("H").mass;
+    const double mdot = parker_mass_loss(p.radius(), w.base_density, w.temperature, m, p.mass());
+    const double el_end =
+        energy_limited_mass_loss(0.15, p.radius(), p.radius(), p.xuv_flux(2 * Gyr), p.mass());
+    CHECK(mdot < 0.5 * el_end);
+    const auto r = evolve(c);
+    for (std::size_t k = 0; k < r.time_count(); ++k) {
+        CHECK(r.escape_rate[k] * m == doctest::Approx(mdot).epsilon(1e-14));
+        CHECK(r.inventory[k] ==
+              doctest::Approx(1e50 - mdot * (r.time[k] - c.t_start) / m).epsilon(10 * c.rtol));
+    }
+    CHECK(r.inventory.back() < 0.95e50); // a measurable share of the inventory is lost
+    // The given mean molecular mass replaces the escaping species' mass.
+    w.mean_molecular_mass = 2.0 * m;
+    const auto r2 = evolve(wind_config(w, 2 * Gyr, false));
+    CHECK(r2.escape_rate[0] * m ==
+          doctest::Approx(parker_mass_loss(p.radius(), 1e13, 5000.0, 2.0 * m, p.mass()))
+              .epsilon(1e-14));
+}
+
+TEST_CASE("transonic wind: a larger wind rate leaves energy-limited loss unchanged") {
+    TransonicWind w;
+    w.temperature = 5000.0;
+    w.base_density = 1e25; // the wind could carry far more than the XUV lifts
+    for (bool recombination : {false, true}) {
+        const auto with = evolve(wind_config(w, 2 * Gyr, recombination));
+        const auto without = evolve(wind_config(std::nullopt, 2 * Gyr, recombination));
+        REQUIRE(with.time_count() == without.time_count());
+        for (std::size_t k = 0; k < with.time_count(); ++k) {
+            CHECK(with.inventory[k] == without.inventory[k]);
+            CHECK(with.escape_rate[k] == without.escape_rate[k]);
+        }
+    }
+}
+
+TEST_CASE("transonic wind: the switch to energy-limited loss after saturation") {
+    // Worked: the wind rate P applies until the energy-limited rate a F(t) falls to it at t_s,
+    // F(t) = F_sat (t / t_sat)^-beta after saturation; then
+    // N(t) = N(t_s) - a F_sat t_sat^beta (t^(1-beta) - t_s^(1-beta)) / ((1 - beta) m_H).
+    TransonicWind w;
+    w.temperature = 5000.0;
+    w.base_density = 3e15;
+    const auto c = wind_config(w, 3 * Gyr, false, 1e52);
+    const Planet& p = c.planet;
+    const double m = species("H").mass;
+    const double P = parker_mass_loss(p.radius(), 3e15, 5000.0, m, p.mass());
+    const double a = energy_limited_mass_loss(0.15, p.radius(), p.radius(), 1.0, p.mass());
+    const double t_sat = 100 * Myr, beta = 1.23, f_sat = p.xuv_flux(t_sat);
+    const double t_s = t_sat * std::pow(P / (a * f_sat), -1.0 / beta);
+    REQUIRE(t_s > 200 * Myr);
+    REQUIRE(t_s < 2 * Gyr);
+    const auto r = evolve(c);
+    const double n_s = 1e52 - P * (t_s - c.t_start) / m;
+    for (std::size_t k = 0; k < r.time_count(); ++k) {
+        const double t = r.time[k];
+        const double exact = t <= t_s
+                                 ? 1e52 - P * (t - c.t_start) / m
+                                 : n_s - a * f_sat * std::pow(t_sat, beta) *
+                                             (std::pow(t, 1 - beta) - std::pow(t_s, 1 - beta)) /
+                                             ((1 - beta) * m);
+        CHECK(r.inventory[k] == doctest::Approx(exact).epsilon(10 * c.rtol));
+    }
+    CHECK(r.inventory.back() < 0.9e52); // both laws take a measurable share
+}
+
+TEST_CASE("transonic wind: bad inputs refused by name") {
+    const auto expect = [](TransonicWind w, const char* text) {
+        auto c = wind_config(w, Gyr, false);
+        CHECK_THROWS_WITH_AS(evolve(c), doctest::Contains(text), InputError);
+    };
+    TransonicWind w;
+    w.temperature = 5000.0;
+    w.base_density = 1e13;
+    auto bad = w;
+    bad.temperature = 0.0;
+    expect(bad, "transonic temperature must be finite and > 0, got 0");
+    bad = w;
+    bad.base_density = -1.0;
+    expect(bad, "transonic base_density must be finite and > 0, got -1");
+    bad = w;
+    bad.mean_molecular_mass = std::nan("");
+    expect(bad, "transonic mean_molecular_mass must be finite and >= 0, got nan");
 }

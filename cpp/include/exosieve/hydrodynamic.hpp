@@ -135,6 +135,29 @@ struct RecombinationLimit {
     void validate() const;
 };
 
+//! Cap of the energy-limited (or XUV-driven) rate by the mass-loss rate of an isothermal
+//! transonic (Parker) wind from a given base (parker_mass_loss, outflow.hpp; its assumptions:
+//! steady, spherically symmetric, isothermal at `temperature`, one gas of constant mean
+//! molecular mass, the planet's point-mass gravity alone).
+//! The wind base is the planet radius: the evolving one with an envelope, the fixed one
+//! otherwise (not the exobase, which a hydrodynamic outflow does not have). A base below the
+//! sonic point starts on the subsonic branch; a base at or above it (base Jeans parameter
+//! G M m / (k T R_p) <= 2) on the supersonic one.
+//! The rate applied is min(energy-limited or XUV-driven, transonic). That is a modelling choice:
+//! the wind cannot carry more mass than its base density and temperature supply, and the
+//! absorbed XUV energy bounds what any wind can lift. The base density and temperature are
+//! held fixed; nothing here couples them to the flux.
+struct TransonicWind {
+    double temperature = 0.0;  //!< wind temperature T [K] (> 0)
+    double base_density = 0.0; //!< number density n0 at the wind base [m^-3] (> 0)
+    //! Mean molecular mass of the wind m [kg] (> 0); 0: the escaping species' mass (the wind of
+    //! the light gas that carries the loss).
+    double mean_molecular_mass = 0.0;
+
+    //! Throw InputError for a value out of range.
+    void validate() const;
+};
+
 //! Options of energy-limited hydrodynamic escape with drag.
 struct HydrodynamicOptions {
     double efficiency = 0.15;     //!< heating efficiency eta [1] (common practice: 0.1–0.3)
@@ -152,6 +175,8 @@ struct HydrodynamicOptions {
     std::optional<XuvAbsorption> absorption;
     //! Take the smaller of the energy-limited and the recombination-limited rate.
     std::optional<RecombinationLimit> recombination;
+    //! Take the smaller of that rate and the transonic (Parker) wind's rate.
+    std::optional<TransonicWind> transonic;
 
     //! Throw InputError for an efficiency outside (0, 1] or a negative radius or coefficient.
     void validate() const;
