@@ -16,6 +16,7 @@
 #include <thread>
 #include <utility>
 
+#include "closest_names.hpp"
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/outflow.hpp"
@@ -43,28 +44,13 @@ const std::set<std::string>& text_columns() {
     return names;
 }
 
-std::size_t edit_distance(const std::string& a, const std::string& b) {
-    std::vector<std::size_t> prev(b.size() + 1), cur(b.size() + 1);
-    for (std::size_t j = 0; j <= b.size(); ++j)
-        prev[j] = j;
-    for (std::size_t i = 1; i <= a.size(); ++i) {
-        cur[0] = i;
-        for (std::size_t j = 1; j <= b.size(); ++j)
-            cur[j] = std::min(
-                {prev[j] + 1, cur[j - 1] + 1, prev[j - 1] + (a[i - 1] == b[j - 1] ? 0 : 1)});
-        std::swap(prev, cur);
-    }
-    return prev[b.size()];
-}
-
 std::string closest_parameters(const std::string& name) {
-    std::vector<std::pair<std::size_t, std::string>> scored;
+    std::vector<std::string> names;
     for (const CaseParameter& p : case_parameters())
-        scored.emplace_back(edit_distance(name, p.name), p.name);
-    std::sort(scored.begin(), scored.end());
+        names.push_back(p.name);
     std::string out;
-    for (std::size_t k = 0; k < 3 && k < scored.size(); ++k)
-        out += (k ? ", " : "") + scored[k].second;
+    for (const std::string& near : detail::closest_names(name, names, 3))
+        out += (out.empty() ? "" : ", ") + near;
     return out;
 }
 

@@ -6,6 +6,7 @@
 #include <mutex>
 #include <sstream>
 
+#include "closest_names.hpp"
 #include "csv_text.hpp"
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
@@ -33,28 +34,6 @@ void validate(const Species& s) {
     require_non_negative((prefix + "cross_section").c_str(), s.cross_section);
     require_finite((prefix + "thermal_diffusion_factor").c_str(), s.thermal_diffusion_factor);
 }
-
-namespace {
-
-std::size_t edit_distance(const std::string& a, const std::string& b) {
-    std::vector<std::size_t> row(b.size() + 1);
-    for (std::size_t j = 0; j <= b.size(); ++j)
-        row[j] = j;
-    for (std::size_t i = 1; i <= a.size(); ++i) {
-        std::size_t diagonal = row[0];
-        row[0] = i;
-        for (std::size_t j = 1; j <= b.size(); ++j) {
-            const std::size_t above = row[j];
-            const bool same = std::tolower(static_cast<unsigned char>(a[i - 1])) ==
-                              std::tolower(static_cast<unsigned char>(b[j - 1]));
-            row[j] = std::min({row[j] + 1, row[j - 1] + 1, diagonal + (same ? 0 : 1)});
-            diagonal = above;
-        }
-    }
-    return row[b.size()];
-}
-
-} // namespace
 
 SpeciesRegistry SpeciesRegistry::from_csv(const std::string& csv_text, const std::string& origin) {
     static const std::vector<std::string> required = {"name",
@@ -125,16 +104,14 @@ std::vector<std::string> SpeciesRegistry::names() const {
 
 std::vector<std::string> SpeciesRegistry::closest(const std::string& name,
                                                   std::size_t count) const {
-    std::vector<std::pair<std::size_t, std::string>> scored;
-    std::shared_lock<std::shared_mutex> reading(*lock_);
-    for (const auto& entry : by_name_)
-        scored.emplace_back(edit_distance(name, entry.first), entry.first);
-    std::stable_sort(scored.begin(), scored.end(),
-                     [](const auto& a, const auto& b) { return a.first < b.first; });
-    std::vector<std::string> out;
-    for (std::size_t i = 0; i < scored.size() && i < count; ++i)
-        out.push_back(scored[i].second);
-    return out;
+    std::vector<std::string> names;
+    {
+        std::shared_lock<std::shared_mutex> reading(*lock_);
+        names.reserve(by_name_.size());
+        for (const auto& entry : by_name_)
+            names.push_back(entry.first);
+    }
+    return detail::closest_names(name, names, count);
 }
 
 SpeciesRegistry& default_registry() {

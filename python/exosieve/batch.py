@@ -46,8 +46,6 @@ from __future__ import annotations
 import json
 import math
 import os
-import sys
-import time as _time
 from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
@@ -854,27 +852,20 @@ def _create_file(
 
 
 class _Progress:
-    """A progress bar in cases with rate and time left: tqdm when installed, else a stderr
-    line; or a user callable ``progress(done, total)``."""
+    """A progress bar in cases with rate and time left (tqdm, a dependency), or a user callable
+    ``progress(done, total)``."""
 
     def __init__(self, total: int, initial: int, progress: bool | Callable[[int, int], Any]):
         self.total, self.done = total, initial
         self.callback = progress if callable(progress) else None
         self.bar: Any = None
-        self.plain = False
-        self.start = _time.monotonic()
-        self.initial = initial
-        self.last_print = 0.0
         self.reported: int | None = None
         if progress is True:
-            try:
-                from tqdm import tqdm
-            except ImportError:
-                self.plain = True
-            else:
-                self.bar = tqdm(
-                    total=total, initial=initial, unit="case", dynamic_ncols=True, smoothing=0.1
-                )
+            from tqdm import tqdm
+
+            self.bar = tqdm(
+                total=total, initial=initial, unit="case", dynamic_ncols=True, smoothing=0.1
+            )
 
     def update(self, done: int) -> None:
         done = min(max(done, self.done), self.total)
@@ -884,44 +875,15 @@ class _Progress:
         self.reported = done
         if self.callback is not None:
             self.callback(done, self.total)
-        if self.plain:
-            now = _time.monotonic()
-            if now - self.last_print >= 0.5 or done == self.total:
-                self.last_print = now
-                sys.stderr.write("\r" + self.line(now))
-                sys.stderr.flush()
 
     def finish(self, done: int) -> None:
         """The count at the end, unless the last update already reported it."""
         if self.reported != min(max(done, self.done), self.total):
             self.update(done)
 
-    def line(self, now: float) -> str:
-        elapsed = max(now - self.start, 1e-9)
-        rate = (self.done - self.initial) / elapsed
-        left = (self.total - self.done) / rate if rate > 0 else math.inf
-        left_text = "?" if not math.isfinite(left) else _clock(left)
-        return (
-            f"{self.done}/{self.total} cases ({100.0 * self.done / max(self.total, 1):.0f}%), "
-            f"{rate:.1f} cases/s, {left_text} left, {_clock(elapsed)} elapsed"
-        )
-
     def close(self) -> None:
         if self.bar is not None:
             self.bar.close()
-        if self.plain:
-            sys.stderr.write("\r" + self.line(_time.monotonic()) + "\n")
-            sys.stderr.flush()
-
-
-def _clock(seconds: float) -> str:
-    seconds = int(round(seconds))
-    hours, rest = divmod(seconds, 3600)
-    return (
-        f"{hours}:{rest // 60:02d}:{rest % 60:02d}"
-        if hours
-        else f"{rest // 60:02d}:{rest % 60:02d}"
-    )
 
 
 # --- running ----------------------------------------------------------------------------------
@@ -1200,7 +1162,7 @@ def compare(
     client : dask.distributed.Client, optional
         Run the chunks on this cluster's workers; results stream back in table order.
     progress : bool or callable, optional
-        True: a progress bar (tqdm if installed) with rate and time left; a callable is called
+        True: a progress bar (tqdm) with rate and time left; a callable is called
         as ``progress(cases_done, cases_total)``. Updates come about every 0.1 s (or as
         ``progress_every`` says), and at the end.
     progress_every : int, optional
