@@ -825,9 +825,8 @@ void add_loss_options(const CaseSpec& s, bool with_star, double mean_mass, Evolu
                 has(k.absorption_temperature) ? s.values[k.absorption_temperature] : 0.0;
             a.chord = has(k.chord) && s.values[k.chord] == 1.0;
             if (a.temperature > 0.0) { // the layer's scale height at the planet radius, fixed
-                const double r = c.planet.radius();
-                const double height = constants::k_B * a.temperature * r * r /
-                                      (a.mean_molecular_mass * constants::G * c.planet.mass());
+                const double height = scale_height(a.temperature, a.mean_molecular_mass,
+                                                   c.planet.mass(), c.planet.radius());
                 if (!std::isfinite(height) || !(height > 0.0))
                     bad_value(params[k.absorption_temperature].name,
                               given(k.absorption_temperature) +

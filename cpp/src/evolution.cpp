@@ -530,15 +530,21 @@ class Model {
   public:
     void enable_sources(bool on) { has_sources_ = on; }
 
+    // True when the energy-limited rate is a fixed function of the XUV flux: energy-limited loss
+    // on, no envelope (a fixed planet) and no absorption layer at the evolving exobase
+    // temperature.
+    bool rate_laws_fixed() const {
+        const auto& h = c_.hydrodynamic;
+        return h && !envelope_ && !(h->absorption && !(h->absorption->temperature > 0.0));
+    }
+
     // XUV flux [W m^-2] where the recombination limit takes over from the energy-limited rate,
     // where both are fixed functions of the flux (no absorption layer at the evolving exobase
     // temperature); NaN otherwise.
     double recombination_switch_flux() const {
-        if (!c_.hydrodynamic || !c_.hydrodynamic->recombination || envelope_)
+        if (!rate_laws_fixed() || !c_.hydrodynamic->recombination)
             return nan;
         const HydrodynamicOptions& h = *c_.hydrodynamic;
-        if (h.absorption && !(h.absorption->temperature > 0.0))
-            return nan;
         const RecombinationLimit& r = *h.recombination;
         return recombination_transition_flux(h.efficiency, planet_radius_, xuv_radius_,
                                              planet_mass_, roche_, r.temperature,
@@ -550,11 +556,9 @@ class Model {
     // temperature): the first is constant, the second a F, or min(a F, b F^(1/2)) with the
     // recombination limit; NaN otherwise.
     double transonic_switch_flux() const {
-        if (!c_.hydrodynamic || !c_.hydrodynamic->transonic || envelope_)
+        if (!rate_laws_fixed() || !c_.hydrodynamic->transonic)
             return nan;
         const HydrodynamicOptions& h = *c_.hydrodynamic;
-        if (h.absorption && !(h.absorption->temperature > 0.0))
-            return nan;
         const double wind = transonic_mass_loss();
         const double a = energy_limited_mass_loss(h.efficiency, planet_radius_, xuv_radius_, 1.0,
                                                   planet_mass_, roche_);
@@ -1252,22 +1256,14 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         if (ts > c.t_start && ts < c.t_end)
             stops.push_back(ts);
     }
-    // The recombination limit switches the rate's law in the flux: a kink where the flux
-    // crosses the switch (once, after saturation, the flux falling monotonically).
-    const double switch_flux = model.recombination_switch_flux();
-    if (switch_flux > 0.0 && std::isfinite(switch_flux)) {
+    // A switch of the rate's law at an XUV flux [W m^-2] is a kink where the flux crosses it
+    // (once, after saturation, the flux falling monotonically): the recombination limit taking
+    // over, and the transonic wind's rate meeting the XUV-driven one.
+    for (const double flux : {model.recombination_switch_flux(), model.transonic_switch_flux()}) {
+        if (!(flux > 0.0 && std::isfinite(flux)))
+            continue;
         const double a = c.planet.semi_major_axis();
-        const double ts =
-            c.planet.star().age_at_xuv_luminosity(switch_flux * 4.0 * constants::pi * a * a);
-        if (ts > c.t_start && ts < c.t_end && ts > c.planet.star().xuv().saturation_time)
-            stops.push_back(ts);
-    }
-    // The transonic wind's rate meets the XUV-driven one: a kink likewise.
-    const double wind_flux = model.transonic_switch_flux();
-    if (wind_flux > 0.0 && std::isfinite(wind_flux)) {
-        const double a = c.planet.semi_major_axis();
-        const double ts =
-            c.planet.star().age_at_xuv_luminosity(wind_flux * 4.0 * constants::pi * a * a);
+        const double ts = c.planet.star().age_at_xuv_luminosity(flux * 4.0 * constants::pi * a * a);
         if (ts > c.t_start && ts < c.t_end && ts > c.planet.star().xuv().saturation_time)
             stops.push_back(ts);
     }
