@@ -180,17 +180,9 @@ void bind_inversion(py::module_& m) {
             const InversionOptions o =
                 inversion_options(std::move(scaled), search_factor, inventory_min, inventory_max,
                                   tolerance, max_runs);
-            if (!table.row_errors.empty() && row < table.row_errors.size() &&
-                !table.row_errors[row].empty())
-                throw InputError(table.row_errors[row]);
-            check_table_columns(table);
-            const CaseSpec spec = case_from_table(table, row);
-            BatchOptions b = batch;
-            if (b.species.empty())
-                b.species = table_species(table);
             InversionSampling sampling{samples, seed, threads};
             return with_hooks(on_progress, interval_ms, every, [&](const InversionHooks& h) {
-                return invert_case(spec, b, mr, o, sampling, h);
+                return invert_case(table, row, batch, mr, o, sampling, h);
             });
         },
         py::kw_only(), py::arg("table"), py::arg("row"), py::arg("options"), py::arg("numerator"),

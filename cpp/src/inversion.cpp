@@ -683,4 +683,17 @@ InversionSamples invert_case(const CaseSpec& spec, const BatchOptions& batch,
                     });
 }
 
+InversionSamples invert_case(const CaseTable& table, std::size_t row, const BatchOptions& batch,
+                             const MeasuredRatio& measured, const InversionOptions& options,
+                             const InversionSampling& sampling, const InversionHooks& hooks) {
+    if (row < table.row_errors.size() && !table.row_errors[row].empty())
+        throw InputError(table.row_errors[row]);
+    check_table_columns(table);
+    const CaseSpec spec = case_from_table(table, row);
+    BatchOptions b = batch;
+    if (b.species.empty())
+        b.species = table_species(table);
+    return invert_case(spec, b, measured, options, sampling, hooks);
+}
+
 } // namespace exosieve

@@ -198,4 +198,10 @@ InversionSamples invert_case(const CaseSpec& spec, const BatchOptions& batch,
                              const MeasuredRatio& measured, const InversionOptions& options,
                              const InversionSampling& sampling, const InversionHooks& hooks = {});
 
+//! Invert row `row` of a case table: the row's own error or the table's column check raises
+//! InputError first; `batch.species` empty means every species the table names.
+InversionSamples invert_case(const CaseTable& table, std::size_t row, const BatchOptions& batch,
+                             const MeasuredRatio& measured, const InversionOptions& options,
+                             const InversionSampling& sampling, const InversionHooks& hooks = {});
+
 } // namespace exosieve
