@@ -8,7 +8,7 @@
 #include <string>
 #include <vector>
 
-#include "exosieve/batch.hpp"
+#include "exosieve/sweep_file.hpp"
 #include "exosieve/errors.hpp"
 
 namespace exosieve::bindings {

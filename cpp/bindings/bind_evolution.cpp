@@ -11,7 +11,7 @@
 #include <optional>
 
 #include "exosieve/errors.hpp"
-#include "exosieve/evolution.hpp"
+#include "exosieve/evolution_file.hpp"
 #include "exosieve/exobase_model.hpp"
 #include "exosieve/hydrodynamic.hpp"
 #include "exosieve/stellar.hpp"
@@ -354,15 +354,9 @@ void bind_evolution(py::module_& m) {
         .def(py::init([](const Thermosphere& t, const std::vector<std::string>& species,
                          bool limit_by_diffusion, const std::string& method,
                          const TailDepletion& tail) {
-                 if (method != "measured" && method != "chapman_enskog")
-                     throw InputError("diffusion method must be 'measured' or 'chapman_enskog', "
-                                      "got '" +
-                                      method + "'");
-                 return std::make_shared<ThermosphereExobase>(t, species, limit_by_diffusion,
-                                                              method == "measured"
-                                                                  ? DiffusionMethod::measured_first
-                                                                  : DiffusionMethod::chapman_enskog,
-                                                              tail);
+                 return std::make_shared<ThermosphereExobase>(
+                     t, species, limit_by_diffusion,
+                     diffusion_method_named(method, "diffusion method"), tail);
              }),
              py::arg("thermosphere"), py::arg("species"), py::arg("limit_by_diffusion"),
              py::arg("method"), py::arg("tail"))
@@ -406,10 +400,9 @@ void bind_evolution(py::module_& m) {
         .def("to_json", &GivenLoss::to_json);
 
     // --- evolution ---------------------------------------------------------------------------
-    py::enum_<StepperKind>(m, "StepperKind")
-        .value("auto", StepperKind::Auto)
-        .value("dopri5", StepperKind::Dopri5)
-        .value("rosenbrock4", StepperKind::Rosenbrock4);
+    py::enum_<StepperKind> stepper_kind(m, "StepperKind");
+    for (StepperKind k : {StepperKind::Auto, StepperKind::Dopri5, StepperKind::Rosenbrock4})
+        stepper_kind.value(stepper_name(k), k);
 
     py::class_<EnvelopeConfig>(m, "EnvelopeConfig",
                                "H/He envelope on a rock/iron core for evolve() [SI]")

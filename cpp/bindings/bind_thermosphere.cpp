@@ -17,11 +17,7 @@ namespace exosieve::bindings {
 namespace {
 
 DiffusionMethod method_from(const std::string& name) {
-    if (name == "measured")
-        return DiffusionMethod::measured_first;
-    if (name == "chapman_enskog")
-        return DiffusionMethod::chapman_enskog;
-    throw InputError("method must be 'measured' or 'chapman_enskog', got '" + name + "'");
+    return diffusion_method_named(name, "method");
 }
 
 const char* status_name(ExobaseStatus status) {
@@ -45,6 +41,9 @@ ArrayArg optional_arg(const std::optional<DoubleArray>& a) {
 
 void bind_thermosphere(py::module_& m) {
     // ------------------------------------------------------------ diffusion
+    m.attr("DIFFUSION_METHODS") =
+        py::make_tuple(diffusion_method_name(DiffusionMethod::measured_first),
+                       diffusion_method_name(DiffusionMethod::chapman_enskog));
     m.def(
         "binary_diffusion_parameter",
         [](std::size_t count, const Species& a, const Species& b, const DoubleArray& temperature,

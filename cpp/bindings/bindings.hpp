@@ -70,5 +70,6 @@ void bind_hdf5_io(py::module_& m);
 void bind_batch(py::module_& m);
 void bind_sensitivity(py::module_& m);
 void bind_inversion(py::module_& m);
+void bind_file_schema(py::module_& m);
 
 } // namespace exosieve::bindings

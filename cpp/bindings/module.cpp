@@ -16,4 +16,5 @@ PYBIND11_MODULE(_core, m) {
     b::bind_batch(m);
     b::bind_sensitivity(m);
     b::bind_inversion(m);
+    b::bind_file_schema(m);
 }

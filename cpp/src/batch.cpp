@@ -689,13 +689,8 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
         if (plan.diffusion_source != none) {
             const std::string& text = table.text[plan.diffusion_source].second[row];
             s.diffusion_given = !text.empty();
-            if (text.empty() || text == "measured")
-                s.diffusion = DiffusionMethod::measured_first;
-            else if (text == "chapman_enskog")
-                s.diffusion = DiffusionMethod::chapman_enskog;
-            else
-                bad_value("diffusion_source",
-                          "'" + text + "' is neither 'measured' nor 'chapman_enskog'");
+            s.diffusion = text.empty() ? DiffusionMethod::measured_first
+                                       : diffusion_method_named(text, "column 'diffusion_source'");
         }
     } catch (const InputError& e) {
         throw InputError(table.row_label(row) + " (case '" + s.name + "'), " + e.what());
@@ -1294,63 +1289,6 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
     inputs = input_count;
     sample_input.assign(cases * sample_count * input_count, nan);
     input_uncertain.assign(cases * input_count, 0);
-}
-
-std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
-    const std::size_t S = c.species, T = c.times, N = c.samples;
-    std::vector<ChunkVariable> v{
-        {"error", {}, nullptr, nullptr, &c.error},
-        {"steps", {}, nullptr, &c.steps},
-        {"planet_mass", {}, &c.planet_mass},
-        {"planet_radius", {}, &c.planet_radius},
-        {"exobase_radius", {}, &c.exobase_radius},
-        {"escape_speed", {}, &c.escape_speed},
-        {"age_start", {}, &c.t_start},
-        {"age_end", {}, &c.t_end},
-        {"exobase_temperature_start", {}, &c.temperature_start},
-        {"mole_fraction", {S}, &c.mole_fraction},
-        {"exobase_temperature", {T}, &c.exobase_temperature},
-        {"retained_fraction", {T, S}, &c.retained},
-        {"jeans_parameter", {T, S}, &c.jeans_parameter},
-        {"final_retained_fraction", {S}, &c.final_retained},
-        {"depletion_time", {S}, &c.depletion_time},
-        {"efolding_time", {S}, &c.efolding_time},
-        {"escape_rate_start", {S}, &c.escape_rate_start},
-        {"given_loss_rate_start", {S}, &c.given_loss_start},
-        {"jeans_parameter_start", {S}, &c.jeans_start},
-        {"jeans_parameter_end", {S}, &c.jeans_end},
-        {"regime_start", {S}, nullptr, &c.regime_start},
-        {"bulk_jeans_parameter_start", {}, &c.bulk_jeans_start},
-        {"hydrodynamic_unmodelled", {}, nullptr, &c.hydrodynamic_unmodelled},
-        {"stripping_time", {}, &c.stripping_time},
-        {"planet_radius_end", {}, &c.planet_radius_end},
-    };
-    if (N > 0) {
-        v.push_back({"sample_retained_fraction", {N, S}, &c.sample_retained});
-        v.push_back({"sample_depletion_time", {N, S}, &c.sample_depletion_time});
-        v.push_back({"sample_failed", {N}, nullptr, &c.sample_failed});
-        v.push_back({"sample_error", {}, nullptr, nullptr, &c.sample_error});
-        if (c.inputs > 0) {
-            v.push_back({"sample_input", {N, c.inputs}, &c.sample_input});
-            v.push_back({"input_uncertain", {c.inputs}, nullptr, &c.input_uncertain});
-        }
-    }
-    return v;
-}
-
-RowBlock chunk_rows(const BatchChunk& c) {
-    RowBlock b(c.count);
-    b.set("case", c.name); // the labels: xarray selects rows with .sel(case=name)
-    b.set("row", std::vector<std::int64_t>(c.key.begin(), c.key.end()));
-    for (const ChunkVariable& v : chunk_variables(c)) {
-        if (v.f)
-            b.set(v.name, *v.f);
-        else if (v.i)
-            b.set(v.name, *v.i);
-        else
-            b.set(v.name, *v.s);
-    }
-    return b;
 }
 
 namespace {

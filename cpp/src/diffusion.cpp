@@ -69,6 +69,17 @@ void check_background(const Species& s, const std::vector<Species>& background,
 
 } // namespace
 
+const char* diffusion_method_name(DiffusionMethod method) {
+    return method == DiffusionMethod::measured_first ? "measured" : "chapman_enskog";
+}
+
+DiffusionMethod diffusion_method_named(const std::string& name, const std::string& argument) {
+    for (DiffusionMethod m : {DiffusionMethod::measured_first, DiffusionMethod::chapman_enskog})
+        if (name == diffusion_method_name(m))
+            return m;
+    throw InputError(argument + " must be 'measured' or 'chapman_enskog', got '" + name + "'");
+}
+
 double neufeld_collision_integral(double reduced_temperature) {
     // Neufeld, Janzen & Aziz (1972), J. Chem. Phys. 57, 1100, as given in Poling,
     // Prausnitz & O'Connell (2001) eq. 11-3.6.

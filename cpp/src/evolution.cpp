@@ -17,7 +17,6 @@
 #include "exosieve/constants.hpp"
 #include "exosieve/diffusion.hpp"
 #include "exosieve/errors.hpp"
-#include "exosieve/hdf5_io.hpp"
 #include "exosieve/outflow.hpp"
 #include "json_text.hpp"
 
@@ -1171,9 +1170,7 @@ std::string EvolutionConfig::to_json() const {
         .number("depletion_fraction", depletion_fraction)
         .number("max_steps", static_cast<double>(max_steps))
         .add("isotope_ratios", json_array(ratio_names))
-        .string("stepper", stepper == StepperKind::Rosenbrock4 ? "rosenbrock4"
-                           : stepper == StepperKind::Dopri5    ? "dopri5"
-                                                               : "auto")
+        .string("stepper", stepper_name(stepper))
         .string("integrator", "Boost.Odeint on ln N with dense output");
     return o.str();
 }
@@ -1190,6 +1187,18 @@ default_isotope_ratios(const std::vector<std::string>& species) {
         if (has(a) && has(b))
             out.emplace_back(a, b);
     return out;
+}
+
+const char* stepper_name(StepperKind kind) {
+    switch (kind) {
+    case StepperKind::Dopri5:
+        return "dopri5";
+    case StepperKind::Rosenbrock4:
+        return "rosenbrock4";
+    case StepperKind::Auto:
+        break;
+    }
+    return "auto";
 }
 
 EvolutionResult evolve(const EvolutionConfig& c) {
@@ -1387,7 +1396,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     // steps; a source balancing a fast loss is, and Rosenbrock4 then takes ~1e3x fewer.
     const bool implicit =
         c.stepper == StepperKind::Rosenbrock4 || (c.stepper == StepperKind::Auto && any_source);
-    r.stepper = implicit ? "rosenbrock4" : "dopri5";
+    r.stepper = stepper_name(implicit ? StepperKind::Rosenbrock4 : StepperKind::Dopri5);
     if (implicit)
         stepper = std::make_unique<RosenbrockStepper>(model, checker, n_state);
     else
@@ -1647,105 +1656,6 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     r.completed = true;
     r.rhs_evaluations = model.evaluations();
     return r;
-}
-
-void write_result(const EvolutionResult& r, const std::string& path) {
-    const std::size_t nt = r.time_count(), ns = r.species_count(), nr = r.ratio_names.size();
-    auto need = [&](const char* what, std::size_t have, std::size_t want) {
-        if (have != want)
-            throw InputError(std::string("result ") + what + " has " + std::to_string(have) +
-                             " values, expected " + std::to_string(want));
-    };
-    need("inventory", r.inventory.size(), nt * ns);
-    need("escape_rate", r.escape_rate.size(), nt * ns);
-    need("source_rate", r.source_rate.size(), nt * ns);
-    need("given_loss_rate", r.given_loss_rate.size(), nt * ns);
-    need("jeans_parameter", r.jeans_parameter.size(), nt * ns);
-    need("isotope_ratio", r.isotope_ratio.size(), nt * nr);
-    for (const auto* v : {&r.exobase_radius, &r.exobase_temperature, &r.xuv_flux})
-        need("time series", v->size(), nt);
-    need("regime", r.regime.size(), nt);
-    need("energy_limited", r.energy_limited.size(), nt);
-    need("depletion_time", r.depletion_time.size(), ns);
-    need("initial_inventory", r.initial_inventory.size(), ns);
-    need("species_mass", r.species_mass.size(), ns);
-    if (r.has_envelope()) {
-        need("envelope_mass", r.envelope_mass.size(), nt);
-        need("planet_radius", r.planet_radius.size(), nt);
-        need("envelope_loss_rate", r.envelope_loss_rate.size(), nt);
-    }
-
-    ResultWriter w(path, r.config);
-    w.add_coordinate("time", r.time, "s", "time (stellar age)");
-    w.add_coordinate("species", r.species, "species");
-    if (nr > 0)
-        w.add_coordinate("ratio", r.ratio_names, "isotope ratio");
-    const std::vector<std::string> ts = {"time", "species"}, t = {"time"}, s = {"species"};
-    w.add_variable("inventory", ts, r.inventory, "1", "number of particles in the inventory");
-    w.add_variable("escape_rate", ts, r.escape_rate, "s-1", "global escape rate");
-    w.add_variable("source_rate", ts, r.source_rate, "s-1", "source rate");
-    w.add_variable("given_loss_rate", ts, r.given_loss_rate, "s-1",
-                   "given (non-thermal or external) loss rate");
-    w.add_variable("jeans_parameter", ts, r.jeans_parameter, "1", "Jeans parameter at the exobase");
-    w.add_variable("exobase_radius", t, r.exobase_radius, "m",
-                   "exobase radius from the planet's centre");
-    w.add_variable("exobase_temperature", t, r.exobase_temperature, "K", "exobase temperature");
-    w.add_variable("xuv_flux", t, r.xuv_flux, "W m-2", "XUV flux at the planet");
-    const std::vector<std::int64_t> regime(r.regime.begin(), r.regime.end());
-    w.add_variable("regime", t, regime, "1", "escape regime of the bulk gas at the exobase");
-    // CF flags: flag_values of the variable's type, one blank-free word per value.
-    std::vector<std::int64_t> codes;
-    std::string meanings;
-    for (Regime k :
-         {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition, Regime::Hydrodynamic}) {
-        codes.push_back(static_cast<std::int64_t>(k));
-        meanings += (meanings.empty() ? "" : " ") + std::string(regime_name(k));
-    }
-    w.set_attribute("regime", "flag_values", codes);
-    w.set_attribute("regime", "flag_meanings", meanings);
-    const std::vector<std::int64_t> limited(r.energy_limited.begin(), r.energy_limited.end());
-    w.add_variable("energy_limited", t, limited, "1",
-                   "1 where energy-limited hydrodynamic loss acted");
-    if (nr > 0)
-        w.add_variable("isotope_ratio", {"time", "ratio"}, r.isotope_ratio, "1", "isotope ratio");
-    w.add_variable("depletion_time", s, r.depletion_time, "s",
-                   "time when the inventory fell below the depletion fraction");
-    w.add_variable("initial_inventory", s, r.initial_inventory, "1",
-                   "number of particles at the start");
-    w.add_variable("species_mass", s, r.species_mass, "kg", "particle mass");
-    if (r.has_envelope()) {
-        w.add_variable("envelope_mass", t, r.envelope_mass, "kg", "H/He envelope mass");
-        w.add_variable("planet_radius", t, r.planet_radius, "m",
-                       "planet radius, core plus envelope (Lopez & Fortney 2014 fit)");
-        w.add_variable("envelope_loss_rate", t, r.envelope_loss_rate, "kg s-1",
-                       "envelope mass-loss rate");
-        w.add_variable("core_mass", {}, std::vector<double>{r.core_mass}, "kg", "core mass");
-        w.add_variable("stripping_time", {}, std::vector<double>{r.stripping_time}, "s",
-                       "stellar age when the envelope is gone (NaN: not stripped)");
-    }
-    auto count = [&](const char* name, std::size_t value, const char* long_name) {
-        w.add_variable(name, {}, std::vector<std::int64_t>{static_cast<std::int64_t>(value)}, "1",
-                       long_name);
-    };
-    count("steps", r.steps, "accepted integration steps");
-    count("rejected_steps", r.rejected_steps, "rejected integration steps");
-    count("rhs_evaluations", r.rhs_evaluations, "evaluations of the right-hand side");
-    count("completed", r.completed ? 1 : 0, "1 when the run reached the end of t_span");
-    w.add_variable("t_reached", {}, std::vector<double>{r.t_reached}, "s", "last time reached");
-    std::string changes = "[";
-    for (std::size_t k = 0; k < r.regime_changes.size(); ++k) {
-        const RegimeChange& c = r.regime_changes[k];
-        changes += (k ? ", " : "") + JsonObject()
-                                         .number("time_s", c.time)
-                                         .string("from", regime_name(c.from))
-                                         .string("to", regime_name(c.to))
-                                         .str();
-    }
-    w.set_attribute("regime_changes", changes + "]");
-    w.set_attribute("title", "exosieve evolution result");
-    w.set_attribute("Conventions", result_file_conventions);
-    w.set_attribute("stepper", r.stepper);
-    w.commit();
 }
 
 } // namespace exosieve

@@ -401,8 +401,7 @@ std::string ThermosphereExobase::to_json() const {
             .number("shape_m-1", shape_)
             .number("base_radius_m", base_radius_);
     o.add("limit_by_diffusion", limit_by_diffusion_ ? "true" : "false")
-        .string("diffusion_method",
-                method_ == DiffusionMethod::measured_first ? "measured" : "chapman_enskog");
+        .string("diffusion_method", diffusion_method_name(method_));
     if (!tail_.is_identity())
         o.string("tail_depletion", "set");
     return o.str();

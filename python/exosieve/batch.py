@@ -61,169 +61,39 @@ from .model import REGIMES
 
 __all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
 
-# Case variables of a result file: name, dtype, dimensions after `case`, units, long name.
-_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
-    ("error", str, [], "1", "why the row is invalid or its nominal run failed (empty: it ran)"),
-    ("steps", int, [], "1", "accepted integration steps of the nominal run"),
-    ("planet_mass", float, [], "kg", "planet mass (with an envelope: at the start)"),
-    ("planet_radius", float, [], "m", "planet radius (with an envelope: at the start)"),
-    ("exobase_radius", float, [], "m", "exobase radius from the planet's centre"),
-    ("escape_speed", float, [], "m s-1", "escape speed at the exobase"),
-    ("age_start", float, [], "s", "stellar age at the start of the run"),
-    ("age_end", float, [], "s", "stellar age at the end of the run"),
-    ("exobase_temperature_start", float, [], "K", "exobase temperature at the start"),
-    ("mole_fraction", float, ["species"], "1", "mole fraction at the exobase (0: absent)"),
-    ("exobase_temperature", float, ["time"], "K", "exobase temperature"),
-    (
-        "retained_fraction",
-        float,
-        ["time", "species"],
-        "1",
-        "inventory left, N(t) / N(start) (NaN outside the run)",
-    ),
-    ("jeans_parameter", float, ["time", "species"], "1", "Jeans parameter at the exobase"),
-    (
-        "final_retained_fraction",
-        float,
-        ["species"],
-        "1",
-        "inventory left at the end, N(end) / N(start)",
-    ),
-    (
-        "depletion_time",
-        float,
-        ["species"],
-        "s",
-        "stellar age when the inventory fell below the depletion fraction (NaN: never)",
-    ),
-    (
-        "efolding_time",
-        float,
-        ["species"],
-        "s",
-        "thermal loss e-folding time N / Q at the start",
-    ),
-    (
-        "escape_rate_start",
-        float,
-        ["species"],
-        "s-1",
-        "thermal (Jeans or hydrodynamic) escape rate Q at the start",
-    ),
-    (
-        "given_loss_rate_start",
-        float,
-        ["species"],
-        "s-1",
-        "given (non-thermal or external) loss rate at the start, added to the thermal one "
-        "(0: none)",
-    ),
-    ("jeans_parameter_start", float, ["species"], "1", "Jeans parameter at the start"),
-    ("jeans_parameter_end", float, ["species"], "1", "Jeans parameter at the end"),
-    (
-        "regime_start",
-        int,
-        ["species"],
-        "1",
-        "escape regime of the species at the start: 0 Jeans, 1 enhanced Jeans, "
-        "2 transition, 3 hydrodynamic (-1: none)",
-    ),
-    (
-        "bulk_jeans_parameter_start",
-        float,
-        [],
-        "1",
-        "Jeans parameter of the bulk (well-mixed) gas at the exobase at the start",
-    ),
-    (
-        "hydrodynamic_unmodelled",
-        int,
-        [],
-        "1",
-        "1: the bulk gas starts at or below the hydrodynamic threshold and the case has no "
-        "heating efficiency, so its Jeans results do not describe its loss (0: no; -1: not run)",
-    ),
-    (
-        "stripping_time",
-        float,
-        [],
-        "s",
-        "stellar age when the H/He envelope is gone (NaN: not stripped, or no envelope)",
-    ),
-    (
-        "planet_radius_end",
-        float,
-        [],
-        "m",
-        "planet radius at the end (with an envelope: the core and what is left of it)",
-    ),
-]
-_SAMPLE_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
-    (
-        "sample_retained_fraction",
-        float,
-        ["sample", "species"],
-        "1",
-        "inventory left at the end in each Monte Carlo sample",
-    ),
-    (
-        "sample_depletion_time",
-        float,
-        ["sample", "species"],
-        "s",
-        "stellar age of depletion in each Monte Carlo sample (NaN: never)",
-    ),
-    ("sample_failed", int, ["sample"], "1", "1 where the Monte Carlo run failed"),
-    ("sample_error", str, [], "1", "error of the lowest-numbered failed sample"),
-]
-# With samples and uncertain inputs (columns `<name>_sigma` / `<name>_lnsigma`): every sample's
-# drawn inputs, along the dimension `input` (whose SI units are in the variable `input_unit`).
-_INPUT_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
-    (
-        "sample_input",
-        float,
-        ["sample", "input"],
-        "SI unit of each input (see input_unit)",
-        "value of each uncertain input in each sample run, mole fractions as drawn (before "
-        "they are divided by their sum; NaN: the case lacks the input or its draw failed)",
-    ),
-    (
-        "input_uncertain",
-        int,
-        ["input"],
-        "1",
-        "1: the case draws the input from its uncertainty; 0: held at its table value",
-    ),
-]
+# Case variables of a sweep file (the core's list): name, dtype, dimensions after `case`, units,
+# long name; those of every file, those of files with samples, and with samples and inputs.
+_Variable = tuple[str, type, list[str], str, str]
+_SCHEMA: list[dict[str, Any]] = _core.sweep_file_variables()
+_DTYPES: dict[str, type] = {"float64": float, "int64": int, "str": str}
+
+
+def _variables_when(condition: str) -> list[_Variable]:
+    return [
+        (v["name"], _DTYPES[v["dtype"]], list(v["dims"]), v["units"], v["long_name"])
+        for v in _SCHEMA
+        if v["present_when"] == condition
+    ]
+
+
+_VARIABLES = _variables_when("")
+_SAMPLE_VARIABLES = _variables_when("samples")
+_INPUT_VARIABLES = _variables_when("inputs")
 DESIGNS = ("monte_carlo", "saltelli")
 
-# Coordinates of a result file (and `row`, the table row of each case): units, long name.
+# Coordinates of a sweep file (and `row`, the table row of each case; `input_unit`, the
+# variable beside `input`): units, long name.
 _COORDINATES: dict[str, tuple[str, str]] = {
-    "case": ("1", "planet case (the table's case column)"),
-    "row": ("1", "row of the case table"),
-    "species": ("1", "species"),
-    "time": ("s", "stellar age"),
-    "sample": ("1", "Monte Carlo sample"),
-    "input": ("1", "uncertain input"),
+    c["name"]: (c["units"], c["long_name"]) for c in _core.sweep_file_coordinates()
 }
-# The variable beside the `input` coordinate: (units, long name).
-_INPUT_UNIT = ("1", "SI unit of the input's values in sample_input")
 
 # CF flags of the code variables: values (of the variable's type) and one word per value.
 _FLAGS: dict[str, tuple[list[int], str]] = {
-    "regime_start": ([-1, 0, 1, 2, 3], " ".join(["none", *REGIMES])),
+    v["name"]: (list(v["flag_values"]), v["flag_meanings"]) for v in _SCHEMA if v["flag_values"]
 }
 
-_UNITS = {
-    "final_retained_fraction": "1",
-    "depletion_time": "s",
-    "efolding_time": "s",
-    "escape_rate_start": "s-1",
-    "given_loss_rate_start": "s-1",
-    "jeans_parameter_start": "1",
-    "jeans_parameter_end": "1",
-    "probability_retained": "1",
-}
+# Units of the summary's columns: those of the file variables they come from.
+_UNITS: dict[str, str] = {v["name"]: v["units"] for v in _SCHEMA if v["dtype"] != "str"}
 
 
 class Interrupted(KeyboardInterrupt):
@@ -471,7 +341,7 @@ class Comparison:
             "hydrodynamic_unmodelled": self["hydrodynamic_unmodelled"][ci] == 1,
             "error": np.asarray(self["error"], dtype=object)[ci],
         }
-        units = dict(_UNITS)
+        units = {name: _UNITS[name] for name in columns if name in _UNITS}
         if self.samples:
             draws = self["sample_retained_fraction"][ci, :, sj]  # (rows, samples)
             ok = np.isfinite(draws) & valid[:, None]
@@ -479,6 +349,7 @@ class Comparison:
             hits = ((draws > retain) & ok).sum(axis=1)
             with np.errstate(invalid="ignore", divide="ignore"):
                 columns["probability_retained"] = np.where(count > 0, hits / count, np.nan)
+            units["probability_retained"] = "1"
             for value in q:
                 label = f"retained_fraction_p{float(value):g}"
                 columns[label] = _nanpercentile_rows(draws, ok, float(value))
@@ -528,7 +399,7 @@ class Comparison:
         coords = {name: (name, v, described(name)) for name, v in labels.items()}
         data: dict[str, Any] = {"row": ("case", self["row"], described("row"))}
         if self.samples and self.inputs:
-            units, long_name = _INPUT_UNIT
+            units, long_name = _COORDINATES["input_unit"]
             data["input_unit"] = (
                 "input",
                 np.array(self.input_units, dtype=object),
@@ -683,36 +554,8 @@ def _summary_text(summary: dict[str, Any]) -> str:
 
 # Allowed range of every stored variable, checked on opening and on resuming a file: a value
 # outside it can only come from a damaged file. NaN marks a missing value and is allowed.
-# Retained fractions may exceed 1 by the integration tolerance (case tables have no sources).
 _RANGES: dict[str, tuple[float, float]] = {
-    "steps": (0, math.inf),
-    "planet_mass": (0, math.inf),
-    "planet_radius": (0, math.inf),
-    "exobase_radius": (0, math.inf),
-    "escape_speed": (0, math.inf),
-    "age_start": (0, math.inf),
-    "age_end": (0, math.inf),
-    "exobase_temperature_start": (0, math.inf),
-    "mole_fraction": (0, 1),
-    "exobase_temperature": (0, math.inf),
-    "retained_fraction": (0, 1.001),
-    "jeans_parameter": (0, math.inf),
-    "final_retained_fraction": (0, 1.001),
-    "depletion_time": (0, math.inf),
-    "efolding_time": (0, math.inf),
-    "escape_rate_start": (0, math.inf),
-    "given_loss_rate_start": (0, math.inf),
-    "jeans_parameter_start": (0, math.inf),
-    "jeans_parameter_end": (0, math.inf),
-    "regime_start": (-1, 3),
-    "bulk_jeans_parameter_start": (0, math.inf),
-    "hydrodynamic_unmodelled": (-1, 1),
-    "stripping_time": (0, math.inf),
-    "planet_radius_end": (0, math.inf),
-    "sample_retained_fraction": (0, 1.001),
-    "sample_depletion_time": (0, math.inf),
-    "sample_failed": (0, 1),
-    "input_uncertain": (0, 1),
+    v["name"]: tuple(v["range"]) for v in _SCHEMA if v["range"] is not None
 }
 
 
@@ -835,8 +678,8 @@ def _create_file(
                 "input_unit",
                 ["input"],
                 input_units(inputs),
-                units=_INPUT_UNIT[0],
-                long_name=_INPUT_UNIT[1],
+                units=_COORDINATES["input_unit"][0],
+                long_name=_COORDINATES["input_unit"][1],
             )
             variables += _INPUT_VARIABLES
     for name, dtype, dims, units, long_name in variables:

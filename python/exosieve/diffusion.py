@@ -22,7 +22,7 @@ from .species import Species, species
 SpeciesLike = str | Species
 BackgroundLike = str | Species | Mapping[Any, float]
 
-_METHODS = ("measured", "chapman_enskog")
+_METHODS: tuple[str, ...] = tuple(_core.DIFFUSION_METHODS)
 
 
 def as_species(value: Any, name: str) -> Species:

@@ -265,7 +265,7 @@ def _build_config(
     if isinstance(max_steps, float) and float(max_steps).is_integer():
         max_steps = int(max_steps)  # e.g. 1e5
     config.max_steps = whole_number(max_steps, "max_steps", 1)
-    if stepper not in ("auto", "dopri5", "rosenbrock4"):
+    if not isinstance(stepper, str) or stepper not in _core.StepperKind.__members__:
         raise ValueError(f"stepper must be 'auto', 'dopri5' or 'rosenbrock4', got {stepper!r}")
     config.stepper = getattr(_core.StepperKind, stepper)
     if sources:

@@ -36,7 +36,7 @@ __all__ = [
 ]
 
 #: Regime codes used in results: 0 Jeans, 1 enhanced Jeans, 2 transition, 3 hydrodynamic.
-REGIMES: tuple[str, ...] = ("jeans", "enhanced_jeans", "transition", "hydrodynamic")
+REGIMES: tuple[str, ...] = tuple(_core.REGIMES)
 
 _DEFAULT_XUV = _core.XuvHistory()
 

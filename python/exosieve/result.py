@@ -22,50 +22,29 @@ from .model import REGIMES
 
 __all__ = ["EvolutionResult", "PerName", "open_result", "VARIABLES"]
 
+_SCHEMA: list[dict[str, Any]] = _core.evolution_file_variables()
+
+
+def _described(keep: Any) -> dict[str, tuple[str, str]]:
+    return {v["name"]: (v["units"], v["long_name"]) for v in _SCHEMA if keep(v)}
+
+
 #: Per-time-and-species variables: name -> (units, long_name).
-SPECIES_VARIABLES: dict[str, tuple[str, str]] = {
-    "inventory": ("1", "number of particles in the inventory"),
-    "escape_rate": ("s-1", "global escape rate"),
-    "source_rate": ("s-1", "source rate"),
-    "given_loss_rate": ("s-1", "given (non-thermal or external) loss rate"),
-    "jeans_parameter": ("1", "Jeans parameter at the exobase"),
-}
+SPECIES_VARIABLES = _described(lambda v: v["dims"] == ["time", "species"])
 #: Per-time variables: name -> (units, long_name).
-TIME_VARIABLES: dict[str, tuple[str, str]] = {
-    "exobase_radius": ("m", "exobase radius from the planet's centre"),
-    "exobase_temperature": ("K", "exobase temperature"),
-    "xuv_flux": ("W m-2", "XUV flux at the planet"),
-    "regime": ("1", "escape regime of the bulk gas at the exobase"),
-    "energy_limited": ("1", "1 where energy-limited hydrodynamic loss acted"),
-}
+TIME_VARIABLES = _described(lambda v: v["dims"] == ["time"] and not v["present_when"])
 #: Per-time variables of a run with an envelope: name -> (units, long_name).
-ENVELOPE_VARIABLES: dict[str, tuple[str, str]] = {
-    "envelope_mass": ("kg", "H/He envelope mass"),
-    "planet_radius": ("m", "planet radius, core plus envelope (Lopez & Fortney 2014 fit)"),
-    "envelope_loss_rate": ("kg s-1", "envelope mass-loss rate"),
-}
-#: Every variable of a result file with its units and long name.
-VARIABLES: dict[str, tuple[str, str]] = {
-    **SPECIES_VARIABLES,
-    **TIME_VARIABLES,
-    "isotope_ratio": ("1", "isotope ratio"),
-    "depletion_time": ("s", "time when the inventory fell below the depletion fraction"),
-    "initial_inventory": ("1", "number of particles at the start"),
-    "species_mass": ("kg", "particle mass"),
-    "steps": ("1", "accepted integration steps"),
-    "rejected_steps": ("1", "rejected integration steps"),
-    "rhs_evaluations": ("1", "evaluations of the right-hand side"),
-    "completed": ("1", "1 when the run reached the end of t_span"),
-    "t_reached": ("s", "last time reached"),
-    **ENVELOPE_VARIABLES,
-    "core_mass": ("kg", "core mass"),
-    "stripping_time": ("s", "stellar age when the envelope is gone (NaN: not stripped)"),
-}
+ENVELOPE_VARIABLES = _described(lambda v: v["dims"] == ["time"] and v["present_when"] == "envelope")
+#: Every variable of a result file with its units and long name (the core's list).
+VARIABLES = _described(lambda v: True)
 #: CF flags of ``regime``: its codes (int64, the variable's type) and one word per code.
+_REGIME = next(v for v in _SCHEMA if v["name"] == "regime")
 REGIME_FLAGS: dict[str, Any] = {
-    "flag_values": np.arange(len(REGIMES), dtype=np.int64),
-    "flag_meanings": " ".join(REGIMES),
+    "flag_values": np.asarray(_REGIME["flag_values"], dtype=np.int64),
+    "flag_meanings": _REGIME["flag_meanings"],
 }
+#: Coordinates of a result file: name -> (units, long_name).
+COORDINATES = {c["name"]: (c["units"], c["long_name"]) for c in _core.evolution_file_coordinates()}
 
 
 class PerName(Mapping[str, Any]):
@@ -281,16 +260,7 @@ class EvolutionResult:
             "ratio_names": self.ratio_names,
             **{n: getattr(self, n).values for n in SPECIES_VARIABLES},
             "isotope_ratio": self.isotope_ratio.values,
-            **{
-                n: getattr(self, n)
-                for n in (
-                    "exobase_radius",
-                    "exobase_temperature",
-                    "xuv_flux",
-                    "regime",
-                    "energy_limited",
-                )
-            },
+            **{n: getattr(self, n) for n in TIME_VARIABLES},
             "depletion_time": np.array(
                 [np.nan if t is None else t for t in self.depletion_time.values()]
             ),
@@ -322,48 +292,29 @@ class EvolutionResult:
         """The result as an ``xarray.Dataset`` with the file's dimensions, units and names."""
         import xarray as xr
 
-        coords = {
-            "time": ("time", self.time, {"units": "s", "long_name": "time (stellar age)"}),
-            "species": (
-                "species",
-                np.array(self.species, dtype=object),
-                {"units": "1", "long_name": "species"},
-            ),
-        }
-        data: dict[str, tuple[tuple[str, ...], Any, dict[str, str]]] = {}
-        for name, (units, long_name) in SPECIES_VARIABLES.items():
-            data[name] = (
-                ("time", "species"),
-                getattr(self, name).values,
-                {"units": units, "long_name": long_name},
-            )
-        for name, (units, long_name) in TIME_VARIABLES.items():
-            attrs = {"units": units, "long_name": long_name}
-            if name == "regime":
-                attrs.update(REGIME_FLAGS)
-            data[name] = (("time",), getattr(self, name), attrs)
-        if self.ratio_names:
-            coords["ratio"] = (
-                "ratio",
-                np.array(self.ratio_names, dtype=object),
-                {"units": "1", "long_name": "isotope ratio"},
-            )
-            data["isotope_ratio"] = (
-                ("time", "ratio"),
-                self.isotope_ratio.values,
-                _attrs("isotope_ratio"),
-            )
         f = self._fields()
-        for name in ("depletion_time", "initial_inventory", "species_mass"):
-            data[name] = (("species",), f[name], _attrs(name))
-        for name in ("steps", "rejected_steps", "rhs_evaluations", "completed"):
-            data[name] = ((), np.int64(f[name]), _attrs(name))
-        data["t_reached"] = ((), np.float64(self.t_reached), _attrs("t_reached"))
-        if self.core_mass is not None:
-            for name in ENVELOPE_VARIABLES:
-                data[name] = (("time",), f[name], _attrs(name))
-            for name in ("core_mass", "stripping_time"):
-                data[name] = ((), np.float64(f[name]), _attrs(name))
+        labels = {
+            "time": self.time,
+            "species": np.array(self.species, dtype=object),
+            "ratio": np.array(self.ratio_names, dtype=object),
+        }
+        has = {"": True, "ratios": bool(self.ratio_names), "envelope": self.core_mass is not None}
+        coords = {
+            name: (name, labels[name], {"units": units, "long_name": long_name})
+            for name, (units, long_name) in COORDINATES.items()
+            if name != "ratio" or self.ratio_names
+        }
+        data: dict[str, tuple[tuple[str, ...], Any, dict[str, Any]]] = {}
+        for v in _SCHEMA:  # the file's variables, in its order
+            if not has[v["present_when"]]:
+                continue
+            shape = [len(labels[d]) for d in v["dims"]]
+            values = np.asarray(f[v["name"]], dtype=np.int64 if v["dtype"] == "int64" else float)
+            attrs: dict[str, Any] = {"units": v["units"], "long_name": v["long_name"]}
+            if v["flag_values"]:
+                attrs["flag_values"] = np.asarray(v["flag_values"], dtype=np.int64)
+                attrs["flag_meanings"] = v["flag_meanings"]
+            data[v["name"]] = (tuple(v["dims"]), values.reshape(shape), attrs)
         return xr.Dataset(
             data,
             coords=coords,
@@ -414,15 +365,10 @@ class EvolutionResult:
         frame = pd.DataFrame(columns, index=pd.Index(self.time, name="time"))
         frame.columns = pd.MultiIndex.from_tuples(frame.columns, names=["quantity", "species"])
         quantities = ["time", *dict.fromkeys(frame.columns.get_level_values("quantity"))]
-        described = {"time": ("s", "time (stellar age)"), **VARIABLES}
+        described = {"time": COORDINATES["time"], **VARIABLES}
         frame.attrs["units"] = {q: described[q][0] for q in quantities}
         frame.attrs["long_names"] = {q: described[q][1] for q in quantities}
         return frame
-
-
-def _attrs(name: str) -> dict[str, str]:
-    units, long_name = VARIABLES[name]
-    return {"units": units, "long_name": long_name}
 
 
 def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
@@ -450,26 +396,12 @@ def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
         ratios = [text(s) for s in f["ratio"][()]] if "ratio" in f else []
         time = f["time"][()]
         data: dict[str, Any] = {"time": time, "species": species, "ratio_names": ratios}
-        for name in (
-            list(SPECIES_VARIABLES)
-            + list(TIME_VARIABLES)
-            + [
-                "depletion_time",
-                "initial_inventory",
-                "species_mass",
-                "steps",
-                "rejected_steps",
-                "rhs_evaluations",
-                "completed",
-                "t_reached",
-            ]
-        ):
+        has = {"": True, "ratios": bool(ratios), "envelope": "core_mass" in f}
+        for v in _SCHEMA:
+            name = v["name"]
             if name == "given_loss_rate" and name not in f:
                 data[name] = np.zeros(f["inventory"].shape)  # files from before given losses
-            else:
-                data[name] = f[name][()]
-        if "core_mass" in f:  # a run with an envelope
-            for name in [*ENVELOPE_VARIABLES, "core_mass", "stripping_time"]:
+            elif has[v["present_when"]]:
                 data[name] = f[name][()]
         data["isotope_ratio"] = f["isotope_ratio"][()] if ratios else np.empty((len(time), 0))
         data["config"] = text(f.attrs["config"])

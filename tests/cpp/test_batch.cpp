@@ -755,7 +755,8 @@ TEST_CASE("thermosphere rows: refused with the columns named") {
     CHECK(case_from_table(source, 0).diffusion == DiffusionMethod::chapman_enskog);
     CHECK(case_from_table(source, 1).diffusion == DiffusionMethod::measured_first);
     CHECK_THROWS_WITH_AS(case_from_table(source, 2),
-                         doctest::Contains("'guess' is neither 'measured' nor 'chapman_enskog'"),
+                         doctest::Contains("column 'diffusion_source' must be 'measured' or "
+                                           "'chapman_enskog', got 'guess'"),
                          InputError);
     // Thermosphere columns on a prescribed row.
     CaseTable prescribed = earthlike(1);

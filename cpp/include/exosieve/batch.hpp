@@ -31,7 +31,6 @@
 
 #include "exosieve/evolution.hpp"
 #include "exosieve/exobase_model.hpp"
-#include "exosieve/hdf5_io.hpp"
 #include "exosieve/hydrodynamic.hpp"
 #include "exosieve/random.hpp"
 #include "exosieve/species.hpp"
@@ -288,32 +287,6 @@ struct BatchChunk {
     void reset(std::size_t first_row, std::size_t cases, std::size_t species_count,
                std::size_t time_count, std::size_t sample_count, std::size_t input_count = 0);
 };
-
-//! One case variable of a chunk under its name in sweep files: `count` rows, each of shape
-//! `trailing` (e.g. {times, species}), row-major; exactly one of f, i, s is set.
-struct ChunkVariable {
-    const char* name;                             //!< e.g. "retained_fraction"
-    std::vector<std::size_t> trailing;            //!< shape of one row (empty: a scalar per case)
-    const std::vector<double>* f = nullptr;       //!< float64 values
-    const std::vector<std::int64_t>* i = nullptr; //!< int64 values
-    const std::vector<std::string>* s = nullptr;  //!< string values
-};
-
-//! The case variables of a chunk besides `case` (the case names) and `row` (the keys), in one
-//! order for every consumer: error, steps, planet_mass, planet_radius, exobase_radius,
-//! escape_speed, age_start, age_end, exobase_temperature_start, mole_fraction, exobase_temperature,
-//! retained_fraction, jeans_parameter, final_retained_fraction, depletion_time,
-//! efolding_time, escape_rate_start, given_loss_rate_start, jeans_parameter_start,
-//! jeans_parameter_end, regime_start, bulk_jeans_parameter_start, hydrodynamic_unmodelled,
-//! stripping_time, planet_radius_end, and with samples sample_retained_fraction,
-//! sample_depletion_time, sample_failed, sample_error, and with samples and uncertain inputs
-//! sample_input, input_uncertain. They point into `chunk`.
-std::vector<ChunkVariable> chunk_variables(const BatchChunk& chunk);
-
-//! A chunk as rows of a sweep file: `case` (the names, the labels of the file's `case`
-//! coordinate), `row` (the keys) and chunk_variables(). Written straight
-//! from C++, a chunk costs the file no interpreter objects.
-RowBlock chunk_rows(const BatchChunk& chunk);
 
 //! Hooks of run_batch(), all called on the calling thread.
 struct BatchHooks {

@@ -36,6 +36,12 @@ enum class DiffusionMethod {
     chapman_enskog  //!< always the Chapman–Enskog first approximation
 };
 
+//! The method's name in arguments, case tables and files: "measured" or "chapman_enskog".
+const char* diffusion_method_name(DiffusionMethod method);
+
+//! The method called `name`; InputError naming `argument` and the value for any other name.
+DiffusionMethod diffusion_method_named(const std::string& name, const std::string& argument);
+
 //! A measured fit b = A T^s for one unordered species pair.
 struct DiffusionPair {
     std::string species_a;  //!< first species name

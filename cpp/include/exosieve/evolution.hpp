@@ -131,6 +131,9 @@ enum class StepperKind : int {
     Rosenbrock4 = 2 //!< linearly implicit Rosenbrock 4(3): for stiff source–loss balances
 };
 
+//! The stepper's name in arguments and files: "auto", "dopri5" or "rosenbrock4".
+const char* stepper_name(StepperKind kind);
+
 //! An H/He envelope on a rock/iron core, for evolve(): radius R_core + R_env of the Lopez &
 //! Fortney (2014) fit (envelope.hpp), mass lost at the hydrodynamic mass-loss rate.
 struct EnvelopeConfig {
@@ -249,17 +252,5 @@ EvolutionResult evolve(const EvolutionConfig& config);
 //! Default isotope ratios present among `species`: D/H, HD/H2, 3He/He, 36Ar/38Ar, 40Ar/36Ar.
 std::vector<std::pair<std::string, std::string>>
 default_isotope_ratios(const std::vector<std::string>& species);
-
-//! Write a result to an HDF5 file at `path` (atomically: temporary file, then rename).
-//! Dimensions `time` [s], `species` and (when there are isotope ratios) `ratio`; variables
-//! inventory, escape_rate, source_rate, given_loss_rate, jeans_parameter (time x species),
-//! exobase_radius, exobase_temperature, xuv_flux, regime (flag_values / flag_meanings),
-//! energy_limited (time), isotope_ratio (time x ratio), depletion_time (NaN where not reached),
-//! initial_inventory, species_mass (species), and the scalars steps, rejected_steps,
-//! rhs_evaluations, completed, t_reached; with an envelope also envelope_mass, planet_radius,
-//! envelope_loss_rate (time), core_mass and stripping_time (scalars, NaN where not stripped);
-//! units and long_name on every variable; global attributes
-//! `config` (model JSON) and `regime_changes` (JSON list).
-void write_result(const EvolutionResult& result, const std::string& path);
 
 } // namespace exosieve
