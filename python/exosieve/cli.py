@@ -5,6 +5,7 @@ isotope ratio for the initial inventory, run the demo."""
 from __future__ import annotations
 
 import argparse
+import math
 import os
 import signal
 import sys
@@ -28,12 +29,30 @@ def _floats(text: str) -> list[float]:
         ) from None
 
 
+def _age(text: str) -> float:
+    """An age with its unit word, e.g. '10 Myr' or '4.5Gyr' (s, yr, Myr, Gyr), in seconds."""
+    import re
+
+    from .catalogue import UNITS
+
+    match = re.fullmatch(r"\s*([-+0-9.eE]+)\s*([A-Za-z]+)\s*", text)
+    scale, unit = UNITS.get(match.group(2), (0.0, "")) if match else (0.0, "")
+    try:
+        value = float(match.group(1)) * scale if match else math.nan
+    except ValueError:
+        value = math.nan
+    if unit != "s" or not (0 <= value < math.inf):
+        raise argparse.ArgumentTypeError(
+            f"expected an age with its unit (s, yr, Myr or Gyr), e.g. '10 Myr', got '{text}'"
+        )
+    return value
+
+
 def _names(text: str) -> list[str]:
     return [part.strip() for part in text.split(",") if part.strip()]
 
 
 def _sweep(args: argparse.Namespace) -> int:
-    from . import constants as c
     from .batch import Interrupted, compare
 
     output = Path(args.output)
@@ -61,8 +80,8 @@ def _sweep(args: argparse.Namespace) -> int:
             args.table,
             output=output,
             overwrite=args.overwrite,
-            t_start=args.start * c.MYR,
-            t_end=args.end * c.GYR,
+            t_start=args.start,
+            t_end=args.end,
             times=args.times,
             samples=args.samples,
             seed=args.seed,
@@ -347,7 +366,6 @@ def _invert(args: argparse.Namespace) -> int:
 
     import numpy as np
 
-    from . import constants as c
     from .catalogue import load_cases
     from .inversion import invert_case
 
@@ -378,8 +396,8 @@ def _invert(args: argparse.Namespace) -> int:
                 samples=args.samples,
                 seed=args.seed,
                 threads=args.threads,
-                t_start=args.start * c.MYR,
-                t_end=args.end * c.GYR,
+                t_start=args.start,
+                t_end=args.end,
                 rtol=args.rtol,
                 max_steps=args.max_steps,
             )
@@ -528,18 +546,19 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sweep.add_argument(
         "--start",
-        type=float,
-        default=10.0,
-        metavar="MYR",
-        help="stellar age at the start [Myr] for rows without age_start (default: %(default)s)",
+        type=_age,
+        default="10 Myr",
+        metavar="AGE",
+        help="stellar age at the start, with its unit (s, yr, Myr, Gyr), for rows without "
+        "age_start (default: %(default)s)",
     )
     sweep.add_argument(
         "--end",
-        type=float,
-        default=4.5,
-        metavar="GYR",
-        help="stellar age at the end [Gyr] for rows without age_end or "
-        "star_age (default: %(default)s)",
+        type=_age,
+        default="4.5 Gyr",
+        metavar="AGE",
+        help="stellar age at the end, with its unit (s, yr, Myr, Gyr), for rows without "
+        "age_end or star_age (default: %(default)s)",
     )
     sweep.add_argument(
         "--times",
@@ -824,18 +843,19 @@ def build_parser() -> argparse.ArgumentParser:
     )
     invert.add_argument(
         "--start",
-        type=float,
-        default=10.0,
-        metavar="MYR",
-        help="stellar age at the start [Myr] for rows without age_start (default: %(default)s)",
+        type=_age,
+        default="10 Myr",
+        metavar="AGE",
+        help="stellar age at the start, with its unit (s, yr, Myr, Gyr), for rows without "
+        "age_start (default: %(default)s)",
     )
     invert.add_argument(
         "--end",
-        type=float,
-        default=4.5,
-        metavar="GYR",
-        help="age of the measurement [Gyr] for rows without age_end or star_age "
-        "(default: %(default)s)",
+        type=_age,
+        default="4.5 Gyr",
+        metavar="AGE",
+        help="age of the measurement, with its unit (s, yr, Myr, Gyr), for rows without "
+        "age_end or star_age (default: %(default)s)",
     )
     invert.add_argument(
         "--rtol",

@@ -85,7 +85,7 @@ def sweep_table(tmp_path, n):
 
 def test_every_command_explains_its_options_with_units(capsys):
     for command, words in [
-        ("sweep", ["[Myr]", "[Gyr]", "--scheduler", "--samples", "resume"]),
+        ("sweep", ["(s, yr, Myr, Gyr)", "--scheduler", "--samples", "resume"]),
         ("summary", ["[1]", "--retain", "[%]"]),
         ("chart", ["[km/s]", "[K]", "--output"]),
         ("columns", ["unit"]),
@@ -93,7 +93,7 @@ def test_every_command_explains_its_options_with_units(capsys):
     ]:
         with pytest.raises(SystemExit):
             main([command, "--help"])
-        text = capsys.readouterr().out
+        text = " ".join(capsys.readouterr().out.split())  # help text as one line
         for word in words:
             assert word in text, (command, word)
 
@@ -216,3 +216,20 @@ def test_a_file_error_exits_with_status_1(tmp_path, capsys):
     not_hdf5.write_text("not an HDF5 file\n")
     assert main(["summary", str(not_hdf5)]) == 1
     assert "exosieve: error: HDF5 could not open" in capsys.readouterr().err
+
+
+def test_ages_take_their_unit_and_a_bare_number_is_refused(tmp_path, capsys):
+    table = sweep_table(tmp_path, 2)
+    out = tmp_path / "ages.h5"
+    argv = ["sweep", str(table), "-o", str(out), "--threads", "1", "--quiet"]
+    assert main([*argv, "--start", "20 Myr", "--end", "1.5Gyr"]) == 0
+    result = open_comparison(out)
+    # 1 Myr = 1e6 Julian years of 365.25 d (IAU), the package's constants.
+    np.testing.assert_allclose(result["age_start"], 20e6 * 365.25 * 86400, rtol=1e-15)
+    np.testing.assert_allclose(result["age_end"], 1.5e9 * 365.25 * 86400, rtol=1e-15)
+    with pytest.raises(SystemExit) as stopped:
+        main([*argv, "--end", "4.5"])
+    assert stopped.value.code == 2
+    assert "--end: expected an age with its unit (s, yr, Myr or Gyr), e.g. '10 Myr', got '4.5'" in (
+        capsys.readouterr().err
+    )
