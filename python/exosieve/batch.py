@@ -57,7 +57,7 @@ from . import _core
 from . import constants as c
 from ._arrays import real_number, to_si, whole_number
 from .catalogue import UNITS, CaseTable, _si_unit, given_units, load_cases
-from .model import REGIMES
+from .model import REGIMES, as_thresholds
 
 __all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
 
@@ -936,7 +936,7 @@ def compare(
     retain: float = 0.5,
     percentiles: Sequence[float] = (5.0, 50.0, 95.0),
     depletion_fraction: float = 1e-3,
-    thresholds: tuple[float, float, float] = (6.0, 3.0, 2.1),
+    thresholds: Any = (6.0, 3.0, 2.1),
     rtol: float = 1e-6,
     max_steps: int = 100_000,
     bad_rows: str = "raise",
@@ -982,9 +982,9 @@ def compare(
         Percentiles of the sampled retained fractions in the summary [%].
     depletion_fraction : float, optional
         A species is depleted below this fraction of its start inventory [1]. Default 1e-3.
-    thresholds : (float, float, float), optional
-        Jeans-parameter thresholds (enhanced, transition, hydrodynamic) [1]; default
-        (6, 3, 2.1) from Volkov et al. (2011).
+    thresholds : RegimeThresholds or (float, float, float), optional
+        Jeans-parameter thresholds (enhanced, transition, hydrodynamic) [1], as for
+        :func:`evolve`; default (6, 3, 2.1) from Volkov et al. (2011).
     rtol : float, optional
         Relative tolerance of each run for rows without an ``rtol`` column [1]. Default 1e-6.
     max_steps : int, optional
@@ -1072,7 +1072,7 @@ def compare(
     runs = sample_runs({"samples": samples, "design": design, "inputs": inputs})
     grid = _output_times(times, table, float(t_start), float(t_end))
     chunk = int(chunk_size or _default_chunk(runs))
-    enhanced, transition, hydrodynamic = (float(v) for v in thresholds)
+    limits = as_thresholds(thresholds)
     options = _engine_options(
         species,
         grid,
@@ -1081,7 +1081,7 @@ def compare(
         rtol=float(rtol),
         max_steps=int(max_steps),
         depletion_fraction=float(depletion_fraction),
-        thresholds=(enhanced, transition, hydrodynamic),
+        thresholds=(limits.enhanced, limits.transition, limits.hydrodynamic),
         samples=int(samples),
         seed=int(seed),
         design=design,
@@ -1104,9 +1104,9 @@ def compare(
             "max_steps": int(max_steps),
             "depletion_fraction": float(depletion_fraction),
             "regime_thresholds": {
-                "enhanced": enhanced,
-                "transition": transition,
-                "hydrodynamic": hydrodynamic,
+                "enhanced": limits.enhanced,
+                "transition": limits.transition,
+                "hydrodynamic": limits.hydrodynamic,
             },
             "samples": int(samples),
             "seed": int(seed),
@@ -1179,7 +1179,7 @@ def _engine_options(
     rtol: float = 1e-6,
     max_steps: int = 100_000,
     depletion_fraction: float = 1e-3,
-    thresholds: tuple[float, float, float] = (6.0, 3.0, 2.1),
+    thresholds: Any = (6.0, 3.0, 2.1),
     samples: int = 0,
     seed: int = 0,
     design: str = "monte_carlo",

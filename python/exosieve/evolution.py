@@ -24,6 +24,7 @@ from .model import (
     _name,
     _scalar,
     _vector,
+    as_thresholds,
     given_loss,
     source_rate,
     temperature_history,
@@ -100,8 +101,9 @@ def evolve(
         Energy-limited hydrodynamic escape with drag of heavier species. It also takes over
         while an evolving :class:`Thermosphere` has no exobase (collisional out to its outer
         radius); without it such a run raises NumericalError saying why.
-    thresholds : RegimeThresholds, optional
-        Jeans-parameter thresholds between regimes (Volkov et al. 2011 defaults).
+    thresholds : RegimeThresholds or (float, float, float), optional
+        Jeans-parameter thresholds between regimes (enhanced, transition, hydrodynamic) [1]
+        (Volkov et al. 2011 defaults).
     tail_depletion : float, tuple or TailDepletion, optional
         Factor on every Jeans flux (default 1), at most 1 unless given as
         ``TailDepletion(factor, enhancement=True)``.
@@ -295,7 +297,7 @@ def _build_config(
             raise ValueError(f"envelope must be an exosieve.Envelope, got {envelope!r}")
         config.envelope = envelope._core
     if thresholds is not None:
-        config.thresholds = thresholds
+        config.thresholds = as_thresholds(thresholds)
     config.tail = _tail(tail_depletion)
     if isotope_ratios is None:
         config.isotope_ratios = _core.default_isotope_ratios(names)

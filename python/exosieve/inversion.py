@@ -38,7 +38,7 @@ from . import constants as c
 from ._arrays import real_number, whole_number
 from .catalogue import load_cases
 from .evolution import ExobaseLike, _build_config
-from .model import EnergyLimitedEscape, Planet
+from .model import EnergyLimitedEscape, Planet, as_thresholds
 from .ocean import WATER_DENSITY, hydrogen_atoms, hydrogen_to_ocean_depth
 
 __all__ = ["RatioInversion", "InversionSamples", "invert_ratio", "invert_case", "STATUSES"]
@@ -649,7 +649,7 @@ def invert_case(
     rtol: float = 1e-8,
     max_steps: int = 100_000,
     depletion_fraction: float = 1e-3,
-    thresholds: tuple[float, float, float] = (6.0, 3.0, 2.1),
+    thresholds: Any = (6.0, 3.0, 2.1),
 ) -> RatioInversion:
     """The initial inventory of a case-table row that gives a measured isotope ratio at its end.
 
@@ -697,7 +697,6 @@ search_factor, tolerance, max_runs, samples, seed, threads, progress, progress_e
     progress = _progress(progress)
     table = load_cases(cases)
     row = _row(table.names, case)
-    enhanced, transition, hydrodynamic = (real_number(v, "thresholds", "1") for v in thresholds)
     options = _core.BatchOptions(
         species=list(table.species),
         times=np.asarray([], dtype=float),
@@ -706,7 +705,7 @@ search_factor, tolerance, max_runs, samples, seed, threads, progress, progress_e
         rtol=real_number(rtol, "rtol", "1"),
         max_steps=whole_number(max_steps, "max_steps", 1),
         depletion_fraction=real_number(depletion_fraction, "depletion_fraction", "1"),
-        thresholds=_core.RegimeThresholds(enhanced, transition, hydrodynamic),
+        thresholds=as_thresholds(thresholds),
         samples=0,
         seed=run["seed"],
         threads=run["threads"],

@@ -798,6 +798,22 @@ def RegimeThresholds(
     )
 
 
+def as_thresholds(value: Any, name: str = "thresholds") -> Any:
+    """The thresholds ``value`` stands for: a :func:`RegimeThresholds`, a sequence
+    (enhanced, transition, hydrodynamic) [1], or None for the defaults; every entry point that
+    takes thresholds reads them here, so each accepts both forms."""
+    if value is None:
+        return _core.RegimeThresholds()
+    if isinstance(value, _core.RegimeThresholds):
+        return value
+    if isinstance(value, (str, bytes)) or not hasattr(value, "__len__") or len(value) != 3:
+        raise ValueError(
+            f"{name} must be an exosieve.RegimeThresholds or a sequence (enhanced, transition, "
+            f"hydrodynamic) of Jeans parameters [1], got {value!r}"
+        )
+    return RegimeThresholds(*value)
+
+
 def classify_regime(jeans_parameter: Any, thresholds: Any = None) -> Any:
     """Regime code (0 Jeans, 1 enhanced Jeans, 2 transition, 3 hydrodynamic; see
     :data:`REGIMES`) of each Jeans parameter [1]; an int for scalar input.

@@ -449,3 +449,32 @@ def test_a_sweep_file_of_an_earlier_layout_is_refused_with_what_to_do(tmp_path):
         exosieve.compare(cases, output=out, **options)  # would resume it
     again = exosieve.compare(cases, output=out, overwrite=True, **options)
     assert again.cases == ["Vesk b", "Vesk c", "Ondra", "Ondra"]
+
+
+def test_regime_thresholds_are_accepted_in_both_forms_everywhere(tmp_path):
+    planet = exosieve.Planet(M_EARTH, R_EARTH)  # invented: an Earth-sized planet
+    exobase = exosieve.PrescribedExobase(R_EARTH + 5e5, 1500.0, {"H": 1e11, "O": 1e13})
+    args = (planet, exobase, {"H": 1e35, "O": 1e40}, (1e15, 1e17))
+    by_class = exosieve.evolve(*args, thresholds=exosieve.RegimeThresholds(8.0, 4.0, 2.5))
+    by_tuple = exosieve.evolve(*args, thresholds=(8.0, 4.0, 2.5))
+    assert by_class.regime.tolist() == by_tuple.regime.tolist()
+    assert json.loads(by_tuple.config_json)["regime_thresholds"]["enhanced"] == 8.0
+    rows = ["Ondra,1.0,0.1,1.0,500,1e13,1500,1e37,0.7,0.25,0.05"]
+    cases = tmp_path / "cases.csv"
+    cases.write_text("\n".join([SWEEP_HEADER, *rows]) + "\n")
+    runs = [
+        exosieve.compare(cases, threads=1, t_start=1e15, t_end=1e17, times=4, thresholds=t)
+        for t in ((8.0, 4.0, 2.5), exosieve.RegimeThresholds(8.0, 4.0, 2.5))
+    ]
+    assert runs[0].config["options"] == runs[1].config["options"]
+    np.testing.assert_array_equal(runs[0]["regime_start"], runs[1]["regime_start"])
+    for call in (
+        lambda t: exosieve.evolve(*args, thresholds=t),
+        lambda t: exosieve.compare(cases, threads=1, thresholds=t),
+    ):
+        with pytest.raises(
+            ValueError, match=r"thresholds must be an exosieve.RegimeThresholds .*got 2.1"
+        ):
+            call(2.1)
+        with pytest.raises(ValueError, match=r"thresholds must be .*got \(6.0, 3.0\)"):
+            call((6.0, 3.0))
