@@ -69,7 +69,8 @@ def test_bad_case_table_names_line_and_column(tmp_path):
 SWEEP_HEADER = (
     "case,planet_mass [M_earth],planet_mass_sigma [M_earth],planet_radius [R_earth],"
     "exobase_altitude [km],exobase_density [m-3],exobase_temperature [K],"
-    "exobase_temperature_lnsigma [1],inventory [particles],x_N2,x_He,x_H"
+    "exobase_temperature_lnsigma [1],inventory [particles],x_N2,x_He,x_H,"
+    "exobase_composition"
 )
 
 
@@ -77,7 +78,7 @@ def sweep_table(tmp_path, n):
     lines = [SWEEP_HEADER]
     for i in range(n):
         mass, temperature = 0.6 + 0.1 * (i % 6), 800 + 120 * (i % 7)
-        lines.append(f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,0.7,0.25,0.05")
+        lines.append(f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,0.7,0.25,0.05,bulk")
     path = tmp_path / "cases.csv"
     path.write_text("\n".join(lines) + "\n")
     return path

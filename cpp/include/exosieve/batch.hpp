@@ -267,7 +267,7 @@ struct BatchChunk {
     std::vector<double> t_start;             //!< start age [s] [case]
     std::vector<double> t_end;               //!< end age [s] [case]
     std::vector<double> temperature_start;   //!< exobase temperature at t_start [K] [case]
-    std::vector<double> mole_fraction;       //!< x_i at the exobase [1], 0: absent [case x species]
+    std::vector<double> mole_fraction;       //!< bulk x_i [1], 0: absent [case x species]
     std::vector<double> exobase_temperature; //!< [K] [case x time]
     std::vector<double> retained;            //!< N_i(t) / N_i(t_start) [1] [case x time x species]
     std::vector<double> jeans_parameter;     //!< lambda_i(t) [1] [case x time x species]
