@@ -56,6 +56,8 @@ UNITS: dict[str, tuple[float, str]] = {
     "cm-3": (1e6, "m-3"),
     "m2": (1.0, "m2"),
     "cm2": (1e-4, "m2"),
+    "m-1 s-1": (1.0, "m-1 s-1"),
+    "cm-1 s-1": (1e2, "m-1 s-1"),
     "m3 s-1": (1.0, "m3 s-1"),
     "cm3 s-1": (1e-6, "m3 s-1"),
     "J": (1.0, "J"),
@@ -354,7 +356,7 @@ class _Reader:
         if name in TEXT_COLUMNS:
             return
         if unit is None:
-            if name.startswith("x_") or name.endswith("_lnsigma"):
+            if name.startswith(("x_", "exobase_x_")) or name.endswith("_lnsigma"):
                 return
             raise ValueError(
                 f"{self.source} {where} column '{name}': the header must name a unit, "
