@@ -763,12 +763,8 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
         for (std::size_t i = 0; i < n; ++i)
             exobase_fractions =
                 exobase_fractions || !std::isnan(s.values[P + exobase_x_parameter * n + i]);
-        if (exobase_fractions) { // beside given ones, an empty cell is 0 at the exobase
+        if (exobase_fractions) // beside given ones, an empty cell is 0 at the exobase
             check_sum(exobase_x_parameter, "exobase_x_<species>");
-            for (std::size_t i = 0; i < n; ++i)
-                if (std::isnan(s.values[P + exobase_x_parameter * n + i]))
-                    s.values[P + exobase_x_parameter * n + i] = 0.0;
-        }
         s.species.reserve(n);
         for (std::size_t k : plan.present)
             s.species.push_back(plan.species[k]);
@@ -1222,9 +1218,11 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
                           "x_<species> (which share the inventory) as the exobase's too");
         }
         std::vector<double> densities(n);
-        for (std::size_t i = 0; i < n; ++i)
-            densities[i] = own ? s.species_value(exobase_x_parameter, i) / exo_sum * n_exo
+        for (std::size_t i = 0; i < n; ++i) {
+            const double x_exo = s.species_value(exobase_x_parameter, i);
+            densities[i] = own ? (std::isnan(x_exo) ? 0.0 : x_exo / exo_sum * n_exo)
                                : s.mole_fraction(i) / x_sum * n_exo;
+        }
         c.exobase =
             std::make_shared<PrescribedExobase>(radius + required(k.exobase_altitude, why),
                                                 std::move(names), std::move(densities), s.scaling);
