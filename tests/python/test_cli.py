@@ -40,16 +40,17 @@ def test_demo_writes_table_file_and_chart(tmp_path, capsys):
 
 
 def test_demo_snapshot_matches_direct_calls():
-    # The printed table's numbers are the kernel's: Sefir b, helium.
-    result = snapshot(read_case_table(demo_catalogue_path()))
+    # The printed table's numbers are the kernel's: Sefir b (a prescribed exobase of its own
+    # composition), helium at its exobase fraction of the exobase density.
+    result = snapshot(exosieve.compare(demo_catalogue_path(), times=4))
     table = read_case_table(demo_catalogue_path())
     row = table.names.index("Sefir b")
-    n = table.column("exobase_density")[row] * table.column("x_He")[row]
+    n = table.column("exobase_density")[row] * table.column("exobase_x_He")[row]
     r = table.column("planet_radius")[row] + table.column("exobase_altitude")[row]
     expected = exosieve.jeans_flux(
         n, table.column("exobase_temperature")[row], "He", table.column("planet_mass")[row], r
     )
-    assert result.jeans_flux[row, result.species.index("He")] == pytest.approx(expected)
+    assert result.jeans_flux[row, result.species.index("He")] == pytest.approx(expected, rel=1e-12)
     # Absent species are NaN, not zero.
     assert np.isnan(result.jeans_flux[row, result.species.index("H2")])
 
