@@ -609,7 +609,7 @@ struct TablePlan {
     std::size_t density_scaling = none;  // text column, or none
     std::size_t diffusion_source = none; // text column, or none
     std::size_t exobase_composition = none, escaping_species = none,
-                activation = none; // text columns, or none
+                activation = none;       // text columns, or none
     std::vector<std::size_t> present;    // scratch: table species of the case
     std::vector<std::size_t> case_index; // scratch: table species -> case species, or none
 };
@@ -738,9 +738,12 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
             if (k != none)
                 s.values[k] = v;
             else if (r.per_species == exobase_x_parameter && v > 0.0)
-                bad_value(name, "got " + format_value(v) + ", but the species is not in the bulk "
-                                "atmosphere ('x_" + name.substr(10) + "' zero or empty): give it "
-                                "a bulk fraction too");
+                bad_value(name, "got " + format_value(v) +
+                                    ", but the species is not in the bulk "
+                                    "atmosphere ('x_" +
+                                    name.substr(10) +
+                                    "' zero or empty): give it "
+                                    "a bulk fraction too");
         }
         if (n == 0)
             throw InputError("no species: every mole fraction 'x_<species>' is zero or empty");
@@ -1209,8 +1212,8 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
         if (!own && !s.exobase_composition_bulk) {
             std::string missing;
             for (std::size_t i = 0; i < n; ++i)
-                missing += (missing.empty() ? "'exobase_x_" : ", 'exobase_x_") +
-                           s.species[i].name + "'";
+                missing +=
+                    (missing.empty() ? "'exobase_x_" : ", 'exobase_x_") + s.species[i].name + "'";
             bad_value("exobase_x_<species>",
                       "no exobase composition given: a prescribed exobase needs " + missing +
                           " (its mole fractions at the exobase), or the text column "

@@ -73,9 +73,10 @@ void bulk_exobase(CaseTable& t) {
 
 // `t` without its exobase_x_ columns, stating that the bulk fractions are the exobase's.
 CaseTable with_bulk_exobase(CaseTable t) {
-    t.columns.erase(std::remove_if(t.columns.begin(), t.columns.end(),
-                                   [](const auto& c) { return c.first.rfind("exobase_x_", 0) == 0; }),
-                    t.columns.end());
+    t.columns.erase(
+        std::remove_if(t.columns.begin(), t.columns.end(),
+                       [](const auto& c) { return c.first.rfind("exobase_x_", 0) == 0; }),
+        t.columns.end());
     bulk_exobase(t);
     return t;
 }
@@ -329,8 +330,8 @@ TEST_CASE("prescribed exobase: its composition is its own, the inventory takes t
     CHECK(own.initial_inventory == other.initial_inventory);
     CHECK(own.initial_inventory == bulk.initial_inventory);
     // Hydrostatic column N = P 4 pi R^2 / (g m_mean), g = G M / R^2 (worked by hand).
-    const double m_mean = 0.78 * species("N2").mass + 0.219994 * species("O").mass +
-                          6e-6 * species("He").mass;
+    const double m_mean =
+        0.78 * species("N2").mass + 0.219994 * species("O").mass + 6e-6 * species("He").mass;
     const double g = constants::G * constants::M_earth / (constants::R_earth * constants::R_earth);
     const double total =
         1e5 * 4.0 * constants::pi * constants::R_earth * constants::R_earth / (g * m_mean);

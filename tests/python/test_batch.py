@@ -33,7 +33,9 @@ def rows(n: int) -> list[str]:
     for i in range(n):
         mass = 0.6 + 0.1 * (i % 6)
         temperature = 800 + 120 * (i % 7)
-        out.append(f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,,0.7,0.25,0.05,bulk")
+        out.append(
+            f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,,0.7,0.25,0.05,bulk"
+        )
     return out
 
 

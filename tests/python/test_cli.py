@@ -79,7 +79,9 @@ def sweep_table(tmp_path, n):
     lines = [SWEEP_HEADER]
     for i in range(n):
         mass, temperature = 0.6 + 0.1 * (i % 6), 800 + 120 * (i % 7)
-        lines.append(f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,0.7,0.25,0.05,bulk")
+        lines.append(
+            f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,0.7,0.25,0.05,bulk"
+        )
     path = tmp_path / "cases.csv"
     path.write_text("\n".join(lines) + "\n")
     return path

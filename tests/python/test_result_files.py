@@ -36,7 +36,8 @@ HEADER = (
 def table(tmp_path: Path, n: int = 6) -> Path:
     """Invented Earth-like cases."""
     lines = [
-        f"P{i},{0.6 + 0.1 * i},1.0,500,1e13,{800 + 100 * i},1e37,0.7,0.25,0.05,bulk" for i in range(n)
+        f"P{i},{0.6 + 0.1 * i},1.0,500,1e13,{800 + 100 * i},1e37,0.7,0.25,0.05,bulk"
+        for i in range(n)
     ]
     path = tmp_path / "cases.csv"
     path.write_text("\n".join([HEADER, *lines]) + "\n")

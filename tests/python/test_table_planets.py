@@ -139,8 +139,11 @@ def test_prescribed_row_reproduces_evolve_with_its_own_exobase_composition() -> 
 def test_a_prescribed_row_without_an_exobase_composition_is_refused() -> None:
     frame = earth_frame(EXOBASE, {"N2": 0.78, "O": 0.219994, "He": 6e-6})
     frame = frame.drop(columns=[k for k in frame if k.startswith("exobase_x_")])
-    with pytest.raises(ValueError, match=r"row 0 \(case 'Earth-like'\).*'exobase_x_N2', "
-                       r"'exobase_x_O', 'exobase_x_He'.*'exobase_composition' set to 'bulk'"):
+    with pytest.raises(
+        ValueError,
+        match=r"row 0 \(case 'Earth-like'\).*'exobase_x_N2', "
+        r"'exobase_x_O', 'exobase_x_He'.*'exobase_composition' set to 'bulk'",
+    ):
         compare(frame, times=TIMES)
     frame["exobase_composition"] = ["exobase"]
     with pytest.raises(ValueError, match="column 'exobase_composition': 'exobase' is not 'bulk'"):
@@ -172,7 +175,11 @@ def test_thermosphere_rows_take_the_exobase_from_the_bulk_composition() -> None:
     assert exobase.densities["He"] / total > 100 * bulk["He"]
     start = inventories(pd.DataFrame({**data, "exobase_composition": [""]}))
     single = exosieve.evolve(
-        planet, thermosphere, start, (T_START, T_END), t_eval=[T_START, *TIMES[:-1], T_END],
+        planet,
+        thermosphere,
+        start,
+        (T_START, T_END),
+        t_eval=[T_START, *TIMES[:-1], T_END],
         rtol=RTOL,
     )
     for j, name in enumerate(result.species):
@@ -193,21 +200,34 @@ SUB_NEPTUNE_EXOBASE = {"H2": 0.95, "He": 0.05, "H2O": 0.0}
 OPTION_ROWS: list[dict[str, Any]] = [
     {"case": "defaults"},  # energy-limited loss acting throughout ("always")
     {"case": "acting while hydrodynamic", "energy_limited_activation": "hydrodynamic"},
-    {"case": "thresholds", "energy_limited_activation": "hydrodynamic",
-     "threshold_enhanced [1]": 9.0, "threshold_transition [1]": 7.0,
-     "threshold_hydrodynamic [1]": 5.0},
-    {"case": "only the transition threshold", "threshold_transition [1]": 5.0,
-     "energy_limited_activation": "transition"},
+    {
+        "case": "thresholds",
+        "energy_limited_activation": "hydrodynamic",
+        "threshold_enhanced [1]": 9.0,
+        "threshold_transition [1]": 7.0,
+        "threshold_hydrodynamic [1]": 5.0,
+    },
+    {
+        "case": "only the transition threshold",
+        "threshold_transition [1]": 5.0,
+        "energy_limited_activation": "transition",
+    },
     {"case": "no drag", "drag [1]": 0.0},
-    {"case": "drag laws", "drag_diffusion_He [m-1 s-1]": 2e21,
-     "drag_diffusion_exponent_He [1]": 0.7, "drag_diffusion_H2O [m-1 s-1]": 0.0},
+    {
+        "case": "drag laws",
+        "drag_diffusion_He [m-1 s-1]": 2e21,
+        "drag_diffusion_exponent_He [1]": 0.7,
+        "drag_diffusion_H2O [m-1 s-1]": 0.0,
+    },
     {"case": "no drag but a law", "drag [1]": 0.0, "drag_diffusion_He [m-1 s-1]": 1e21},
     {"case": "escaping He", "escaping_species": "He"},
 ]
 # The row each row's option is measured against: it must change the outcome.
-VERSUS = {"thresholds": "acting while hydrodynamic",
-          "only the transition threshold": "acting while hydrodynamic",
-          "no drag but a law": "no drag"}
+VERSUS = {
+    "thresholds": "acting while hydrodynamic",
+    "only the transition threshold": "acting while hydrodynamic",
+    "no drag but a law": "no drag",
+}
 
 
 def options_frame(rows: list[dict[str, Any]] = OPTION_ROWS) -> pd.DataFrame:
@@ -264,8 +284,14 @@ def option_run(row: dict[str, Any], start: dict[str, float]) -> Any:
         **{k: row.get(f"threshold_{k} [1]", d) for k, d in zip(keys, (6.0, 3.0, 2.1), strict=True)}
     )
     return exosieve.evolve(
-        planet, exobase, start, (T_START, T_END), t_eval=[T_START, *TIMES[:-1], T_END],
-        rtol=RTOL, hydrodynamic=hydro, thresholds=thresholds,
+        planet,
+        exobase,
+        start,
+        (T_START, T_END),
+        t_eval=[T_START, *TIMES[:-1], T_END],
+        rtol=RTOL,
+        hydrodynamic=hydro,
+        thresholds=thresholds,
     )
 
 
@@ -290,9 +316,15 @@ def test_option_rows_reproduce_evolve() -> None:
         # The row's thresholds also classify its regime at the start.
         lam = single.jeans_parameter
         for j, name in enumerate(result.species):
-            expected = exosieve.classify_regime(lam[name][0], _core.RegimeThresholds(
-                *(engine["regime_thresholds"][q] for q in ("enhanced", "transition",
-                                                           "hydrodynamic"))))
+            expected = exosieve.classify_regime(
+                lam[name][0],
+                _core.RegimeThresholds(
+                    *(
+                        engine["regime_thresholds"][q]
+                        for q in ("enhanced", "transition", "hydrodynamic")
+                    )
+                ),
+            )
             assert result["regime_start"][k, j] == expected
         finals.append(result["final_retained_fraction"][k].copy())
     # Every option changes the outcome: none of them is ignored.
@@ -361,21 +393,32 @@ def notebook3_table(planet: Any, times: Any) -> pd.DataFrame:
 
 def test_notebook3_study_runs_as_rows_of_a_table() -> None:
     star = exosieve.Star(0.82 * c.M_SUN, 0.45 * c.L_SUN)
-    planet = exosieve.Planet(0.11 * c.M_EARTH, 0.53 * c.R_EARTH, semi_major_axis=1.3 * c.AU,
-                             star=star)
+    planet = exosieve.Planet(
+        0.11 * c.M_EARTH, 0.53 * c.R_EARTH, semi_major_axis=1.3 * c.AU, star=star
+    )
     times = np.geomspace(10 * c.MYR, 4.5 * c.GYR, 200)
     # The notebook's reference flux, planet.xuv_flux(times)[-1], is today's: 4.5 Gyr.
     history = exosieve.XuvTemperature(220.0, planet.xuv_flux(times)[-1], 0.4, 200.0, 700.0)
     thermosphere = exosieve.Thermosphere(
-        planet, homopause_radius=planet.radius + 100e3, homopause_density=2e17,
-        composition=NB3_COMPOSITION, exobase_temperature=300.0)
+        planet,
+        homopause_radius=planet.radius + 100e3,
+        homopause_density=2e17,
+        composition=NB3_COMPOSITION,
+        exobase_temperature=300.0,
+    )
     result = compare(notebook3_table(planet, times), times=times, threads=2)
     assert list(result["error"]) == ["", ""]
     h, d = result.species.index("H"), result.species.index("D")
     for k, limited in enumerate((True, False)):
-        run = exosieve.evolve(planet, thermosphere, NB3_INVENTORY, (10 * c.MYR, 4.5 * c.GYR),
-                              t_eval=times, exobase_temperature=history,
-                              limit_by_diffusion=limited)
+        run = exosieve.evolve(
+            planet,
+            thermosphere,
+            NB3_INVENTORY,
+            (10 * c.MYR, 4.5 * c.GYR),
+            t_eval=times,
+            exobase_temperature=history,
+            limit_by_diffusion=limited,
+        )
         for j, name in enumerate(result.species):
             # Within rounding (4e-14 seen): the row's fractions are normalised by their sum.
             np.testing.assert_allclose(

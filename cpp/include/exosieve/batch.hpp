@@ -88,14 +88,14 @@ struct CaseSpec {
     DensityScaling scaling = DensityScaling::Inventory; //!< how exobase densities follow N_i
     //! Binary diffusion parameters of a thermosphere (text column "diffusion_source").
     DiffusionMethod diffusion = DiffusionMethod::measured_first;
-    bool diffusion_given = false;           //!< the row names a diffusion source
+    bool diffusion_given = false; //!< the row names a diffusion source
     //! A prescribed exobase takes the bulk fractions x_i as its composition (text column
     //! "exobase_composition" 'bulk'), instead of exobase_x_<species>.
     bool exobase_composition_bulk = false;
     std::string escaping_species; //!< energy-limited: the light escaping species ("": lightest)
     //! Energy-limited: when it replaces Jeans escape (text column "energy_limited_activation").
     HydrodynamicActivation activation = HydrodynamicActivation::Hydrodynamic;
-    bool activation_given = false; //!< the row names an activation
+    bool activation_given = false;          //!< the row names an activation
     std::vector<Uncertainty> uncertainties; //!< uncertain parameters, in a fixed order
     std::string error; //!< non-empty: the case is invalid and is reported, not run
 
