@@ -436,3 +436,38 @@ def test_notebook3_study_runs_as_rows_of_a_table() -> None:
     kept = result["final_retained_fraction"][:, h]
     assert kept[0] == pytest.approx(0.935, abs=0.01)
     assert kept[1] == pytest.approx(4e-4, rel=0.3)
+
+
+def test_columns_command_groups_the_new_columns(capsys: pytest.CaptureFixture[str]) -> None:
+    from exosieve.cli import main
+
+    assert main(["columns"]) == 0
+    out = capsys.readouterr().out
+    prescribed = out.index("Upper atmosphere, one of two kinds: a prescribed exobase:")
+    thermosphere = out.index("Upper atmosphere, one of two kinds: a thermosphere")
+    assert prescribed < out.index("exobase_x_<species>") < thermosphere
+    regimes = out.index("Escape regimes: thresholds of the Jeans parameter")
+    energy = out.index("Energy-limited hydrodynamic escape:")
+    assert regimes < out.index("threshold_hydrodynamic") < energy
+    assert energy < out.index("drag_diffusion_exponent_<species>")
+    for text in ("exobase_composition", "escaping_species", "energy_limited_activation"):
+        assert f"  {text} " in out
+
+
+def test_template_shows_each_kind_of_row() -> None:
+    from exosieve.catalogue import case_table_template_path, load_cases
+
+    table = load_cases(case_table_template_path())
+    own = np.isfinite(table.columns["exobase_x_He"]) & np.isfinite(
+        table.columns["exobase_altitude"]
+    )
+    bulk = np.array([t == "bulk" for t in table.text_columns["exobase_composition"]])
+    thermosphere = np.isfinite(table.columns["homopause_altitude"])
+    rules = np.isfinite(table.columns["threshold_hydrodynamic"]) & np.isfinite(
+        table.columns["drag_diffusion_He"]
+    )
+    assert own.any() and bulk.any() and thermosphere.any() and rules.any()
+    # Every prescribed row states its exobase composition one way or the other.
+    prescribed = np.isfinite(table.columns["exobase_altitude"])
+    stated = bulk | np.isfinite(table.columns["exobase_x_H2"]) | own
+    assert np.all(stated[prescribed])
