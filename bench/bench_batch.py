@@ -78,6 +78,7 @@ def make_cases(n: int, seed: int = 2026) -> pd.DataFrame:
         "star_luminosity [L_sun]": star**4,
         "exobase_altitude [km]": rng.uniform(300.0, 3000.0, n),
         "exobase_density [m-3]": 10 ** rng.uniform(13.0, 14.0, n),
+        "exobase_composition": ["bulk"] * n,
         "temperature_reference [K]": rng.uniform(800.0, 1500.0, n),
         "temperature_reference_flux [W m-2]": np.full(n, 4.6e-3),
         "temperature_exponent [1]": rng.uniform(0.3, 0.7, n),

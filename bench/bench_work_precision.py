@@ -1124,6 +1124,7 @@ def exosieve_table(c: Cases, t0: float, t1: float) -> Any:
         "exobase_altitude [m]": c.altitude,
         "exobase_density [m-3]": c.n_exo,
         "density_scaling": ["inventory"] * n,
+        "exobase_composition": ["bulk"] * n,
         "semi_major_axis [m]": c.semi_major_axis,
         "star_mass [kg]": c.star_mass,
         "star_luminosity [W]": c.star_luminosity,

@@ -166,6 +166,16 @@ void bind_batch(py::module_& m) {
         "'<prefix><species>', SI unit, meaning, required, uncertain).");
 
     m.def(
+        "case_text_columns",
+        []() {
+            py::list out;
+            for (const CaseTextColumn& t : case_text_columns())
+                out.append(py::make_tuple(t.name, t.meaning));
+            return out;
+        },
+        "Text columns a case table may carry, 'case' first: (name, meaning).");
+
+    m.def(
         "case_parameter_groups",
         []() {
             py::list out;

@@ -267,8 +267,9 @@ void bind_evolution(py::module_& m) {
                          std::vector<std::pair<std::string, DiffusionLaw>> diffusion,
                          std::optional<XuvAbsorption> absorption,
                          std::optional<RecombinationLimit> recombination,
-                         std::optional<TransonicWind> transonic) {
+                         std::optional<TransonicWind> transonic, bool drag) {
                  HydrodynamicOptions h;
+                 h.drag = drag;
                  h.absorption = absorption;
                  h.recombination = recombination;
                  h.transonic = transonic;
@@ -284,7 +285,7 @@ void bind_evolution(py::module_& m) {
              py::arg("efficiency"), py::arg("xuv_radius"), py::arg("roche_lobe"),
              py::arg("escaping_species"), py::arg("activation"), py::arg("diffusion"),
              py::arg("absorption") = py::none(), py::arg("recombination") = py::none(),
-             py::arg("transonic") = py::none())
+             py::arg("transonic") = py::none(), py::arg("drag") = true)
         .def_readonly("efficiency", &HydrodynamicOptions::efficiency)
         .def_readonly("xuv_radius", &HydrodynamicOptions::xuv_radius)
         .def_readonly("roche_lobe", &HydrodynamicOptions::roche_lobe)
@@ -293,7 +294,8 @@ void bind_evolution(py::module_& m) {
         .def_readonly("diffusion", &HydrodynamicOptions::diffusion)
         .def_readonly("absorption", &HydrodynamicOptions::absorption)
         .def_readonly("recombination", &HydrodynamicOptions::recombination)
-        .def_readonly("transonic", &HydrodynamicOptions::transonic);
+        .def_readonly("transonic", &HydrodynamicOptions::transonic)
+        .def_readonly("drag", &HydrodynamicOptions::drag);
 
     // --- exobase models and histories -----------------------------------------------------------
     py::class_<ExobaseTemperature>(m, "ExobaseTemperature", "Exobase temperature history")

@@ -37,11 +37,24 @@ bool starts_with(const std::string& s, const std::string& head) {
     return s.size() > head.size() && s.compare(0, head.size(), head) == 0;
 }
 
-// Text columns a table may carry besides the numeric ones.
+// Text columns a table may carry besides the numeric ones (case_text_columns()).
 const std::set<std::string>& text_columns() {
-    static const std::set<std::string> names{"star", "density_scaling", "diffusion_source",
-                                             "comment"};
+    static const std::set<std::string> names = [] {
+        std::set<std::string> out;
+        for (const CaseTextColumn& t : case_text_columns())
+            if (t.name != "case")
+                out.insert(t.name);
+        return out;
+    }();
     return names;
+}
+
+// The text columns as one list for messages.
+std::string text_column_list() {
+    std::string out;
+    for (const CaseTextColumn& t : case_text_columns())
+        out += (out.empty() ? "" : ", ") + t.name;
+    return out;
 }
 
 std::string closest_parameters(const std::string& name) {
@@ -87,7 +100,8 @@ bool in_range(const CaseParameter& p, double v) {
 
 // Per-species parameters: their index in species_parameters().
 constexpr std::size_t x_parameter = 0, inventory_parameter = 1, given_loss_parameter = 2,
-                      given_loss_exponent_parameter = 3;
+                      given_loss_exponent_parameter = 3, exobase_x_parameter = 4,
+                      drag_diffusion_parameter = 5, drag_diffusion_exponent_parameter = 6;
 
 // "<prefix><species>" without "<species>".
 std::string species_prefix(const CaseParameter& p) {
@@ -167,6 +181,15 @@ const std::vector<CaseParameter>& case_parameters() {
         {"xuv_saturation_time", "s", "end of XUV saturation (stellar age)", false, true, 0.0, true,
          inf},
         {"xuv_decay_index", "1", "power-law index of the XUV decline", false, true, 0.0, true, inf},
+        {"threshold_enhanced", "1",
+         "Jeans parameter below which escape is enhanced Jeans (default: the sweep's, 6)", false,
+         false, 0.0, true, inf},
+        {"threshold_transition", "1",
+         "Jeans parameter below which escape is in transition (default: the sweep's, 3)", false,
+         false, 0.0, true, inf},
+        {"threshold_hydrodynamic", "1",
+         "Jeans parameter at or below which the gas is hydrodynamic (default: the sweep's, 2.1)",
+         false, false, 0.0, true, inf},
         {"heating_efficiency", "1", "energy-limited escape on: heating efficiency", false, true,
          0.0, true, 1.0},
         {"xuv_absorption_cross_section", "m2",
@@ -216,6 +239,10 @@ const std::vector<CaseParameter>& case_parameters() {
         {"transonic_molecular_mass", "kg",
          "transonic wind: mean molecular mass (default: the escaping species' mass)", false, true,
          0.0, true, inf},
+        {"drag", "1",
+         "energy-limited: 1 (default) the escaping gas drags heavier species below the crossover "
+         "mass (Hunten, Pepin & Walker 1987), 0 only those with a drag_diffusion_<species>",
+         false, false, 0.0, false, 1.0},
         {"given_loss_reference_flux", "W m-2",
          "F_ref of the given losses' XUV power law L = L_ref (F_xuv/F_ref)^p "
          "(given_loss_exponent_<species>)",
@@ -239,8 +266,8 @@ const std::vector<CaseParameter>& species_parameters() {
     // In slot order (x_parameter, inventory_parameter, ... above).
     static const std::vector<CaseParameter> params{
         {"x_<species>", "1",
-         "bulk (well-mixed) mole fraction, also the exobase fraction of a prescribed exobase (0: "
-         "absent)",
+         "bulk (well-mixed) mole fraction: shares the inventory, the homopause composition of a "
+         "thermosphere (0: absent)",
          false, true, 0.0, false, inf},
         {"inventory_<species>", "particles", "initial inventory of the species", false, true, 0.0,
          true, inf},
@@ -252,8 +279,40 @@ const std::vector<CaseParameter>& species_parameters() {
          "exponent p of the species' given loss L = L_ref (F_xuv/given_loss_reference_flux)^p "
          "(needs the star)",
          false, true, -inf, true, inf},
+        {"exobase_x_<species>", "1",
+         "prescribed exobase: mole fraction at the exobase (empty beside others: 0); never an "
+         "inventory share",
+         false, true, 0.0, false, inf},
+        {"drag_diffusion_<species>", "m-1 s-1",
+         "energy-limited drag: binary diffusion parameter b = A (T / 1 K)^s of the species in the "
+         "escaping gas, its A (0: not dragged; default: the library's)",
+         false, true, 0.0, false, inf},
+        {"drag_diffusion_exponent_<species>", "1",
+         "energy-limited drag: exponent s of drag_diffusion_<species> (default 0)", false, true,
+         -inf, true, inf},
     };
     return params;
+}
+
+const std::vector<CaseTextColumn>& case_text_columns() {
+    static const std::vector<CaseTextColumn> columns{
+        {"case", "label of the case (the first column)"},
+        {"star", "free text (the host star's name)"},
+        {"density_scaling",
+         "prescribed exobase: 'inventory' (densities follow each inventory; default) or 'fixed'"},
+        {"exobase_composition",
+         "prescribed exobase: 'bulk' states that the bulk fractions x_<species> are also the "
+         "exobase composition (instead of exobase_x_<species>)"},
+        {"diffusion_source",
+         "thermosphere: 'measured' (fits where tabulated, else Chapman-Enskog; default) or "
+         "'chapman_enskog'"},
+        {"escaping_species", "energy-limited: the light escaping species (default: the lightest)"},
+        {"energy_limited_activation",
+         "energy-limited: when it replaces Jeans escape: 'hydrodynamic' (default), 'transition' "
+         "(transition or hydrodynamic) or 'always'"},
+        {"comment", "free text, ignored"},
+    };
+    return columns;
 }
 
 std::size_t find_species_parameter(const std::string& column, std::string* species) {
@@ -282,13 +341,20 @@ const CaseParameter* find_case_parameter(const std::string& name) {
 const std::vector<CaseParameterGroup>& case_parameter_groups() {
     static const std::vector<CaseParameterGroup> groups{
         {"planet", "planet_mass", {}},
-        {"upper atmosphere, one of two kinds: a prescribed exobase", "exobase_altitude", {}},
+        {"upper atmosphere, one of two kinds: a prescribed exobase",
+         "exobase_altitude",
+         {"exobase_x_<species>"}},
         {"upper atmosphere, one of two kinds: a thermosphere (the exobase found each step)",
          "homopause_altitude",
          {}},
         {"exobase temperature history", "exobase_temperature", {}},
         {"orbit and host star (XUV history)", "semi_major_axis", {}},
-        {"energy-limited hydrodynamic escape", "heating_efficiency", {}},
+        {"escape regimes: thresholds of the Jeans parameter at the exobase",
+         "threshold_enhanced",
+         {}},
+        {"energy-limited hydrodynamic escape",
+         "heating_efficiency",
+         {"drag_diffusion_<species>", "drag_diffusion_exponent_<species>"}},
         {"losses given beyond thermal escape (non-thermal or external)",
          "given_loss_reference_flux",
          {"given_loss_<species>", "given_loss_exponent_<species>"}},
@@ -429,8 +495,7 @@ void check_table_columns(const CaseTable& table) {
     for (const auto& [name, values] : table.text) {
         if (!text_columns().count(name))
             throw InputError("case table: unknown text column '" + name +
-                             "' (text columns: "
-                             "case, star, density_scaling, diffusion_source, comment)");
+                             "' (text columns: " + text_column_list() + ")");
         if (!text_seen.insert(name).second)
             throw InputError("case table: column '" + name + "' appears twice");
         if (seen.count(name))
@@ -484,7 +549,10 @@ struct Slots {
                 inventory = slot_of("inventory"), surface_pressure = slot_of("surface_pressure"),
                 age_start = slot_of("age_start"), age_end = slot_of("age_end"),
                 star_age = slot_of("star_age"), rtol = slot_of("rtol"),
-                max_steps = slot_of("max_steps");
+                max_steps = slot_of("max_steps"),
+                threshold_enhanced = slot_of("threshold_enhanced"),
+                threshold_transition = slot_of("threshold_transition"),
+                threshold_hydrodynamic = slot_of("threshold_hydrodynamic"), drag = slot_of("drag");
 };
 
 const Slots& slots() {
@@ -518,7 +586,8 @@ const LossSlots& loss_slots() {
 // Parameters that are 0 or 1.
 bool is_flag(std::size_t slot) {
     return slot == slots().diffusion_limited || slot == loss_slots().chord ||
-           slot == loss_slots().recombination_limit || slot == loss_slots().transonic_wind;
+           slot == loss_slots().recombination_limit || slot == loss_slots().transonic_wind ||
+           slot == slots().drag;
 }
 
 // What a numeric column of a table holds, worked out once per table instead of once per row.
@@ -539,6 +608,8 @@ struct TablePlan {
     std::vector<std::size_t> x_column;   // per table species: its x_ column
     std::size_t density_scaling = none;  // text column, or none
     std::size_t diffusion_source = none; // text column, or none
+    std::size_t exobase_composition = none, escaping_species = none,
+                activation = none;       // text columns, or none
     std::vector<std::size_t> present;    // scratch: table species of the case
     std::vector<std::size_t> case_index; // scratch: table species -> case species, or none
 };
@@ -597,6 +668,12 @@ TablePlan plan_table(const CaseTable& table) {
             plan.density_scaling = c;
         else if (table.text[c].first == "diffusion_source")
             plan.diffusion_source = c;
+        else if (table.text[c].first == "exobase_composition")
+            plan.exobase_composition = c;
+        else if (table.text[c].first == "escaping_species")
+            plan.escaping_species = c;
+        else if (table.text[c].first == "energy_limited_activation")
+            plan.activation = c;
     return plan;
 }
 
@@ -660,20 +737,37 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
             const std::size_t k = slot(r);
             if (k != none)
                 s.values[k] = v;
+            else if (r.per_species == exobase_x_parameter && v > 0.0)
+                bad_value(name, "got " + format_value(v) +
+                                    ", but the species is not in the bulk "
+                                    "atmosphere ('x_" +
+                                    name.substr(10) +
+                                    "' zero or empty): give it "
+                                    "a bulk fraction too");
         }
         if (n == 0)
             throw InputError("no species: every mole fraction 'x_<species>' is zero or empty");
-        double x_sum = 0.0;
+        auto check_sum = [&](std::size_t k, const char* columns) {
+            double sum = 0.0;
+            for (std::size_t i = 0; i < n; ++i)
+                if (!std::isnan(s.values[P + k * n + i]))
+                    sum += s.values[P + k * n + i];
+            if (!(std::abs(sum - 1.0) <= mole_fraction_sum_tolerance)) {
+                std::ostringstream text;
+                text.precision(12);
+                text << sum;
+                throw InputError(std::string("mole fractions '") + columns + "' sum to " +
+                                 text.str() + ", not 1 (allowed: within " +
+                                 format_value(mole_fraction_sum_tolerance) + ")");
+            }
+        };
+        check_sum(x_parameter, "x_<species>");
+        bool exobase_fractions = false;
         for (std::size_t i = 0; i < n; ++i)
-            x_sum += s.values[P + i];
-        if (!(std::abs(x_sum - 1.0) <= mole_fraction_sum_tolerance)) {
-            std::ostringstream sum;
-            sum.precision(12);
-            sum << x_sum;
-            throw InputError("mole fractions 'x_<species>' sum to " + sum.str() +
-                             ", not 1 (allowed: within " +
-                             format_value(mole_fraction_sum_tolerance) + ")");
-        }
+            exobase_fractions =
+                exobase_fractions || !std::isnan(s.values[P + exobase_x_parameter * n + i]);
+        if (exobase_fractions) // beside given ones, an empty cell is 0 at the exobase
+            check_sum(exobase_x_parameter, "exobase_x_<species>");
         s.species.reserve(n);
         for (std::size_t k : plan.present)
             s.species.push_back(plan.species[k]);
@@ -691,6 +785,40 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
             s.diffusion_given = !text.empty();
             s.diffusion = text.empty() ? DiffusionMethod::measured_first
                                        : diffusion_method_named(text, "column 'diffusion_source'");
+        }
+        if (plan.exobase_composition != none) {
+            const std::string& text = table.text[plan.exobase_composition].second[row];
+            if (text == "bulk")
+                s.exobase_composition_bulk = true;
+            else if (!text.empty())
+                bad_value("exobase_composition",
+                          "'" + text +
+                              "' is not 'bulk' (the only value: the bulk fractions "
+                              "x_<species> are also the exobase composition; or leave it empty "
+                              "and give exobase_x_<species>)");
+        }
+        if (plan.escaping_species != none) {
+            s.escaping_species = table.text[plan.escaping_species].second[row];
+            bool found = s.escaping_species.empty();
+            for (const Species& sp : s.species)
+                found = found || sp.name == s.escaping_species;
+            if (!found)
+                bad_value("escaping_species", "'" + s.escaping_species +
+                                                  "' is not a species of this row (a species "
+                                                  "with x_<species> > 0)");
+        }
+        if (plan.activation != none) {
+            const std::string& text = table.text[plan.activation].second[row];
+            s.activation_given = !text.empty();
+            if (text.empty() || text == "hydrodynamic")
+                s.activation = HydrodynamicActivation::Hydrodynamic;
+            else if (text == "transition")
+                s.activation = HydrodynamicActivation::Transition;
+            else if (text == "always")
+                s.activation = HydrodynamicActivation::Always;
+            else
+                bad_value("energy_limited_activation",
+                          "'" + text + "' is not 'hydrodynamic', 'transition' or 'always'");
         }
     } catch (const InputError& e) {
         throw InputError(table.row_label(row) + " (case '" + s.name + "'), " + e.what());
@@ -1023,6 +1151,16 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
         if (s.scaling == DensityScaling::Fixed)
             bad_value("density_scaling", "'fixed' is for a prescribed exobase; a thermosphere's "
                                          "densities always follow the inventories");
+        // The thermosphere finds the exobase composition from the bulk one: none is given.
+        for (std::size_t i = 0; i < n; ++i)
+            if (!std::isnan(s.species_value(exobase_x_parameter, i)))
+                bad_value("exobase_x_" + s.species[i].name,
+                          "is for a prescribed exobase; a thermosphere's exobase composition "
+                          "follows from the bulk fractions x_<species> by diffusive separation");
+        if (s.exobase_composition_bulk)
+            bad_value("exobase_composition",
+                      "is for a prescribed exobase; a thermosphere's exobase composition "
+                      "follows from the bulk fractions x_<species> by diffusive separation");
         const char* why = "a thermosphere needs both homopause columns";
         const double r_h = radius + required(k.homopause_altitude, why);
         const double n_h = required(k.homopause_density, why);
@@ -1053,9 +1191,36 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
                                           "'homopause_density'); this row has none");
         const char* why = "or describe a thermosphere ('homopause_altitude', 'homopause_density')";
         const double n_exo = required(k.exobase_density, why);
-        std::vector<double> densities(n);
+        // The exobase composition: its own columns, or the bulk fractions when the row says so
+        // ('exobase_composition' 'bulk'); the bulk fractions alone share the inventory.
+        bool own = false;
+        double exo_sum = 0.0;
         for (std::size_t i = 0; i < n; ++i)
-            densities[i] = s.mole_fraction(i) / x_sum * n_exo;
+            if (!std::isnan(s.species_value(exobase_x_parameter, i))) {
+                own = true;
+                exo_sum += s.species_value(exobase_x_parameter, i);
+            }
+        if (own && s.exobase_composition_bulk)
+            bad_value("exobase_composition",
+                      "'bulk' takes the bulk fractions as the exobase composition, but the row "
+                      "also gives exobase_x_<species>: keep one");
+        if (!own && !s.exobase_composition_bulk) {
+            std::string missing;
+            for (std::size_t i = 0; i < n; ++i)
+                missing +=
+                    (missing.empty() ? "'exobase_x_" : ", 'exobase_x_") + s.species[i].name + "'";
+            bad_value("exobase_x_<species>",
+                      "no exobase composition given: a prescribed exobase needs " + missing +
+                          " (its mole fractions at the exobase), or the text column "
+                          "'exobase_composition' set to 'bulk' to take the bulk fractions "
+                          "x_<species> (which share the inventory) as the exobase's too");
+        }
+        std::vector<double> densities(n);
+        for (std::size_t i = 0; i < n; ++i) {
+            const double x_exo = s.species_value(exobase_x_parameter, i);
+            densities[i] = own ? (std::isnan(x_exo) ? 0.0 : x_exo / exo_sum * n_exo)
+                               : s.mole_fraction(i) / x_sum * n_exo;
+        }
         c.exobase =
             std::make_shared<PrescribedExobase>(radius + required(k.exobase_altitude, why),
                                                 std::move(names), std::move(densities), s.scaling);
@@ -1121,10 +1286,53 @@ EvolutionConfig build_config(const CaseSpec& s, const BatchOptions& o) {
         HydrodynamicOptions h;
         h.efficiency = s.values[k.heating_efficiency];
         h.roche_lobe = with_star;
+        h.escaping_species = s.escaping_species;
+        h.activation = s.activation;
+        h.drag = optional(k.drag, 1.0) == 1.0;
+        for (std::size_t i = 0; i < n; ++i) { // listed laws, as EnergyLimitedEscape(diffusion=)
+            const double a = s.species_value(drag_diffusion_parameter, i);
+            const double e = s.species_value(drag_diffusion_exponent_parameter, i);
+            if (!std::isnan(e) && std::isnan(a))
+                bad_value("drag_diffusion_exponent_" + s.species[i].name,
+                          "got " + format_value(e) + ", but the law needs its coefficient 'drag_" +
+                              "diffusion_" + s.species[i].name + "' [m-1 s-1]");
+            if (!std::isnan(a))
+                h.diffusion.emplace_back(s.species[i].name,
+                                         DiffusionLaw{a, std::isnan(e) ? 0.0 : e});
+        }
         c.hydrodynamic = h;
+    } else {
+        const std::string why =
+            "energy-limited escape ('heating_efficiency'), which this row does not switch on";
+        if (has(k.drag))
+            bad_value("drag", "got " + format_value(s.values[k.drag]) + ", but it is for " + why);
+        for (std::size_t i = 0; i < n; ++i)
+            for (std::size_t q : {drag_diffusion_parameter, drag_diffusion_exponent_parameter})
+                if (!std::isnan(s.species_value(q, i)))
+                    bad_value(species_prefix(species_parameters()[q]) + s.species[i].name,
+                              "got " + format_value(s.species_value(q, i)) + ", but it is for " +
+                                  why);
+        if (!s.escaping_species.empty())
+            bad_value("escaping_species", "'" + s.escaping_species + "', but it is for " + why);
+        if (s.activation_given)
+            bad_value("energy_limited_activation", "is for " + why);
     }
     add_loss_options(s, with_star, mean_mass, c);
+    // Regime thresholds: the row's, each defaulting to the sweep's.
     c.thresholds = o.thresholds;
+    c.thresholds.enhanced = optional(k.threshold_enhanced, c.thresholds.enhanced);
+    c.thresholds.transition = optional(k.threshold_transition, c.thresholds.transition);
+    c.thresholds.hydrodynamic = optional(k.threshold_hydrodynamic, c.thresholds.hydrodynamic);
+    try {
+        c.thresholds.validate();
+    } catch (const InputError& e) {
+        const std::size_t given = has(k.threshold_enhanced)     ? k.threshold_enhanced
+                                  : has(k.threshold_transition) ? k.threshold_transition
+                                                                : k.threshold_hydrodynamic;
+        bad_value(params[given].name, std::string("the row's thresholds (the sweep's where a "
+                                                  "column is empty): ") +
+                                          e.what());
+    }
     c.rtol = optional(k.rtol, o.rtol);
     c.max_steps = static_cast<std::size_t>(optional(k.max_steps, static_cast<double>(o.max_steps)));
     c.depletion_fraction = o.depletion_fraction;
@@ -1354,7 +1562,7 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
     lambda_bulk /= x_sum;
     out.bulk_jeans_start[c] = lambda_bulk;
     out.hydrodynamic_unmodelled[c] =
-        lambda_bulk <= o.thresholds.hydrodynamic && !config.hydrodynamic.has_value() ? 1 : 0;
+        lambda_bulk <= config.thresholds.hydrodynamic && !config.hydrodynamic.has_value() ? 1 : 0;
     out.stripping_time[c] = r.stripping_time;
     out.planet_radius_end[c] = r.has_envelope() ? r.planet_radius[last] : p.radius();
     // Rows of r at the batch's output times (r holds t_start, the inner times, t_end).
@@ -1384,7 +1592,7 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
         out.jeans_start[at] = r.jeans_parameter[i];
         out.jeans_end[at] = r.jeans_parameter[last * n + i];
         out.regime_start[at] =
-            static_cast<std::int64_t>(classify_regime(r.jeans_parameter[i], o.thresholds));
+            static_cast<std::int64_t>(classify_regime(r.jeans_parameter[i], config.thresholds));
     }
     return true;
 }

@@ -89,7 +89,8 @@ std::vector<SweepVariable> build_list() {
         real("age_end", &C::t_end, none, "s", "stellar age at the end of the run"),
         real("exobase_temperature_start", &C::temperature_start, none, "K",
              "exobase temperature at the start"),
-        real("mole_fraction", &C::mole_fraction, s, "1", "mole fraction at the exobase (0: absent)")
+        real("mole_fraction", &C::mole_fraction, s, "1",
+             "bulk (well-mixed) mole fraction (0: absent)")
             .range(0, 1),
         real("exobase_temperature", &C::exobase_temperature, t, "K", "exobase temperature"),
         real("retained_fraction", &C::retained, ts, "1",

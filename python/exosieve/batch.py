@@ -32,7 +32,8 @@ Examples
 ...     "exobase_density [m-3]": [1e13, 1e13],
 ...     "exobase_temperature [K]": [900.0, 1500.0],
 ...     "inventory [particles]": [1e37, 1e37],
-...     "x_N2": [0.75, 0.75], "x_He": [0.25, 0.25]})
+...     "x_N2": [0.75, 0.75], "x_He": [0.25, 0.25],
+...     "exobase_composition": ["bulk", "bulk"]})
 >>> result = compare(cases, t_end=4.5e9 * 3.15576e7, threads=1)
 >>> table = result.summary.set_index(["case", "species"])
 >>> bool(table.loc[("warm", "He"), "retained"]), bool(table.loc[("hot", "He"), "retained"])

@@ -56,6 +56,8 @@ UNITS: dict[str, tuple[float, str]] = {
     "cm-3": (1e6, "m-3"),
     "m2": (1.0, "m2"),
     "cm2": (1e-4, "m2"),
+    "m-1 s-1": (1.0, "m-1 s-1"),
+    "cm-1 s-1": (1e2, "m-1 s-1"),
     "m3 s-1": (1.0, "m3 s-1"),
     "cm3 s-1": (1e-6, "m3 s-1"),
     "J": (1.0, "J"),
@@ -73,8 +75,8 @@ _SPECIES_UNITS: list[tuple[str, str]] = [
     (str(row[0]).removesuffix("<species>"), str(row[1])) for row in _core.species_parameters()
 ]
 
-#: Columns that hold text rather than numbers.
-TEXT_COLUMNS = ("case", "star", "density_scaling", "diffusion_source", "comment")
+#: Columns that hold text rather than numbers (the core's list, ``case`` first).
+TEXT_COLUMNS: tuple[str, ...] = tuple(str(row[0]) for row in _core.case_text_columns())
 
 #: Longest text accepted in a cell [characters].
 MAX_TEXT_LENGTH = 10_000
@@ -133,19 +135,30 @@ def column_groups() -> list[tuple[str, list[str]]]:
     ]
 
 
+def text_columns() -> list[tuple[str, str]]:
+    """The text columns a case table may hold, ``case`` first: (name, meaning).
+
+    Examples
+    --------
+    >>> [name for name, _ in text_columns()][:3]
+    ['case', 'star', 'density_scaling']
+    """
+    return [(str(name), str(meaning)) for name, meaning in _core.case_text_columns()]
+
+
 def case_columns() -> list[tuple[str, str, str, bool, bool]]:
     """The quantities a case table may hold.
 
     Returns
     -------
     list of (name, SI unit, meaning, required, may have an uncertainty)
-        Besides these: ``case`` (label, first column), ``star``, ``comment`` (text, ignored),
-        ``density_scaling`` (``inventory`` or ``fixed``; prescribed exobase),
-        ``diffusion_source`` (``measured`` or ``chapman_enskog``; thermosphere), and the
-        per-species columns of :func:`species_columns`: ``x_<species>`` bulk (well-mixed) mole
-        fractions [1] (summing to 1 within 1e-3; for a prescribed exobase also its
-        composition), ``inventory_<species>`` initial inventories [particles],
-        ``given_loss_<species>`` given losses [s-1] and ``given_loss_exponent_<species>`` [1].
+        Besides these: the text columns of :func:`text_columns` and the per-species columns
+        of :func:`species_columns`: ``x_<species>`` bulk (well-mixed) mole fractions [1]
+        (summing to 1 within 1e-3; the shares of the inventory), ``exobase_x_<species>`` the
+        composition of a prescribed exobase [1], ``inventory_<species>`` initial inventories
+        [particles], ``given_loss_<species>`` given losses [s-1],
+        ``given_loss_exponent_<species>`` [1] and the drag laws ``drag_diffusion_<species>``
+        [m-1 s-1], ``drag_diffusion_exponent_<species>`` [1].
 
     Examples
     --------
@@ -167,8 +180,7 @@ class CaseTable:
         SI values per quantity (``planet_mass`` [kg], ``exobase_altitude`` [m], ...); NaN where
         a row gives no value.
     text_columns : dict of str to list of str
-        Columns that hold text (``case``, ``star``, ``density_scaling``, ``diffusion_source``,
-        ``comment``).
+        Columns that hold text (:data:`TEXT_COLUMNS`).
     species : list of str
         Species named by ``x_<species>`` columns, in column order.
     source : str
@@ -344,7 +356,7 @@ class _Reader:
         if name in TEXT_COLUMNS:
             return
         if unit is None:
-            if name.startswith("x_") or name.endswith("_lnsigma"):
+            if name.startswith(("x_", "exobase_x_")) or name.endswith("_lnsigma"):
                 return
             raise ValueError(
                 f"{self.source} {where} column '{name}': the header must name a unit, "

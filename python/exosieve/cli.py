@@ -322,6 +322,7 @@ def _columns(args: argparse.Namespace) -> int:
         case_table_template_path,
         column_groups,
         species_columns,
+        text_columns,
     )
 
     print(
@@ -342,16 +343,15 @@ def _columns(args: argparse.Namespace) -> int:
         "given_loss_He); a row's mole fractions x_<species> sum to 1 within 1e-3, and the "
         "other per-species columns need the species' x_ column."
     )
-    print(
-        "Text: case, star, density_scaling, diffusion_source, comment (case first; "
-        "density_scaling is 'inventory' or 'fixed' (prescribed exobase); diffusion_source is "
-        "'measured' or 'chapman_enskog' (thermosphere))"
-    )
+    print("Text columns (case first):")
+    for name, meaning in text_columns():
+        print(f"  {name:30s} {meaning}")
     print(
         "Upper atmosphere, one per row: a prescribed exobase (exobase_altitude, "
-        "exobase_density) or a thermosphere (homopause_altitude, homopause_density; "
+        "exobase_density, and its own composition exobase_x_<species> or exobase_composition "
+        "'bulk') or a thermosphere (homopause_altitude, homopause_density; "
         "homopause_temperature and bates_shape for a Bates profile; diffusion_limited), whose "
-        "exobase is found at every step."
+        "exobase and its composition are found at every step from the bulk fractions."
     )
     by_unit: dict[str, list[str]] = {}
     for word, (_, si) in UNITS.items():

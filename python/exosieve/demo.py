@@ -9,56 +9,45 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from .catalogue import CaseTable, demo_catalogue_path, read_case_table
-from .jeans import jeans_flux, jeans_parameter
-from .species import species
+from .batch import Comparison
+from .catalogue import demo_catalogue_path
 
 
 @dataclass
 class SnapshotTable:
-    """Jeans escape of each case and species at the catalogue's present-day exobase.
+    """Jeans escape of each case and species at its exobase at the start of its run, as the
+    sweep engine found it (a prescribed exobase of the row's own composition, or the exobase of
+    its thermosphere), and the Jeans parameter at the end.
 
     Arrays have shape (case, species); entries for absent species are NaN.
     """
 
     cases: list[str]
     species: list[str]
-    exobase_radius: NDArray[np.float64]  # [m], per case
-    exobase_temperature: NDArray[np.float64]  # [K], per case
-    density: NDArray[np.float64]  # [m^-3]
-    jeans_parameter: NDArray[np.float64]  # [1]
-    jeans_flux: NDArray[np.float64]  # [m^-2 s^-1]
-    escape_rate: NDArray[np.float64]  # [s^-1]
+    exobase_radius: NDArray[np.float64]  # [m], per case, at the start
+    exobase_temperature: NDArray[np.float64]  # [K], per case, at the start
+    jeans_parameter: NDArray[np.float64]  # [1], at the start
+    jeans_parameter_end: NDArray[np.float64]  # [1], at the end
+    jeans_flux: NDArray[np.float64]  # [m^-2 s^-1], escape rate over the exobase's area
+    escape_rate: NDArray[np.float64]  # [s^-1], thermal, at the start
     source: str
 
 
-def snapshot(table: CaseTable) -> SnapshotTable:
-    """Jeans parameters, fluxes and escape rates for every case and species of ``table``."""
-    radius = np.array(table.column("planet_radius")) + np.array(table.column("exobase_altitude"))
-    temperature = np.array(table.column("exobase_temperature"))
-    planet_mass = np.array(table.column("planet_mass"))
-    n_total = np.array(table.column("exobase_density"))
-    x = np.array([table.column(f"x_{s}") for s in table.species]).T  # (case, species)
-    mass = np.array([species(s).mass for s in table.species])
-    density = x * n_total[:, None]
-    r, t, m, mp = radius[:, None], temperature[:, None], mass[None, :], planet_mass[:, None]
-    lam = np.asarray(jeans_parameter(t, m, mp, r))
-    flux = np.asarray(jeans_flux(density, t, m, mp, r))
-    rate = 4.0 * np.pi * r**2 * flux  # global rate [s^-1] from the flux just computed
-    absent = x == 0.0
-    for a in (density, flux, rate):
-        a[absent] = np.nan
-    lam = np.where(absent, np.nan, lam)
+def snapshot(result: Comparison) -> SnapshotTable:
+    """The exobase of every case of a sweep at its start: Jeans parameters, fluxes, rates."""
+    radius = np.asarray(result["exobase_radius"], dtype=float)
+    rate = np.asarray(result["escape_rate_start"], dtype=float)
+    flux = rate / (4.0 * np.pi * radius[:, None] ** 2)  # over the exobase sphere [m^-2 s^-1]
     return SnapshotTable(
-        table.names,
-        list(table.species),
+        list(result["case"]),
+        list(result.species),
         radius,
-        temperature,
-        density,
-        lam,
+        np.asarray(result["exobase_temperature_start"], dtype=float),
+        np.asarray(result["jeans_parameter_start"], dtype=float),
+        np.asarray(result["jeans_parameter_end"], dtype=float),
         flux,
         rate,
-        table.source,
+        str(result.config.get("table", {}).get("source", "")),
     )
 
 
@@ -66,18 +55,18 @@ def format_snapshot(result: SnapshotTable) -> str:
     """A plain-text table: one line per case and species present."""
     lines = [
         f"{'case':10s} {'species':7s} {'T_exo [K]':>9s} {'r_exo [km]':>10s} "
-        f"{'n [m^-3]':>10s} {'lambda [1]':>10s} {'flux [m^-2 s^-1]':>16s} "
-        f"{'rate [s^-1]':>11s}"
+        f"{'lambda [1]':>10s} {'flux [m^-2 s^-1]':>16s} {'rate [s^-1]':>11s} "
+        f"{'lambda end':>10s}"
     ]
     for i, case in enumerate(result.cases):
         for j, name in enumerate(result.species):
-            if np.isnan(result.density[i, j]):
+            if np.isnan(result.jeans_parameter[i, j]):
                 continue
             lines.append(
                 f"{case:10s} {name:7s} {result.exobase_temperature[i]:9.0f} "
-                f"{result.exobase_radius[i] / 1e3:10.0f} {result.density[i, j]:10.3e} "
-                f"{result.jeans_parameter[i, j]:10.2f} {result.jeans_flux[i, j]:16.3e} "
-                f"{result.escape_rate[i, j]:11.3e}"
+                f"{result.exobase_radius[i] / 1e3:10.0f} {result.jeans_parameter[i, j]:10.2f} "
+                f"{result.jeans_flux[i, j]:16.3e} {result.escape_rate[i, j]:11.3e} "
+                f"{result.jeans_parameter_end[i, j]:10.2f}"
             )
     return "\n".join(lines)
 
@@ -90,25 +79,27 @@ def run_demo(
 ) -> Any:
     """The demo on the invented catalogue ``data/demo_planets.csv``.
 
-    Prints the present-day Jeans parameters and fluxes of every species, evolves every case over
-    its star's life with ``samples`` Monte Carlo draws over the stated uncertainties, writes the
-    comparison to ``output`` (HDF5), draws the retention chart to ``chart`` (PNG, if matplotlib
-    is installed) and prints the probability that each planet keeps each gas.
+    Evolves every case over its star's life with ``samples`` Monte Carlo draws over the stated
+    uncertainties, prints each case's exobase at the start of its run (the young star's XUV
+    heats it) with the Jeans parameters, fluxes and rates of every species and the Jeans
+    parameter at the end, writes the comparison to ``output`` (HDF5), draws the retention chart
+    to ``chart`` (PNG, if matplotlib is installed) and prints the probability that each planet
+    keeps each gas.
 
     Returns the :class:`exosieve.Comparison`.
     """
     from .batch import compare
 
     catalogue = demo_catalogue_path()
-    print("Present-day exobases of the invented demo catalogue\n")
-    print(format_snapshot(snapshot(read_case_table(catalogue))))
     print(
-        f"\nEvolving {catalogue.name} over each star's life, {samples} Monte Carlo samples "
-        "per case ..."
+        f"Evolving {catalogue.name} (invented planets) over each star's life, {samples} Monte "
+        "Carlo samples per case ..."
     )
     result = compare(
         catalogue, samples=samples, seed=seed, output=output, overwrite=True, progress=True
     )
+    print("\nExobases at the start of each run (10 Myr), and the Jeans parameter at the end\n")
+    print(format_snapshot(snapshot(result)))
     table = result.summary.pivot(
         index="case", columns="species", values="probability_retained" if samples else "retained"
     )

@@ -627,6 +627,11 @@ class EnergyLimitedEscape:
         fixed) and optionally ``mean_molecular_mass`` [kg] (default: the escaping species'
         mass). Assumes a steady, spherically symmetric, isothermal wind of one gas in the
         planet's gravity alone.
+    drag : bool, optional
+        Drag heavier species (default True): those without a ``diffusion`` law with the
+        library's binary diffusion parameter in the light gas (measured fit, else
+        Chapman–Enskog). False drags only the species listed in ``diffusion``; the others keep
+        their Jeans rate.
 
     Examples
     --------
@@ -645,6 +650,7 @@ class EnergyLimitedEscape:
         absorption: Mapping[str, Any] | None = None,
         recombination_limit: bool | Mapping[str, float] = False,
         transonic_wind: Mapping[str, float] | None = None,
+        drag: bool = True,
     ) -> None:
         if activation not in ("hydrodynamic", "transition", "always"):
             raise ValueError(
@@ -655,6 +661,9 @@ class EnergyLimitedEscape:
         self.roche_lobe = bool(roche_lobe)
         self.escaping_species = escaping_species
         self.activation = activation
+        if not isinstance(drag, (bool, np.bool_)):
+            raise ValueError(f"drag must be True or False, got {drag!r}")
+        self.drag = bool(drag)
         self.diffusion: dict[str, tuple[float, float]] = {}
         for name, law in (diffusion or {}).items():
             if isinstance(law, tuple):
@@ -746,6 +755,7 @@ class EnergyLimitedEscape:
             core_absorption,
             core_recombination,
             core_wind,
+            self.drag,
         )
 
     def __reduce__(self) -> tuple[Any, ...]:
@@ -761,6 +771,7 @@ class EnergyLimitedEscape:
                 self.absorption,
                 False if self.recombination_limit is None else self.recombination_limit or True,
                 self.transonic_wind,
+                self.drag,
             ),
         )
 
@@ -771,7 +782,7 @@ class EnergyLimitedEscape:
             f"escaping_species={self.escaping_species!r}, activation={self.activation!r}, "
             f"diffusion={self.diffusion!r}, absorption={self.absorption!r}, "
             f"recombination_limit={self.recombination_limit!r}, "
-            f"transonic_wind={self.transonic_wind!r})"
+            f"transonic_wind={self.transonic_wind!r}, drag={self.drag!r})"
         )
 
 

@@ -59,6 +59,25 @@ CaseTable earthlike(std::size_t rows) {
     set_column(t, "x_N2", xn2);
     set_column(t, "x_He", xhe);
     set_column(t, "x_H", xh);
+    // The exobase composition, given in its own columns (here the bulk one).
+    set_column(t, "exobase_x_N2", xn2);
+    set_column(t, "exobase_x_He", xhe);
+    set_column(t, "exobase_x_H", xh);
+    return t;
+}
+
+// The bulk fractions of every row of `t` taken as its prescribed exobase's composition.
+void bulk_exobase(CaseTable& t) {
+    t.text.push_back({"exobase_composition", std::vector<std::string>(t.rows(), "bulk")});
+}
+
+// `t` without its exobase_x_ columns, stating that the bulk fractions are the exobase's.
+CaseTable with_bulk_exobase(CaseTable t) {
+    t.columns.erase(
+        std::remove_if(t.columns.begin(), t.columns.end(),
+                       [](const auto& c) { return c.first.rfind("exobase_x_", 0) == 0; }),
+        t.columns.end());
+    bulk_exobase(t);
     return t;
 }
 
@@ -172,6 +191,8 @@ TEST_CASE("cases carry values by slot: species values follow the species present
     CaseTable t = earthlike(2);
     set_column(t, "x_He", {0.25, 0.0}); // row 2 has no helium
     set_column(t, "x_N2", {0.7, 0.95});
+    set_column(t, "exobase_x_He", {0.25, 0.0});
+    set_column(t, "exobase_x_N2", {0.7, 0.95});
     set_column(t, "x_He_sigma", {0.01, 0.01});
     set_column(t, "inventory_H", {2e35, 3e35});
     set_column(t, "inventory_H_lnsigma", {0.5, 0.5});
@@ -246,9 +267,10 @@ TEST_CASE("case tables: mole fractions must sum to one, samples are renormalised
     CHECK(st.cases_failed == 2);
     CHECK(out[0].error[1].find("sum to 0.95") != std::string::npos);
     CHECK(out[0].error[2].empty());
-    // Inside the tolerance, densities and the shares of the total inventory use the same
-    // normalised fractions (x_i / sum x): both describe one mixture.
-    const EvolutionConfig c = build_config(case_from_table(t, 2), options(1));
+    // Inside the tolerance, and when the row states that its bulk fractions are the exobase's,
+    // densities and the shares of the total inventory use the same normalised fractions
+    // (x_i / sum x): both describe one mixture.
+    const EvolutionConfig c = build_config(case_from_table(with_bulk_exobase(t), 2), options(1));
     const auto& exo = dynamic_cast<const PrescribedExobase&>(*c.exobase);
     const double sum = 0.7005 + 0.25 + 0.05;
     for (std::size_t i = 0; i < 3; ++i) {
@@ -258,7 +280,7 @@ TEST_CASE("case tables: mole fractions must sum to one, samples are renormalised
     }
     CHECK(exo.densities()[0] == doctest::Approx(1e13 * 0.7005 / sum).epsilon(1e-14));
     // A sample's drawn fractions need not sum to one: they are renormalised the same way.
-    CaseTable u = earthlike(1);
+    CaseTable u = with_bulk_exobase(earthlike(1));
     set_column(u, "x_He_sigma", {0.05});
     const CaseSpec drawn = sample_case(case_from_table(u, 0), 3, 1);
     REQUIRE(drawn.value("x_He") != 0.25);
@@ -271,6 +293,121 @@ TEST_CASE("case tables: mole fractions must sum to one, samples are renormalised
     }
     CHECK(total == doctest::Approx(1e13).epsilon(1e-14));
     CHECK(shares == doctest::Approx(1e37).epsilon(1e-14));
+}
+
+TEST_CASE("prescribed exobase: its composition is its own, the inventory takes the bulk one") {
+    // Bulk N2 0.78, O 0.219994, He 6e-6 (invented); the exobase O 0.90, N2 0.05, He 0.05.
+    CaseTable t;
+    t.names = {"own", "own, other exobase", "bulk stated", "none"};
+    t.row_labels = {"line 3", "line 4", "line 5", "line 6"};
+    auto all = [](double v) { return std::vector<double>(4, v); };
+    set_column(t, "planet_mass", all(constants::M_earth));
+    set_column(t, "planet_radius", all(constants::R_earth));
+    set_column(t, "exobase_altitude", all(500e3));
+    set_column(t, "exobase_density", all(1e13));
+    set_column(t, "exobase_temperature", all(1000.0));
+    set_column(t, "surface_pressure", all(1e5));
+    set_column(t, "x_N2", all(0.78));
+    set_column(t, "x_O", all(0.219994));
+    set_column(t, "x_He", all(6e-6));
+    set_column(t, "exobase_x_O", {0.90, 0.50, missing, missing});
+    set_column(t, "exobase_x_N2", {0.05, 0.50, missing, missing});
+    set_column(t, "exobase_x_He", {0.05, missing, missing, missing}); // empty beside others: 0
+    t.text.push_back({"exobase_composition", {"", "", "bulk", ""}});
+    const BatchOptions o = options(1);
+    const EvolutionConfig own = build_config(case_from_table(t, 0), o);
+    const EvolutionConfig other = build_config(case_from_table(t, 1), o);
+    const EvolutionConfig bulk = build_config(case_from_table(t, 2), o);
+    const auto& exo = dynamic_cast<const PrescribedExobase&>(*own.exobase);
+    const auto& exo_other = dynamic_cast<const PrescribedExobase&>(*other.exobase);
+    const auto& exo_bulk = dynamic_cast<const PrescribedExobase&>(*bulk.exobase);
+    // Species order N2, O, He (the x_ columns).
+    CHECK(exo.densities()[1] == doctest::Approx(0.90e13).epsilon(1e-15));
+    CHECK(exo.densities()[2] == doctest::Approx(0.05e13).epsilon(1e-15));
+    CHECK(exo_other.densities()[2] == 0.0);
+    CHECK(exo_bulk.densities()[2] == doctest::Approx(6e-6 * 1e13).epsilon(1e-12));
+    // The inventories do not depend on the exobase composition, bit for bit.
+    CHECK(own.initial_inventory == other.initial_inventory);
+    CHECK(own.initial_inventory == bulk.initial_inventory);
+    // Hydrostatic column N = P 4 pi R^2 / (g m_mean), g = G M / R^2 (worked by hand).
+    const double m_mean =
+        0.78 * species("N2").mass + 0.219994 * species("O").mass + 6e-6 * species("He").mass;
+    const double g = constants::G * constants::M_earth / (constants::R_earth * constants::R_earth);
+    const double total =
+        1e5 * 4.0 * constants::pi * constants::R_earth * constants::R_earth / (g * m_mean);
+    CHECK(own.initial_inventory[2] == doctest::Approx(6e-6 * total).epsilon(1e-12));
+    // No exobase composition: refused naming the row, the columns and the opt-in.
+    const auto errors = check_table(t, o);
+    REQUIRE(errors.size() == 4);
+    CHECK(errors[0].empty());
+    CHECK(errors[1].empty());
+    CHECK(errors[2].empty());
+    CHECK(errors[3].find("line 6 (case 'none')") != std::string::npos);
+    CHECK(errors[3].find("'exobase_x_N2', 'exobase_x_O', 'exobase_x_He'") != std::string::npos);
+    CHECK(errors[3].find("'exobase_composition' set to 'bulk'") != std::string::npos);
+    // Both at once, a bad opt-in word, an exobase fraction of a species not in the bulk gas,
+    // exobase fractions that do not sum to one, and exobase fractions on a thermosphere row.
+    CaseTable both = t;
+    both.text[0].second[0] = "bulk";
+    CHECK_THROWS_WITH_AS(build_config(case_from_table(both, 0), o),
+                         doctest::Contains("column 'exobase_composition': 'bulk' takes"),
+                         InputError);
+    CaseTable word = t;
+    word.text[0].second[3] = "exobase";
+    CHECK_THROWS_WITH_AS(case_from_table(word, 3),
+                         doctest::Contains("line 6 (case 'none'), column 'exobase_composition': "
+                                           "'exobase' is not 'bulk'"),
+                         InputError);
+    CaseTable absent = t;
+    set_column(absent, "x_He", {0.0, missing, missing, missing});
+    set_column(absent, "x_O", {0.22, 0.219994, 0.219994, 0.219994});
+    CHECK_THROWS_WITH_AS(case_from_table(absent, 0),
+                         doctest::Contains("column 'exobase_x_He': got 0.05"), InputError);
+    CHECK_THROWS_WITH_AS(case_from_table(absent, 0),
+                         doctest::Contains("but the species is not in the bulk atmosphere ('x_He' "
+                                           "zero or empty)"),
+                         InputError);
+    CaseTable sum = t;
+    set_column(sum, "exobase_x_O", {0.80, 0.50, missing, missing});
+    CHECK_THROWS_WITH_AS(case_from_table(sum, 0),
+                         doctest::Contains("line 3 (case 'own'), mole fractions "
+                                           "'exobase_x_<species>' sum to 0.9"),
+                         InputError);
+}
+
+TEST_CASE("case tables: per-row regime thresholds and drag reach the config") {
+    CaseTable t = with_bulk_exobase(earthlike(3));
+    set_column(t, "threshold_enhanced", {8.0, missing, 2.0});
+    set_column(t, "threshold_hydrodynamic", {1.5, missing, missing});
+    set_column(t, "heating_efficiency", {0.1, missing, missing});
+    set_column(t, "drag", {0.0, missing, missing});
+    set_column(t, "drag_diffusion_He", {1e21, missing, missing});
+    set_column(t, "drag_diffusion_exponent_He", {0.7, missing, missing});
+    BatchOptions o = options(1);
+    o.thresholds.transition = 4.0;
+    const EvolutionConfig c = build_config(case_from_table(t, 0), o);
+    CHECK(c.thresholds.enhanced == 8.0);
+    CHECK(c.thresholds.transition == 4.0); // the sweep's
+    CHECK(c.thresholds.hydrodynamic == 1.5);
+    REQUIRE(c.hydrodynamic.has_value());
+    CHECK_FALSE(c.hydrodynamic->drag);
+    REQUIRE(c.hydrodynamic->diffusion.size() == 1);
+    CHECK(c.hydrodynamic->diffusion[0].first == "He");
+    CHECK(c.hydrodynamic->diffusion[0].second.coefficient == 1e21);
+    CHECK(c.hydrodynamic->diffusion[0].second.exponent == 0.7);
+    const EvolutionConfig d = build_config(case_from_table(t, 1), o);
+    CHECK(d.thresholds.enhanced == 6.0);
+    CHECK(d.thresholds.transition == 4.0);
+    // Row 3: enhanced 2 below the sweep's transition 4: refused naming the column.
+    CHECK_THROWS_WITH_AS(build_config(case_from_table(t, 2), o),
+                         doctest::Contains("column 'threshold_enhanced': the row's thresholds"),
+                         InputError);
+    // Drag columns without energy-limited escape.
+    CaseTable u = with_bulk_exobase(earthlike(1));
+    set_column(u, "drag", {1.0});
+    CHECK_THROWS_WITH_AS(build_config(case_from_table(u, 0), o),
+                         doctest::Contains("column 'drag': got 1, but it is for energy-limited"),
+                         InputError);
 }
 
 TEST_CASE("case tables: columns and rows are checked with the row and the column named") {
@@ -785,6 +922,7 @@ TEST_CASE("batch: bulk gas at or below the hydrodynamic threshold without a heat
     set_column(t, "planet_mass", {M, M, M});
     set_column(t, "planet_radius", {R, R, R});
     set_column(t, "exobase_altitude", {0.5 * R, 0.5 * R, 0.5 * R});
+    bulk_exobase(t);
     set_column(t, "exobase_density", {1e12, 1e12, 1e12});
     set_column(t, "exobase_temperature", {T_hot, T_hot, 800.0});
     set_column(t, "heating_efficiency", {missing, 0.15, missing});
@@ -900,6 +1038,7 @@ CaseTable loss_table() {
     set_column(t, "planet_mass", all(loss_mass));
     set_column(t, "planet_radius", all(loss_radius));
     set_column(t, "exobase_altitude", all(0.1 * loss_radius));
+    bulk_exobase(t);
     set_column(t, "exobase_density", all(1e13));
     set_column(t, "exobase_temperature", {1500.0, 8000.0, 8000.0});
     set_column(t, "semi_major_axis", all(0.3 * constants::au));

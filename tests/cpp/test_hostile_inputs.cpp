@@ -280,6 +280,7 @@ TEST_CASE("case-table loss columns at the ends of the double range: refused or a
                 values[(c - 11) * extremes.size() + e] = extremes[e];
         t.columns.emplace_back(row[c].first, std::move(values));
     }
+    t.text.push_back({"exobase_composition", std::vector<std::string>(n, "bulk")});
     BatchOptions o;
     o.t_start = 10 * constants::Myr;
     o.t_end = 4.5 * constants::Gyr;

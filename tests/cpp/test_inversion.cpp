@@ -305,6 +305,7 @@ TEST_CASE("inversion: a case-table row, every stated uncertainty drawn, each sam
                  {"rtol", {1e-10}},
                  {"x_H", {x_H}},
                  {"x_D", {x_D}}};
+    t.text.push_back({"exobase_composition", {"bulk"}});
     BatchOptions batch;
     batch.species = {"H", "D"};
     batch.times = {span};

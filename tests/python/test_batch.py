@@ -22,7 +22,8 @@ pd = pytest.importorskip("pandas")
 HEADER = (
     "case,planet_mass [M_earth],planet_mass_sigma [M_earth],planet_radius [R_earth],"
     "exobase_altitude [km],exobase_density [m-3],exobase_temperature [K],"
-    "exobase_temperature_lnsigma [1],inventory [particles],max_steps [1],x_N2,x_He,x_H"
+    "exobase_temperature_lnsigma [1],inventory [particles],max_steps [1],x_N2,x_He,x_H,"
+    "exobase_composition"
 )
 
 
@@ -32,7 +33,9 @@ def rows(n: int) -> list[str]:
     for i in range(n):
         mass = 0.6 + 0.1 * (i % 6)
         temperature = 800 + 120 * (i % 7)
-        out.append(f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,,0.7,0.25,0.05")
+        out.append(
+            f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,,0.7,0.25,0.05,bulk"
+        )
     return out
 
 
@@ -180,6 +183,7 @@ def test_summary_matches_single_evolve_runs():
             "star_mass [M_sun]": [0.8] * 4,
             "star_luminosity [L_sun]": [0.5] * 4,
             "exobase_altitude [km]": [500.0] * 4,
+            "exobase_composition": ["bulk"] * 4,
             "exobase_density [m-3]": [1e13] * 4,
             "exobase_temperature [K]": [900.0, 1300.0, nan, nan],
             "exobase_temperature_lnsigma [1]": [0.15, 0.15, nan, nan],

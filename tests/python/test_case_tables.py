@@ -25,10 +25,11 @@ pd = pytest.importorskip("pandas")
 
 HEADER = (
     "case,planet_mass [M_earth],planet_radius [R_earth],exobase_altitude [km],"
-    "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_N2,x_He"
+    "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_N2,x_He,"
+    "exobase_composition"
 )
 # Invented Earth-like planets (demo values).
-ROW = "{name},1.0,1.0,500,1e13,{temperature},1e37,0.9,0.1"
+ROW = "{name},1.0,1.0,500,1e13,{temperature},1e37,0.9,0.1,bulk"
 
 
 def write(tmp_path: Path, text: str, name: str = "cases.csv", encoding: str = "utf-8") -> Path:
@@ -61,7 +62,7 @@ def test_quoted_line_break_stays_in_its_field(tmp_path):
     path = write(
         tmp_path,
         f"{HEADER},comment\n"
-        f'"B\nsplit",1.0,1.0,500,1e13,900,1e37,0.9,0.1,"first\n# second"\n'
+        f'"B\nsplit",1.0,1.0,500,1e13,900,1e37,0.9,0.1,bulk,"first\n# second"\n'
         f"{ROW.format(name='C', temperature=1000)},\n",
     )
     table = read_case_table(path, errors="collect")
@@ -74,7 +75,7 @@ def test_quoted_line_break_stays_in_its_field(tmp_path):
 def test_quoted_line_break_runs_no_phantom_case(tmp_path):
     path = write(
         tmp_path,
-        f'{HEADER}\n"B\nsplit",1.0,1.0,500,1e13,900,1e37,0.9,0.1\n"#C",1.0,1.0,500,1e13,1000,1e37,0.9,0.1\n',
+        f'{HEADER}\n"B\nsplit",1.0,1.0,500,1e13,900,1e37,0.9,0.1,bulk\n"#C",1.0,1.0,500,1e13,1000,1e37,0.9,0.1,bulk\n',
     )
     result = compare(path, times=[c.GYR], bad_rows="report")
     assert result.cases == ["B\nsplit", "#C"]
@@ -199,6 +200,7 @@ def test_bad_value_is_shown_in_the_unit_the_table_gave(tmp_path, column, value, 
             "planet_mass [M_earth]": [1.0],
             "planet_radius [R_earth]": [1.0],
             "exobase_altitude [km]": [500.0],
+            "exobase_composition": ["bulk"],
             "exobase_density [cm-3]": [1e7],
             "exobase_temperature [K]": [900.0],
             "inventory [particles]": [1e37],
@@ -221,7 +223,7 @@ def test_quote_left_open_is_refused_not_swallowing_rows(tmp_path):
     path = write(tmp_path, f'{HEADER},comment\n{row_a},ok\n{row_a},"open\n{row_a},lost\n')
     with pytest.raises(ValueError, match=r"cases\.csv line 3: cannot read the CSV record"):
         read_case_table(path, errors="collect")
-    path = write(tmp_path, f'{HEADER}\n"A"x,1.0,1.0,500,1e13,900,1e37,0.9,0.1\n')
+    path = write(tmp_path, f'{HEADER}\n"A"x,1.0,1.0,500,1e13,900,1e37,0.9,0.1,bulk\n')
     with pytest.raises(ValueError, match=r"cases\.csv line 2: cannot read the CSV record"):
         read_case_table(path)
 

@@ -40,16 +40,17 @@ def test_demo_writes_table_file_and_chart(tmp_path, capsys):
 
 
 def test_demo_snapshot_matches_direct_calls():
-    # The printed table's numbers are the kernel's: Sefir b, helium.
-    result = snapshot(read_case_table(demo_catalogue_path()))
+    # The printed table's numbers are the kernel's: Sefir b (a prescribed exobase of its own
+    # composition), helium at its exobase fraction of the exobase density.
+    result = snapshot(exosieve.compare(demo_catalogue_path(), times=4))
     table = read_case_table(demo_catalogue_path())
     row = table.names.index("Sefir b")
-    n = table.column("exobase_density")[row] * table.column("x_He")[row]
+    n = table.column("exobase_density")[row] * table.column("exobase_x_He")[row]
     r = table.column("planet_radius")[row] + table.column("exobase_altitude")[row]
     expected = exosieve.jeans_flux(
         n, table.column("exobase_temperature")[row], "He", table.column("planet_mass")[row], r
     )
-    assert result.jeans_flux[row, result.species.index("He")] == pytest.approx(expected)
+    assert result.jeans_flux[row, result.species.index("He")] == pytest.approx(expected, rel=1e-12)
     # Absent species are NaN, not zero.
     assert np.isnan(result.jeans_flux[row, result.species.index("H2")])
 
@@ -69,7 +70,8 @@ def test_bad_case_table_names_line_and_column(tmp_path):
 SWEEP_HEADER = (
     "case,planet_mass [M_earth],planet_mass_sigma [M_earth],planet_radius [R_earth],"
     "exobase_altitude [km],exobase_density [m-3],exobase_temperature [K],"
-    "exobase_temperature_lnsigma [1],inventory [particles],x_N2,x_He,x_H"
+    "exobase_temperature_lnsigma [1],inventory [particles],x_N2,x_He,x_H,"
+    "exobase_composition"
 )
 
 
@@ -77,7 +79,9 @@ def sweep_table(tmp_path, n):
     lines = [SWEEP_HEADER]
     for i in range(n):
         mass, temperature = 0.6 + 0.1 * (i % 6), 800 + 120 * (i % 7)
-        lines.append(f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,0.7,0.25,0.05")
+        lines.append(
+            f"P{i},{mass},{0.1 * mass},1.0,500,1e13,{temperature},0.15,1e37,0.7,0.25,0.05,bulk"
+        )
     path = tmp_path / "cases.csv"
     path.write_text("\n".join(lines) + "\n")
     return path

@@ -14,9 +14,10 @@ from exosieve.cli import main
 X_H, X_D = 1 / (1 + R0), R0 / (1 + R0)
 HEADER = (
     "case,planet_mass [kg],planet_radius [m],exobase_altitude [km],exobase_density [m-3],"
-    "exobase_temperature [K],inventory [particles],age_start [Gyr],age_end [Gyr],x_H,x_D"
+    "exobase_temperature [K],inventory [particles],age_start [Gyr],age_end [Gyr],x_H,x_D,"
+    "exobase_composition"
 )
-ROW = f"{MASS!r},{RADIUS!r},400,{N_H / X_H!r},{T_EXO},1e42,0,{SPAN / c.GYR!r},{X_H!r},{X_D!r}"
+ROW = f"{MASS!r},{RADIUS!r},400,{N_H / X_H!r},{T_EXO},1e42,0,{SPAN / c.GYR!r},{X_H!r},{X_D!r},bulk"
 
 
 def table(tmp_path, names=("Invented a", "Invented b")):

@@ -243,17 +243,17 @@ def test_dask_arrays_stay_lazy_and_compute_to_the_numpy_result():
 SWEEP_HEADER = (
     "case,planet_mass [M_earth],planet_mass_sigma [M_earth],planet_radius [R_earth],"
     "exobase_altitude [km],exobase_density [m-3],exobase_temperature [K],inventory [particles],"
-    "x_N2,x_He,x_H"
+    "x_N2,x_He,x_H,exobase_composition"
 )
 
 
 def _sweep_file(tmp_path, samples=3):
     """A sweep of four invented Earth-like planets (one name used twice) and its result."""
     rows = [
-        "Vesk b,1.0,0.1,1.0,500,1e13,900,1e37,0.7,0.25,0.05",
-        "Vesk c,0.6,0.05,0.9,500,1e13,1500,1e37,0.7,0.25,0.05",
-        "Ondra,2.0,0.2,1.3,500,1e13,1200,1e37,0.7,0.25,0.05",
-        "Ondra,0.8,0.1,1.0,500,1e13,2500,1e37,0.7,0.25,0.05",
+        "Vesk b,1.0,0.1,1.0,500,1e13,900,1e37,0.7,0.25,0.05,bulk",
+        "Vesk c,0.6,0.05,0.9,500,1e13,1500,1e37,0.7,0.25,0.05,bulk",
+        "Ondra,2.0,0.2,1.3,500,1e13,1200,1e37,0.7,0.25,0.05,bulk",
+        "Ondra,0.8,0.1,1.0,500,1e13,2500,1e37,0.7,0.25,0.05,bulk",
     ]
     cases = tmp_path / "cases.csv"
     cases.write_text("\n".join([SWEEP_HEADER, *rows]) + "\n")

@@ -30,9 +30,10 @@ H = exosieve.species("H").mass
 N2 = exosieve.species("N2").mass
 HEADER = (
     "case,planet_mass [M_earth],planet_radius [R_earth],exobase_altitude [km],"
-    "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_N2,x_He,x_H"
+    "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_N2,x_He,x_H,"
+    "exobase_composition"
 )
-CASES_CSV = f"{HEADER}\nP0,1.0,1.0,500,1e13,1000,1e37,0.7,0.25,0.05\n"  # invented
+CASES_CSV = f"{HEADER}\nP0,1.0,1.0,500,1e13,1000,1e37,0.7,0.25,0.05,bulk\n"  # invented
 
 
 def _star() -> exosieve.Star:

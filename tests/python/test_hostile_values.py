@@ -335,10 +335,11 @@ def test_compare_refuses_bad_output_times_percentiles_and_progress(tmp_path, mon
 
     header = (
         "case,planet_mass [M_earth],planet_radius [R_earth],exobase_altitude [km],"
-        "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_N2,x_He,x_H"
+        "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_N2,x_He,x_H,"
+        "exobase_composition"
     )
     path = tmp_path / "cases.csv"  # an invented Earth-like case
-    path.write_text(f"{header}\nP0,1.0,1.0,500,1e13,1000,1e37,0.7,0.25,0.05\n")
+    path.write_text(f"{header}\nP0,1.0,1.0,500,1e13,1000,1e37,0.7,0.25,0.05,bulk\n")
     runs = []
     monkeypatch.setattr(batch._core, "run_batch", lambda *a, **k: runs.append(a))
     gyr = 1e9 * exosieve.constants.YEAR

@@ -255,6 +255,7 @@ def frame(rows: int = 1):
             "planet_mass_sigma [kg]": [0.03 * MASS] * rows,
             "planet_radius [m]": [RADIUS] * rows,
             "exobase_altitude [km]": [400.0] * rows,
+            "exobase_composition": ["bulk"] * rows,
             "exobase_density [m-3]": [N_H / x_h] * rows,
             "exobase_temperature [K]": [T_EXO] * rows,
             "exobase_temperature_sigma [K]": [20.0] * rows,

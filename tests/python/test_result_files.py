@@ -28,14 +28,16 @@ from exosieve.results import (
 
 HEADER = (
     "case,planet_mass [M_earth],planet_radius [R_earth],exobase_altitude [km],"
-    "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_N2,x_He,x_H"
+    "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_N2,x_He,x_H,"
+    "exobase_composition"
 )
 
 
 def table(tmp_path: Path, n: int = 6) -> Path:
     """Invented Earth-like cases."""
     lines = [
-        f"P{i},{0.6 + 0.1 * i},1.0,500,1e13,{800 + 100 * i},1e37,0.7,0.25,0.05" for i in range(n)
+        f"P{i},{0.6 + 0.1 * i},1.0,500,1e13,{800 + 100 * i},1e37,0.7,0.25,0.05,bulk"
+        for i in range(n)
     ]
     path = tmp_path / "cases.csv"
     path.write_text("\n".join([HEADER, *lines]) + "\n")

@@ -127,6 +127,7 @@ def _closed_form_table(temperature_sigma: float | None = None) -> pd.DataFrame:
         "planet_mass [M_earth]": [1.0],
         "planet_radius [R_earth]": [1.0],
         "exobase_altitude [km]": [500.0],
+        "exobase_composition": ["bulk"],
         "exobase_density [m-3]": [1e13],
         "exobase_density_lnsigma": [0.3],
         "exobase_temperature [K]": [875.0],

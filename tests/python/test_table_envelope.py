@@ -44,6 +44,7 @@ def frame() -> pd.DataFrame:
         "star_mass [M_sun]": [STAR_MASS / c.M_SUN] * n,
         "star_luminosity [L_sun]": [STAR_LUMINOSITY / c.L_SUN] * n,
         "exobase_altitude [km]": [1000.0] * n,
+        "exobase_composition": ["bulk"] * n,
         "exobase_density [m-3]": [1e13] * n,
         "temperature_reference [K]": [1000.0] * n,
         "temperature_reference_flux [W m-2]": [4.6e-3] * n,

@@ -149,6 +149,7 @@ def test_prescribed_rows_refuse_thermosphere_options() -> None:
             "planet_mass [M_earth]": [1.0],
             "planet_radius [R_earth]": [1.0],
             "exobase_altitude [km]": [500.0],
+            "exobase_composition": ["bulk"],
             "exobase_density [m-3]": [1e13],
             "exobase_temperature [K]": [900.0],
             "inventory [particles]": [1e37],
@@ -182,6 +183,7 @@ def test_bulk_gas_hydrodynamic_without_heating_efficiency_is_flagged() -> None:
             "planet_mass [M_earth]": [1.0] * 3,
             "planet_radius [R_earth]": [1.0] * 3,
             "exobase_altitude [R_earth]": [0.5] * 3,
+            "exobase_composition": ["bulk"] * 3,
             "exobase_density [m-3]": [1e12] * 3,
             "exobase_temperature [K]": [hot, hot, 800.0],
             "heating_efficiency [1]": [NAN, 0.15, NAN],
@@ -229,8 +231,8 @@ def test_cli_names_hydrodynamic_cases_in_words(
     path = tmp_path / "hot.csv"  # type: ignore[operator]
     path.write_text(
         "case,planet_mass [M_earth],planet_radius [R_earth],exobase_altitude [R_earth],"
-        "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_H\n"
-        f"hot,1,1,0.5,1e12,{hot!r},1e40,1\ncool,1,1,0.5,1e12,800,1e40,1\n"
+        "exobase_density [m-3],exobase_temperature [K],inventory [particles],x_H,exobase_x_H\n"
+        f"hot,1,1,0.5,1e12,{hot!r},1e40,1,1\ncool,1,1,0.5,1e12,800,1e40,1,1\n"
     )
     out = tmp_path / "hot.h5"  # type: ignore[operator]
     assert main(["sweep", str(path), "-o", str(out), "--quiet", "--times", "3"]) == 0

@@ -157,6 +157,7 @@ def frame(rows: list[dict[str, Any]] = ROWS) -> Any:
         "planet_mass [M_earth]": [5.0] * n,
         "planet_radius [R_earth]": [2.5] * n,
         "exobase_altitude [R_earth]": [0.25] * n,
+        "exobase_composition": ["bulk"] * n,
         "exobase_density [m-3]": [1e13] * n,
         "exobase_temperature [K]": [8000.0] * n,
         "semi_major_axis [au]": [0.3] * n,

@@ -87,11 +87,18 @@ struct CaseSpec {
     DensityScaling scaling = DensityScaling::Inventory; //!< how exobase densities follow N_i
     //! Binary diffusion parameters of a thermosphere (text column "diffusion_source").
     DiffusionMethod diffusion = DiffusionMethod::measured_first;
-    bool diffusion_given = false;           //!< the row names a diffusion source
+    bool diffusion_given = false; //!< the row names a diffusion source
+    //! A prescribed exobase takes the bulk fractions x_i as its composition (text column
+    //! "exobase_composition" 'bulk'), instead of exobase_x_<species>.
+    bool exobase_composition_bulk = false;
+    std::string escaping_species; //!< energy-limited: the light escaping species ("": lightest)
+    //! Energy-limited: when it replaces Jeans escape (text column "energy_limited_activation").
+    HydrodynamicActivation activation = HydrodynamicActivation::Hydrodynamic;
+    bool activation_given = false;          //!< the row names an activation
     std::vector<Uncertainty> uncertainties; //!< uncertain parameters, in a fixed order
     std::string error; //!< non-empty: the case is invalid and is reported, not run
 
-    //! Mole fraction at the exobase [1] of species `i` of `species`.
+    //! Bulk (well-mixed) mole fraction [1] of species `i` of `species`.
     double mole_fraction(std::size_t i) const;
     //! Initial inventory [particles] of species `i` of `species`; NaN when not given.
     double inventory(std::size_t i) const;
@@ -134,12 +141,25 @@ struct BatchOptions {
 const std::vector<CaseParameter>& case_parameters();
 
 //! Per-species parameters, in slot order: a column "<prefix><species>" for a species of the
-//! table, the name here being "<prefix><species>": "x_<species>" (bulk mole fraction, also the
-//! exobase fraction of a prescribed exobase [1]), "inventory_<species>" (initial inventory
-//! [particles]), "given_loss_<species>" (a loss given beyond thermal escape [s^-1]: constant, or
-//! L_ref of an XUV power law) and "given_loss_exponent_<species>" (that law's exponent p [1]).
+//! table, the name here being "<prefix><species>": "x_<species>" (bulk, well-mixed mole fraction
+//! [1]: the shares of a total inventory and the homopause composition of a thermosphere),
+//! "inventory_<species>" (initial inventory [particles]), "given_loss_<species>" (a loss given
+//! beyond thermal escape [s^-1]: constant, or L_ref of an XUV power law),
+//! "given_loss_exponent_<species>" (that law's exponent p [1]), "exobase_x_<species>" (mole
+//! fraction at a prescribed exobase [1], never an inventory share),
+//! "drag_diffusion_<species>" and "drag_diffusion_exponent_<species>" (A [m^-1 s^-1] and s [1]
+//! of the binary diffusion law b = A (T / 1 K)^s of a species dragged by energy-limited escape).
 //! Every one but "x_" needs the species' "x_" column.
 const std::vector<CaseParameter>& species_parameters();
+
+//! A text column of a case table: its name and what it holds.
+struct CaseTextColumn {
+    std::string name;    //!< e.g. "density_scaling"
+    std::string meaning; //!< one line of documentation, with the values it takes
+};
+
+//! The text columns a case table may carry, "case" first.
+const std::vector<CaseTextColumn>& case_text_columns();
 
 //! Index in species_parameters() of the per-species column `column` (the longest prefix that
 //! matches, so "given_loss_exponent_H" is an exponent), its species going to `species`;
@@ -158,10 +178,9 @@ struct CaseParameterGroup {
 //! The groups of the parameters, in documentation order.
 const std::vector<CaseParameterGroup>& case_parameter_groups();
 
-//! Largest |sum - 1| of a case's mole fractions "x_<species>" [1]. A row whose fractions sum
-//! further from one is refused (InputError naming the row and the sum; with skip_invalid the
-//! row is reported instead): the exobase densities n_i = x_i n and the shares of a total
-//! inventory would otherwise describe different mixtures.
+//! Largest |sum - 1| of a case's mole fractions "x_<species>" (and of its exobase fractions
+//! "exobase_x_<species>", when given) [1]. A row whose fractions sum further from one is refused
+//! (InputError naming the row and the sum; with skip_invalid the row is reported instead).
 constexpr double mole_fraction_sum_tolerance = 1e-3;
 
 //! The allowed range of parameter `name` (also a per-species one, e.g. "x_He"); nullptr when
@@ -247,7 +266,7 @@ struct BatchChunk {
     std::vector<double> t_start;             //!< start age [s] [case]
     std::vector<double> t_end;               //!< end age [s] [case]
     std::vector<double> temperature_start;   //!< exobase temperature at t_start [K] [case]
-    std::vector<double> mole_fraction;       //!< x_i at the exobase [1], 0: absent [case x species]
+    std::vector<double> mole_fraction;       //!< bulk x_i [1], 0: absent [case x species]
     std::vector<double> exobase_temperature; //!< [K] [case x time]
     std::vector<double> retained;            //!< N_i(t) / N_i(t_start) [1] [case x time x species]
     std::vector<double> jeans_parameter;     //!< lambda_i(t) [1] [case x time x species]
