@@ -1,7 +1,7 @@
 """Results of :func:`exosieve.evolve`: time series per species, diagnostics, and their files.
 
 Files are HDF5, written by the C++ core (temporary name, then renamed over the target), with
-dimensions ``time``, ``species`` and ``ratio``, CF-style ``units`` and ``long_name`` on every
+dimensions ``time``, ``species``, ``ratio`` and ``escape_regime``, CF-style ``units`` and ``long_name`` on every
 variable and the model configuration as JSON in the global attribute ``config``. They open
 with :func:`open_result`, with h5py, and with ``xarray.open_dataset(path, engine="h5netcdf")``.
 """
@@ -61,6 +61,37 @@ VARIABLES: dict[str, tuple[str, str]] = {
     "core_mass": ("kg", "core mass"),
     "stripping_time": ("s", "stellar age when the envelope is gone (NaN: not stripped)"),
 }
+#: Where the time and the loss went, per species (and ``escape_regime``, the regime names of
+#: :data:`exosieve.REGIMES`): name -> (dimensions, units, long_name).
+LOSS_VARIABLES: dict[str, tuple[tuple[str, ...], str, str]] = {
+    "regime_time": (
+        ("species", "escape_regime"),
+        "s",
+        "time spent in each regime of the species' own Jeans parameter",
+    ),
+    "regime_loss": (
+        ("species", "escape_regime"),
+        "1",
+        "particles lost at the Jeans rate in each regime (energy-limited loss off)",
+    ),
+    "energy_limited_loss": (
+        ("species",),
+        "1",
+        "particles lost while energy-limited loss acted",
+    ),
+    "given_loss": (("species",), "1", "particles lost to the given losses"),
+    "non_jeans_loss_share": (
+        ("species",),
+        "1",
+        "share of the loss taken outside the Jeans picture",
+    ),
+    "bulk_regime_time": (
+        ("escape_regime",),
+        "s",
+        "time the bulk gas (densest species at the exobase) spent in each regime",
+    ),
+}
+VARIABLES.update({name: (units, long) for name, (_, units, long) in LOSS_VARIABLES.items()})
 #: CF flags of ``regime``: its codes (int64, the variable's type) and one word per code.
 REGIME_FLAGS: dict[str, Any] = {
     "flag_values": np.arange(len(REGIMES), dtype=np.int64),
@@ -124,6 +155,25 @@ class EvolutionResult:
         Time [s] each species fell below the depletion fraction; None where it did not.
     regime_changes : list of (float, str, str)
         Located regime changes: (time [s], from, to).
+    regime_time : ndarray
+        Time [s] each species (rows, in ``species`` order) spent in each regime (columns, in
+        :data:`exosieve.REGIMES` order) of its own Jeans parameter at the exobase
+        (hydrodynamic where the exobase model finds no exobase); changes located on the
+        integrator's dense output.
+    regime_loss : ndarray
+        Particles [1] each species lost at the Jeans rate while in each regime, energy-limited
+        loss off (species x regime, as ``regime_time``).
+    energy_limited_loss, given_loss : ndarray
+        Particles [1] each species lost while energy-limited loss acted, and to the given
+        losses. With ``regime_loss`` they make up the whole loss, ``N(t_start) - N(t_end)``
+        plus the sources (the parts sum to it to rounding).
+    non_jeans_loss_share : dict of str to float
+        Share [1] of each species' loss taken outside the Jeans picture: all but the Jeans-rate
+        loss in the Jeans regime (``1 - regime_loss[:, 0] / total``); 0 where nothing was lost.
+        :meth:`loss_shares` gives every part.
+    bulk_regime_time : ndarray
+        Time [s] the bulk gas (the densest species at the exobase, as ``regime``) spent in each
+        regime.
     envelope_mass, planet_radius, envelope_loss_rate : ndarray or None
         With an envelope (``evolve(..., envelope=...)``): envelope mass [kg], planet radius
         (core plus envelope) [m] and envelope mass-loss rate [kg s^-1] over time; None
@@ -168,6 +218,16 @@ class EvolutionResult:
         ]
         self.initial_inventory = np.asarray(data["initial_inventory"], dtype=np.float64)
         self.species_mass = np.asarray(data["species_mass"], dtype=np.float64)
+        n, nr = len(self.species), len(REGIMES)
+        shapes = {"species": n, "escape_regime": nr}
+        for name, (dims, _, _) in LOSS_VARIABLES.items():
+            shape = tuple(shapes[d] for d in dims)
+            value = data.get(name)  # absent from files written before these were kept
+            array = np.full(shape, np.nan) if value is None else np.asarray(value, np.float64)
+            setattr(self, "_" + name if name == "non_jeans_loss_share" else name, array)
+        self.non_jeans_loss_share: dict[str, float] = {
+            s: float(v) for s, v in zip(self.species, self._non_jeans_loss_share, strict=True)
+        }
         self.steps = int(data["steps"])
         self.rejected_steps = int(data["rejected_steps"])
         self.rhs_evaluations = int(data["rhs_evaluations"])
@@ -184,6 +244,12 @@ class EvolutionResult:
         stripped = float(data["stripping_time"]) if with_envelope else math.nan
         self.stripping_time: float | None = None if math.isnan(stripped) else stripped
 
+    regime_time: NDArray[np.float64]
+    regime_loss: NDArray[np.float64]
+    energy_limited_loss: NDArray[np.float64]
+    given_loss: NDArray[np.float64]
+    bulk_regime_time: NDArray[np.float64]
+    _non_jeans_loss_share: NDArray[np.float64]
     inventory: PerName
     escape_rate: PerName
     source_rate: PerName
@@ -221,6 +287,7 @@ class EvolutionResult:
                 ],
                 "initial_inventory": initial,
                 "species_mass": masses,
+                **{name: getattr(raw, name) for name in LOSS_VARIABLES},
                 "steps": raw.steps,
                 "rejected_steps": raw.rejected_steps,
                 "rhs_evaluations": raw.rhs_evaluations,
@@ -248,6 +315,31 @@ class EvolutionResult:
         if self._config is None:
             self._config = json.loads(self.config_json)
         return self._config
+
+    def loss_shares(self) -> dict[str, dict[str, float]]:
+        """Share [1] of each species' loss by where it went.
+
+        Keys per species: the regimes of :data:`exosieve.REGIMES` (loss at the Jeans rate in
+        that regime), ``"energy_limited"`` and ``"given"``; they sum to 1 (all 0 where nothing
+        was lost).
+
+        Examples
+        --------
+        >>> import exosieve
+        >>> from exosieve import constants as c
+        >>> planet = exosieve.Planet(c.M_EARTH, c.R_EARTH)
+        >>> exo = exosieve.PrescribedExobase(c.R_EARTH + 500e3, 1500.0, {"H": 1e11})
+        >>> run = exosieve.evolve(planet, exo, {"H": 1e40}, (0.0, c.GYR))
+        >>> run.loss_shares()["H"]["enhanced_jeans"], run.non_jeans_loss_share["H"]
+        (1.0, 1.0)
+        """
+        shares: dict[str, dict[str, float]] = {}
+        for i, s in enumerate(self.species):
+            parts = [*self.regime_loss[i], self.energy_limited_loss[i], self.given_loss[i]]
+            total = float(np.sum(parts))
+            names = [*REGIMES, "energy_limited", "given"]
+            shares[s] = {k: float(v / total) if total > 0 else 0.0 for k, v in zip(names, parts)}
+        return shares
 
     @property
     def regime_names(self) -> list[str]:
@@ -296,6 +388,8 @@ class EvolutionResult:
             ),
             "initial_inventory": self.initial_inventory,
             "species_mass": self.species_mass,
+            **{n: getattr(self, n) for n in LOSS_VARIABLES if n != "non_jeans_loss_share"},
+            "non_jeans_loss_share": self._non_jeans_loss_share,
             "steps": self.steps,
             "rejected_steps": self.rejected_steps,
             "rhs_evaluations": self.rhs_evaluations,
@@ -356,6 +450,13 @@ class EvolutionResult:
         f = self._fields()
         for name in ("depletion_time", "initial_inventory", "species_mass"):
             data[name] = (("species",), f[name], _attrs(name))
+        coords["escape_regime"] = (
+            "escape_regime",
+            np.array(REGIMES, dtype=object),
+            {"units": "1", "long_name": "escape regime by the Jeans parameter"},
+        )
+        for name, (dims, _, _) in LOSS_VARIABLES.items():
+            data[name] = (dims, f[name], _attrs(name))
         for name in ("steps", "rejected_steps", "rhs_evaluations", "completed"):
             data[name] = ((), np.int64(f[name]), _attrs(name))
         data["t_reached"] = ((), np.float64(self.t_reached), _attrs("t_reached"))
@@ -467,6 +568,9 @@ def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
             if name == "given_loss_rate" and name not in f:
                 data[name] = np.zeros(f["inventory"].shape)  # files from before given losses
             else:
+                data[name] = f[name][()]
+        for name in LOSS_VARIABLES:
+            if name in f:  # kept since files carry them
                 data[name] = f[name][()]
         if "core_mass" in f:  # a run with an envelope
             for name in [*ENVELOPE_VARIABLES, "core_mass", "stripping_time"]:
