@@ -140,8 +140,9 @@ _VARIABLES: list[tuple[str, type, list[str], str, str]] = [
         int,
         [],
         "1",
-        "1: the bulk gas starts at or below the hydrodynamic threshold and the case has no "
-        "heating efficiency, so its Jeans results do not describe its loss (0: no; -1: not run)",
+        "1: the case has no heating efficiency and its bulk gas is hydrodynamic at some time "
+        "(the well-mixed gas at the start, or the densest species at the exobase at any time), "
+        "so its Jeans results do not describe its loss (0: no; -1: not run)",
     ),
     (
         "stripping_time",
@@ -156,6 +157,43 @@ _VARIABLES: list[tuple[str, type, list[str], str, str]] = [
         [],
         "m",
         "planet radius at the end (with an envelope: the core and what is left of it)",
+    ),
+    # Where the time and the loss went (EvolutionResult.regime_time, loss_shares()).
+    *[
+        (
+            f"regime_time_{regime}",
+            float,
+            ["species"],
+            "s",
+            f"time spent in the {regime} regime of the species' own Jeans parameter",
+        )
+        for regime in REGIMES
+    ],
+    *[
+        (
+            f"loss_share_{regime}",
+            float,
+            ["species"],
+            "1",
+            f"share of the loss taken at the Jeans rate in the {regime} regime",
+        )
+        for regime in REGIMES
+    ],
+    (
+        "loss_share_energy_limited",
+        float,
+        ["species"],
+        "1",
+        "share of the loss taken while energy-limited loss acted",
+    ),
+    ("loss_share_given", float, ["species"], "1", "share of the loss taken by the given losses"),
+    (
+        "non_jeans_loss_share",
+        float,
+        ["species"],
+        "1",
+        "share of the loss taken outside the Jeans picture (all but loss_share_jeans; "
+        "0: nothing lost)",
     ),
 ]
 _SAMPLE_VARIABLES: list[tuple[str, type, list[str], str, str]] = [
@@ -223,6 +261,7 @@ _UNITS = {
     "jeans_parameter_start": "1",
     "jeans_parameter_end": "1",
     "probability_retained": "1",
+    "non_jeans_loss_share": "1",
 }
 
 
@@ -418,9 +457,11 @@ class Comparison:
             (N/Q at the start, Q the thermal rate), ``escape_rate_start`` (Q) and
             ``given_loss_rate_start`` (the given loss, 0: none) [s-1] at the start,
             ``jeans_parameter_start`` and ``jeans_parameter_end`` [1],
-            ``regime_start`` (name), ``hydrodynamic_unmodelled`` (bool: the case's bulk gas
-            starts at or below the hydrodynamic threshold and it has no heating efficiency, so
-            its Jeans-based retained fractions do not describe its loss), ``error``; with
+            ``regime_start`` (name), ``hydrodynamic_unmodelled`` (bool: the case has no heating
+            efficiency and its bulk gas is hydrodynamic at some time, at the start or later in
+            the run, so its Jeans-based retained fractions do not describe its loss),
+            ``non_jeans_loss_share`` [1] (share of the species' loss taken outside the Jeans
+            picture), ``error``; with
             samples also ``probability_retained``
             (share of successful samples with more than ``retain`` left) [1],
             ``retained_fraction_p<q>`` [1] and ``samples_ok``. ``frame.attrs["units"]`` gives
@@ -469,6 +510,7 @@ class Comparison:
             "jeans_parameter_end": pick("jeans_parameter_end"),
             "regime_start": names[np.where(valid, regime, -1) + 1],
             "hydrodynamic_unmodelled": self["hydrodynamic_unmodelled"][ci] == 1,
+            "non_jeans_loss_share": pick("non_jeans_loss_share"),
             "error": np.asarray(self["error"], dtype=object)[ci],
         }
         units = dict(_UNITS)
@@ -606,6 +648,9 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
 # Variables that sweep files of this layout written before them lack, and what such a file
 # stands for where a species ran: no given losses, and the thermal rate not recorded.
 _ADDED_LATER: dict[str, float] = {"given_loss_rate_start": 0.0, "escape_rate_start": math.nan}
+# Nor were the regime times and loss shares recorded.
+_ADDED_LATER.update({name: math.nan for name, *_ in _VARIABLES if "regime_time_" in name})
+_ADDED_LATER.update({name: math.nan for name, *_ in _VARIABLES if "loss_share" in name})
 
 
 def _require_layout(path: Path) -> None:
@@ -709,6 +754,9 @@ _RANGES: dict[str, tuple[float, float]] = {
     "hydrodynamic_unmodelled": (-1, 1),
     "stripping_time": (0, math.inf),
     "planet_radius_end": (0, math.inf),
+    **{f"regime_time_{regime}": (0, math.inf) for regime in REGIMES},
+    **{f"loss_share_{part}": (0, 1) for part in (*REGIMES, "energy_limited", "given")},
+    "non_jeans_loss_share": (0, 1),
     "sample_retained_fraction": (0, 1.001),
     "sample_depletion_time": (0, math.inf),
     "sample_failed": (0, 1),

@@ -336,7 +336,7 @@ class EvolutionResult:
         shares: dict[str, dict[str, float]] = {}
         for i, s in enumerate(self.species):
             parts = [*self.regime_loss[i], self.energy_limited_loss[i], self.given_loss[i]]
-            total = float(np.sum(parts))
+            total = sum(float(p) for p in parts)  # in the order the sweep adds them
             names = [*REGIMES, "energy_limited", "given"]
             shares[s] = {k: float(v / total) if total > 0 else 0.0 for k, v in zip(names, parts)}
         return shares
