@@ -1,9 +1,10 @@
 """Results of :func:`exosieve.evolve`: time series per species, diagnostics, and their files.
 
 Files are HDF5, written by the C++ core (temporary name, then renamed over the target), with
-dimensions ``time``, ``species``, ``ratio`` and ``escape_regime``, CF-style ``units`` and ``long_name`` on every
-variable and the model configuration as JSON in the global attribute ``config``. They open
-with :func:`open_result`, with h5py, and with ``xarray.open_dataset(path, engine="h5netcdf")``.
+dimensions ``time``, ``species``, ``ratio`` and ``escape_regime``, CF-style ``units`` and
+``long_name`` on every variable and the model configuration as JSON in the global attribute
+``config``. They open with :func:`open_result`, with h5py, and with
+``xarray.open_dataset(path, engine="h5netcdf")``.
 """
 
 from __future__ import annotations
@@ -338,7 +339,9 @@ class EvolutionResult:
             parts = [*self.regime_loss[i], self.energy_limited_loss[i], self.given_loss[i]]
             total = sum(float(p) for p in parts)  # in the order the sweep adds them
             names = [*REGIMES, "energy_limited", "given"]
-            shares[s] = {k: float(v / total) if total > 0 else 0.0 for k, v in zip(names, parts)}
+            shares[s] = {
+                k: float(v / total) if total > 0 else 0.0 for k, v in zip(names, parts, strict=True)
+            }
         return shares
 
     @property

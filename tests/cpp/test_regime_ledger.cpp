@@ -114,8 +114,7 @@ TEST_CASE("the loss in each regime is the exact quadrature of the rate up to the
     CHECK(std::abs(r.regime_loss[1] - N0 * (std::exp(-I6) - std::exp(-I1))) < 10 * c.rtol * N0);
     const double fall = N0 - r.inventory[1];
     CHECK(total_loss(r, 0) == doctest::Approx(fall).epsilon(1e-12));
-    CHECK(r.non_jeans_loss_share[0] ==
-          doctest::Approx(r.regime_loss[1] / fall).epsilon(1e-12));
+    CHECK(r.non_jeans_loss_share[0] == doctest::Approx(r.regime_loss[1] / fall).epsilon(1e-12));
 }
 
 TEST_CASE("a case wholly in the Jeans regime takes none of its loss outside the Jeans picture") {
@@ -198,9 +197,9 @@ TEST_CASE("an XUV temperature history: the age H leaves the enhanced regime, in 
     EvolutionConfig c(planet);
     c.species = {species("H"), species("O")};
     c.initial_inventory = {1e48, 1e46};
-    c.exobase = std::make_shared<PrescribedExobase>(
-        r_exo, std::vector<std::string>{"H", "O"}, std::vector<double>{1e12, 1e10},
-        DensityScaling::Inventory);
+    c.exobase = std::make_shared<PrescribedExobase>(r_exo, std::vector<std::string>{"H", "O"},
+                                                    std::vector<double>{1e12, 1e10},
+                                                    DensityScaling::Inventory);
     c.temperature = ExobaseTemperature::xuv_power_law(T_ref, f_ref, gamma, 50.0, 5000.0);
     c.t_start = t_sat;
     c.t_end = 10 * Gyr;
