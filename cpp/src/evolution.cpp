@@ -229,12 +229,15 @@ class Model {
                                                      : classify_regime(lambda_[i], c_.thresholds));
     }
 
-    // How far species i's Jeans parameter at (t, y) lies above `threshold` [1]; -1 without an
-    // exobase (the outflow is below every threshold).
-    double lambda_above(double t, const State& y, std::size_t i, double threshold) {
+    // G M / (k T r) at (t, y) [kg^-1], the Jeans parameter per unit particle mass, shared by
+    // every species (lambda_i = m_i times it, as evaluated); 0 without an exobase (the outflow
+    // lies below every threshold).
+    double jeans_scale(double t, const State& y) {
         evaluate(t, y, mode_);
-        return state_.outflow ? -1.0 : lambda_[i] - threshold;
+        return jeans_scale_;
     }
+    double jeans_scale() const { return jeans_scale_; } //!< of the last evaluation
+    double mass(std::size_t i) const { return mass_[i]; }
 
     // The given loss of species i over [a, b] [particles]. Between the run's stops a tabulated
     // loss is linear (the trapezoid is exact) and the power law in the XUV flux is a power of
@@ -438,6 +441,7 @@ class Model {
                                 : 0.5 * std::log(2.0 * kT);
         }
         const double half_log_2kT = half_log_2kT_;
+        jeans_scale_ = state_.outflow ? 0.0 : gm_over_ktr;
         std::size_t densest = 0;
         for (std::size_t i = 0; i < n_; ++i) {
             const double lambda = gm_over_ktr * mass_[i];
@@ -471,6 +475,7 @@ class Model {
         cached_ = true;
     }
 
+    double jeans_scale_ = 0.0; // G M / (k T r) [kg^-1]: lambda_i = m_i times it; 0: outflow
     double area_radius_ = 0.0, log_area_ = 0.0;   // ln(4 pi r^2) at radius area_radius_
     double log_kT_at_ = 0.0, half_log_2kT_ = 0.0; // ln(2 kT) / 2 at kT = log_kT_at_
     bool cached_ = false;
@@ -855,6 +860,54 @@ template <class Level> double locate_crossing(double lo, double hi, Level level)
                ? bracket.second
                : locate(bracket.second, hi, [&](double t) { return level(t) < 0.0; });
 }
+
+// The scale G M / (k T r) of the Jeans parameters at times within a step (every evaluation
+// made while locating regime changes), so that the changes of several species, which are
+// crossings of the same smooth function at different levels, share their evaluations: each
+// search starts from the tightest bracket known.
+class ScaleProbes {
+  public:
+    void reset(double t0, double u0, double t1, double u1) { points_.assign({{t0, u0}, {t1, u1}}); }
+    void add(double t, double u) {
+        auto at = std::lower_bound(points_.begin(), points_.end(), std::make_pair(t, -inf));
+        if (at == points_.end() || at->first != t)
+            points_.insert(at, {t, u});
+    }
+    // The first time in [from, end of step] where m u(t) - threshold changes sign from >= 0
+    // (`down`) or from <= 0 (up), by TOMS 748 from the tightest known bracket; `scale(t)`
+    // evaluates u (and is recorded).
+    template <class Scale>
+    double locate(double from, double m, double threshold, bool down, Scale scale) {
+        auto level = [&](double u) { return down ? m * u - threshold : threshold - m * u; };
+        std::size_t lo = 0;
+        while (lo + 1 < points_.size() && points_[lo + 1].first <= from)
+            ++lo;
+        if (lo + 1 >= points_.size()) // from the step's end: nothing left to search
+            return points_.back().first;
+        std::size_t hi = lo + 1;
+        while (hi + 1 < points_.size() && level(points_[hi].second) >= 0.0)
+            ++hi;
+        double a = std::max(from, points_[hi - 1].first), b = points_[hi].first;
+        double fa = level(a == points_[hi - 1].first ? points_[hi - 1].second : scale(a));
+        const double fb = level(points_[hi].second);
+        if (!(fa >= 0.0) || !(fb < 0.0)) // not bracketed (a change that returns): the end
+            return b;
+        if (fa == 0.0)
+            return a;
+        std::uintmax_t iterations = 100;
+        auto f = [&](double t) {
+            const double u = scale(t);
+            add(t, u);
+            return level(u);
+        };
+        const auto bracket = boost::math::tools::toms748_solve(
+            f, a, b, fa, fb, boost::math::tools::eps_tolerance<double>(50), iterations);
+        return bracket.second;
+    }
+
+  private:
+    std::vector<std::pair<double, double>> points_;
+};
 
 // Where each species' time and loss went: the time in each regime, and its loss split into the
 // Jeans formula's in each regime, energy-limited loss and given loss. Losses are kept as
@@ -1423,6 +1476,8 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     model.set_mode(mode);
     RegimeLedger ledger(n, model.y0());
     model.species_regimes(t, y, ledger.regime());
+    double scale_start = model.jeans_scale(); // G M / (k T r) at the step's start
+    ScaleProbes probes;
     std::vector<int> regimes_end(n, 0);
     State y_ledger = State::Zero(n_state);
     model.rhs(y, dydt, t);
@@ -1737,18 +1792,23 @@ EvolutionResult evolve(const EvolutionConfig& c) {
             y_end = &y_ledger;
         }
         model.species_regimes(t_cut, *y_end, regimes_end);
+        const double scale_end = model.jeans_scale();
+        bool probed = false;
         for (std::size_t i = 0; i < n; ++i) {
             int from = ledger.regime()[i];
             const int to = regimes_end[i];
             double a = t, ya = y[i];
             for (int change = 0; from != to && change < 4; ++change) {
+                if (!probed) {
+                    probes.reset(t, scale_start, t_cut, scale_end);
+                    probed = true;
+                }
                 const bool down = to > from; // toward smaller Jeans parameters
                 const double threshold =
                     down ? regime_lower(from, c.thresholds) : regime_upper(from, c.thresholds);
-                const double tc = locate_crossing(a, t_cut, [&](double tq) {
+                const double tc = probes.locate(a, model.mass(i), threshold, down, [&](double tq) {
                     dense(tq, y_probe);
-                    const double above = model.lambda_above(tq, y_probe, i, threshold);
-                    return down ? above : -above;
+                    return model.jeans_scale(tq, y_probe);
                 });
                 dense(tc, y_probe);
                 ledger.add(i, from, mode.energy_limited, a, tc, ya, y_probe[i],
@@ -1761,6 +1821,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
                        model.source_integral(i, a, t_cut), model.given_integral(i, a, t_cut));
             ledger.regime()[i] = to;
         }
+        scale_start = scale_end;
         // Output inside (t, t_cut].
         while (next_eval < c.t_eval.size() && c.t_eval[next_eval] <= t_cut) {
             const double te = c.t_eval[next_eval];
