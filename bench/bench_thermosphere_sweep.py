@@ -18,7 +18,8 @@ output at 7 log-spaced ages.
 
 exosieve: compare() on a DataFrame of thermosphere rows (the case-table columns), one thread,
 the exobase found by the core at every right-hand-side evaluation. The peer: scipy's solve_ivp
-over time in ln N (atol = rtol: an absolute error in ln N is a relative error in N), restarted at
+over time in u = ln(N/N0) (atol = rtol: an absolute error in u is a relative error in N; in ln N
+itself, rtol |ln N| ~ 100 rtol would dominate the error test), restarted at
 the kinks of T(t) (end of saturation, clamp crossings, computed in closed form); at every
 right-hand-side call the thermosphere of bench_thermosphere.peer_case (solve_ivp DOP853 for the
 density profiles at 1e-3 of the outer rtol, floored at 1e-12, capped at 1e-8; the exobase
@@ -189,7 +190,7 @@ def peer_run(case: Case, rtol: float, method: str, props: Any, fits: Any) -> tup
         calls += 1
         # ln x_i; a trace below 1e-30 is solved at 1e-30 and its flux scaled back (a trace's
         # density and coupled flux are linear in its share, and it does not move the exobase).
-        lx = np.log(case.x) + (y - y0)
+        lx = np.log(case.x) + y
         top = lx.max()
         lx -= top + np.log(np.exp(lx - top).sum())
         used = np.maximum(lx, math.log(1e-30))
@@ -205,10 +206,10 @@ def peer_run(case: Case, rtol: float, method: str, props: Any, fits: Any) -> tup
             raise RuntimeError(f"peer: no exobase at t = {t:.4g} s")
         with np.errstate(divide="ignore"):
             log_rate = np.log(4 * math.pi * r_e**2 * flux) + (lx - used)
-        return -np.exp(log_rate - y)
+        return -np.exp(log_rate - (y0 + y))
 
     edges = [T_START, *kinks(case), T_END]
-    y = y0.copy()
+    y = np.zeros(len(SPECIES))  # u = ln(N/N0): an absolute error in u is a relative one in N
     out = np.empty((len(AGES), len(SPECIES)))
     for a, b in zip(edges[:-1], edges[1:], strict=True):
         inside = (AGES > a) & (AGES <= b)
@@ -217,7 +218,7 @@ def peer_run(case: Case, rtol: float, method: str, props: Any, fits: Any) -> tup
         sol = integrate.solve_ivp(rhs, (a, b), y, method=method, rtol=rtol, atol=rtol, t_eval=grid)
         if sol.status != 0:
             raise RuntimeError(f"peer: {sol.message}")
-        out[inside] = np.exp(sol.y[:, : ages.size].T - y0)
+        out[inside] = np.exp(sol.y[:, : ages.size].T)
         y = sol.y[:, -1]
     return out, calls
 
