@@ -62,7 +62,9 @@ def peer_diffusion_parameter(a, b, temperature, fits):
     return 3.0 / (16.0 * sigma**2 * omega) * np.sqrt(2.0 * K_B * temperature / (np.pi * mu))
 
 
-def peer_case(n_h, x, t_inf, props, fits):
+def peer_case(n_h, x, t_inf, props, fits, rtol=1e-10):
+    """Exobase radius [m] and escape fluxes [m^-2 s^-1] of one thermosphere; the density
+    profiles integrated with solve_ivp at relative and absolute tolerance `rtol` on ln n."""
     mass, sigma, alpha, objs = props
     M, r_h = M_EARTH, R_H
 
@@ -83,8 +85,8 @@ def peer_case(n_h, x, t_inf, props, fits):
         (r_h, top),
         np.log(np.where(present, x, 1.0) * n_h),
         method="DOP853",
-        rtol=1e-10,
-        atol=1e-10,
+        rtol=rtol,
+        atol=rtol,
         dense_output=True,
     )
 

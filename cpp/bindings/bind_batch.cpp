@@ -8,8 +8,8 @@
 #include <string>
 #include <vector>
 
-#include "exosieve/sweep_file.hpp"
 #include "exosieve/errors.hpp"
+#include "exosieve/sweep_file.hpp"
 
 namespace exosieve::bindings {
 

@@ -542,6 +542,22 @@ void bind_evolution(py::module_& m) {
                                [](const EvolutionResult& r) { return vector(r.initial_inventory); })
         .def_property_readonly("species_mass",
                                [](const EvolutionResult& r) { return vector(r.species_mass); })
+        .def_property_readonly(
+            "regime_time",
+            [](const EvolutionResult& r) { return matrix(r.regime_time, r.species_count(), 4); })
+        .def_property_readonly(
+            "regime_loss",
+            [](const EvolutionResult& r) { return matrix(r.regime_loss, r.species_count(), 4); })
+        .def_property_readonly(
+            "energy_limited_loss",
+            [](const EvolutionResult& r) { return vector(r.energy_limited_loss); })
+        .def_property_readonly("given_loss",
+                               [](const EvolutionResult& r) { return vector(r.given_loss); })
+        .def_property_readonly(
+            "non_jeans_loss_share",
+            [](const EvolutionResult& r) { return vector(r.non_jeans_loss_share); })
+        .def_property_readonly("bulk_regime_time",
+                               [](const EvolutionResult& r) { return vector(r.bulk_regime_time); })
         .def("write", &write_result, py::arg("path"), py::call_guard<py::gil_scoped_release>());
 
     // Write a result given as a mapping of its fields (from a fresh run or a reopened file).
@@ -574,6 +590,12 @@ void bind_evolution(py::module_& m) {
             r.depletion_time = doubles("depletion_time");
             r.initial_inventory = doubles("initial_inventory");
             r.species_mass = doubles("species_mass");
+            r.regime_time = doubles("regime_time");
+            r.regime_loss = doubles("regime_loss");
+            r.energy_limited_loss = doubles("energy_limited_loss");
+            r.given_loss = doubles("given_loss");
+            r.non_jeans_loss_share = doubles("non_jeans_loss_share");
+            r.bulk_regime_time = doubles("bulk_regime_time");
             if (f.contains("core_mass")) { // a run with an envelope
                 r.core_mass = f["core_mass"].cast<double>();
                 r.stripping_time = f["stripping_time"].cast<double>();

@@ -1489,6 +1489,11 @@ void BatchChunk::reset(std::size_t first_row, std::size_t cases, std::size_t spe
     for (auto* v : {&mole_fraction, &final_retained, &depletion_time, &efolding_time,
                     &escape_rate_start, &given_loss_start, &jeans_start, &jeans_end})
         v->assign(cs, nan);
+    for (auto* v : {&regime_time_jeans, &regime_time_enhanced_jeans, &regime_time_transition,
+                    &regime_time_hydrodynamic, &loss_share_jeans, &loss_share_enhanced_jeans,
+                    &loss_share_transition, &loss_share_hydrodynamic, &loss_share_energy_limited,
+                    &loss_share_given, &non_jeans_loss_share})
+        v->assign(cs, nan);
     regime_start.assign(cs, -1);
     sample_retained.assign(css, nan);
     sample_depletion_time.assign(css, nan);
@@ -1561,8 +1566,12 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
     }
     lambda_bulk /= x_sum;
     out.bulk_jeans_start[c] = lambda_bulk;
-    out.hydrodynamic_unmodelled[c] =
-        lambda_bulk <= config.thresholds.hydrodynamic && !config.hydrodynamic.has_value() ? 1 : 0;
+    // Hydrodynamic at any time: the well-mixed gas at the start, or the run's bulk regime.
+    const bool hydrodynamic_bulk =
+        lambda_bulk <= config.thresholds.hydrodynamic ||
+        r.bulk_regime_time[static_cast<std::size_t>(Regime::Hydrodynamic)] > 0.0 ||
+        r.regime.front() == static_cast<int>(Regime::Hydrodynamic);
+    out.hydrodynamic_unmodelled[c] = hydrodynamic_bulk && !config.hydrodynamic.has_value() ? 1 : 0;
     out.stripping_time[c] = r.stripping_time;
     out.planet_radius_end[c] = r.has_envelope() ? r.planet_radius[last] : p.radius();
     // Rows of r at the batch's output times (r holds t_start, the inner times, t_end).
@@ -1593,6 +1602,22 @@ bool run_case(const CaseSpec& spec, long long sample, const BatchOptions& o,
         out.jeans_end[at] = r.jeans_parameter[last * n + i];
         out.regime_start[at] =
             static_cast<std::int64_t>(classify_regime(r.jeans_parameter[i], config.thresholds));
+        const double parts[6] = {r.regime_loss[i * 4],     r.regime_loss[i * 4 + 1],
+                                 r.regime_loss[i * 4 + 2], r.regime_loss[i * 4 + 3],
+                                 r.energy_limited_loss[i], r.given_loss[i]};
+        const double total = parts[0] + parts[1] + parts[2] + parts[3] + parts[4] + parts[5];
+        std::vector<double>* times[4] = {&out.regime_time_jeans, &out.regime_time_enhanced_jeans,
+                                         &out.regime_time_transition,
+                                         &out.regime_time_hydrodynamic};
+        std::vector<double>* shares[6] = {
+            &out.loss_share_jeans,          &out.loss_share_enhanced_jeans,
+            &out.loss_share_transition,     &out.loss_share_hydrodynamic,
+            &out.loss_share_energy_limited, &out.loss_share_given};
+        for (std::size_t k = 0; k < 4; ++k)
+            (*times[k])[at] = r.regime_time[i * 4 + k];
+        for (std::size_t k = 0; k < 6; ++k)
+            (*shares[k])[at] = total > 0.0 ? parts[k] / total : 0.0;
+        out.non_jeans_loss_share[at] = r.non_jeans_loss_share[i];
     }
     return true;
 }

@@ -16,6 +16,7 @@ const std::vector<FileCoordinate>& evolution_file_coordinates() {
         {"time", "s", "time (stellar age)"},
         {"species", "1", "species"},
         {"ratio", "1", "isotope ratio"},
+        {"escape_regime", "1", "escape regime by the Jeans parameter"},
     };
     return list;
 }
@@ -23,7 +24,8 @@ const std::vector<FileCoordinate>& evolution_file_coordinates() {
 const std::vector<FileVariable>& evolution_file_variables() {
     static const std::vector<FileVariable> list = [] {
         using T = ValueType;
-        const std::vector<std::string> ts{"time", "species"}, t{"time"}, s{"species"}, none;
+        const std::vector<std::string> ts{"time", "species"}, t{"time"}, s{"species"}, none,
+            sr{"species", "escape_regime"};
         auto var = [](std::string name, T type, std::vector<std::string> dims, std::string units,
                       std::string long_name, std::string when = "") {
             FileVariable v;
@@ -53,6 +55,17 @@ const std::vector<FileVariable>& evolution_file_variables() {
                 "time when the inventory fell below the depletion fraction"),
             var("initial_inventory", T::float64, s, "1", "number of particles at the start"),
             var("species_mass", T::float64, s, "kg", "particle mass"),
+            var("regime_time", T::float64, sr, "s",
+                "time spent in each regime of the species' own Jeans parameter"),
+            var("regime_loss", T::float64, sr, "1",
+                "particles lost at the Jeans rate in each regime (energy-limited loss off)"),
+            var("energy_limited_loss", T::float64, s, "1",
+                "particles lost while energy-limited loss acted"),
+            var("given_loss", T::float64, s, "1", "particles lost to the given losses"),
+            var("non_jeans_loss_share", T::float64, s, "1",
+                "share of the loss taken outside the Jeans picture"),
+            var("bulk_regime_time", T::float64, {"escape_regime"}, "s",
+                "time the bulk gas (densest species at the exobase) spent in each regime"),
             var("envelope_mass", T::float64, t, "kg", "H/He envelope mass", "envelope"),
             var("planet_radius", T::float64, t, "m",
                 "planet radius, core plus envelope (Lopez & Fortney 2014 fit)", "envelope"),
@@ -89,11 +102,17 @@ std::vector<std::int64_t> one(std::size_t value) {
 
 void write_result(const EvolutionResult& r, const std::string& path) {
     const std::size_t nr = r.ratio_names.size();
-    const std::map<std::string, std::size_t> sizes{
-        {"time", r.time_count()}, {"species", r.species_count()}, {"ratio", nr}};
+    std::vector<std::string> regimes;
+    for (Regime k :
+         {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition, Regime::Hydrodynamic})
+        regimes.emplace_back(regime_name(k));
+    const std::map<std::string, std::size_t> sizes{{"time", r.time_count()},
+                                                   {"species", r.species_count()},
+                                                   {"ratio", nr},
+                                                   {"escape_regime", regimes.size()}};
     ResultWriter w(path, r.config);
-    const std::map<std::string, const std::vector<std::string>*> labels{{"species", &r.species},
-                                                                        {"ratio", &r.ratio_names}};
+    const std::map<std::string, const std::vector<std::string>*> labels{
+        {"species", &r.species}, {"ratio", &r.ratio_names}, {"escape_regime", &regimes}};
     for (const FileCoordinate& c : evolution_file_coordinates()) {
         if (c.name == "time")
             w.add_coordinate(c.name, r.time, c.units, c.long_name);
@@ -132,6 +151,12 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     put("depletion_time", r.depletion_time);
     put("initial_inventory", r.initial_inventory);
     put("species_mass", r.species_mass);
+    put("regime_time", r.regime_time);
+    put("regime_loss", r.regime_loss);
+    put("energy_limited_loss", r.energy_limited_loss);
+    put("given_loss", r.given_loss);
+    put("non_jeans_loss_share", r.non_jeans_loss_share);
+    put("bulk_regime_time", r.bulk_regime_time);
     put("envelope_mass", r.envelope_mass);
     put("planet_radius", r.planet_radius);
     put("envelope_loss_rate", r.envelope_loss_rate);

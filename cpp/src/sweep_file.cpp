@@ -117,14 +117,46 @@ std::vector<SweepVariable> build_list() {
         real("bulk_jeans_parameter_start", &C::bulk_jeans_start, none, "1",
              "Jeans parameter of the bulk (well-mixed) gas at the exobase at the start"),
         integer("hydrodynamic_unmodelled", &C::hydrodynamic_unmodelled, none, "1",
-                "1: the bulk gas starts at or below the hydrodynamic threshold and the case has "
-                "no heating efficiency, so its Jeans results do not describe its loss (0: no; "
-                "-1: not run)")
+                "1: the case has no heating efficiency and its bulk gas is hydrodynamic at some "
+                "time (the well-mixed gas at the start, or the densest species at the exobase "
+                "at any time), so its Jeans results do not describe its loss (0: no; -1: not "
+                "run)")
             .range(-1, 1),
         real("stripping_time", &C::stripping_time, none, "s",
              "stellar age when the H/He envelope is gone (NaN: not stripped, or no envelope)"),
         real("planet_radius_end", &C::planet_radius_end, none, "m",
              "planet radius at the end (with an envelope: the core and what is left of it)"),
+        // Where the time and the loss went (EvolutionResult::regime_time and its loss parts).
+        real("regime_time_jeans", &C::regime_time_jeans, s, "s",
+             "time spent in the jeans regime of the species' own Jeans parameter"),
+        real("regime_time_enhanced_jeans", &C::regime_time_enhanced_jeans, s, "s",
+             "time spent in the enhanced_jeans regime of the species' own Jeans parameter"),
+        real("regime_time_transition", &C::regime_time_transition, s, "s",
+             "time spent in the transition regime of the species' own Jeans parameter"),
+        real("regime_time_hydrodynamic", &C::regime_time_hydrodynamic, s, "s",
+             "time spent in the hydrodynamic regime of the species' own Jeans parameter"),
+        real("loss_share_jeans", &C::loss_share_jeans, s, "1",
+             "share of the loss taken at the Jeans rate in the jeans regime")
+            .range(0, 1),
+        real("loss_share_enhanced_jeans", &C::loss_share_enhanced_jeans, s, "1",
+             "share of the loss taken at the Jeans rate in the enhanced_jeans regime")
+            .range(0, 1),
+        real("loss_share_transition", &C::loss_share_transition, s, "1",
+             "share of the loss taken at the Jeans rate in the transition regime")
+            .range(0, 1),
+        real("loss_share_hydrodynamic", &C::loss_share_hydrodynamic, s, "1",
+             "share of the loss taken at the Jeans rate in the hydrodynamic regime")
+            .range(0, 1),
+        real("loss_share_energy_limited", &C::loss_share_energy_limited, s, "1",
+             "share of the loss taken while energy-limited loss acted")
+            .range(0, 1),
+        real("loss_share_given", &C::loss_share_given, s, "1",
+             "share of the loss taken by the given losses")
+            .range(0, 1),
+        real("non_jeans_loss_share", &C::non_jeans_loss_share, s, "1",
+             "share of the loss taken outside the Jeans picture (all but loss_share_jeans; 0: "
+             "nothing lost)")
+            .range(0, 1),
         real("sample_retained_fraction", &C::sample_retained, {"sample", "species"}, "1",
              "inventory left at the end in each Monte Carlo sample")
             .range(0, retained_max)

@@ -289,9 +289,11 @@ class Comparison:
             (N/Q at the start, Q the thermal rate), ``escape_rate_start`` (Q) and
             ``given_loss_rate_start`` (the given loss, 0: none) [s-1] at the start,
             ``jeans_parameter_start`` and ``jeans_parameter_end`` [1],
-            ``regime_start`` (name), ``hydrodynamic_unmodelled`` (bool: the case's bulk gas
-            starts at or below the hydrodynamic threshold and it has no heating efficiency, so
-            its Jeans-based retained fractions do not describe its loss), ``error``; with
+            ``regime_start`` (name), ``hydrodynamic_unmodelled`` (bool: the case has no heating
+            efficiency and its bulk gas is hydrodynamic at some time, at the start or later in
+            the run, so its Jeans-based retained fractions do not describe its loss),
+            ``non_jeans_loss_share`` [1] (share of the species' loss taken outside the Jeans
+            picture), ``error``; with
             samples also ``probability_retained``
             (share of successful samples with more than ``retain`` left) [1],
             ``retained_fraction_p<q>`` [1] and ``samples_ok``. ``frame.attrs["units"]`` gives
@@ -340,6 +342,7 @@ class Comparison:
             "jeans_parameter_end": pick("jeans_parameter_end"),
             "regime_start": names[np.where(valid, regime, -1) + 1],
             "hydrodynamic_unmodelled": self["hydrodynamic_unmodelled"][ci] == 1,
+            "non_jeans_loss_share": pick("non_jeans_loss_share"),
             "error": np.asarray(self["error"], dtype=object)[ci],
         }
         units = {name: _UNITS[name] for name in columns if name in _UNITS}
@@ -478,6 +481,9 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
 # Variables that sweep files of this layout written before them lack, and what such a file
 # stands for where a species ran: no given losses, and the thermal rate not recorded.
 _ADDED_LATER: dict[str, float] = {"given_loss_rate_start": 0.0, "escape_rate_start": math.nan}
+# Nor were the regime times and loss shares recorded.
+_ADDED_LATER.update({name: math.nan for name, *_ in _VARIABLES if "regime_time_" in name})
+_ADDED_LATER.update({name: math.nan for name, *_ in _VARIABLES if "loss_share" in name})
 
 
 def _require_layout(path: Path) -> None:

@@ -122,24 +122,35 @@ def _sweep(args: argparse.Namespace) -> int:
 
 
 def _print_hydrodynamic(result: Any, limit: int = 10) -> None:
-    """Name the cases whose bulk gas starts hydrodynamic without an energy-limited model."""
+    """Name the cases whose bulk gas goes hydrodynamic, at the start or later, without an
+    energy-limited model, and how much of their loss lies outside the Jeans picture."""
     import numpy as np
 
     flagged = np.nonzero(np.asarray(result["hydrodynamic_unmodelled"]) == 1)[0]
     if not len(flagged):
         return
-    names, rows = result["case"], result["row"]
+    names, rows, species = result["case"], result["row"], list(result.species)
     lam = result["bulk_jeans_parameter_start"]
+    x = np.nan_to_num(np.asarray(result["mole_fraction"]))
+    with np.errstate(invalid="ignore", divide="ignore"):  # lambda is linear in the mass
+        lam_end = np.nansum(x * result["jeans_parameter_end"], axis=1) / x.sum(axis=1)
+    share = np.asarray(result["non_jeans_loss_share"])
     print(
-        f"{len(flagged)} case{'s start' if len(flagged) > 1 else ' starts'} with the bulk gas "
-        "at or below the hydrodynamic threshold of the Jeans parameter and have no "
-        "heating_efficiency: their loss is not Jeans escape and their retained fractions do "
-        "not describe it"
+        f"{len(flagged)} case{'s go' if len(flagged) > 1 else ' goes'} hydrodynamic (the bulk "
+        "gas at or below the hydrodynamic threshold of the Jeans parameter, at the start or "
+        f"later in the run) and {'have' if len(flagged) > 1 else 'has'} no heating_efficiency, "
+        "so no energy-limited model: their loss is not Jeans escape and their retained "
+        "fractions do not describe it"
     )
     for k in flagged[:limit]:
-        print(
-            f"  {names[k]} (row {rows[k]}): bulk Jeans parameter {float(lam[k]):.3g} at the start"
+        words = (
+            f"bulk Jeans parameter {float(lam[k]):.3g} at the start, {lam_end[k]:.3g} at the end"
         )
+        shares = share[k]
+        if np.isfinite(shares).any():
+            j = int(np.nanargmax(shares))
+            words += f"; {species[j]}: {shares[j]:.0%} of its loss outside the Jeans picture"
+        print(f"  {names[k]} (row {rows[k]}): {words}")
     if len(flagged) > limit:
         print(f"  ... and {len(flagged) - limit} more (column hydrodynamic_unmodelled)")
 
@@ -181,6 +192,7 @@ def _summary(args: argparse.Namespace) -> int:
             "jeans_parameter_end": "lambda1 [1]",
             "regime_start": "regime",
             "hydrodynamic_unmodelled": "hydro?",
+            "non_jeans_loss_share": "non-Jeans [1]",
             "probability_retained": "P(kept) [1]",
             "samples_ok": "samples",
         }

@@ -124,8 +124,10 @@ def retention_chart(
     regime thresholds of the run (Volkov et al. 2011 by default): below a line (cooler, or a
     faster escape speed) lambda is larger. Markers: filled circles for cases that keep more than
     ``retain`` of the species' inventory at the end, crosses for those that do not; with Monte
-    Carlo samples the colour gives the probability of keeping it. Failed cases are left out
-    (their number is in the panel title).
+    Carlo samples the colour gives the probability of keeping it. Orange squares ring the
+    cases that go hydrodynamic without an energy-limited model (``hydrodynamic_unmodelled``):
+    their retention is that of Jeans escape, which does not describe their loss. Failed cases
+    are left out (their number is in the panel title).
 
     Parameters
     ----------
@@ -185,6 +187,7 @@ def retention_chart(
     with_samples = comparison.samples > 0 and "probability_retained" in summary
     colour_map = plt.get_cmap("viridis")
     index = summary.set_index(["row", "species"])
+    any_unmodelled = False
     for ax, name in zip(axes, chosen, strict=False):
         j = names.index(name)
         mass = _species(name).mass
@@ -222,6 +225,22 @@ def retention_chart(
                 linewidths=0.4,
                 zorder=3,
             )
+        # Cases that go hydrodynamic without an energy-limited model: their Jeans retention
+        # does not describe their loss, so they are ringed.
+        unmodelled = here & (np.asarray(comparison["hydrodynamic_unmodelled"]) == 1)
+        if unmodelled.any():
+            ax.scatter(
+                speed[unmodelled],
+                temperature[unmodelled],
+                s=170,
+                marker="s",
+                facecolors="none",
+                edgecolors="darkorange",
+                linewidths=1.6,
+                zorder=4,
+                gid="hydrodynamic_unmodelled",
+            )
+            any_unmodelled = True
         if here.sum() <= 20:
             for label, xi, yi in zip(np.asarray(comparison["case"])[here], x, y, strict=True):
                 ax.annotate(
@@ -260,6 +279,19 @@ def retention_chart(
         ),
         Line2D([], [], marker="X", ls="", color="0.5", markeredgecolor="k", label="loses more"),
     ]
+    if any_unmodelled:
+        handles.append(
+            Line2D(
+                [],
+                [],
+                marker="s",
+                ls="",
+                markerfacecolor="none",
+                markeredgecolor="darkorange",
+                markersize=11,
+                label="goes hydrodynamic, no energy-limited model",
+            )
+        )
     fig.legend(handles=handles, loc="outside lower center", ncols=5, fontsize="small")
     if with_samples:
         from matplotlib.cm import ScalarMappable

@@ -1,9 +1,10 @@
 """Results of :func:`exosieve.evolve`: time series per species, diagnostics, and their files.
 
 Files are HDF5, written by the C++ core (temporary name, then renamed over the target), with
-dimensions ``time``, ``species`` and ``ratio``, CF-style ``units`` and ``long_name`` on every
-variable and the model configuration as JSON in the global attribute ``config``. They open
-with :func:`open_result`, with h5py, and with ``xarray.open_dataset(path, engine="h5netcdf")``.
+dimensions ``time``, ``species``, ``ratio`` and ``escape_regime``, CF-style ``units`` and
+``long_name`` on every variable and the model configuration as JSON in the global attribute
+``config``. They open with :func:`open_result`, with h5py, and with
+``xarray.open_dataset(path, engine="h5netcdf")``.
 """
 
 from __future__ import annotations
@@ -37,6 +38,21 @@ TIME_VARIABLES = _described(lambda v: v["dims"] == ["time"] and not v["present_w
 ENVELOPE_VARIABLES = _described(lambda v: v["dims"] == ["time"] and v["present_when"] == "envelope")
 #: Every variable of a result file with its units and long name (the core's list).
 VARIABLES = _described(lambda v: True)
+#: Where the time and the loss went, per species (and ``escape_regime``, the regime names of
+#: :data:`exosieve.REGIMES`): name -> (dimensions, units, long_name), from the core's list.
+LOSS_VARIABLES: dict[str, tuple[tuple[str, ...], str, str]] = {
+    v["name"]: (tuple(v["dims"]), v["units"], v["long_name"])
+    for v in _SCHEMA
+    if v["name"]
+    in (
+        "regime_time",
+        "regime_loss",
+        "energy_limited_loss",
+        "given_loss",
+        "non_jeans_loss_share",
+        "bulk_regime_time",
+    )
+}
 #: CF flags of ``regime``: its codes (int64, the variable's type) and one word per code.
 _REGIME = next(v for v in _SCHEMA if v["name"] == "regime")
 REGIME_FLAGS: dict[str, Any] = {
@@ -103,6 +119,25 @@ class EvolutionResult:
         Time [s] each species fell below the depletion fraction; None where it did not.
     regime_changes : list of (float, str, str)
         Located regime changes: (time [s], from, to).
+    regime_time : ndarray
+        Time [s] each species (rows, in ``species`` order) spent in each regime (columns, in
+        :data:`exosieve.REGIMES` order) of its own Jeans parameter at the exobase
+        (hydrodynamic where the exobase model finds no exobase); changes located on the
+        integrator's dense output.
+    regime_loss : ndarray
+        Particles [1] each species lost at the Jeans rate while in each regime, energy-limited
+        loss off (species x regime, as ``regime_time``).
+    energy_limited_loss, given_loss : ndarray
+        Particles [1] each species lost while energy-limited loss acted, and to the given
+        losses. With ``regime_loss`` they make up the whole loss, ``N(t_start) - N(t_end)``
+        plus the sources (the parts sum to it to rounding).
+    non_jeans_loss_share : dict of str to float
+        Share [1] of each species' loss taken outside the Jeans picture: all but the Jeans-rate
+        loss in the Jeans regime (``1 - regime_loss[:, 0] / total``); 0 where nothing was lost.
+        :meth:`loss_shares` gives every part.
+    bulk_regime_time : ndarray
+        Time [s] the bulk gas (the densest species at the exobase, as ``regime``) spent in each
+        regime.
     envelope_mass, planet_radius, envelope_loss_rate : ndarray or None
         With an envelope (``evolve(..., envelope=...)``): envelope mass [kg], planet radius
         (core plus envelope) [m] and envelope mass-loss rate [kg s^-1] over time; None
@@ -147,6 +182,16 @@ class EvolutionResult:
         ]
         self.initial_inventory = np.asarray(data["initial_inventory"], dtype=np.float64)
         self.species_mass = np.asarray(data["species_mass"], dtype=np.float64)
+        n, nr = len(self.species), len(REGIMES)
+        shapes = {"species": n, "escape_regime": nr}
+        for name, (dims, _, _) in LOSS_VARIABLES.items():
+            shape = tuple(shapes[d] for d in dims)
+            value = data.get(name)  # absent from files written before these were kept
+            array = np.full(shape, np.nan) if value is None else np.asarray(value, np.float64)
+            setattr(self, "_" + name if name == "non_jeans_loss_share" else name, array)
+        self.non_jeans_loss_share: dict[str, float] = {
+            s: float(v) for s, v in zip(self.species, self._non_jeans_loss_share, strict=True)
+        }
         self.steps = int(data["steps"])
         self.rejected_steps = int(data["rejected_steps"])
         self.rhs_evaluations = int(data["rhs_evaluations"])
@@ -163,6 +208,12 @@ class EvolutionResult:
         stripped = float(data["stripping_time"]) if with_envelope else math.nan
         self.stripping_time: float | None = None if math.isnan(stripped) else stripped
 
+    regime_time: NDArray[np.float64]
+    regime_loss: NDArray[np.float64]
+    energy_limited_loss: NDArray[np.float64]
+    given_loss: NDArray[np.float64]
+    bulk_regime_time: NDArray[np.float64]
+    _non_jeans_loss_share: NDArray[np.float64]
     inventory: PerName
     escape_rate: PerName
     source_rate: PerName
@@ -200,6 +251,7 @@ class EvolutionResult:
                 ],
                 "initial_inventory": initial,
                 "species_mass": masses,
+                **{name: getattr(raw, name) for name in LOSS_VARIABLES},
                 "steps": raw.steps,
                 "rejected_steps": raw.rejected_steps,
                 "rhs_evaluations": raw.rhs_evaluations,
@@ -227,6 +279,33 @@ class EvolutionResult:
         if self._config is None:
             self._config = json.loads(self.config_json)
         return self._config
+
+    def loss_shares(self) -> dict[str, dict[str, float]]:
+        """Share [1] of each species' loss by where it went.
+
+        Keys per species: the regimes of :data:`exosieve.REGIMES` (loss at the Jeans rate in
+        that regime), ``"energy_limited"`` and ``"given"``; they sum to 1 (all 0 where nothing
+        was lost).
+
+        Examples
+        --------
+        >>> import exosieve
+        >>> from exosieve import constants as c
+        >>> planet = exosieve.Planet(c.M_EARTH, c.R_EARTH)
+        >>> exo = exosieve.PrescribedExobase(c.R_EARTH + 500e3, 1500.0, {"H": 1e11})
+        >>> run = exosieve.evolve(planet, exo, {"H": 1e40}, (0.0, c.GYR))
+        >>> run.loss_shares()["H"]["enhanced_jeans"], run.non_jeans_loss_share["H"]
+        (1.0, 1.0)
+        """
+        shares: dict[str, dict[str, float]] = {}
+        for i, s in enumerate(self.species):
+            parts = [*self.regime_loss[i], self.energy_limited_loss[i], self.given_loss[i]]
+            total = sum(float(p) for p in parts)  # in the order the sweep adds them
+            names = [*REGIMES, "energy_limited", "given"]
+            shares[s] = {
+                k: float(v / total) if total > 0 else 0.0 for k, v in zip(names, parts, strict=True)
+            }
+        return shares
 
     @property
     def regime_names(self) -> list[str]:
@@ -266,6 +345,8 @@ class EvolutionResult:
             ),
             "initial_inventory": self.initial_inventory,
             "species_mass": self.species_mass,
+            **{n: getattr(self, n) for n in LOSS_VARIABLES if n != "non_jeans_loss_share"},
+            "non_jeans_loss_share": self._non_jeans_loss_share,
             "steps": self.steps,
             "rejected_steps": self.rejected_steps,
             "rhs_evaluations": self.rhs_evaluations,
@@ -297,6 +378,7 @@ class EvolutionResult:
             "time": self.time,
             "species": np.array(self.species, dtype=object),
             "ratio": np.array(self.ratio_names, dtype=object),
+            "escape_regime": np.array(REGIMES, dtype=object),
         }
         has = {"": True, "ratios": bool(self.ratio_names), "envelope": self.core_mass is not None}
         coords = {
@@ -401,7 +483,8 @@ def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
             name = v["name"]
             if name == "given_loss_rate" and name not in f:
                 data[name] = np.zeros(f["inventory"].shape)  # files from before given losses
-            elif has[v["present_when"]]:
+            elif has[v["present_when"]] and (name in f or name not in LOSS_VARIABLES):
+                # (files written before the loss ledger lack its variables)
                 data[name] = f[name][()]
         data["isotope_ratio"] = f["isotope_ratio"][()] if ratios else np.empty((len(time), 0))
         data["config"] = text(f.attrs["config"])

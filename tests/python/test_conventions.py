@@ -459,7 +459,7 @@ def test_regime_thresholds_are_accepted_in_both_forms_everywhere(tmp_path):
     by_tuple = exosieve.evolve(*args, thresholds=(8.0, 4.0, 2.5))
     assert by_class.regime.tolist() == by_tuple.regime.tolist()
     assert json.loads(by_tuple.config_json)["regime_thresholds"]["enhanced"] == 8.0
-    rows = ["Ondra,1.0,0.1,1.0,500,1e13,1500,1e37,0.7,0.25,0.05"]
+    rows = ["Ondra,1.0,0.1,1.0,500,1e13,1500,1e37,0.7,0.25,0.05,bulk"]
     cases = tmp_path / "cases.csv"
     cases.write_text("\n".join([SWEEP_HEADER, *rows]) + "\n")
     runs = [

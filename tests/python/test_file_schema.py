@@ -18,7 +18,7 @@ xr = pytest.importorskip("xarray")
 SWEEP_HEADER = (
     "case,planet_mass [M_earth],planet_radius [R_earth],exobase_altitude [km],"
     "exobase_density [m-3],exobase_temperature [K],exobase_temperature_sigma [K],"
-    "inventory [particles],x_N2,x_He,x_H"
+    "inventory [particles],x_N2,x_He,x_H,exobase_composition"
 )
 
 
@@ -94,7 +94,8 @@ def test_an_evolution_file_holds_the_schema_variables_and_no_others(tmp_path, en
 
 def test_a_sweep_file_holds_the_schema_variables_and_no_others(tmp_path):
     lines = [
-        f"P{i},{0.6 + 0.1 * i},1.0,500,1e13,{800 + 100 * i},30,1e37,0.7,0.25,0.05" for i in range(4)
+        f"P{i},{0.6 + 0.1 * i},1.0,500,1e13,{800 + 100 * i},30,1e37,0.7,0.25,0.05,bulk"
+        for i in range(4)
     ]
     table = tmp_path / "cases.csv"
     table.write_text("\n".join([SWEEP_HEADER, *lines]) + "\n")

@@ -237,8 +237,10 @@ def test_cli_names_hydrodynamic_cases_in_words(
     out = tmp_path / "hot.h5"  # type: ignore[operator]
     assert main(["sweep", str(path), "-o", str(out), "--quiet", "--times", "3"]) == 0
     text = capsys.readouterr().out
-    assert "1 case starts with the bulk gas at or below the hydrodynamic threshold" in text
-    assert "hot (row 0): bulk Jeans parameter 1.5 at the start" in text
+    assert "1 case goes hydrodynamic (the bulk gas at or below the hydrodynamic threshold" in text
+    assert "has no heating_efficiency, so no energy-limited model" in text
+    assert "hot (row 0): bulk Jeans parameter 1.5 at the start, 1.5 at the end" in text
+    assert "H: 100% of its loss outside the Jeans picture" in text
     assert "cool (row" not in text
     assert main(["summary", str(out)]) == 0
     assert "hot (row 0): bulk Jeans parameter 1.5" in capsys.readouterr().out

@@ -22,6 +22,7 @@
 //! of every output can be estimated from the stored runs. Every sample's drawn inputs are
 //! stored next to its outputs ("sample_input"), in either design.
 
+#include <array>
 #include <cstddef>
 #include <cstdint>
 #include <functional>
@@ -283,14 +284,26 @@ struct BatchChunk {
     //! Jeans parameter of the bulk (well-mixed) gas at the exobase at t_start: the mean
     //! particle mass of the x_i mixture [1] [case]
     std::vector<double> bulk_jeans_start;
-    //! 1 where the bulk gas starts at or below the hydrodynamic threshold and the case has no
-    //! energy-limited model (no heating efficiency): its Jeans results do not describe its loss;
-    //! 0 otherwise; -1 where the nominal run did not finish [case]
+    //! 1 where the case has no energy-limited model (no heating efficiency) and its bulk gas is
+    //! hydrodynamic at some time: the well-mixed gas starts at or below the hydrodynamic
+    //! threshold, or the densest species at the exobase (the run's bulk regime) reaches it at
+    //! any time of the run; its Jeans results then do not describe its loss. 0 otherwise; -1
+    //! where the nominal run did not finish [case]
     std::vector<std::int64_t> hydrodynamic_unmodelled;
     //! Stellar age when the envelope is gone [s]; NaN: not stripped, or no envelope [case]
     std::vector<double> stripping_time;
     //! Planet radius at the end [m]: with an envelope, the core and what is left of it [case]
     std::vector<double> planet_radius_end;
+    //! Time in each regime of the species' own Jeans parameter [s] (as
+    //! EvolutionResult::regime_time) [case x species] each
+    std::vector<double> regime_time_jeans, regime_time_enhanced_jeans, regime_time_transition,
+        regime_time_hydrodynamic;
+    //! Shares of the loss [1]: at the Jeans rate in each regime, while energy-limited loss
+    //! acted, to the given losses (EvolutionResult's parts over their sum; 0 where nothing was
+    //! lost) [case x species] each
+    std::vector<double> loss_share_jeans, loss_share_enhanced_jeans, loss_share_transition,
+        loss_share_hydrodynamic, loss_share_energy_limited, loss_share_given;
+    std::vector<double> non_jeans_loss_share; //!< 1 - loss_share_jeans [1] [case x species]
     std::vector<double> sample_retained; //!< N_i(t_end)/N_i(t_start) [1] [case x sample x species]
     std::vector<double> sample_depletion_time; //!< [s] [case x sample x species]
     std::vector<std::int64_t> sample_failed;   //!< 1 where the sample run failed [case x sample]

@@ -224,6 +224,25 @@ struct EvolutionResult {
     std::vector<double> initial_inventory;    //!< per species [particles]
     std::vector<double> species_mass;         //!< per species [kg]
     std::vector<RegimeChange> regime_changes; //!< located regime changes
+    // Where the time and the loss went, per species (regime order: Regime codes 0..3). A
+    // species' regime is that of its own Jeans parameter at the exobase (hydrodynamic where the
+    // exobase model finds no exobase); its changes are located on the dense output.
+    //! Time species i spent in regime k [s], species x regime (each row sums to the span run).
+    std::vector<double> regime_time;
+    //! Thermal loss of the Jeans formula while species i was in regime k and energy-limited
+    //! loss did not act [particles], species x regime.
+    std::vector<double> regime_loss;
+    //! Thermal loss while energy-limited loss acted (the escaping species' share of the
+    //! energy-limited rate, or a dragged species' rate) [particles], per species.
+    std::vector<double> energy_limited_loss;
+    std::vector<double> given_loss; //!< loss to the given losses [particles], per species
+    //! Share of the loss taken outside the Jeans picture [1], per species:
+    //! 1 - regime_loss[Jeans] / (sum of regime_loss + energy_limited_loss + given_loss),
+    //! 0 where nothing was lost.
+    std::vector<double> non_jeans_loss_share;
+    //! Time the bulk gas (the densest species at the exobase, as in `regime`) spent in each
+    //! regime [s], per regime.
+    std::vector<double> bulk_regime_time;
     // With an envelope only (empty or NaN without one):
     std::vector<double> envelope_mass;      //!< M_env [kg], per time
     std::vector<double> planet_radius;      //!< R_p = R_core + R_env [m], per time
