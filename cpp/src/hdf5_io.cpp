@@ -203,11 +203,15 @@ void check_description(const std::string& name, const std::string& units,
                          " make xarray decode the values to datetimes; use \"s\"");
 }
 
-void check_strings(const std::string& name, const std::vector<std::string>& values) {
-    for (std::size_t i = 0; i < values.size(); ++i)
+void check_strings(const std::string& name, const std::string* values, std::size_t count) {
+    for (std::size_t i = 0; i < count; ++i)
         if (values[i].find('\0') != std::string::npos)
             throw InputError("variable " + in_quotes(name) + ": string " + std::to_string(i) +
                              " contains a NUL character");
+}
+
+void check_strings(const std::string& name, const std::vector<std::string>& values) {
+    check_strings(name, values.data(), values.size());
 }
 
 std::string shape_text(const std::vector<std::string>& dims, const std::vector<hsize_t>& shape) {
@@ -1348,12 +1352,38 @@ std::size_t RowBlock::Column::count() const {
     return 0;
 }
 
+void RowBlock::reset(std::size_t rows) {
+    rows_ = rows;
+    for (auto& entry : columns_) {
+        entry.second.f.clear();
+        entry.second.i.clear();
+        entry.second.s.clear();
+    }
+}
+
 void RowBlock::set(const std::string& name, const double* data, std::size_t count) {
-    set(name, std::vector<double>(data, data + count));
+    Column& column = columns_[name];
+    column.type = ValueType::float64;
+    column.f.assign(data, data + count);
+    column.i.clear();
+    column.s.clear();
 }
 
 void RowBlock::set(const std::string& name, const std::int64_t* data, std::size_t count) {
-    set(name, std::vector<std::int64_t>(data, data + count));
+    Column& column = columns_[name];
+    column.type = ValueType::int64;
+    column.i.assign(data, data + count);
+    column.f.clear();
+    column.s.clear();
+}
+
+void RowBlock::set(const std::string& name, const std::string* data, std::size_t count) {
+    check_strings(name, data, count);
+    Column& column = columns_[name];
+    column.type = ValueType::string;
+    column.s.assign(data, data + count);
+    column.f.clear();
+    column.i.clear();
 }
 
 void RowBlock::set(const std::string& name, std::vector<double> data) {

@@ -314,6 +314,8 @@ std::vector<ChunkVariable> chunk_variables(const BatchChunk& chunk);
 //! coordinate), `row` (the keys) and chunk_variables(). Written straight
 //! from C++, a chunk costs the file no interpreter objects.
 RowBlock chunk_rows(const BatchChunk& chunk);
+//! The same rows written into `into` (reset to the chunk's rows first), reusing its storage.
+void chunk_rows(const BatchChunk& chunk, RowBlock& into);
 
 //! Hooks of run_batch(), all called on the calling thread.
 struct BatchHooks {
