@@ -36,7 +36,10 @@ pressure of 0.1-10 bar; rtol = 1e-6; 16 output ages.
    sweep file (5 species, 16 output ages; blocks of 1024 cases without samples, of 64 cases,
    and of 655 cases with 99 samples: compare()'s chunk sizes), wall clock and CPU time (the
    CPU part excludes the two fsyncs per append, so it shows checksums and hashing), best of
-   --repeat.
+   --repeat. Then the batch engine on min(--cases, 1e4) cases and 2 threads: the CPU time per
+   case of the thread that calls it (which hands the chunks out and, with a file, gives each
+   chunk's rows to the file's writer thread) streaming to a sweep file and with the chunks
+   dropped; the difference is the file's cost on the calling thread. Goal <= 1 us per case.
 """
 
 from __future__ import annotations
@@ -209,6 +212,53 @@ def append_cost(rows: int, samples: int, repeat: int, blocks: int = 20) -> tuple
     return wall / (rows * blocks), cpu / (rows * blocks)
 
 
+def calling_thread_cost(n: int, threads: int, repeat: int) -> dict[str, float]:
+    """CPU seconds per case of the thread that calls the batch engine (time.thread_time(), which
+    other work on the machine barely moves), best of `repeat`, with every chunk streamed into a
+    sweep file and with the chunks dropped; and the whole process's CPU seconds per case of
+    each (os.times(): the engine's workers and the file's writer thread)."""
+    from exosieve import _core
+    from exosieve.batch import (
+        _core_options,
+        _create_file,
+        _default_chunk,
+        _engine_options,
+        _output_times,
+    )
+    from exosieve.catalogue import load_cases
+
+    table = load_cases(make_cases(n))
+    grid = _output_times(16, table, T_START, T_END)
+    options = _core_options(
+        _engine_options(list(table.species), grid, T_START, T_END), threads, _default_chunk(0)
+    )
+    core = table.to_core(first_key=0, rows=slice(0, len(table)))
+    best = {"file": float("inf"), "none": float("inf")}
+    process = dict(best)
+    with tempfile.TemporaryDirectory() as folder:
+        for r in range(repeat):
+            for kind in best:
+                sink = None
+                if kind == "file":
+                    sink = _create_file(
+                        Path(folder) / f"calling{r}.h5", {"kind": "bench"}, table.species, grid, 0
+                    )
+                before, start = os.times(), time.thread_time()
+                _core.run_batch(core, 0, n, options, sink)
+                spent, after = time.thread_time() - start, os.times()
+                if sink is not None:
+                    sink.close()
+                best[kind] = min(best[kind], spent / n)
+                used = after.user + after.system - before.user - before.system
+                process[kind] = min(process[kind], used / n)
+    return {
+        "calling, file": best["file"],
+        "calling, no file": best["none"],
+        "process, file": process["file"],
+        "process, no file": process["none"],
+    }
+
+
 # ---------------------------------------------------------------- memory, in a fresh process
 
 
@@ -332,6 +382,27 @@ def main() -> None:
                 f"append blocks of {rows:4d} cases, {samples:2d} samples: "
                 f"{wall * 1e6:6.1f} us per case, {cpu * 1e6:5.1f} us of it CPU"
             )
+        cases = min(args.cases, 10_000)
+        cost = calling_thread_cost(cases, 2, max(args.repeat, 3))
+        handover = cost["calling, file"] - cost["calling, no file"]
+        print(
+            f"batch engine, {cases} cases on 2 threads, chunks of {1024} cases (best of "
+            f"{max(args.repeat, 3)}; load average {os.getloadavg()[0]:.2f}):"
+        )
+        print(
+            f"  calling thread's CPU: {cost['calling, file'] * 1e6:5.2f} us per case streaming "
+            f"to a sweep file, {cost['calling, no file'] * 1e6:5.2f} us with the chunks dropped"
+        )
+        print(
+            f"  the file on the calling thread: {handover * 1e6:5.2f} us per case (goal <= 1 us: "
+            f"{'met' if handover <= 1e-6 else 'not met'}); it hands each chunk's rows to the "
+            "file's writer thread"
+        )
+        print(
+            f"  whole process CPU: {cost['process, file'] * 1e6:5.1f} us per case with the file, "
+            f"{cost['process, no file'] * 1e6:5.1f} without (the writer's share: "
+            f"{(cost['process, file'] - cost['process, no file']) * 1e6:4.1f} us; 1 ms ticks)"
+        )
         return
 
     frame = make_cases(args.cases)

@@ -5,9 +5,11 @@
 #include <chrono>
 #include <cstdint>
 #include <memory>
+#include <optional>
 #include <string>
 #include <vector>
 
+#include "exosieve/background_appender.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/sweep_file.hpp"
 
@@ -229,13 +231,18 @@ void bind_batch(py::module_& m) {
             BatchHooks hooks;
             hooks.progress_interval_ms = interval_ms;
             hooks.progress_every_chunks = every_chunks;
-            // A sweep file takes the chunks' rows straight from C++, without the interpreter.
-            ResultAppender* file = py::isinstance<ResultAppender>(on_chunk)
-                                       ? &on_chunk.cast<ResultAppender&>()
-                                       : nullptr;
+            // A sweep file takes the chunks' rows straight from C++, without the interpreter,
+            // on a writer thread: the calling thread only copies a chunk's rows into the queue.
+            // Every progress call and the return wait until the chunks handed out are on disk,
+            // so rows reported (or read by a progress hook) are stored, as with direct appends.
+            std::optional<BackgroundAppender> writer;
+            if (py::isinstance<ResultAppender>(on_chunk))
+                writer.emplace(on_chunk.cast<ResultAppender&>());
             hooks.on_chunk = [&](const BatchChunk& c) {
-                if (file) {
-                    file->append(chunk_rows(c));
+                if (writer) {
+                    RowBlock rows = writer->spare();
+                    chunk_rows(c, rows);
+                    writer->push(std::move(rows));
                     return;
                 }
                 py::gil_scoped_acquire gil;
@@ -247,11 +254,29 @@ void bind_batch(py::module_& m) {
                     throw PythonHookFailed{};
                 }
             };
-            hooks.on_progress = progress_hook(on_progress, failure);
+            auto report = progress_hook(on_progress, failure);
+            hooks.on_progress = [&](std::size_t done, std::size_t total) {
+                if (writer)
+                    writer->drain();
+                return report(done, total);
+            };
             BatchStatus status;
             try {
                 py::gil_scoped_release release;
-                status = run_batch(table, begin, end, o, hooks);
+                try {
+                    status = run_batch(table, begin, end, o, hooks);
+                } catch (...) {
+                    // The chunks handed out before the failure are kept, as direct appends
+                    // would have kept them; the failure itself is what the caller sees.
+                    if (writer)
+                        try {
+                            writer->drain();
+                        } catch (...) {
+                        }
+                    throw;
+                }
+                if (writer)
+                    writer->drain();
             } catch (const PythonHookFailed&) {
             }
             if (failure)

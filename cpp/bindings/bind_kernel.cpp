@@ -11,14 +11,20 @@ namespace {
 
 using A = const DoubleArray&;
 
-// Bind kernel(arg..., out, count) as f(count, arg...) -> 1-D array; the Python facade
-// broadcasts and flattens, so every argument arrives with length 1 or `count`.
+// Bind kernel(arg..., out, count) as f(count, arg...) -> 1-D array, and as
+// f(count, arg..., out) writing into the caller's array `out` (write_into) and returning it;
+// the Python facade broadcasts and flattens, so every argument arrives with length 1 or
+// `count`. The kernels named in KERNELS_WRITING_OUT take `out`.
 template <class... Args>
 void def_plain(py::module_& m, const char* name,
                void (*kernel)(typename std::conditional<true, ArrayArg, Args>::type..., double*,
                               std::size_t)) {
     m.def(name, [kernel](std::size_t count, typename std::conditional<true, A, Args>::type... a) {
         return with_output(count, [&](double* out) { kernel(as_arg(a)..., out, count); });
+    });
+    m.def(name, [kernel](std::size_t count, typename std::conditional<true, A, Args>::type... a,
+                         const py::object& out) {
+        return write_into(count, out, [&](double* data) { kernel(as_arg(a)..., data, count); });
     });
 }
 
@@ -29,6 +35,11 @@ void def_tail(py::module_& m, const char* name,
     m.def(name, [kernel](std::size_t count, typename std::conditional<true, A, Args>::type... a,
                          const TailDepletion& tail) {
         return with_output(count, [&](double* out) { kernel(as_arg(a)..., out, count, tail); });
+    });
+    m.def(name, [kernel](std::size_t count, typename std::conditional<true, A, Args>::type... a,
+                         const TailDepletion& tail, const py::object& out) {
+        return write_into(count, out,
+                          [&](double* data) { kernel(as_arg(a)..., data, count, tail); });
     });
 }
 
@@ -77,6 +88,10 @@ void bind_kernel(py::module_& m) {
     def_tail<X, X, X, X, X>(m, "jeans_energy_flux", &exosieve::jeans_energy_flux);
     def_tail<X, X, X, X, X>(m, "jeans_escape_rate", &exosieve::jeans_escape_rate);
     def_tail<X, X, X, X, X>(m, "log_jeans_escape_rate", &exosieve::log_jeans_escape_rate);
+    m.attr("KERNELS_WRITING_OUT") = py::make_tuple(
+        "most_probable_speed", "mean_speed", "rms_speed", "speed_pdf", "fraction_faster",
+        "log_fraction_faster", "escape_speed", "jeans_parameter", "jeans_flux", "log_jeans_flux",
+        "jeans_energy_flux", "jeans_escape_rate", "log_jeans_escape_rate");
 }
 
 } // namespace exosieve::bindings

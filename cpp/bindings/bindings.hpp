@@ -5,10 +5,13 @@
 #include <pybind11/pybind11.h>
 
 #include <cstddef>
+#include <cstdint>
 #include <functional>
 #include <memory>
+#include <string>
 
 #include "exosieve/arrays.hpp"
+#include "exosieve/errors.hpp"
 
 namespace exosieve::bindings {
 
@@ -52,6 +55,37 @@ inline ArrayArg as_arg(const DoubleArray& a) {
 template <class Fill> py::array_t<double> with_output(std::size_t count, Fill fill) {
     py::array_t<double> out(static_cast<py::ssize_t>(count));
     double* data = out.mutable_data();
+    {
+        py::gil_scoped_release release;
+        fill(data);
+    }
+    return out;
+}
+
+//! Fill the caller's `out` with `fill(data)` without the GIL and return it: the kernel writes
+//! straight into the array's buffer. `out` must be a writeable, aligned, C-contiguous float64
+//! numpy array of `count` elements; anything else is refused (InputError naming `out` and what
+//! it is), never converted, since results written into a converted copy would be lost.
+template <class Fill> py::object write_into(std::size_t count, const py::object& out, Fill fill) {
+    if (!py::isinstance<py::array>(out))
+        throw InputError("out must be a numpy array, got " +
+                         std::string(py::str(py::type::handle_of(out).attr("__name__"))));
+    auto a = py::reinterpret_borrow<py::array>(out);
+    auto shape_of = [&a] { return std::string(py::str(a.attr("shape"))); };
+    if (!a.dtype().is(py::dtype::of<double>()))
+        throw InputError("out must be a float64 array to be written in place, got dtype " +
+                         std::string(py::str(a.dtype())));
+    if (!(a.flags() & py::array::c_style))
+        throw InputError("out must be C-contiguous to be written in place, got shape " +
+                         shape_of() + " with strides " + std::string(py::str(a.attr("strides"))));
+    if (!a.writeable())
+        throw InputError("out must be writeable, got a read-only array");
+    if (static_cast<std::size_t>(a.size()) != count)
+        throw InputError("out must hold " + std::to_string(count) + " values, got shape " +
+                         shape_of());
+    double* data = static_cast<double*>(a.mutable_data());
+    if (reinterpret_cast<std::uintptr_t>(data) % alignof(double) != 0)
+        throw InputError("out must be aligned to 8 bytes, got an unaligned array");
     {
         py::gil_scoped_release release;
         fill(data);

@@ -221,18 +221,24 @@ std::vector<ChunkVariable> chunk_variables(const BatchChunk& c) {
     return out;
 }
 
-RowBlock chunk_rows(const BatchChunk& c) {
-    RowBlock b(c.count);
-    b.set("case", c.name); // the labels: xarray selects rows with .sel(case=name)
-    b.set("row", std::vector<std::int64_t>(c.key.begin(), c.key.end()));
+void chunk_rows(const BatchChunk& c, RowBlock& b) {
+    b.reset(c.count);
+    b.set("case", c.name.data(), c.name.size()); // the labels: xarray selects .sel(case=name)
+    const std::vector<std::int64_t> rows(c.key.begin(), c.key.end());
+    b.set("row", rows.data(), rows.size());
     for (const ChunkVariable& v : chunk_variables(c)) {
         if (v.f)
-            b.set(v.name, *v.f);
+            b.set(v.name, v.f->data(), v.f->size());
         else if (v.i)
-            b.set(v.name, *v.i);
+            b.set(v.name, v.i->data(), v.i->size());
         else
-            b.set(v.name, *v.s);
+            b.set(v.name, v.s->data(), v.s->size());
     }
+}
+
+RowBlock chunk_rows(const BatchChunk& c) {
+    RowBlock b(c.count);
+    chunk_rows(c, b);
     return b;
 }
 

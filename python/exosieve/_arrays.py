@@ -175,7 +175,8 @@ def apply(
 
     ``args`` holds ``(name, value, unit)``. A species name is taken only for the argument
     called ``species_argument`` (None: for none). As numpy ufuncs do: ``out`` (a float array
-    of the broadcast shape) receives the result and is returned, ``dtype`` (a floating type)
+    of the broadcast shape) receives the result and is returned (written in place by kernels
+    that take it, see :func:`_writes_in_place`; copied in otherwise), ``dtype`` (a floating type)
     is the result's type (the kernels compute in float64), a float comes back for all-scalar
     input, and pandas Series/DataFrames, xarray DataArrays and dask arrays come back as the
     container they came in (see :func:`_rewrap`).
@@ -222,6 +223,9 @@ def _compute(
         shape = out.shape
     count = int(np.prod(shape, dtype=np.int64))
     flat = [flat_for_kernel(a, shape) for a in arrays]
+    if out is not None and _writes_in_place(kernel, out, dtype, flat):
+        kernel(count, *flat, *extra, out.reshape(-1))  # a view: the kernel fills out's buffer
+        return out
     result = kernel(count, *flat, *extra).reshape(shape)
     if dtype is not None:
         result = result.astype(dtype, copy=False)
@@ -231,6 +235,23 @@ def _compute(
     if shape == ():
         return float(result) if dtype is None or dtype == np.float64 else result[()]
     return result
+
+
+def _writes_in_place(
+    kernel: Callable[..., Any], out: NDArray[Any], dtype: np.dtype[Any] | None, flat: list[Any]
+) -> bool:
+    """True if ``kernel`` can fill ``out`` itself: a kernel that takes ``out`` (the core lists
+    them), a C-contiguous, aligned float64 ``out`` with no other result type asked for, sharing
+    no memory with an argument (the kernels read an element's arguments as they write, in
+    blocks). Other outs get the result copied in, as numpy ufuncs do through their buffers."""
+    return (
+        getattr(kernel, "__name__", "") in _core.KERNELS_WRITING_OUT
+        and out.dtype == np.float64
+        and out.flags.c_contiguous
+        and out.flags.aligned
+        and (dtype is None or dtype == np.float64)
+        and not any(np.may_share_memory(out, a) for a in flat)
+    )
 
 
 def _output(out: Any) -> NDArray[Any]:

@@ -18,6 +18,7 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include "exosieve/background_appender.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/hdf5_io.hpp"
 
@@ -120,6 +121,26 @@ RowBlock rows_from(std::size_t first, std::size_t count) {
     block.set("label", label);
     block.set("profile", std::move(profile));
     return block;
+}
+
+// rows_from()'s rows written into `block` through reset() and the setters that reuse storage.
+void refill(RowBlock& block, std::size_t first, std::size_t count) {
+    block.reset(count);
+    std::vector<double> flux, profile;
+    std::vector<std::int64_t> regime;
+    std::vector<std::string> label;
+    for (std::size_t r = first; r < first + count; ++r) {
+        for (std::size_t s = 0; s < species_names.size(); ++s)
+            flux.push_back(1e10 * static_cast<double>(r) + static_cast<double>(s) / 3.0);
+        for (std::size_t j = 0; j < levels; ++j)
+            profile.push_back(4096.0 * static_cast<double>(r) + static_cast<double>(j));
+        regime.push_back(static_cast<std::int64_t>(r % 4));
+        label.push_back("case-" + std::to_string(r));
+    }
+    block.set("flux", flux.data(), flux.size());
+    block.set("regime", regime.data(), regime.size());
+    block.set("label", label.data(), label.size());
+    block.set("profile", profile.data(), profile.size());
 }
 
 // Throws unless rows [0, n) of the appending tests hold exactly what rows_from() wrote.
@@ -800,4 +821,132 @@ TEST_CASE("hdf5_io: damaged string heaps are refused, never followed") {
         }
     }
     CHECK(refused >= 8); // the collection's signature, version, size and object headers
+}
+
+TEST_CASE("hdf5_io: a background appender appends every block in order; drain() waits") {
+    TempDir dir;
+    const std::string path = dir.file("behind.h5");
+    ResultAppender a(append_schema(path));
+    CHECK_THROWS_WITH_AS(BackgroundAppender(a, 0), "capacity must be >= 1 [blocks], got 0",
+                         InputError);
+    std::size_t rows = 0;
+    {
+        BackgroundAppender writer(a, 2);
+        // More blocks than the queue holds: push() waits for room, the order is kept. Every
+        // other block is a spare one refilled (after the first appends, an appended block).
+        CHECK(writer.spare().rows() == 0); // none appended yet: an empty block
+        for (std::size_t k = 0; k < 12; ++k) {
+            const std::size_t n = 1 + (k * 7) % 23;
+            if (k % 2 == 0) {
+                writer.push(rows_from(rows, n));
+            } else {
+                RowBlock block = writer.spare();
+                refill(block, rows, n);
+                writer.push(std::move(block));
+            }
+            rows += n;
+        }
+        writer.drain();
+        CHECK(writer.appended() == 12);
+        CHECK(writer.spare().rows() > 0); // an appended block, kept for reuse
+        CHECK(a.completed() == rows);
+        CHECK(read_int_attribute(path, "/", "completed") == static_cast<std::int64_t>(rows));
+        // Blocks still queued when the writer goes are appended first.
+        writer.push(rows_from(rows, 5));
+        writer.push(rows_from(rows + 5, 3));
+        rows += 8;
+    }
+    CHECK(a.completed() == rows);
+    a.close();
+    check_rows(path, rows);
+}
+
+TEST_CASE("hdf5_io: a failed background append is reported, and nothing is appended after it") {
+    TempDir dir;
+    const std::string path = dir.file("failed.h5");
+    ResultAppender a(append_schema(path));
+    {
+        BackgroundAppender writer(a, 1);
+        writer.push(rows_from(0, 7));
+        RowBlock bad = rows_from(7, 2);
+        bad.set("regime", std::vector<std::int64_t>{1}); // 1 value for 2 rows
+        writer.push(std::move(bad));
+        CHECK_THROWS_WITH_AS(writer.drain(), doctest::Contains("'regime' has 1 values"),
+                             InputError);
+        CHECK_THROWS_AS(writer.drain(), InputError); // again on every later call
+        CHECK_THROWS_AS(writer.push(rows_from(7, 2)), InputError);
+        CHECK(writer.appended() == 1);
+    }
+    CHECK(a.completed() == 7);
+    a.close();
+    check_rows(path, 7);
+}
+
+TEST_CASE("hdf5_io: a process killed while its background appender writes keeps every drained "
+          "row") {
+    // As for direct appends: kill a child at random moments; every row it saw drained is in
+    // the reopened file, exact, and the file opens.
+    TempDir dir;
+    std::mt19937 random(20261203);
+    std::uniform_int_distribution<int> delay_us(0, 40000);
+    const int trials = 15;
+    int opened = 0;
+    for (int trial = 0; trial < trials; ++trial) {
+        const std::string path = dir.file("killed-behind-" + std::to_string(trial) + ".h5");
+        int progress[2];
+        REQUIRE(::pipe(progress) == 0);
+        const pid_t child = ::fork();
+        REQUIRE(child >= 0);
+        if (child == 0) {
+            ::close(progress[0]);
+            try {
+                ResultAppender a(append_schema(path));
+                BackgroundAppender writer(a, 2);
+                std::uint64_t row = 0;
+                for (std::uint64_t k = 0;; ++k) {
+                    const std::uint64_t n = 1 + row % 37;
+                    writer.push(rows_from(row, n));
+                    row += n;
+                    if (k % 3 == 2) { // report only what is drained
+                        writer.drain();
+                        if (::write(progress[1], &row, sizeof row) != sizeof row)
+                            ::_exit(3);
+                    }
+                }
+            } catch (...) {
+                ::_exit(2);
+            }
+        }
+        ::close(progress[1]);
+        struct Reaper {
+            pid_t pid;
+            ~Reaper() {
+                if (pid > 0) {
+                    ::kill(pid, SIGKILL);
+                    ::waitpid(pid, nullptr, 0);
+                }
+            }
+        } reaper{child};
+        std::uint64_t reported = 0, value = 0;
+        REQUIRE(::read(progress[0], &reported, sizeof reported) == sizeof reported);
+        ::usleep(static_cast<useconds_t>(delay_us(random)));
+        ::kill(child, SIGKILL);
+        int status = 0;
+        ::waitpid(child, &status, 0);
+        reaper.pid = -1;
+        CHECK(WIFSIGNALED(status));
+        while (::read(progress[0], &value, sizeof value) == sizeof value)
+            reported = value;
+        ::close(progress[0]);
+
+        CAPTURE(trial);
+        CAPTURE(reported);
+        ResultAppender a(path);
+        ++opened;
+        CHECK(a.completed() >= reported);
+        const std::size_t n = a.completed();
+        a.close();
+        check_rows(path, n);
+    }
+    CHECK(opened == trials);
 }

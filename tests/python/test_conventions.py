@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 
 import exosieve
+from exosieve import _core
 from exosieve.constants import AMU, AU, M_EARTH, M_SUN, R_EARTH
 
 H = exosieve.species("H").mass
@@ -137,6 +138,104 @@ def test_out_and_dtype_are_refused_where_numpy_refuses_them():
         f(T, "H", out=readonly)
     with pytest.raises(ValueError, match="dtype must be a floating-point dtype, got int64"):
         f(T, "H", dtype=np.int64)
+
+
+# The array functions whose kernels fill a C-contiguous float64 out themselves.
+IN_PLACE = sorted(set(ARRAY_FUNCTIONS) & set(_core.KERNELS_WRITING_OUT))
+
+
+def test_the_maxwell_and_jeans_functions_write_out_in_place():
+    # Every public Maxwell and Jeans array function takes the in-place path.
+    assert set(IN_PLACE) == {
+        "most_probable_speed",
+        "speed_pdf",
+        "fraction_faster",
+        "jeans_parameter",
+        "jeans_flux",
+        "log_jeans_escape_rate",
+        "escape_speed",
+    }
+
+
+@pytest.mark.parametrize("name", IN_PLACE)
+def test_out_is_written_in_place_without_a_copy(name, monkeypatch):
+    function = ARRAY_FUNCTIONS[name]
+    expected = function(T)
+    out = np.full(3, np.nan)
+    address = out.__array_interface__["data"][0]
+    result = function(T, out=out)
+    assert result is out
+    assert result.__array_interface__["data"][0] == address  # the same buffer, not a new one
+    assert np.shares_memory(result, out)
+    np.testing.assert_array_equal(out, expected)  # bit for bit the allocated result
+    # No temporary: with numpy's copy into out disabled the call still fills out (a 2-D out of
+    # the broadcast shape too) ...
+    import exosieve._arrays as arrays
+
+    def no_copy(*args, **kwargs):
+        raise AssertionError("out was filled through a copy")
+
+    monkeypatch.setattr(arrays.np, "copyto", no_copy)
+    grid = np.full((2, 3), np.nan)
+    assert function(T, out=grid) is grid
+    np.testing.assert_array_equal(grid, np.stack([expected, expected]))
+    # ... while an out the kernel cannot fill itself goes through the copy, as for a ufunc.
+    with pytest.raises(AssertionError, match="through a copy"):
+        function(T, out=np.zeros(3, dtype=np.float32))
+
+
+@pytest.mark.parametrize("name", IN_PLACE)
+def test_outs_the_kernel_cannot_fill_still_behave_as_for_a_ufunc(name):
+    function = ARRAY_FUNCTIONS[name]
+    expected = function(T)
+    strided = np.zeros(6)[::2]  # not contiguous: numpy ufuncs accept it
+    assert function(T, out=strided) is strided
+    np.testing.assert_array_equal(strided, expected)
+    fortran = np.zeros((2, 3), order="F")  # contiguous, but in Fortran order
+    assert not fortran.flags.c_contiguous
+    assert function(T, out=fortran) is fortran
+    np.testing.assert_array_equal(fortran, np.stack([expected, expected]))
+    # An out that is also an argument is computed first, then copied in.
+    temperatures = T.copy()
+    if name in ("most_probable_speed", "jeans_parameter"):  # T is their first argument
+        assert function(temperatures, out=temperatures) is temperatures
+        np.testing.assert_array_equal(temperatures, expected)
+
+
+def test_the_kernels_refuse_an_out_they_cannot_fill_naming_it():
+    # The binding is what takes a mutable array: it never converts one (results written into
+    # a converted copy would be lost), it refuses it with the package's ValueError.
+    count, temperature, mass = 3, T, np.array([H])
+    cases = [
+        (np.zeros(3, dtype=np.float32), "out must be a float64 array .* got dtype float32"),
+        (np.zeros(3, dtype=np.int64), "out must be a float64 array .* got dtype int64"),
+        (np.zeros(6)[::2], r"out must be C-contiguous .* got shape \(3,\) with strides \(16,\)"),
+        (np.zeros(4), r"out must hold 3 values, got shape \(4,\)"),
+        ([0.0, 0.0, 0.0], "out must be a numpy array, got list"),
+    ]
+    readonly = np.zeros(3)
+    readonly.flags.writeable = False
+    cases.append((readonly, "out must be writeable, got a read-only array"))
+    for out, message in cases:
+        with pytest.raises(ValueError, match=message) as caught:
+            _core.most_probable_speed(count, temperature, mass, out)
+        assert isinstance(caught.value, exosieve.InputError)
+    tail = _core.TailDepletion()
+    with pytest.raises(ValueError, match="out must hold 3 values, got shape \\(2,\\)"):
+        _core.jeans_flux(
+            count,
+            np.array([1e12]),
+            T,
+            mass,
+            np.array([M_EARTH]),
+            np.array([R_EARTH]),
+            tail,
+            np.zeros(2),
+        )
+    # A good out is filled and returned, the same object.
+    out = np.zeros(3)
+    assert _core.most_probable_speed(count, temperature, mass, out) is out
+    np.testing.assert_array_equal(out, exosieve.most_probable_speed(T, "H"))
 
 
 @pytest.mark.parametrize("name", sorted(ARRAY_FUNCTIONS))

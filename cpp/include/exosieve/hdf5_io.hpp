@@ -177,11 +177,17 @@ class RowBlock {
     explicit RowBlock(std::size_t rows);
     //! Number of rows [cases].
     std::size_t rows() const { return rows_; }
-    //! Float64 values of `name`, rows x trailing shape, row-major (copied).
+    //! Make the block `rows` rows long with every column empty, keeping the columns' storage,
+    //! so that refilling a block with set() from pointers allocates nothing.
+    void reset(std::size_t rows);
+    //! Float64 values of `name`, rows x trailing shape, row-major (copied, into the column's
+    //! storage if it exists).
     void set(const std::string& name, const double* data, std::size_t count);
-    //! Int64 values of `name`, rows x trailing shape, row-major (copied); "case" may be set
-    //! to case identifiers, otherwise it gets the row numbers.
+    //! Int64 values of `name`, rows x trailing shape, row-major (copied as above); "case" may
+    //! be set to case identifiers, otherwise it gets the row numbers.
     void set(const std::string& name, const std::int64_t* data, std::size_t count);
+    //! String values (UTF-8, no NUL), copied as above.
+    void set(const std::string& name, const std::string* data, std::size_t count);
     //! Float64 values from a vector.
     void set(const std::string& name, std::vector<double> data);
     //! Int64 values from a vector.

@@ -51,5 +51,7 @@ std::vector<ChunkVariable> chunk_variables(const BatchChunk& chunk);
 //! coordinate), `row` (the keys) and chunk_variables(). Written straight from C++, a chunk
 //! costs the file no interpreter objects.
 RowBlock chunk_rows(const BatchChunk& chunk);
+//! The same rows written into `into` (reset to the chunk's rows first), reusing its storage.
+void chunk_rows(const BatchChunk& chunk, RowBlock& into);
 
 } // namespace exosieve
