@@ -315,7 +315,7 @@ def _columns(args: argparse.Namespace) -> int:
         for name in names:
             _, unit, meaning, required, uncertain = rows[name]
             flags = ("required" if required else "optional") + (
-                ", may have _sigma/_lnsigma" if uncertain else ""
+                ", may have _sigma/_lnsigma/_sigma_upper+_sigma_lower" if uncertain else ""
             )
             print(f"  {name:30s} [{unit}]  {meaning} ({flags})")
     print(
