@@ -292,19 +292,19 @@ def read_archive(archive: str | Path | Any) -> tuple[Any, NDArray[np.int64], str
         if name in ("pl_name", "hostname") or _HEADER.match(name) is None:
             out[name] = frame[name].fillna("").astype(str).str.strip()
             continue
-        values = pd.to_numeric(
-            frame[name].replace("", np.nan).astype(object), errors="coerce"
-        ).to_numpy(dtype=float)
-        given = frame[name].astype(str).str.strip().replace("nan", "") != ""
-        bad = given.to_numpy() & ~np.isfinite(values)
+        raw = frame[name]
+        text = raw.astype("string").str.strip().fillna("")
+        missing = raw.isna().to_numpy() | (text == "").to_numpy() | (text.str.lower() == "nan")
+        values = pd.to_numeric(raw.where(~missing), errors="coerce").to_numpy(dtype=float)
+        bad = ~missing & ~np.isfinite(values)
         wanted = _is_read(name)
         if bad.any() and wanted:
             k = int(np.nonzero(bad)[0][0])
             raise ValueError(
-                f"{source} line {numbers[k]} column '{name}': {frame[name].iloc[k]!r} is not a "
-                "finite number"
+                f"{source} line {numbers[k]} column '{name}': {text.iloc[k]!r} is not a finite "
+                "number"
             )
-        out[name] = values if wanted or not bad.any() else frame[name].astype(str)
+        out[name] = values if wanted or not bad.any() else text
     return pd.DataFrame(out), numbers, source
 
 
@@ -452,7 +452,7 @@ def archive_cases(
     t_eq = np.where(t_eq_given, si["equilibrium_temperature"], computed)
     drop(~np.isfinite(t_eq), "no pl_eqt and no star (pl_orbsmax, st_mass, st_lum) to compute it")
 
-    overrides = _overrides(frame)
+    overrides, override_units = _overrides(frame)
     rows = np.nonzero(keep)[0]
     out: dict[str, NDArray[np.float64]] = {}
     for q in ("planet_mass", "planet_radius", *_STAR):
@@ -534,7 +534,11 @@ def archive_cases(
             continue
         if not np.isfinite(values).any():
             continue  # a column no row gives
-        unit = "1" if kind == "lnsigma" else _DISPLAY.get(base, _si_unit(q) or "1")
+        unit = (
+            "1"
+            if kind == "lnsigma"
+            else override_units.get(q) or _DISPLAY.get(base) or _si_unit(q) or "1"
+        )
         cases[f"{q} [{unit}]"] = values / UNITS[unit][0]
     valley = value["radius_valley"] / c.R_EARTH
     cases["comment"] = np.where(
@@ -592,9 +596,11 @@ def _is_value(name: str) -> bool:
     return width_column(name)[0] is None
 
 
-def _overrides(frame: Any) -> dict[str, NDArray[np.float64]]:
-    """Case-table columns the archive table carries (``quantity [unit]`` headers), in SI."""
+def _overrides(frame: Any) -> tuple[dict[str, NDArray[np.float64]], dict[str, str]]:
+    """Case-table columns the archive table carries (``quantity [unit]`` headers): their SI
+    values and the units they were given in."""
     out: dict[str, NDArray[np.float64]] = {}
+    units: dict[str, str] = {}
     for header in frame.columns:
         match = _HEADER.match(str(header))
         if match is None:
@@ -615,4 +621,5 @@ def _overrides(frame: Any) -> dict[str, NDArray[np.float64]]:
         if name.startswith("x_") and _is_value(name):
             _species(name[2:])  # unknown species: ValueError with the closest names
         out[name] = np.asarray(frame[header], dtype=float) * UNITS[unit][0]
-    return out
+        units[name] = unit
+    return out, units
