@@ -441,9 +441,8 @@ void check_table_columns(const CaseTable& table) {
             if (is_split(width)) {
                 for (const char* other : {"_sigma", "_lnsigma"})
                     if (seen.count(base + other))
-                        throw InputError("case table: columns '" + name + "' and '" + base +
-                                         other + "' both give the uncertainty of '" + base +
-                                         "'; keep one");
+                        throw InputError("case table: columns '" + name + "' and '" + base + other +
+                                         "' both give the uncertainty of '" + base + "'; keep one");
                 const std::string partner =
                     base + (width == WidthColumn::sigma_upper ? "_sigma_lower" : "_sigma_upper");
                 if (!seen.count(partner))
@@ -696,14 +695,14 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
                         bad_value(other, "a split normal needs both widths, and '" + name +
                                              "' is given but this is empty");
                     if (r.width == WidthColumn::sigma_upper && k != none)
-                        s.uncertainties.push_back({r.base, Distribution::SplitNormal, v, w, k,
-                                                   r.parameter});
+                        s.uncertainties.push_back(
+                            {r.base, Distribution::SplitNormal, v, w, k, r.parameter});
                     continue;
                 }
                 if (k != none) // the uncertainty of an absent species changes nothing
                     s.uncertainties.push_back(
-                        {r.base, r.lnsigma ? Distribution::LogNormal : Distribution::Normal, v,
-                         0.0, k, r.parameter});
+                        {r.base, r.lnsigma ? Distribution::LogNormal : Distribution::Normal, v, 0.0,
+                         k, r.parameter});
                 continue;
             }
             if (!r.parameter)
@@ -1216,13 +1215,13 @@ CaseSpec sample_case(const CaseSpec& spec, std::uint64_t seed, std::uint64_t sam
             found = in_range(*p, drawn);
         }
         if (!found)
-            throw NumericalError("sample " + std::to_string(sample) + ": no value of '" +
-                                 u.parameter + "' in its range (" + range_text(*p) +
-                                 ") in 1000 draws around " + format_value(value) + " with width " +
-                                 (u.distribution == Distribution::SplitNormal
-                                      ? "+" + format_value(u.width) + "/-" +
-                                            format_value(u.width_lower)
-                                      : format_value(u.width)));
+            throw NumericalError(
+                "sample " + std::to_string(sample) + ": no value of '" + u.parameter +
+                "' in its range (" + range_text(*p) + ") in 1000 draws around " +
+                format_value(value) + " with width " +
+                (u.distribution == Distribution::SplitNormal
+                     ? "+" + format_value(u.width) + "/-" + format_value(u.width_lower)
+                     : format_value(u.width)));
         s.values[u.slot] = drawn;
     }
     return s;

@@ -105,9 +105,7 @@ from .species import species as _species
 
 #: Stefan-Boltzmann constant [W m^-2 K^-4]: 2 pi^5 k^4 / (15 h^3 c^2) with the exact SI
 #: values of k, h and c (SI 2019).
-STEFAN_BOLTZMANN: float = (
-    2.0 * math.pi**5 * c.K_B**4 / (15.0 * 6.62607015e-34**3 * 299792458.0**2)
-)
+STEFAN_BOLTZMANN: float = 2.0 * math.pi**5 * c.K_B**4 / (15.0 * 6.62607015e-34**3 * 299792458.0**2)
 
 #: Solar helium abundance by number, He/H = 10^(10.93 - 12) (Asplund et al. 2009, from memory).
 SOLAR_HELIUM_PER_HYDROGEN: float = 10.0 ** (10.93 - 12.0)
@@ -366,8 +364,8 @@ def archive_cases(
         "envelope_mass_fraction": (envelope_mass_fraction, "1"),
     }
     value: dict[str, float] = {}
-    for name, (given, unit) in options.items():
-        value[name] = real_number(given, name, unit)
+    for name, (number, unit) in options.items():
+        value[name] = real_number(number, name, unit)
         if not value[name] > 0.0:
             raise ValueError(f"{name} must be > 0 [{unit}], got {value[name]!r}")
     if not value["envelope_mass_fraction"] < 1.0:
@@ -422,11 +420,11 @@ def archive_cases(
         hi = np.where(np.isfinite(e1), e1, -e2)
         lo = np.where(np.isfinite(e2), -e2, e1)
         limit = np.isfinite(v) & np.isfinite(lim) & (lim != 0.0)
-        for k in np.nonzero(limit & keep)[0]:
-            kind = "upper limit" if lim[k] > 0 else "lower limit"
-            action = "dropped" if limits == "drop" else "kept with the limit as its value"
+        action = "dropped" if limits == "drop" else "kept with the limit as its value"
+        for at in np.nonzero(limit & keep)[0]:
+            side = "upper limit" if lim[at] > 0 else "lower limit"
             limited.append(
-                LimitNote(str(names[k]), int(lines[k]), archive_name, kind, float(v[k]), action)
+                LimitNote(str(names[at]), int(lines[at]), archive_name, side, float(v[at]), action)
             )
         if limits == "drop":
             drop(limit, f"{archive_name} is a limit, not a measurement (limits='drop')")
@@ -485,8 +483,8 @@ def archive_cases(
     for q in x_names:
         mean_mass += out[q] * _species(q[2:]).mass
     gravity = c.G * mass / radius**2
-    out["homopause_altitude"] = value["homopause_scale_heights"] * c.K_B * t_eq / (
-        mean_mass * gravity
+    out["homopause_altitude"] = (
+        value["homopause_scale_heights"] * c.K_B * t_eq / (mean_mass * gravity)
     )
     out["homopause_density"] = np.full(len(rows), value["homopause_density"])
     factor = value["exobase_temperature_factor"]

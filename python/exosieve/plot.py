@@ -718,7 +718,11 @@ def retention_map(
                 strict=True,
             ):
                 ax.annotate(
-                    str(text), (xi, yi), xytext=(3, 3), textcoords="offset points", fontsize="x-small"
+                    str(text),
+                    (xi, yi),
+                    xytext=(3, 3),
+                    textcoords="offset points",
+                    fontsize="x-small",
                 )
         ax.set_xscale("log")
         ax.set_yscale("log")

@@ -874,7 +874,7 @@ TEST_CASE("batch: a Saltelli design stores each run's drawn inputs next to its o
     BatchHooks hooks;
     CHECK_THROWS_WITH_AS(run_batch(fixed, 0, 2, o, hooks),
                          "design: a Saltelli design needs uncertain inputs, and the case table has "
-                         "no '_sigma' or '_lnsigma' column",
+                         "no '_sigma', '_lnsigma' or '_sigma_upper' column",
                          InputError);
     o.samples = 0;
     CHECK_THROWS_WITH_AS(check_table(t, o),
@@ -1248,9 +1248,9 @@ TEST_CASE("split-normal columns: drawn around the mode, one input, bad widths re
                                            "finite and >= 0"),
                          InputError);
     CaseTable alone = t;
-    alone.columns.erase(
-        std::find_if(alone.columns.begin(), alone.columns.end(),
-                     [](const auto& c) { return c.first == "planet_mass_sigma_lower"; }));
+    alone.columns.erase(std::find_if(alone.columns.begin(), alone.columns.end(), [](const auto& c) {
+        return c.first == "planet_mass_sigma_lower";
+    }));
     CHECK_THROWS_WITH_AS(check_table_columns(alone),
                          doctest::Contains("needs the column 'planet_mass_sigma_lower'"),
                          InputError);

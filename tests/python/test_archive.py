@@ -268,8 +268,7 @@ def _split_normal_moments(mode, lo, hi):
     span = (mode - 40 * lo, mode + 40 * hi)
     mean = sum(integrate.quad(lambda x: x * pdf(x), *part)[0] for part in _halves(mode, span))
     second = sum(
-        integrate.quad(lambda x: (x - mean) ** 2 * pdf(x), *part)[0]
-        for part in _halves(mode, span)
+        integrate.quad(lambda x: (x - mean) ** 2 * pdf(x), *part)[0] for part in _halves(mode, span)
     )
     return mean, second
 
@@ -328,9 +327,7 @@ def test_split_normal_bad_widths_are_refused_naming_column_and_row():
     both["planet_mass_sigma [M_earth]"] = [0.1, 0.1]
     with pytest.raises(ValueError, match="both give the uncertainty of 'planet_mass'"):
         exosieve.compare(both, threads=1)
-    alone = _split_frame([0.3, 0.0], [0.1, 0.0]).drop(
-        columns=["planet_mass_sigma_lower [M_earth]"]
-    )
+    alone = _split_frame([0.3, 0.0], [0.1, 0.0]).drop(columns=["planet_mass_sigma_lower [M_earth]"])
     with pytest.raises(ValueError, match="needs the column 'planet_mass_sigma_lower'"):
         exosieve.compare(alone, threads=1)
     wrong_unit = _split_frame([0.3, 0.0], [0.1, 0.0]).rename(

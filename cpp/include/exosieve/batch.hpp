@@ -75,10 +75,10 @@ struct CaseParameter {
 struct Uncertainty {
     std::string parameter;                            //!< parameter name, e.g. "planet_mass"
     Distribution distribution = Distribution::Normal; //!< shape
-    double width = 0.0; //!< sigma [SI], sigma of ln X [1], or the upper width [SI] (>= 0)
+    double width = 0.0;       //!< sigma [SI], sigma of ln X [1], or the upper width [SI] (>= 0)
     double width_lower = 0.0; //!< split normal: the width below the value [SI] (>= 0)
-    std::size_t slot = 0;                             //!< index of the value in CaseSpec::values
-    const CaseParameter* range = nullptr;             //!< the parameter's allowed range
+    std::size_t slot = 0;     //!< index of the value in CaseSpec::values
+    const CaseParameter* range = nullptr; //!< the parameter's allowed range
 };
 
 //! One planet case: SI parameter values by slot, its species and their uncertainties.
