@@ -423,3 +423,10 @@ def test_command_line_converts_and_maps(tmp_path):
     drawn = run("map", "sweep.h5", str(cases), "-o", "map.png")
     assert drawn.returncode == 0, drawn.stderr
     assert (tmp_path / "map.png").stat().st_size > 0
+
+
+def test_docstring_examples_run():
+    import doctest
+
+    result = doctest.testmod(archive)
+    assert result.attempted >= 2 and result.failed == 0
