@@ -167,7 +167,8 @@ def case_columns() -> list[tuple[str, str, str, bool, bool]]:
     list of (name, SI unit, meaning, required, may have an uncertainty)
         An uncertainty is a column ``<name>_sigma`` (normal, in the unit of the value),
         ``<name>_lnsigma [1]`` (log-normal) or the pair ``<name>_sigma_upper``,
-        ``<name>_sigma_lower`` (split normal, widths above and below the value). Besides these: ``case`` (label, first column), ``star``, ``comment`` (text, ignored),
+        ``<name>_sigma_lower`` (split normal, widths above and below the value). Besides
+        these: ``case`` (label, first column), ``star``, ``comment`` (text, ignored),
         ``density_scaling`` (``inventory`` or ``fixed``; prescribed exobase),
         ``diffusion_source`` (``measured`` or ``chapman_enskog``; thermosphere), and the
         per-species columns of :func:`species_columns`: ``x_<species>`` bulk (well-mixed) mole
