@@ -1218,7 +1218,7 @@ TEST_CASE("split-normal columns: drawn around the mode, one input, bad widths re
     CHECK(u.width == 0.3 * m);
     CHECK(u.width_lower == 0.1 * m);
     // Mean of the draws against the split normal's closed form mode + sqrt(2/pi) (hi - lo)
-    // (John 1982; Wallis 2014; from memory, re-derived in test_random.cpp); no truncation
+    // (Wallis 2014, Stat. Sci. 29:106; re-derived in test_random.cpp); no truncation
     // here: the lower tail stays far above zero.
     const double m0 = spec.value("planet_mass");
     const int n = 40000;

@@ -11,8 +11,9 @@ using namespace exosieve;
 namespace {
 
 // Moments and the distribution function of a split normal with mode m and widths lo below and
-// hi above it, in closed form (John 1982, Commun. Stat. Theory Methods 11:879; Wallis 2014,
-// Stat. Sci. 29:106; both from memory: the formulas are re-derived in the comments below).
+// hi above it, in closed form (the two-piece normal of Wallis 2014, Stat. Sci. 29:106,
+// doi:10.1214/13-STS417; John 1982 from memory). The formulas are re-derived in the comments
+// below and checked against quadrature of the density in tests/python/test_archive.py.
 struct SplitNormalForm {
     double m, lo, hi;
     // E[X] = m + sqrt(2/pi) (hi - lo): each half-normal's mean |z| is sqrt(2/pi).

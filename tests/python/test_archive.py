@@ -257,7 +257,7 @@ def test_csv_round_trip_reads_as_a_case_table(converted, tmp_path):
 def _split_normal_moments(mode, lo, hi):
     """Mean and variance of the split normal by quadrature of its density (scipy.integrate),
     an outside check of the closed form mode + sqrt(2/pi)(hi - lo), (1 - 2/pi)(hi - lo)^2 +
-    hi lo (John 1982; Wallis 2014; from memory)."""
+    hi lo (the two-piece normal of Wallis 2014, Stat. Sci. 29:106, doi:10.1214/13-STS417)."""
     integrate = pytest.importorskip("scipy.integrate")
     norm = math.sqrt(2 / math.pi) / (lo + hi)
 
