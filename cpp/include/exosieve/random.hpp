@@ -25,7 +25,8 @@ class CounterRng {
     //! in the unit of `mode`): with probability lower/(lower + upper) the lower half-normal
     //! mode - lower |z|, else the upper one mode + upper |z| (one uniform, then one normal).
     //! Mean mode + sqrt(2/pi) (upper - lower), variance (1 - 2/pi) (upper - lower)^2 + upper
-    //! lower (the split normal's closed form, e.g. Wallis 2014, Stat. Sci. 29:106). Both widths zero: mode.
+    //! lower (the split normal's closed form, e.g. Wallis 2014, Stat. Sci. 29:106). Both widths
+    //! zero: the mode itself.
     double split_normal(double mode, double lower, double upper);
 
   private:
