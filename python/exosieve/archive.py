@@ -409,6 +409,13 @@ def archive_cases(
                     f"{source} line {lines[k]} column '{archive_name}{label}': must be {want}, "
                     f"got {err[k]!r}"
                 )
+        positive = factor is not None  # log10 L may be negative; the rest may not
+        bad = np.nonzero(np.isfinite(v) & (v <= 0.0) & positive)[0]
+        if bad.size:
+            k = int(bad[0])
+            raise ValueError(
+                f"{source} line {lines[k]} column '{archive_name}': must be > 0, got {v[k]!r}"
+            )
         bad = np.nonzero(np.isfinite(lim) & ~np.isin(lim, (-1.0, 0.0, 1.0)))[0]
         if bad.size:
             k = int(bad[0])
@@ -438,7 +445,7 @@ def archive_cases(
         else:
             si[ours], upper[ours], lower[ours] = v * factor, hi * factor, lo * factor
     for ours, archive_name in (("planet_mass", "pl_bmasse"), ("planet_radius", "pl_rade")):
-        drop(~(si[ours] > 0.0), f"no {archive_name} (> 0): the case needs it")
+        drop(~np.isfinite(si[ours]), f"no {archive_name}: the case needs it")
     star = np.all([np.isfinite(si[q]) & (si[q] > 0.0) for q in _STAR], axis=0)
     for q in _STAR:
         si[q] = np.where(star, si[q], np.nan)

@@ -213,6 +213,8 @@ def test_rows_without_a_star_or_a_temperature():
         ("pl_radeerr2", 0.2, "column 'pl_radeerr2': must be <= 0"),
         ("pl_bmasselim", 2.0, "column 'pl_bmasselim': a limit flag is -1, 0 or 1, got 2.0"),
         ("pl_rade", "big", "column 'pl_rade': 'big' is not a finite number"),
+        ("pl_bmasse", -1.0, "column 'pl_bmasse': must be > 0, got -1.0"),
+        ("pl_eqt", 0.0, "column 'pl_eqt': must be > 0, got 0.0"),
     ],
 )
 def test_bad_archive_values_are_refused_naming_column_and_line(tmp_path, column, value, message):
