@@ -40,6 +40,9 @@ row by row wherever its cell is not empty):
   with the limit as the value and no uncertainty (for an upper limit on the mass, its
   retention is then an upper bound). Either way every such row is reported
   (:attr:`ArchiveCases.limited`).
+- **Bad values**: a mass, radius, orbit, stellar mass, age or temperature <= 0, a value that
+  is not a number, an upper error < 0, a lower error > 0 or a limit flag other than -1, 0, 1
+  is refused (ValueError naming the column, the line and the value).
 - **Missing**: a row without mass or radius is left out and reported. Without all three of
   semi-major axis, stellar mass and luminosity the row has no star (none of the three is
   written: the case table needs all three together).
