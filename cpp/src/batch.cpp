@@ -113,6 +113,31 @@ std::string species_prefix(const CaseParameter& p) {
     throw InputError("column '" + column + "': " + what);
 }
 
+// What kind of width a column holds, by its suffix (the longest first).
+enum class WidthColumn { none, sigma, lnsigma, sigma_upper, sigma_lower };
+
+// The kind of width column `name` is; `base` receives the uncertain parameter's name.
+WidthColumn width_column(const std::string& name, std::string* base = nullptr) {
+    static const std::pair<const char*, WidthColumn> suffixes[] = {
+        {"_sigma_upper", WidthColumn::sigma_upper},
+        {"_sigma_lower", WidthColumn::sigma_lower},
+        {"_lnsigma", WidthColumn::lnsigma},
+        {"_sigma", WidthColumn::sigma}};
+    for (const auto& [suffix, kind] : suffixes)
+        if (ends_with(name, suffix)) {
+            if (base)
+                *base = name.substr(0, name.size() - std::string(suffix).size());
+            return kind;
+        }
+    if (base)
+        *base = name;
+    return WidthColumn::none;
+}
+
+bool is_split(WidthColumn w) {
+    return w == WidthColumn::sigma_upper || w == WidthColumn::sigma_lower;
+}
+
 } // namespace
 
 // --- parameters -------------------------------------------------------------------------------
@@ -410,18 +435,20 @@ std::string CaseTable::row_label(std::size_t i) const {
 std::vector<std::string> table_species(const CaseTable& table) {
     std::vector<std::string> out;
     for (const auto& [name, values] : table.columns)
-        if (starts_with(name, "x_") && !ends_with(name, "_sigma") && !ends_with(name, "_lnsigma"))
+        if (starts_with(name, "x_") && width_column(name) == WidthColumn::none)
             out.push_back(name.substr(2));
     return out;
 }
 
 std::vector<std::string> table_inputs(const CaseTable& table) {
     std::vector<std::string> out;
-    for (const auto& [name, values] : table.columns)
-        if (ends_with(name, "_lnsigma"))
-            out.push_back(name.substr(0, name.size() - 8));
-        else if (ends_with(name, "_sigma"))
-            out.push_back(name.substr(0, name.size() - 6));
+    for (const auto& [name, values] : table.columns) {
+        std::string base;
+        // A split normal's two columns are one input.
+        if (width_column(name, &base) != WidthColumn::none &&
+            std::find(out.begin(), out.end(), base) == out.end())
+            out.push_back(base);
+    }
     return out;
 }
 
@@ -448,11 +475,8 @@ void check_table_columns(const CaseTable& table) {
                              " rows");
     }
     for (const auto& [name, values] : table.columns) {
-        std::string base = name;
-        if (ends_with(name, "_lnsigma"))
-            base = name.substr(0, name.size() - 8);
-        else if (ends_with(name, "_sigma"))
-            base = name.substr(0, name.size() - 6);
+        std::string base;
+        const WidthColumn width = width_column(name, &base);
         const CaseParameter* p = find_case_parameter(base);
         if (!p)
             throw InputError("case table: unknown column '" + name +
@@ -477,9 +501,20 @@ void check_table_columns(const CaseTable& table) {
             if (!seen.count(base))
                 throw InputError("case table: column '" + name + "' has no value column '" + base +
                                  "'");
-            if (ends_with(name, "_sigma") && seen.count(base + "_lnsigma"))
+            if (width == WidthColumn::sigma && seen.count(base + "_lnsigma"))
                 throw InputError("case table: columns '" + name + "' and '" + base +
                                  "_lnsigma' both give the uncertainty of '" + base + "'; keep one");
+            if (is_split(width)) {
+                for (const char* other : {"_sigma", "_lnsigma"})
+                    if (seen.count(base + other))
+                        throw InputError("case table: columns '" + name + "' and '" + base + other +
+                                         "' both give the uncertainty of '" + base + "'; keep one");
+                const std::string partner =
+                    base + (width == WidthColumn::sigma_upper ? "_sigma_lower" : "_sigma_upper");
+                if (!seen.count(partner))
+                    throw InputError("case table: column '" + name + "' needs the column '" +
+                                     partner + "' (a split normal has a width on each side)");
+            }
         }
     }
     // A table with an envelope column may leave planet_mass and planet_radius to its rows.
@@ -597,8 +632,10 @@ struct ColumnRole {
     std::size_t species = none;               // table species of a per-species column
     std::size_t per_species = none;           // its index in species_parameters()
     bool sigma = false, lnsigma = false;      // an uncertainty column
+    WidthColumn width = WidthColumn::none;    // which kind of width column
     std::string base;                         // the uncertain parameter's name
     std::size_t value_column = none;          // an uncertainty's value column
+    std::size_t partner_column = none;        // a split normal's other width column
 };
 
 // The columns of a table read for its rows.
@@ -625,7 +662,7 @@ TablePlan plan_table(const CaseTable& table) {
         return none;
     };
     for (const auto& [name, values] : table.columns)
-        if (starts_with(name, "x_") && !ends_with(name, "_sigma") && !ends_with(name, "_lnsigma")) {
+        if (starts_with(name, "x_") && width_column(name) == WidthColumn::none) {
             species_names.push_back(name.substr(2));
             // The numbers only: the source texts would be copied with every run.
             Species sp = default_registry().get(species_names.back());
@@ -639,11 +676,9 @@ TablePlan plan_table(const CaseTable& table) {
     for (std::size_t c = 0; c < table.columns.size(); ++c) {
         const std::string& name = table.columns[c].first;
         ColumnRole role;
-        role.lnsigma = ends_with(name, "_lnsigma");
-        role.sigma = !role.lnsigma && ends_with(name, "_sigma");
-        role.base = role.sigma     ? name.substr(0, name.size() - 6)
-                    : role.lnsigma ? name.substr(0, name.size() - 8)
-                                   : name;
+        role.width = width_column(name, &role.base);
+        role.lnsigma = role.width == WidthColumn::lnsigma;
+        role.sigma = role.width != WidthColumn::none && !role.lnsigma;
         for (std::size_t k = 0; k < params.size(); ++k)
             if (params[k].name == role.base)
                 role.global = k;
@@ -659,10 +694,17 @@ TablePlan plan_table(const CaseTable& table) {
         plan.roles.push_back(std::move(role));
     }
     for (ColumnRole& role : plan.roles)
-        if (role.sigma || role.lnsigma)
-            for (std::size_t b = 0; b < table.columns.size(); ++b)
+        if (role.sigma || role.lnsigma) {
+            const std::string partner =
+                role.base +
+                (role.width == WidthColumn::sigma_upper ? "_sigma_lower" : "_sigma_upper");
+            for (std::size_t b = 0; b < table.columns.size(); ++b) {
                 if (table.columns[b].first == role.base)
                     role.value_column = b;
+                if (is_split(role.width) && table.columns[b].first == partner)
+                    role.partner_column = b;
+            }
+        }
     for (std::size_t c = 0; c < table.text.size(); ++c)
         if (table.text[c].first == "density_scaling")
             plan.density_scaling = c;
@@ -719,10 +761,25 @@ CaseSpec read_case(const CaseTable& table, TablePlan& plan, std::size_t row) {
                 if (r.value_column == none || std::isnan(table.columns[r.value_column].second[row]))
                     bad_value(r.base, "an uncertainty is given but no value");
                 const std::size_t k = slot(r);
+                if (is_split(r.width)) {
+                    // Both widths checked here; the upper column records the draw.
+                    if (r.partner_column == none)
+                        bad_value(name, "a split normal needs both '_sigma_upper' and "
+                                        "'_sigma_lower' columns");
+                    const std::string& other = table.columns[r.partner_column].first;
+                    const double w = table.columns[r.partner_column].second[row];
+                    if (std::isnan(w))
+                        bad_value(other, "a split normal needs both widths, and '" + name +
+                                             "' is given but this is empty");
+                    if (r.width == WidthColumn::sigma_upper && k != none)
+                        s.uncertainties.push_back(
+                            {r.base, Distribution::SplitNormal, v, w, k, r.parameter});
+                    continue;
+                }
                 if (k != none) // the uncertainty of an absent species changes nothing
                     s.uncertainties.push_back(
-                        {r.base, r.lnsigma ? Distribution::LogNormal : Distribution::Normal, v, k,
-                         r.parameter});
+                        {r.base, r.lnsigma ? Distribution::LogNormal : Distribution::Normal, v, 0.0,
+                         k, r.parameter});
                 continue;
             }
             if (!r.parameter)
@@ -1351,16 +1408,23 @@ CaseSpec sample_case(const CaseSpec& spec, std::uint64_t seed, std::uint64_t sam
         double drawn = value;
         bool found = false;
         for (int k = 0; k < 1000 && !found; ++k) {
-            const double z = rng.normal();
-            drawn = u.distribution == Distribution::Normal ? value + u.width * z
-                                                           : value * std::exp(u.width * z);
+            if (u.distribution == Distribution::SplitNormal) {
+                drawn = rng.split_normal(value, u.width_lower, u.width);
+            } else {
+                const double z = rng.normal();
+                drawn = u.distribution == Distribution::Normal ? value + u.width * z
+                                                               : value * std::exp(u.width * z);
+            }
             found = in_range(*p, drawn);
         }
         if (!found)
-            throw NumericalError("sample " + std::to_string(sample) + ": no value of '" +
-                                 u.parameter + "' in its range (" + range_text(*p) +
-                                 ") in 1000 draws around " + format_value(value) + " with width " +
-                                 format_value(u.width));
+            throw NumericalError(
+                "sample " + std::to_string(sample) + ": no value of '" + u.parameter +
+                "' in its range (" + range_text(*p) + ") in 1000 draws around " +
+                format_value(value) + " with width " +
+                (u.distribution == Distribution::SplitNormal
+                     ? "+" + format_value(u.width) + "/-" + format_value(u.width_lower)
+                     : format_value(u.width)));
         s.values[u.slot] = drawn;
     }
     return s;
@@ -1398,7 +1462,7 @@ void check_design(const CaseTable& table, const BatchOptions& o) {
         return;
     if (table_inputs(table).empty())
         throw InputError("design: a Saltelli design needs uncertain inputs, and the case table "
-                         "has no '_sigma' or '_lnsigma' column");
+                         "has no '_sigma', '_lnsigma' or '_sigma_upper' column");
     if (o.samples == 0)
         throw InputError("samples: a Saltelli design needs base rows (> 0), got 0");
 }

@@ -39,4 +39,14 @@ double CounterRng::normal() {
     return std::sqrt(-2.0 * std::log(u1)) * std::cos(2.0 * constants::pi * u2);
 }
 
+double CounterRng::split_normal(double mode, double lower, double upper) {
+    const double total = lower + upper;
+    if (!(total > 0.0))
+        return mode;
+    // The two halves share the density's value at the mode, so each holds its width's share.
+    const bool below = uniform() * total < lower;
+    const double z = std::abs(normal());
+    return below ? mode - lower * z : mode + upper * z;
+}
+
 } // namespace exosieve

@@ -6,6 +6,7 @@ Astropy quantities are accepted where astropy is installed.
 
 from . import constants, results
 from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
+from .archive import ArchiveCases, archive_cases, read_archive
 from .batch import Comparison, Interrupted, compare, open_comparison
 from .diffusion import (
     DiffusionPair,
@@ -107,6 +108,9 @@ __all__ = [
     "Comparison",
     "Interrupted",
     "open_comparison",
+    "archive_cases",
+    "read_archive",
+    "ArchiveCases",
     "SobolIndices",
     "saltelli_inputs",
     "sobol_indices",

@@ -57,7 +57,7 @@ from numpy.typing import NDArray
 from . import _core
 from . import constants as c
 from ._arrays import real_number, to_si, whole_number
-from .catalogue import UNITS, CaseTable, _si_unit, given_units, load_cases
+from .catalogue import UNITS, CaseTable, _si_unit, given_units, load_cases, width_column
 from .model import REGIMES, as_thresholds
 
 __all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
@@ -631,13 +631,13 @@ def _variable_specs(samples: int, inputs: int) -> list[tuple[str, type, list[str
 
 def table_inputs(columns: Sequence[str]) -> list[str]:
     """Uncertain inputs of a table with these numeric columns: the parameters with a
-    ``_sigma`` or ``_lnsigma`` column, in column order (as the batch engine lists them)."""
-    out = []
+    ``_sigma``, ``_lnsigma`` or ``_sigma_upper``/``_sigma_lower`` column, in the order of their
+    first such column (as the batch engine lists them; a split normal's pair is one input)."""
+    out: list[str] = []
     for name in columns:
-        if name.endswith("_lnsigma"):
-            out.append(name[: -len("_lnsigma")])
-        elif name.endswith("_sigma"):
-            out.append(name[: -len("_sigma")])
+        kind, base = width_column(name)
+        if kind is not None and base not in out:
+            out.append(base)
     return out
 
 
@@ -1071,8 +1071,8 @@ def compare(
     inputs = table_inputs(list(table.columns))
     if design == "saltelli" and not inputs:
         raise ValueError(
-            "design='saltelli' needs uncertain inputs: the case table has no '_sigma' or "
-            "'_lnsigma' column"
+            "design='saltelli' needs uncertain inputs: the case table has no '_sigma', "
+            "'_lnsigma' or '_sigma_upper' column"
         )
     if design == "saltelli" and samples == 0:
         raise ValueError("design='saltelli' needs samples > 0 (base rows N), got 0")
@@ -1122,7 +1122,12 @@ def compare(
             "bad_rows": bad_rows,
             "distributions": "normal (_sigma, truncated to the allowed range) or log-normal "
             "(_lnsigma, median = value); draws from SplitMix64 streams keyed by (seed, row, "
-            "sample)",
+            "sample)"
+            + (
+                "; split normal (_sigma_upper/_sigma_lower, mode = value, truncated)"
+                if any(name.endswith("_sigma_upper") for name in table.columns)
+                else ""
+            ),
         },
         "summary": {"retain": float(retain), "percentiles": [float(q) for q in percentiles]},
     }

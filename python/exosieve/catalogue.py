@@ -3,7 +3,9 @@
 A header reads ``quantity [unit]`` (for example ``planet_mass [M_earth]``); ``_sigma`` columns
 hold one-standard-deviation uncertainties in the same unit (normal distribution),
 ``_lnsigma [1]`` columns the standard deviation of the natural logarithm (log-normal, the value
-being the median); ``x_<species>`` columns are mole fractions [1]. Files are CSV as RFC 4180
+being the median), and a pair ``_sigma_upper``/``_sigma_lower`` the widths above and below the
+value in its unit (split normal, the value being the mode: asymmetric errors such as +0.3/-0.1);
+``x_<species>`` columns are mole fractions [1]. Files are CSV as RFC 4180
 describes it (UTF-8, a byte-order mark allowed): a double-quoted field is data, whatever it
 holds (commas, ``#``, line breaks); a line whose first character is ``#`` outside any quoted
 field is a comment. An empty cell means "not given" for that row. Values are converted to SI
@@ -90,9 +92,9 @@ _HEADER = re.compile(r"^\s*([A-Za-z0-9_]+)\s*(?:\[\s*([^\]]+?)\s*\])?\s*$")
 
 
 def _si_unit(quantity: str) -> str | None:
-    """SI unit of a case quantity (or of the value behind a _sigma column); None if unknown."""
-    base = quantity[: -len("_sigma")] if quantity.endswith("_sigma") else quantity
-    if quantity.endswith("_lnsigma"):
+    """SI unit of a case quantity (or of the value behind a width column); None if unknown."""
+    kind, base = width_column(quantity)
+    if kind == "lnsigma":
         return "1"
     for name, unit, *_ in _core.case_parameters():
         if name == base:
@@ -100,6 +102,30 @@ def _si_unit(quantity: str) -> str | None:
     # Per species: the longest prefix that matches (given_loss_exponent_H is an exponent).
     matches = [(len(prefix), unit) for prefix, unit in _SPECIES_UNITS if base.startswith(prefix)]
     return max(matches)[1] if matches else None
+
+
+#: Suffixes of the width (uncertainty) columns, longest first, and the kind each names.
+WIDTH_SUFFIXES: tuple[tuple[str, str], ...] = (
+    ("_sigma_upper", "sigma_upper"),
+    ("_sigma_lower", "sigma_lower"),
+    ("_lnsigma", "lnsigma"),
+    ("_sigma", "sigma"),
+)
+
+
+def width_column(name: str) -> tuple[str | None, str]:
+    """The kind of width column ``name`` is (``"sigma"``, ``"lnsigma"``, ``"sigma_upper"``,
+    ``"sigma_lower"``, or None for a value column) and the quantity it belongs to.
+
+    Examples
+    --------
+    >>> width_column("planet_mass_sigma_upper"), width_column("x_He")
+    (('sigma_upper', 'planet_mass'), (None, 'x_He'))
+    """
+    for suffix, kind in WIDTH_SUFFIXES:
+        if name.endswith(suffix) and len(name) > len(suffix):
+            return kind, name[: -len(suffix)]
+    return None, name
 
 
 def species_columns() -> list[tuple[str, str, str, bool, bool]]:
@@ -152,6 +178,9 @@ def case_columns() -> list[tuple[str, str, str, bool, bool]]:
     Returns
     -------
     list of (name, SI unit, meaning, required, may have an uncertainty)
+        An uncertainty is a column ``<name>_sigma`` (normal, in the unit of the value),
+        ``<name>_lnsigma [1]`` (log-normal) or the pair ``<name>_sigma_upper``,
+        ``<name>_sigma_lower`` (split normal, widths above and below the value).
         Besides these: the text columns of :func:`text_columns` and the per-species columns
         of :func:`species_columns`: ``x_<species>`` bulk (well-mixed) mole fractions [1]
         (summing to 1 within 1e-3; the shares of the inventory), ``exobase_x_<species>`` the
@@ -345,7 +374,7 @@ class _Reader:
             else:
                 self.numbers[name] = _Column(capacity)
                 self.table.units[name] = unit or "1"
-            if name.startswith("x_") and not name.endswith(("_sigma", "_lnsigma")):
+            if name.startswith("x_") and width_column(name)[0] is None:
                 try:
                     _species(name[2:])  # unknown species: ValueError with the closest names
                 except ValueError as err:

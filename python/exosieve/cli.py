@@ -347,7 +347,7 @@ def _columns(args: argparse.Namespace) -> int:
         for name in names:
             _, unit, meaning, required, uncertain = rows[name]
             flags = ("required" if required else "optional") + (
-                ", may have _sigma/_lnsigma" if uncertain else ""
+                ", may have _sigma/_lnsigma/_sigma_upper+_sigma_lower" if uncertain else ""
             )
             print(f"  {name:30s} [{unit}]  {meaning} ({flags})")
     print(
@@ -508,6 +508,49 @@ def _invert(args: argparse.Namespace) -> int:
             writer.writerows(rows)
         print(f"wrote {Path(args.csv).resolve()}")
     return 3 if unsolved else 0
+
+
+def _from_archive(args: argparse.Namespace) -> int:
+    from .archive import archive_cases
+    from .constants import R_EARTH
+
+    source, target = Path(args.archive), Path(args.output)
+    if target.exists() and target.resolve() == source.resolve():
+        raise ValueError(f"output: '{target}' is the archive table itself; choose another file")
+    if target.exists() and not args.overwrite:
+        raise ValueError(f"output: '{target}' exists; pass --overwrite to replace it")
+    converted = archive_cases(
+        source,
+        limits=args.limits,
+        radius_valley=args.radius_valley * R_EARTH,
+        exobase_temperature_factor=args.temperature_factor,
+        homopause_scale_heights=args.homopause_scale_heights,
+    )
+    print(converted.report())
+    converted.to_csv(target)
+    print(f"wrote {target.resolve()}")
+    return 0
+
+
+def _map(args: argparse.Namespace) -> int:
+    try:
+        import matplotlib
+    except ImportError:
+        print("exosieve: error: 'map' needs matplotlib (pip install matplotlib)", file=sys.stderr)
+        return 2
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from .batch import open_comparison
+    from .plot import retention_map
+
+    result = open_comparison(args.result)
+    fig = retention_map(result, args.cases, species=args.species, x=args.x, retain=args.retain)
+    fig.savefig(args.output, dpi=args.dpi)
+    plt.close(fig)
+    print(f"wrote {Path(args.output).resolve()}")
+    return 0
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -937,6 +980,77 @@ def build_parser() -> argparse.ArgumentParser:
         "--seed", type=int, default=0, help="seed of the Monte Carlo draws (default: %(default)s)"
     )
     demo.set_defaults(run=_demo)
+
+    archive = commands.add_parser(
+        "from-archive",
+        help="turn an exoplanet archive's planetary-systems CSV into a case table",
+        description="Read ARCHIVE (the planetary-systems layout: '#' comment lines, a header, "
+        "pl_name, pl_bmasse, pl_rade, pl_orbsmax, st_mass, st_lum, st_age, pl_eqt with their "
+        "err1/err2/lim columns) and write a case table of thermosphere rows: errors as "
+        "split-normal widths, defaults for what archives do not carry (exobase temperature, "
+        "homopause, composition by planet class, inventory; see the README). Prints every "
+        "limited, dropped and defaulted row.",
+    )
+    archive.add_argument("archive", help="the archive's CSV file")
+    archive.add_argument("-o", "--output", required=True, help="case-table CSV to write")
+    archive.add_argument("--overwrite", action="store_true", help="replace OUTPUT if it exists")
+    archive.add_argument(
+        "--limits",
+        choices=("drop", "bound"),
+        default="drop",
+        help="rows whose value is only a limit (lim = +-1): leave out, or keep with the limit "
+        "as the value (default: %(default)s)",
+    )
+    archive.add_argument(
+        "--radius-valley",
+        type=float,
+        default=1.7,
+        metavar="R_EARTH",
+        help="rocky below this radius, gas-rich at or above [R_earth] (default: %(default)s)",
+    )
+    archive.add_argument(
+        "--temperature-factor",
+        type=float,
+        default=4.0,
+        help="exobase temperature over the equilibrium temperature [1] (default: %(default)s)",
+    )
+    archive.add_argument(
+        "--homopause-scale-heights",
+        type=float,
+        default=13.0,
+        help="homopause altitude in scale heights k T_eq / (m g) [1] (default: %(default)s)",
+    )
+    archive.set_defaults(run=_from_archive)
+
+    retention = commands.add_parser(
+        "map",
+        help="draw a retention map (radius or mass against instellation) to PNG",
+        description="One panel per species: each case of RESULT placed by its planet radius "
+        "[R_earth] (or mass [M_earth]) and its instellation [W m-2] from CASES (the case table "
+        "the sweep ran), coloured by the probability of keeping the species [1].",
+    )
+    retention.add_argument("result", help="HDF5 file written by 'exosieve sweep'")
+    retention.add_argument("cases", help="the case table the sweep ran")
+    retention.add_argument(
+        "-o", "--output", default="exosieve-map.png", help="PNG file (default: %(default)s)"
+    )
+    retention.add_argument(
+        "--x", choices=("radius", "mass"), default="radius", help="horizontal axis"
+    )
+    retention.add_argument(
+        "--species", type=_names, default=None, metavar="A,B,...", help="only these species"
+    )
+    retention.add_argument(
+        "--retain",
+        type=float,
+        default=None,
+        metavar="FRACTION",
+        help="kept = more than this fraction left [1] (default: the sweep's)",
+    )
+    retention.add_argument(
+        "--dpi", type=int, default=120, help="resolution [dots per inch] (default: %(default)s)"
+    )
+    retention.set_defaults(run=_map)
     return parser
 
 

@@ -600,3 +600,176 @@ def sensitivity_chart(
         ax.set_title(title, fontsize="medium")
     axes[0].legend(fontsize="small", loc="best", title=f"{level:g} % intervals")
     return axes
+
+
+def retention_map(
+    comparison: Any,
+    cases: Any,
+    species: Sequence[str] | None = None,
+    x: str = "radius",
+    retain: float | None = None,
+    fig: Any = None,
+) -> Any:
+    """Retention across a catalogue: one panel per species placing each case by its planet
+    radius [R_earth] (or mass [M_earth]) and its instellation ``L / (4 pi a^2)`` [W m-2], both
+    on log axes, coloured by the probability of keeping more than ``retain`` of the species'
+    inventory [1] (with Monte Carlo samples; without them 1 or 0 from the nominal run).
+
+    Cases without a star (no instellation) or without a result for the species are left out
+    and counted in the panel's title; a species no case can be placed for gets no panel.
+
+    Parameters
+    ----------
+    comparison : Comparison
+        From :func:`exosieve.compare` or :func:`exosieve.open_comparison`.
+    cases : str, Path, pandas.DataFrame or CaseTable
+        The case table the comparison was run on (its fingerprint must match), for the
+        instellation (``star_luminosity``, ``semi_major_axis``).
+    species : sequence of str, optional
+        Species to draw (default: every species some case can be placed for).
+    x : {"radius", "mass"}
+        The horizontal axis: planet radius [R_earth] or planet mass [M_earth].
+    retain : float, optional
+        Retained-fraction threshold [1] (default: the run's).
+    fig : matplotlib Figure, optional
+        Where to draw (a new one by default).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        One scatter per panel; its colour values (``get_array()``) are the probabilities of
+        the cases drawn, in table order.
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.colors import Normalize
+    from matplotlib.ticker import FuncFormatter
+
+    from .catalogue import load_cases
+    from .constants import M_EARTH, R_EARTH
+
+    if x not in ("radius", "mass"):
+        raise ValueError(f"x must be 'radius' or 'mass', got {x!r}")
+    table = load_cases(cases)
+    expected = comparison.config.get("table", {}).get("sha256")
+    if expected is not None and table.fingerprint() != expected:
+        raise ValueError(
+            f"cases: the table {table.source!r} is not the one the comparison was run on "
+            "(its fingerprint differs)"
+        )
+    summary = comparison.summary if retain is None else comparison.summarize(retain=retain)
+    retain = float(summary.attrs["retain"])
+    with_samples = comparison.samples > 0 and "probability_retained" in summary
+    rows = np.asarray(comparison["row"], dtype=np.int64)
+    n_table = len(table)
+    if rows.size and int(rows.max()) >= n_table:
+        raise ValueError(
+            f"cases: the table has {n_table} rows, the comparison has row {int(rows.max())}"
+        )
+
+    def column(name: str) -> Any:
+        values = table.columns.get(name)
+        return values[rows] if values is not None else np.full(len(rows), np.nan)
+
+    with np.errstate(invalid="ignore", divide="ignore"):
+        flux = column("star_luminosity") / (4.0 * np.pi * column("semi_major_axis") ** 2)
+    name_si, scale, label = (
+        ("planet_radius", R_EARTH, "planet radius [R$_\\oplus$]")
+        if x == "radius"
+        else ("planet_mass", M_EARTH, "planet mass [M$_\\oplus$]")
+    )
+    position = np.where(
+        np.isfinite(column(name_si)), column(name_si), np.asarray(comparison[name_si], float)
+    )
+    position = position / scale
+    names = list(comparison.species)
+    present = np.asarray(comparison["mole_fraction"]) > 0.0
+    placed = np.isfinite(flux) & (flux > 0.0) & np.isfinite(position) & (position > 0.0)
+    value_column = "probability_retained" if with_samples else "retained"
+    index = summary.set_index(["row", "species"])[value_column]
+
+    def values_of(name: str) -> Any:
+        j = names.index(name)
+        out = np.full(len(rows), np.nan)
+        here = np.nonzero(present[:, j])[0]
+        keys = [(int(rows[k]), name) for k in here]
+        if keys:
+            got = index.reindex(keys).to_numpy(dtype=float)
+            out[here] = got
+        if not with_samples:  # a failed nominal run has no result, not "lost"
+            error = np.asarray(comparison["error"], dtype=object) != ""
+            out[error] = np.nan
+        return out
+
+    for name in species or []:
+        if name not in names:
+            raise ValueError(f"species '{name}' is not in the comparison (have {names})")
+    chosen = [
+        name
+        for name in (names if species is None else list(species))
+        if (placed & np.isfinite(values_of(name))).any()
+    ]
+    if not chosen:
+        raise ValueError(
+            "no case to draw: none has a star (star_luminosity, semi_major_axis) and a result "
+            + (f"for {list(species)}" if species else "")
+        )
+    columns = min(3, len(chosen))
+    panel_rows = -(-len(chosen) // columns)
+    if fig is None:
+        fig = plt.figure(figsize=(4.2 * columns + 1.0, 3.6 * panel_rows), layout="constrained")
+    axes = np.atleast_1d(fig.subplots(panel_rows, columns, squeeze=False)).ravel()
+    for ax in axes[len(chosen) :]:
+        ax.remove()  # no empty panels
+    axes = axes[: len(chosen)]
+    colour_map = plt.get_cmap("viridis")
+    norm = Normalize(0.0, 1.0)
+    scatter = None
+    x_good, y_good = position[placed], flux[placed]
+    x_lim = (float(x_good.min()) / 1.4, float(x_good.max()) * 1.4)
+    y_lim = (float(y_good.min()) / 2.0, float(y_good.max()) * 2.0)
+    for ax, name in zip(axes, chosen, strict=True):
+        value = values_of(name)
+        draw = placed & np.isfinite(value)
+        left_out = int((present[:, names.index(name)] & ~draw).sum())
+        scatter = ax.scatter(
+            position[draw],
+            flux[draw],
+            c=value[draw],
+            cmap=colour_map,
+            norm=norm,
+            s=40,
+            edgecolors="k",
+            linewidths=0.5,
+            zorder=3,
+        )
+        if draw.sum() <= 20:
+            for text, xi, yi in zip(
+                np.asarray(comparison["case"], dtype=object)[draw],
+                position[draw],
+                flux[draw],
+                strict=True,
+            ):
+                ax.annotate(
+                    str(text),
+                    (xi, yi),
+                    xytext=(3, 3),
+                    textcoords="offset points",
+                    fontsize="x-small",
+                )
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        ax.xaxis.set_major_formatter(FuncFormatter(_plain))
+        ax.xaxis.set_minor_formatter(FuncFormatter(_plain_minor))
+        ax.set_xlim(*x_lim)
+        ax.set_ylim(*y_lim)
+        ax.set_xlabel(label)
+        ax.set_ylabel("instellation [W m$^{-2}$]")
+        ax.set_title(name + (f" ({left_out} not placed)" if left_out else ""))
+    what = (
+        f"probability of keeping > {retain:g} of the inventory [1]"
+        if with_samples
+        else f"kept > {retain:g} of the inventory (nominal run: 1 yes, 0 no) [1]"
+    )
+    fig.colorbar(scatter, ax=list(axes), label=what, shrink=0.85)
+    fig.suptitle(f"Retention map after {_span_text(comparison)}")
+    return fig

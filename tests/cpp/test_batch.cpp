@@ -1013,7 +1013,7 @@ TEST_CASE("batch: a Saltelli design stores each run's drawn inputs next to its o
     BatchHooks hooks;
     CHECK_THROWS_WITH_AS(run_batch(fixed, 0, 2, o, hooks),
                          "design: a Saltelli design needs uncertain inputs, and the case table has "
-                         "no '_sigma' or '_lnsigma' column",
+                         "no '_sigma', '_lnsigma' or '_sigma_upper' column",
                          InputError);
     o.samples = 0;
     CHECK_THROWS_WITH_AS(check_table(t, o),
@@ -1335,4 +1335,69 @@ TEST_CASE("case parameters: every one in exactly one group, per-species names by
     REQUIRE(find_case_parameter("given_loss_reference_flux") != nullptr);
     CHECK(find_case_parameter("given_loss_reference_flux")->unit == "W m-2");
     CHECK(find_case_parameter("given_loss_exponent_H")->unit == "1");
+}
+
+TEST_CASE("split-normal columns: drawn around the mode, one input, bad widths refused") {
+    CaseTable t = earthlike(3);
+    const double m = constants::M_earth;
+    set_column(t, "planet_mass_sigma_upper", {0.3 * m, 0.0, missing});
+    set_column(t, "planet_mass_sigma_lower", {0.1 * m, 0.0, missing});
+    // A table cannot give both a normal and a split normal for one quantity.
+    CHECK_THROWS_WITH_AS(check_table_columns(t),
+                         doctest::Contains("'planet_mass_sigma' both give the uncertainty"),
+                         InputError);
+    t.columns.erase(std::find_if(t.columns.begin(), t.columns.end(),
+                                 [](const auto& c) { return c.first == "planet_mass_sigma"; }));
+    check_table_columns(t);
+    const std::vector<std::string> inputs = table_inputs(t);
+    CHECK(std::count(inputs.begin(), inputs.end(), "planet_mass") == 1);
+    const CaseSpec spec = case_from_table(t, 0);
+    REQUIRE(spec.uncertainties.size() == 2);
+    const Uncertainty& u = spec.uncertainties[1];
+    CHECK(u.distribution == Distribution::SplitNormal);
+    CHECK(u.width == 0.3 * m);
+    CHECK(u.width_lower == 0.1 * m);
+    // Mean of the draws against the split normal's closed form mode + sqrt(2/pi) (hi - lo)
+    // (Wallis 2014, Stat. Sci. 29:106; re-derived in test_random.cpp); no truncation
+    // here: the lower tail stays far above zero.
+    const double m0 = spec.value("planet_mass");
+    const int n = 40000;
+    double sum = 0.0;
+    for (int j = 0; j < n; ++j)
+        sum += sample_case(spec, 3, static_cast<std::uint64_t>(j)).value("planet_mass");
+    const double hi = 0.3 * m, lo = 0.1 * m;
+    const double sd = std::sqrt((1 - 2 / constants::pi) * (hi - lo) * (hi - lo) + hi * lo);
+    CHECK(std::abs(sum / n - (m0 + std::sqrt(2 / constants::pi) * (hi - lo))) <
+          5 * sd / std::sqrt(n));
+    // Zero widths hold the value (an uncertainty of width 0); an empty pair draws nothing.
+    CHECK(sample_case(case_from_table(t, 1), 3, 5).value("planet_mass") ==
+          case_from_table(t, 1).value("planet_mass"));
+    CHECK(case_from_table(t, 2).uncertainties.size() == 1);
+    // One width without the other, a negative width, one column of the pair alone.
+    CaseTable half = t;
+    set_column(half, "planet_mass_sigma_lower", {missing, 0.0, missing});
+    CHECK_THROWS_WITH_AS(case_from_table(half, 0),
+                         doctest::Contains("column 'planet_mass_sigma_lower': a split normal "
+                                           "needs both widths"),
+                         InputError);
+    CaseTable negative = t;
+    set_column(negative, "planet_mass_sigma_lower", {-0.1 * m, 0.0, missing});
+    CHECK_THROWS_WITH_AS(case_from_table(negative, 0),
+                         doctest::Contains("row 1 (case 'case 0'), column "
+                                           "'planet_mass_sigma_lower': an uncertainty must be "
+                                           "finite and >= 0"),
+                         InputError);
+    CaseTable alone = t;
+    alone.columns.erase(std::find_if(alone.columns.begin(), alone.columns.end(), [](const auto& c) {
+        return c.first == "planet_mass_sigma_lower";
+    }));
+    CHECK_THROWS_WITH_AS(check_table_columns(alone),
+                         doctest::Contains("needs the column 'planet_mass_sigma_lower'"),
+                         InputError);
+    // Per-species quantities take the pair too, and the x_ column stays a species.
+    CaseTable per_species = t;
+    set_column(per_species, "x_He_sigma_upper", {0.02, 0.02, 0.02});
+    set_column(per_species, "x_He_sigma_lower", {0.01, 0.01, 0.01});
+    check_table_columns(per_species);
+    CHECK(table_species(per_species) == std::vector<std::string>{"N2", "He", "H"});
 }

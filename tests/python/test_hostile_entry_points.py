@@ -280,6 +280,18 @@ ENTRIES: dict[str, Entry] = {
         },
         None,
     ),
+    "archive_cases": (
+        lambda **k: exosieve.archive_cases(exosieve.archive.archive_sample_path(), **k),
+        {
+            "radius_valley": 1.7 * R_EARTH,
+            "exobase_temperature_factor": 4.0,
+            "homopause_density": 1e19,
+            "homopause_scale_heights": 13.0,
+            "surface_pressure": 1e5,
+            "envelope_mass_fraction": 0.01,
+        },
+        None,
+    ),
 }
 
 

@@ -16,6 +16,9 @@
 //!   (at most 1000 draws; then the sample fails).
 //! - Log-normal: ln X ~ N(ln value, s^2): the table value is the median, s the standard
 //!   deviation of ln X [1].
+//! - Split normal (asymmetric errors, e.g. +0.3/-0.1): the table value is the mode, s_lo and
+//!   s_hi the widths below and above it; with probability s_lo/(s_lo + s_hi) the draw is
+//!   value - s_lo |z|, else value + s_hi |z| (CounterRng::split_normal), truncated as the normal.
 //!
 //! Sensitivity designs (SampleDesign::Saltelli): the samples of a case form the Saltelli design
 //! of sensitivity.hpp over the table's uncertain inputs (table_inputs()), so that Sobol' indices
@@ -42,6 +45,9 @@ namespace exosieve {
 enum class Distribution : int {
     Normal = 0,    //!< width is the standard deviation, in the parameter's SI unit
     LogNormal = 1, //!< width is the standard deviation of ln X [1]; the value is the median
+    //! width is the upper and width_lower the lower width, in the parameter's SI unit; the
+    //! value is the mode
+    SplitNormal = 2,
 };
 
 //! How the Monte Carlo samples of a case are drawn.
@@ -59,7 +65,7 @@ struct CaseParameter {
     std::string unit;       //!< SI unit, e.g. "kg"
     std::string meaning;    //!< one line of documentation
     bool required = false;  //!< every case needs it (per-species: "x_" columns)
-    bool uncertain = true;  //!< a _sigma or _lnsigma column may be given
+    bool uncertain = true;  //!< a _sigma, _lnsigma or _sigma_upper/_sigma_lower pair may be given
     double lower = 0.0;     //!< smallest allowed value
     bool lower_open = true; //!< lower bound excluded
     double upper = 0.0;     //!< largest allowed value (inf: none)
@@ -69,9 +75,10 @@ struct CaseParameter {
 struct Uncertainty {
     std::string parameter;                            //!< parameter name, e.g. "planet_mass"
     Distribution distribution = Distribution::Normal; //!< shape
-    double width = 0.0;                               //!< sigma [SI] or sigma of ln X [1] (>= 0)
-    std::size_t slot = 0;                             //!< index of the value in CaseSpec::values
-    const CaseParameter* range = nullptr;             //!< the parameter's allowed range
+    double width = 0.0;       //!< sigma [SI], sigma of ln X [1], or the upper width [SI] (>= 0)
+    double width_lower = 0.0; //!< split normal: the width below the value [SI] (>= 0)
+    std::size_t slot = 0;     //!< index of the value in CaseSpec::values
+    const CaseParameter* range = nullptr; //!< the parameter's allowed range
 };
 
 //! One planet case: SI parameter values by slot, its species and their uncertainties.
@@ -190,7 +197,8 @@ const CaseParameter* find_case_parameter(const std::string& name);
 
 //! A case table in SI: numeric columns by parameter name (NaN: not given for that row), text
 //! columns, one label per row for messages. Column "<name>_sigma" holds a normal standard
-//! deviation [SI], "<name>_lnsigma" a log-normal width [1].
+//! deviation [SI], "<name>_lnsigma" a log-normal width [1], and the pair "<name>_sigma_upper",
+//! "<name>_sigma_lower" the widths above and below the value of a split normal [SI].
 struct CaseTable {
     std::vector<std::string> names;      //!< case labels, one per row
     std::vector<std::string> row_labels; //!< e.g. "line 7" or "row 3"; empty: "row <i+1>"
@@ -245,7 +253,7 @@ EvolutionConfig build_config(const CaseSpec& spec, const BatchOptions& options);
 
 //! Sample `sample` of `spec`: each uncertain parameter drawn in the order of
 //! spec.uncertainties from the stream (seed, spec.key, sample). Throws NumericalError when a
-//! truncated normal finds no allowed value in 1000 draws.
+//! truncated normal (or split normal) finds no allowed value in 1000 draws.
 CaseSpec sample_case(const CaseSpec& spec, std::uint64_t seed, std::uint64_t sample);
 
 //! Results of one chunk of consecutive cases (S species, T times, N samples; row-major).
@@ -361,8 +369,9 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
 //! Species of a table in column order ("x_<species>" columns).
 std::vector<std::string> table_species(const CaseTable& table);
 
-//! Uncertain inputs of a table: the parameters with a "_sigma" or "_lnsigma" column, in column
-//! order (e.g. "planet_mass", "x_He"). A row without a width for one of them holds it fixed.
+//! Uncertain inputs of a table: the parameters with a "_sigma", "_lnsigma" or split-normal
+//! ("_sigma_upper", "_sigma_lower") column, in the order of their first such column (e.g.
+//! "planet_mass", "x_He"). A row without a width for one of them holds it fixed.
 std::vector<std::string> table_inputs(const CaseTable& table);
 
 //! Sample runs per case: `samples` for Monte Carlo, samples (inputs + 2) for a Saltelli design

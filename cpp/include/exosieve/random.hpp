@@ -21,6 +21,13 @@ class CounterRng {
     double uniform();
     //! Standard normal N(0, 1) by the Box–Muller transform (two uniforms per draw) [1].
     double normal();
+    //! Split normal with mode `mode` and widths `lower` below and `upper` above it (both >= 0,
+    //! in the unit of `mode`): with probability lower/(lower + upper) the lower half-normal
+    //! mode - lower |z|, else the upper one mode + upper |z| (one uniform, then one normal).
+    //! Mean mode + sqrt(2/pi) (upper - lower), variance (1 - 2/pi) (upper - lower)^2 + upper
+    //! lower (the split normal's closed form, e.g. Wallis 2014, Stat. Sci. 29:106). Both widths
+    //! zero: the mode itself.
+    double split_normal(double mode, double lower, double upper);
 
   private:
     std::uint64_t state_;
