@@ -1,8 +1,8 @@
 """A sweep's results as one flat table: one row per case, headers ``quantity [unit]``.
 
 :func:`comparison_table` turns a :class:`~exosieve.Comparison` into a pandas DataFrame (and,
-with ``path``, a CSV file) laid out like a case table: the text columns ``case`` and ``error``,
-then ``row`` and every per-case number of the result file under its own name (``planet_mass
+with ``path``, a CSV file) laid out like a case table: the text columns ``case``, ``error`` (and
+with samples ``sample_error``; empty: none), then ``row`` and every per-case number of the result file under its own name (``planet_mass
 [kg]``, ``age_end [s]``, ...), then every per-species number at the end or the start of the
 run as ``<name>_<species> [unit]`` (``final_retained_fraction_N2 [1]``, ``depletion_time_He
 [s]``), as the case tables name per-species columns (``x_N2``). With Monte Carlo samples the
@@ -36,10 +36,6 @@ from typing import Any
 import numpy as np
 
 __all__ = ["comparison_table", "split_header"]
-
-# Text columns: no unit.
-_TEXT = ("case", "error")
-
 
 def split_header(header: str) -> tuple[str, str | None]:
     """``"planet_mass [kg]"`` -> ``("planet_mass", "kg")``; a header without a unit -> (it,
@@ -86,19 +82,18 @@ def comparison_table(
     if unknown:
         raise ValueError(f"species: {unknown} are not in the comparison (have {names})")
     picked = [names.index(s) for s in chosen]
-    columns: dict[str, Any] = {
-        "case": np.asarray(comparison["case"], dtype=object),
-        "error": np.asarray(comparison["error"], dtype=object),
-        "row [1]": np.asarray(comparison["row"]),
-    }
+    columns: dict[str, Any] = {"case": np.asarray(comparison["case"], dtype=object)}
+    numbers: dict[str, Any] = {"row [1]": np.asarray(comparison["row"])}
     units: dict[str, str] = {"row [1]": "1"}
     per_species: list[tuple[str, str, Any]] = []
     for name, (dims, unit, _) in comparison.variables.items():
-        if name in _TEXT:
-            continue
         if dims == ["case"]:
+            values = np.asarray(comparison[name])
+            if values.dtype.kind in "OUS":  # text (error messages): no unit
+                columns[name] = values.astype(object)
+                continue
             header = f"{name} [{unit}]"
-            columns[header] = np.asarray(comparison[name])
+            numbers[header] = values
             units[header] = unit
         elif dims == ["case", "species"]:
             per_species.append((name, unit, np.asarray(comparison[name])))
@@ -116,9 +111,9 @@ def comparison_table(
     for name, unit, values in per_species:
         for j, gas in zip(picked, chosen, strict=True):
             header = f"{name}_{gas} [{unit}]"
-            columns[header] = values[:, j]
+            numbers[header] = values[:, j]
             units[header] = unit
-    frame = pd.DataFrame(columns)
+    frame = pd.DataFrame({**columns, **numbers})
     frame.attrs["units"] = units
     if path is not None:
         frame.to_csv(Path(path), index=False, encoding="utf-8")
