@@ -685,13 +685,25 @@ def _regime_line(
     return drawn
 
 
-def _regime_legend(ax: Any, limits: tuple[float, float], drawn: Any, **legend: Any) -> None:
-    """Legend entries (grey) for the line styles of the regimes in ``drawn`` beyond Jeans."""
+def _regime_legend(
+    ax: Any, limits: tuple[float, float], drawn: Any, bulk: bool = True, **legend: Any
+) -> None:
+    """Legend entries (grey) for the line styles of the regimes in ``drawn`` beyond Jeans.
+
+    ``bulk``: each line is a gas of its own (its lambda says its regime); otherwise the lines
+    are species of a mixture, whose regime is that of the densest gas (a trace gas with a
+    small lambda still escapes molecule by molecule), so the entries say only what lambda is.
+    """
     transition, hydrodynamic = limits
     texts = {
         1: f"transition, {hydrodynamic:g} $\\leq \\lambda$ < {transition:g}",
         2: f"hydrodynamic, $\\lambda$ < {hydrodynamic:g}: Jeans not the loss",
     }
+    if not bulk:
+        texts = {
+            1: f"its $\\lambda$ in [{hydrodynamic:g}, {transition:g}): transition as a bulk gas",
+            2: f"its $\\lambda$ < {hydrodynamic:g}: hydrodynamic as a bulk gas",
+        }
     for code in sorted(set(drawn) - {0}):
         ax.plot([], [], color="0.4", ls=_REGIME_STYLES[code], label=texts[code])
     ax.legend(fontsize="small", **legend)
@@ -759,7 +771,10 @@ def case_history(
 
     Each species' retained fraction N(t)/N(start) [1] is one colour, solid while its Jeans
     parameter is at or above the transition threshold, dashed in the transition range and
-    dotted where it is hydrodynamic (the Jeans picture does not hold there). A dotted
+    dotted below the hydrodynamic threshold (the regimes it would be in as the bulk gas; the
+    run's regime is that of the densest species). A case whose bulk gas is hydrodynamic
+    without an energy-limited model (a sweep's ``hydrodynamic_unmodelled``; for an evolution,
+    a hydrodynamic regime without energy-limited loss) says so in the title. A dotted
     vertical line, labelled, marks each species' depletion time (below the depletion
     fraction, drawn as a grey horizontal line). With Monte Carlo samples (a comparison run
     with ``samples > 0``) a bar at the end age spans the ``percentiles`` of the retained
@@ -867,9 +882,12 @@ def case_history(
     # level is always on the axis, and values far below it are not stretched out.
     top.set_ylim(max(min(lowest / 3.0, fraction / 10.0), fraction * 1e-4), 2.0)
     _show_hidden(top)
-    _regime_legend(top, limits, drawn, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    _regime_legend(top, limits, drawn, bulk=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     top.set_ylabel("retained fraction N / N(start) [1]")
-    top.set_title(f"{history['name']}: what each species keeps", fontsize="medium")
+    title = f"{history['name']}: what each species keeps"
+    if history["unmodelled"]:
+        title += "\n(bulk gas hydrodynamic without an energy-limited model: not its loss)"
+    top.set_title(title, fontsize="medium")
     temperature = history["temperature"]
     bottom.plot(t, temperature, color="C3")
     if np.any(np.isfinite(temperature)):
@@ -901,6 +919,9 @@ def _case_arrays(result: Any, case: str | int | None) -> dict[str, Any]:
             "limits": _thresholds(config.get("regime_thresholds")),
             "depletion_fraction": float(config.get("depletion_fraction", 1e-3)),
             "age_end": float(result.time[-1]),
+            "unmodelled": bool(
+                np.any((np.asarray(result.regime) == 3) & (np.asarray(result.energy_limited) == 0))
+            ),
             "sample_fraction": None,
             "sample_depletion": None,
         }
@@ -954,6 +975,7 @@ def _case_arrays(result: Any, case: str | int | None) -> dict[str, Any]:
         "limits": _thresholds(options.get("regime_thresholds")),
         "depletion_fraction": float(options.get("depletion_fraction", 1e-3)),
         "age_end": float(result["age_end"][k]),
+        "unmodelled": int(result["hydrodynamic_unmodelled"][k]) == 1,
         "sample_fraction": (
             np.asarray(result["sample_retained_fraction"][k], dtype=float) if sampled else None
         ),

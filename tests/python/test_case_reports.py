@@ -229,8 +229,11 @@ def test_case_history_of_an_evolution_marks_the_transition_regime():
     styles = {ln.get_linestyle() for ln in _lines_with_data(top) if ln.get_color() == "C0"}
     assert "--" in styles
     legend = [t.get_text() for t in top.get_legend().get_texts()]
-    assert any(t.startswith("transition") for t in legend)
-    assert not any(t.startswith("hydrodynamic") for t in legend)  # not drawn, not claimed
+    # H is a trace gas here (O is the bulk): the legend says what its lambda is, not that
+    # the run left the Jeans regime; no dotted piece was drawn, so none is explained
+    assert any(t.startswith("its $\\lambda$ in [2.1, 3)") for t in legend)
+    assert not any("hydrodynamic" in t for t in legend)
+    assert "hydrodynamic" not in top.get_title()
     plt.close(fig)
 
 
