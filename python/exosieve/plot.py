@@ -874,7 +874,7 @@ def case_history(
             lw=4,
             alpha=0.5,
             label=f"{low_q:g}-{high_q:g} % of {samples.shape[0]} samples:\nleft at the end "
-            "(upright),\ndepletion time (across)",
+            "(upright),\ndepletion time of those\nthat deplete (across)",
         )
     top.set_xscale("log")
     top.set_yscale("log")
