@@ -1,13 +1,14 @@
 """A sweep's results as one flat table: one row per case, headers ``quantity [unit]``.
 
 :func:`comparison_table` turns a :class:`~exosieve.Comparison` into a pandas DataFrame (and,
-with ``path``, a CSV file) laid out like a case table: the text columns ``case``, ``error`` (and
-with samples ``sample_error``; empty: none), then ``row`` and every per-case number of the result file under its own name (``planet_mass
-[kg]``, ``age_end [s]``, ...), then every per-species number at the end or the start of the
-run as ``<name>_<species> [unit]`` (``final_retained_fraction_N2 [1]``, ``depletion_time_He
-[s]``), as the case tables name per-species columns (``x_N2``). With Monte Carlo samples the
-summary's ``probability_retained`` and retained-fraction percentiles follow, per species. Units
-are those of the result file's ``units`` attributes (SI, UDUNITS-2 strings). Histories (over
+with ``path``, a CSV file) laid out like a case table: the text columns ``case``, ``error``
+(and with samples ``sample_error``; empty: none), then ``row`` and every per-case number of
+the result file under its own name (``planet_mass [kg]``, ``age_end [s]``, ...), then every
+per-species number at the end or the start of the run as ``<name>_<species> [unit]``
+(``final_retained_fraction_N2 [1]``, ``depletion_time_He [s]``), as the case tables name
+per-species columns (``x_N2``). With Monte Carlo samples the summary's
+``probability_retained`` and retained-fraction percentiles follow, per species. Units are
+those of the result file's ``units`` attributes (SI, UDUNITS-2 strings). Histories (over
 ``time``) and single samples are not in it: they stay in the result file.
 
 Examples
@@ -36,6 +37,7 @@ from typing import Any
 import numpy as np
 
 __all__ = ["comparison_table", "split_header"]
+
 
 def split_header(header: str) -> tuple[str, str | None]:
     """``"planet_mass [kg]"`` -> ``("planet_mass", "kg")``; a header without a unit -> (it,

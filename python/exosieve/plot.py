@@ -111,7 +111,10 @@ def jeans_flux_vs_temperature(
     thresholds : RegimeThresholds, optional
         Regime thresholds of the Jeans parameter (default: Volkov et al. 2011).
     """
-    if not (np.isfinite(decades) and decades > 0):
+    from ._arrays import real_number
+
+    decades = real_number(decades, "decades", "1")
+    if not decades > 0:
         raise ValueError(f"decades must be finite and > 0, got {decades}")
     ax = _axes(ax)
     limits = _thresholds(thresholds)
@@ -223,7 +226,10 @@ def retention_chart(
         for value, style in levels:
             ax.plot(v, mass * (v * 1e3) ** 2 / (2.0 * K_B * value), color="0.35", ls=style, lw=1)
         # Where the Jeans picture fails (above the lines: hotter, lambda smaller), shaded.
-        for value, shade in ((thresholds["transition"], "0.9"), (thresholds["hydrodynamic"], "0.8")):
+        for value, shade in (
+            (thresholds["transition"], "0.9"),
+            (thresholds["hydrodynamic"], "0.8"),
+        ):
             line = mass * (v * 1e3) ** 2 / (2.0 * K_B * value)
             ax.fill_between(v, line, t_hi * 10.0, color=shade, lw=0, zorder=0)
         here = ok & present[:, j]
@@ -280,14 +286,15 @@ def retention_chart(
         ax.set_title(title)
     for ax in axes[len(chosen) :]:
         ax.set_visible(False)
-    handles = [
+    handles: list[Any] = [
         Line2D([], [], color="0.35", ls=style, label=f"$\\lambda$ = {value:g}")
         for value, style in levels
     ]
     handles += [
         Patch(
-            color="0.9", label=f"transition, {thresholds['hydrodynamic']:g} < $\\lambda$ < "
-            f"{thresholds['transition']:g}"
+            color="0.9",
+            label=f"transition, {thresholds['hydrodynamic']:g} < $\\lambda$ < "
+            f"{thresholds['transition']:g}",
         ),
         Patch(
             color="0.8",
@@ -813,12 +820,20 @@ def case_history(
         chosen = [str(s) for s in species]
         unknown = [s for s in chosen if s not in names or not history["present"][names.index(s)]]
         if unknown:
-            raise ValueError(f"species {unknown} are not in case {history['name']!r} (have {names})")
+            raise ValueError(
+                f"species {unknown} are not in case {history['name']!r} (have {names})"
+            )
     if not chosen:
         raise ValueError(f"case {history['name']!r} has no species to draw")
-    low_q, high_q = (float(q) for q in percentiles)
+    from ._arrays import real_number
+
+    if len(percentiles) != 2:
+        raise ValueError(f"percentiles must be two numbers [%], got {percentiles!r}")
+    low_q, high_q = (real_number(q, "percentiles", "%") for q in percentiles)
     if not 0.0 <= low_q < high_q <= 100.0:
-        raise ValueError(f"percentiles must be two increasing values in [0, 100], got {percentiles}")
+        raise ValueError(
+            f"percentiles must be two increasing values in [0, 100], got {percentiles}"
+        )
     if fig is None:
         fig = plt.figure(figsize=(9.0, 6.2), layout="constrained")
     top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=(3.0, 1.3))
@@ -904,8 +919,10 @@ def _case_arrays(result: Any, case: str | int | None) -> dict[str, Any]:
         initial = np.asarray(result.initial_inventory, dtype=float)
         retained = np.asarray(result.inventory.values, dtype=float) / initial
         depletion = np.array(
-            [np.nan if result.depletion_time[s] is None else result.depletion_time[s]
-             for s in result.species]
+            [
+                np.nan if result.depletion_time[s] is None else result.depletion_time[s]
+                for s in result.species
+            ]
         )
         return {
             "name": case if isinstance(case, str) else "evolve() run",

@@ -165,7 +165,7 @@ def test_case_history_draws_the_case_from_the_file(sweep):
     assert bottom.get_xlabel() == "stellar age [Gyr]"
     k = result.cases.index("Ithrel b")
     legend = [t.get_text() for t in top.get_legend().get_texts()]
-    present = [s for s, x in zip(result.species, result["mole_fraction"][k]) if x > 0]
+    present = [s for s, x in zip(result.species, result["mole_fraction"][k], strict=True) if x > 0]
     assert [t for t in legend if t in result.species] == present
     # the H line is the file's retained fraction (solid and other pieces together)
     j = result.species.index("H")
@@ -177,7 +177,9 @@ def test_case_history_draws_the_case_from_the_file(sweep):
     assert np.allclose(drawn[grid][ok], expected[ok], rtol=1e-12)
     # each depletion time is a vertical line with its label
     depleted = [
-        s for s, t in zip(result.species, result["depletion_time"][k]) if math.isfinite(t)
+        s
+        for s, t in zip(result.species, result["depletion_time"][k], strict=True)
+        if math.isfinite(t)
     ]
     assert depleted  # Ithrel b loses its hydrogen
     texts = [t.get_text() for t in top.texts]
