@@ -291,3 +291,34 @@ def test_depletion_markers_are_labelled():
     x = [ln.get_xdata()[0] for ln in ax.get_lines() if ln.get_linestyle() == ":"]
     assert np.allclose(x, run.depletion_time["H"] / GYR)
     plt.close("all")
+
+
+def test_case_history_says_when_the_bulk_gas_is_hydrodynamic_and_unmodelled():
+    # A hydrogen world at lambda = 1.5 (below the hydrodynamic threshold 2.1) with no
+    # energy-limited model: its Jeans loss is not its loss, and the title says so.
+    planet = exosieve.Planet(0.1 * M_EARTH, 0.5 * R_EARTH)
+    radius = 0.5 * R_EARTH + 300e3
+    temperature = float(exosieve.jeans_parameter(1000.0, "H", planet.mass, radius)) * 1000 / 1.5
+    exobase = exosieve.PrescribedExobase(radius, temperature, {"H": 1e8})
+    run = exosieve.evolve(planet, exobase, {"H": 1e44}, (10 * MYR, 1 * GYR))
+    assert set(run.regime_names) == {"hydrodynamic"}
+    fig = plot.case_history(run)
+    assert "bulk gas hydrodynamic without an energy-limited model" in fig.axes[0].get_title()
+    plt.close(fig)
+    cases = pd.DataFrame(
+        {
+            "case": ["runaway", "kept"],
+            "planet_mass [M_earth]": [0.1, 1.0],
+            "planet_radius [R_earth]": [0.5, 1.0],
+            "exobase_altitude [km]": [300.0, 500.0],
+            "exobase_density [m-3]": [1e8, 1e12],
+            "exobase_temperature [K]": [temperature, 1000.0],
+            "inventory [particles]": [1e44, 1e44],
+            "x_H": [1.0, 1.0],
+        }
+    )
+    result = exosieve.compare(cases, times=4)
+    assert list(result["hydrodynamic_unmodelled"]) == [1, 0]
+    titles = [plot.case_history(result, name).axes[0].get_title() for name in ("runaway", "kept")]
+    assert "hydrodynamic" in titles[0] and "hydrodynamic" not in titles[1]
+    plt.close("all")
