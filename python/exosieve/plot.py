@@ -156,7 +156,9 @@ def retention_chart(
 
     Lines mark where the species' Jeans parameter ``lambda = m v_esc^2 / (2 k T)`` equals the
     regime thresholds of the run (Volkov et al. 2011 by default): below a line (cooler, or a
-    faster escape speed) lambda is larger. Markers: filled circles for cases that keep more than
+    faster escape speed) lambda is larger. Above the transition and hydrodynamic lines the
+    panel is shaded: there the species, were it the bulk gas, would be in that regime (a run's
+    regime is that of its densest species). Markers: filled circles for cases that keep more than
     ``retain`` of the species' inventory at the end, crosses for those that do not; with Monte
     Carlo samples the colour gives the probability of keeping it. Failed cases are left out
     (their number is in the panel title).
@@ -293,12 +295,12 @@ def retention_chart(
     handles += [
         Patch(
             color="0.9",
-            label=f"transition, {thresholds['hydrodynamic']:g} < $\\lambda$ < "
-            f"{thresholds['transition']:g}",
+            label=f"its $\\lambda$ in [{thresholds['hydrodynamic']:g}, "
+            f"{thresholds['transition']:g}): transition as a bulk gas",
         ),
         Patch(
             color="0.8",
-            label=f"hydrodynamic, $\\lambda$ < {thresholds['hydrodynamic']:g}: Jeans not the loss",
+            label=f"its $\\lambda$ < {thresholds['hydrodynamic']:g}: hydrodynamic as a bulk gas",
         ),
     ]
     handles += [
