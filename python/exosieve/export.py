@@ -66,7 +66,8 @@ def comparison_table(
         Also write the table there as CSV (UTF-8, one header line, numbers as Python writes
         them, so that ``pandas.read_csv(path)`` gives back the same values).
     species : list of str, optional
-        Species whose columns to include (default: every species of the sweep).
+        Species whose columns to include (default: every species of the sweep; one name is
+        one species).
     retain : float, optional
         Threshold of ``probability_retained`` [1] with samples (default: the run's).
 
@@ -79,7 +80,12 @@ def comparison_table(
     import pandas as pd
 
     names = list(comparison.species)
+    if isinstance(species, str):
+        species = [species]
     chosen = names if species is None else [str(s) for s in species]
+    own = getattr(comparison, "path", None)
+    if path is not None and own is not None and Path(path).resolve() == Path(own).resolve():
+        raise ValueError(f"path {str(path)!r} is the comparison's own result file; choose another")
     unknown = [s for s in chosen if s not in names]
     if unknown:
         raise ValueError(f"species: {unknown} are not in the comparison (have {names})")

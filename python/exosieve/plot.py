@@ -227,7 +227,7 @@ def retention_chart(
         mass = _species(name).mass
         for value, style in levels:
             ax.plot(v, mass * (v * 1e3) ** 2 / (2.0 * K_B * value), color="0.35", ls=style, lw=1)
-        # Where the Jeans picture fails (above the lines: hotter, lambda smaller), shaded.
+        # Where the species, as a bulk gas, would leave the Jeans regime (above the lines).
         for value, shade in (
             (thresholds["transition"], "0.9"),
             (thresholds["hydrodynamic"], "0.8"),
@@ -719,7 +719,7 @@ def _regime_legend(
 
 
 def _labelled_marker(ax: Any, x: float, text: str, color: str) -> None:
-    """A dotted vertical line at ``x`` (data) with ``text`` written along it near the top."""
+    """A dotted vertical line at ``x`` (data) with ``text`` written along it near the bottom."""
     ax.axvline(x, color=color, linestyle=":", linewidth=1)
     ax.text(
         x,
@@ -916,6 +916,8 @@ def case_history(
 
 def _case_arrays(result: Any, case: str | int | None) -> dict[str, Any]:
     """The arrays of one case of a comparison, or of an evolution result, for case_history."""
+    from .model import REGIMES
+
     if hasattr(result, "inventory"):  # an EvolutionResult
         config = result.config
         initial = np.asarray(result.initial_inventory, dtype=float)
@@ -939,7 +941,10 @@ def _case_arrays(result: Any, case: str | int | None) -> dict[str, Any]:
             "depletion_fraction": float(config.get("depletion_fraction", 1e-3)),
             "age_end": float(result.time[-1]),
             "unmodelled": bool(
-                np.any((np.asarray(result.regime) == 3) & (np.asarray(result.energy_limited) == 0))
+                np.any(
+                    (np.asarray(result.regime) == REGIMES.index("hydrodynamic"))
+                    & (np.asarray(result.energy_limited) == 0)
+                )
             ),
             "sample_fraction": None,
             "sample_depletion": None,

@@ -127,6 +127,13 @@ def test_table_with_samples_carries_probabilities_and_refuses_unknown_species(sw
     assert "retained_fraction_p95_He [1]" in frame.columns
     with pytest.raises(ValueError, match=r"species: \['Xe'\] are not in the comparison"):
         comparison_table(result, species=["Xe"])
+    one = comparison_table(result, species="He")
+    assert [c for c in one.columns if c.startswith("final_retained_fraction")] == [
+        "final_retained_fraction_He [1]"
+    ]
+    with pytest.raises(ValueError, match="is the comparison's own result file"):
+        comparison_table(result, sweep)
+    assert exosieve.open_comparison(sweep).cases == result.cases  # left alone
 
 
 def test_split_header():
