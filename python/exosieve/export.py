@@ -8,8 +8,10 @@ per-species number at the end or the start of the run as ``<name>_<species> [uni
 (``final_retained_fraction_N2 [1]``, ``depletion_time_He [s]``), as the case tables name
 per-species columns (``x_N2``). With Monte Carlo samples the summary's
 ``probability_retained`` and retained-fraction percentiles follow, per species. Units are
-those of the result file's ``units`` attributes (SI, UDUNITS-2 strings). Histories (over
-``time``) and single samples are not in it: they stay in the result file.
+those of the result file's ``units`` attributes (SI, UDUNITS-2 strings); codes keep the
+file's values (``regime_start_<species>``: -1 none, 0 jeans, 1 enhanced_jeans, 2 transition,
+3 hydrodynamic, as its ``flag_meanings`` say). Histories (over ``time``) and single samples
+are not in it: they stay in the result file.
 
 Examples
 --------
