@@ -368,8 +368,13 @@ def histories(
     ax: Any = None,
     linestyle: str = "-",
     label: str = "",
+    decades: float = 25.0,
 ) -> Any:
     """Inventory or escape-rate histories of an evolution result on log axes.
+
+    The value axis reaches at most ``decades`` decades below the largest value on the Axes
+    (a depleted species' rate can fall by hundreds); depletion times are labelled vertical
+    lines, and a line another covers is widened so that both show.
 
     Parameters
     ----------
@@ -387,7 +392,14 @@ def histories(
         Line style, to tell several runs apart on one Axes; each species keeps its colour.
     label : str, optional
         Text appended to each species name in the legend (e.g. ", run A").
+    decades : float
+        Largest span of the value axis [decades] (default 25).
     """
+    from ._arrays import real_number
+
+    decades = real_number(decades, "decades", "1")
+    if not decades > 0:
+        raise ValueError(f"decades must be finite and > 0, got {decades}")
     if quantity not in ("inventory", "escape_rate"):
         raise ValueError(f"quantity must be 'inventory' or 'escape_rate', got {quantity!r}")
     ax = _axes(ax)
@@ -409,6 +421,13 @@ def histories(
         if quantity == "inventory" and depleted is not None:
             fraction = float(result.config.get("depletion_fraction", 1e-3))
             _labelled_marker(ax, depleted / _GYR, f"{gas}{label} < {fraction:g}", color)
+    drawn = [np.asarray(ln.get_ydata(), dtype=float) for ln in ax.get_lines()]
+    positive = np.concatenate([y[np.isfinite(y) & (y > 0)] for y in drawn] + [np.zeros(0)])
+    if positive.size:
+        top = float(positive.max())
+        bottom, _ = ax.get_ylim()
+        if bottom < top / 10.0**decades:
+            ax.set_ylim(top / 10.0**decades, None)
     _show_hidden(ax)
     ax.set_xlabel("time [Gyr]")
     if quantity == "inventory":

@@ -329,3 +329,22 @@ def test_case_history_says_when_the_bulk_gas_is_hydrodynamic_and_unmodelled():
     titles = [plot.case_history(result, name).axes[0].get_title() for name in ("runaway", "kept")]
     assert "hydrodynamic" in titles[0] and "hydrodynamic" not in titles[1]
     plt.close("all")
+
+
+def test_escape_rate_axis_keeps_to_the_relevant_decades():
+    # The exobase cools from 2500 K to 300 K: O's Jeans rate falls by some hundred decades,
+    # which would squeeze H's history into a line; the axis stops 25 decades below the top.
+    planet = exosieve.Planet(M_EARTH, R_EARTH)
+    cooling = exosieve.TabulatedTemperature([10 * MYR, 1 * GYR], [2500.0, 300.0])
+    exobase = exosieve.PrescribedExobase(R_EARTH + 500e3, cooling, {"H": 1e10, "O": 1e12})
+    times = np.geomspace(10 * MYR, 4 * GYR, 40)
+    run = exosieve.evolve(
+        planet, exobase, {"H": 1e44, "O": 1e44}, (10 * MYR, 4 * GYR), t_eval=times
+    )
+    rates = run.escape_rate["O"]
+    assert np.all(rates > 0) and np.log10(rates.max() / rates.min()) > 25
+    ax = plot.histories(run, "escape_rate")
+    low, high = ax.get_ylim()
+    top = max(run.escape_rate["H"].max(), rates.max())
+    assert math.isclose(low, top / 1e25, rel_tol=1e-12) and high > top
+    plt.close("all")
