@@ -502,13 +502,24 @@ def _history(args: argparse.Namespace) -> int:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
+    import json
+
     from .batch import open_comparison
     from .plot import case_history
+    from .results import read_attribute
 
-    result = open_comparison(args.result)
-    case: str | int = args.case
-    if args.case not in result.cases and args.case.isdigit():
-        case = int(args.case)  # a row number
+    kind = json.loads(read_attribute(Path(args.result), "", "config")).get("kind")
+    result: Any
+    case: str | int | None = args.case
+    if kind == "exosieve.compare":
+        result = open_comparison(args.result)
+        if args.case is not None and args.case not in result.cases and args.case.isdigit():
+            case = int(args.case)  # a row number
+    else:  # the file of one evolve() run; --case names it in the title
+        from .result import open_result
+
+        result = open_result(args.result)
+        case = args.case or Path(args.result).stem
     fig = case_history(result, case, species=args.species)
     fig.savefig(args.output, dpi=args.dpi)
     plt.close(fig)
@@ -940,8 +951,15 @@ def build_parser() -> argparse.ArgumentParser:
         "times marked, with the exobase temperature [K] below; with samples, bars for their "
         "spread of the left fraction at the end and of the depletion time.",
     )
-    history.add_argument("result", help="HDF5 file written by 'exosieve sweep'")
-    history.add_argument("--case", required=True, help="case name, or its 0-based table row")
+    history.add_argument(
+        "result", help="HDF5 file written by 'exosieve sweep', or by EvolutionResult.to_hdf5"
+    )
+    history.add_argument(
+        "--case",
+        default=None,
+        help="case name, or its 0-based table row (default: the first; for an evolution "
+        "file: the title)",
+    )
     history.add_argument(
         "-o",
         "--output",

@@ -348,3 +348,18 @@ def test_escape_rate_axis_keeps_to_the_relevant_decades():
     top = max(run.escape_rate["H"].max(), rates.max())
     assert math.isclose(low, top / 1e25, rel_tol=1e-12) and high > top
     plt.close("all")
+
+
+def test_cli_history_of_an_evolution_file(tmp_path, capsys):
+    planet = exosieve.Planet(M_EARTH, R_EARTH)
+    exobase = exosieve.PrescribedExobase(R_EARTH + 500e3, 1500.0, {"H": 1e11, "O": 1e12})
+    run = exosieve.evolve(planet, exobase, {"H": 1e38, "O": 1e44}, (10 * MYR, 1 * GYR))
+    assert run.depletion_time["H"] is not None
+    run.to_hdf5(tmp_path / "run.h5")
+    out = tmp_path / "run.png"
+    assert main(["history", str(tmp_path / "run.h5"), "-o", str(out), "--case", "my run"]) == 0
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    reopened = exosieve.open_result(tmp_path / "run.h5")
+    fig = plot.case_history(reopened, "my run")
+    assert "H depleted" in [t.get_text() for t in fig.axes[0].texts]
+    plt.close(fig)
