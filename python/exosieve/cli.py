@@ -500,9 +500,9 @@ def _history(args: argparse.Namespace) -> int:
         print("exosieve: error: 'history' needs matplotlib", file=sys.stderr)
         return 2
     matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
     import json
+
+    import matplotlib.pyplot as plt
 
     from .batch import open_comparison
     from .plot import case_history
