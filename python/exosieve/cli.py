@@ -553,6 +553,53 @@ def _map(args: argparse.Namespace) -> int:
     return 0
 
 
+def _table(args: argparse.Namespace) -> int:
+    from .batch import open_comparison
+    from .export import comparison_table
+
+    result = open_comparison(args.result)
+    frame = comparison_table(result, args.output, species=args.species, retain=args.retain)
+    print(
+        f"wrote {Path(args.output).resolve()}: {len(frame)} cases, {frame.shape[1]} columns "
+        "(headers 'quantity [unit]', SI)"
+    )
+    return 0
+
+
+def _history(args: argparse.Namespace) -> int:
+    try:
+        import matplotlib
+    except ImportError:
+        print("exosieve: error: 'history' needs matplotlib", file=sys.stderr)
+        return 2
+    matplotlib.use("Agg")
+    import json
+
+    import matplotlib.pyplot as plt
+
+    from .batch import open_comparison
+    from .plot import case_history
+    from .results import read_attribute
+
+    kind = json.loads(read_attribute(Path(args.result), "", "config")).get("kind")
+    result: Any
+    case: str | int | None = args.case
+    if kind == "exosieve.compare":
+        result = open_comparison(args.result)
+        if args.case is not None and args.case not in result.cases and args.case.isdigit():
+            case = int(args.case)  # a row number
+    else:  # the file of one evolve() run; --case names it in the title
+        from .result import open_result
+
+        result = open_result(args.result)
+        case = args.case or Path(args.result).stem
+    fig = case_history(result, case, species=args.species)
+    fig.savefig(args.output, dpi=args.dpi)
+    plt.close(fig)
+    print(f"wrote {Path(args.output).resolve()}")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``exosieve`` command."""
     from . import __version__
@@ -948,6 +995,59 @@ def build_parser() -> argparse.ArgumentParser:
         "--csv", default=None, metavar="FILE", help="also write one line per row, SI units"
     )
     invert.set_defaults(run=_invert)
+
+    table = commands.add_parser(
+        "table",
+        help="write a result file as one CSV row per case, headers 'quantity [unit]'",
+        description="One row per case of a result file: the case's numbers (planet, exobase, "
+        "ages, ...) and each species' numbers at the start or end of the run as "
+        "'<name>_<species> [unit]' (with samples also the probability of keeping it and "
+        "percentiles of the left fraction), SI units in the headers as in the file.",
+    )
+    table.add_argument("result", help="HDF5 file written by 'exosieve sweep'")
+    table.add_argument("-o", "--output", required=True, metavar="CSV", help="CSV file to write")
+    table.add_argument(
+        "--species", type=_names, default=None, metavar="A,B,...", help="only these species"
+    )
+    table.add_argument(
+        "--retain",
+        type=float,
+        default=None,
+        metavar="FRACTION",
+        help="kept = more than this fraction left [1] (default: the sweep's)",
+    )
+    table.set_defaults(run=_table)
+
+    history = commands.add_parser(
+        "history",
+        help="draw one case's history across its species to PNG",
+        description="Retained fraction of every species of one case against stellar age [Gyr] "
+        "(log axes; dashed in the transition regime, dotted where hydrodynamic), depletion "
+        "times marked, with the exobase temperature [K] below; with samples, bars for their "
+        "spread of the left fraction at the end and of the depletion time.",
+    )
+    history.add_argument(
+        "result", help="HDF5 file written by 'exosieve sweep', or by EvolutionResult.to_hdf5"
+    )
+    history.add_argument(
+        "--case",
+        default=None,
+        help="case name, or its 0-based table row (default: the first; for an evolution "
+        "file: the title)",
+    )
+    history.add_argument(
+        "-o",
+        "--output",
+        default="exosieve-history.png",
+        help="PNG file to write (default: %(default)s)",
+    )
+    history.add_argument(
+        "--species", type=_names, default=None, metavar="A,B,...", help="only these species"
+    )
+    history.add_argument(
+        "--dpi", type=int, default=120, help="resolution [dots per inch] (default: %(default)s)"
+    )
+    history.set_defaults(run=_history)
 
     demo = commands.add_parser(
         "demo",

@@ -84,24 +84,58 @@ def jeans_flux_vs_temperature(
     planet_mass: float,
     radius: float,
     ax: Any = None,
+    decades: float = 25.0,
+    thresholds: Any = None,
 ) -> Any:
     """Jeans flux [m^-2 s^-1] of several gases against exobase temperature [K], log scale.
 
-    The Jeans parameter at the lowest and highest temperature is given in the legend.
+    The flux axis spans ``decades`` decades below the largest flux drawn; a gas whose flux
+    stays below that everywhere says so in the legend. Each line is solid where the gas's
+    Jeans parameter is at or above the transition threshold (the Jeans picture holds), dashed
+    in the transition range and dotted where the gas flows away hydrodynamically (there the
+    Jeans flux is not its loss); the legend gives each gas's Jeans parameter at the lowest and
+    highest temperature.
+
+    Parameters
+    ----------
+    temperatures : array_like
+        Exobase temperatures [K].
+    gases : sequence of str
+        Species names.
+    density, planet_mass, radius : float
+        Exobase density [m^-3], planet mass [kg], exobase radius [m].
+    ax : matplotlib Axes, optional
+        Where to draw.
+    decades : float
+        Span of the flux axis [decades] below the largest flux (default 25).
+    thresholds : RegimeThresholds, optional
+        Regime thresholds of the Jeans parameter (default: Volkov et al. 2011).
     """
+    from ._arrays import real_number
+
+    decades = real_number(decades, "decades", "1")
+    if not decades > 0:
+        raise ValueError(f"decades must be finite and > 0, got {decades}")
     ax = _axes(ax)
+    limits = _thresholds(thresholds)
     t = np.asarray(temperatures, dtype=float)
-    for gas in gases:
+    fluxes = [np.asarray(jeans_flux(density, t, gas, planet_mass, radius)) for gas in gases]
+    top = max((float(np.max(f[f > 0])) for f in fluxes if np.any(f > 0)), default=1.0)
+    floor = top / 10.0**decades
+    drawn: set[int] = set()
+    for k, (gas, flux) in enumerate(zip(gases, fluxes, strict=True)):
         lam = np.asarray(jeans_parameter(t, gas, planet_mass, radius))
-        ax.semilogy(
-            t,
-            jeans_flux(density, t, gas, planet_mass, radius),
-            label=f"{gas} (lambda {lam[0]:.0f} to {lam[-1]:.1f})",
-        )
+        label = f"{gas} (lambda {lam[0]:.3g} to {lam[-1]:.3g})"
+        if not np.any(flux >= floor):
+            label = f"{gas}: below the axis throughout"
+        shown = np.where(flux >= floor, flux, np.nan)
+        drawn |= _regime_line(ax, t, shown, lam, limits, f"C{k % 10}", label)
+    ax.set_yscale("log")
+    ax.set_ylim(floor, top * 10.0)
+    _regime_legend(ax, limits, drawn)
     ax.set_xlabel("exobase temperature [K]")
     ax.set_ylabel("Jeans flux [m$^{-2}$ s$^{-1}$]")
     ax.set_title(f"Jeans flux at n = {density:.0e} m$^{{-3}}$")
-    ax.legend(fontsize="small")
     return ax
 
 
@@ -122,7 +156,9 @@ def retention_chart(
 
     Lines mark where the species' Jeans parameter ``lambda = m v_esc^2 / (2 k T)`` equals the
     regime thresholds of the run (Volkov et al. 2011 by default): below a line (cooler, or a
-    faster escape speed) lambda is larger. Markers: filled circles for cases that keep more than
+    faster escape speed) lambda is larger. Above the transition and hydrodynamic lines the
+    panel is shaded: there the species, were it the bulk gas, would be in that regime (a run's
+    regime is that of its densest species). Markers: filled circles for cases that keep more than
     ``retain`` of the species' inventory at the end, crosses for those that do not; with Monte
     Carlo samples the colour gives the probability of keeping it. Orange squares ring the
     cases that go hydrodynamic without an energy-limited model (``hydrodynamic_unmodelled``):
@@ -146,6 +182,7 @@ def retention_chart(
     """
     import matplotlib.pyplot as plt
     from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch
     from matplotlib.ticker import FuncFormatter
 
     from .constants import K_B
@@ -193,6 +230,13 @@ def retention_chart(
         mass = _species(name).mass
         for value, style in levels:
             ax.plot(v, mass * (v * 1e3) ** 2 / (2.0 * K_B * value), color="0.35", ls=style, lw=1)
+        # Where the species, as a bulk gas, would leave the Jeans regime (above the lines).
+        for value, shade in (
+            (thresholds["transition"], "0.9"),
+            (thresholds["hydrodynamic"], "0.8"),
+        ):
+            line = mass * (v * 1e3) ** 2 / (2.0 * K_B * value)
+            ax.fill_between(v, line, t_hi * 10.0, color=shade, lw=0, zorder=0)
         here = ok & present[:, j]
         failed = int((~ok & present[:, j]).sum())
         rows_here = comparison["row"][here]
@@ -263,9 +307,20 @@ def retention_chart(
         ax.set_title(title)
     for ax in axes[len(chosen) :]:
         ax.set_visible(False)
-    handles = [
+    handles: list[Any] = [
         Line2D([], [], color="0.35", ls=style, label=f"$\\lambda$ = {value:g}")
         for value, style in levels
+    ]
+    handles += [
+        Patch(
+            color="0.9",
+            label=f"its $\\lambda$ in [{thresholds['hydrodynamic']:g}, "
+            f"{thresholds['transition']:g}): transition as a bulk gas",
+        ),
+        Patch(
+            color="0.8",
+            label=f"its $\\lambda$ < {thresholds['hydrodynamic']:g}: hydrodynamic as a bulk gas",
+        ),
     ]
     handles += [
         Line2D(
@@ -345,8 +400,13 @@ def histories(
     ax: Any = None,
     linestyle: str = "-",
     label: str = "",
+    decades: float = 25.0,
 ) -> Any:
     """Inventory or escape-rate histories of an evolution result on log axes.
+
+    The value axis reaches at most ``decades`` decades below the largest value on the Axes
+    (a depleted species' rate can fall by hundreds); depletion times are labelled vertical
+    lines, and a line another covers is widened so that both show.
 
     Parameters
     ----------
@@ -364,7 +424,14 @@ def histories(
         Line style, to tell several runs apart on one Axes; each species keeps its colour.
     label : str, optional
         Text appended to each species name in the legend (e.g. ", run A").
+    decades : float
+        Largest span of the value axis [decades] (default 25).
     """
+    from ._arrays import real_number
+
+    decades = real_number(decades, "decades", "1")
+    if not decades > 0:
+        raise ValueError(f"decades must be finite and > 0, got {decades}")
     if quantity not in ("inventory", "escape_rate"):
         raise ValueError(f"quantity must be 'inventory' or 'escape_rate', got {quantity!r}")
     ax = _axes(ax)
@@ -384,7 +451,16 @@ def histories(
         )
         depleted = result.depletion_time.get(gas)
         if quantity == "inventory" and depleted is not None:
-            ax.axvline(depleted / _GYR, color=color, linestyle=":", linewidth=1)
+            fraction = float(result.config.get("depletion_fraction", 1e-3))
+            _labelled_marker(ax, depleted / _GYR, f"{gas}{label} < {fraction:g}", color)
+    drawn = [np.asarray(ln.get_ydata(), dtype=float) for ln in ax.get_lines()]
+    positive = np.concatenate([y[np.isfinite(y) & (y > 0)] for y in drawn] + [np.zeros(0)])
+    if positive.size:
+        top = float(positive.max())
+        bottom, _ = ax.get_ylim()
+        if bottom < top / 10.0**decades:
+            ax.set_ylim(top / 10.0**decades, None)
+    _show_hidden(ax)
     ax.set_xlabel("time [Gyr]")
     if quantity == "inventory":
         ax.set_ylabel("retained fraction [1]" if relative else "inventory [particles]")
@@ -425,14 +501,21 @@ def exobase_history(result: Any, ax: Any = None) -> Any:
     """Exobase temperature [K] (left axis) and XUV flux [W m^-2] (right axis) over time."""
     ax = _axes(ax)
     t = np.asarray(result.time) / _GYR
-    ax.semilogx(t, result.exobase_temperature, color="C3", label="exobase temperature")
+    temperature = np.asarray(result.exobase_temperature, dtype=float)
+    lines = ax.semilogx(t, temperature, color="C3", label="exobase temperature")
     ax.set_xlabel("time [Gyr]")
     ax.set_ylabel("exobase temperature [K]", color="C3")
+    # Temperature from 0 K on its linear axis, the flux in the lower part of its log axis:
+    # both scale to their data, so without this the two curves lie on top of each other.
+    ax.set_ylim(0.0, 1.1 * float(np.nanmax(temperature)))
     xuv = np.asarray(result.xuv_flux, dtype=float)
-    if np.any(np.isfinite(xuv)):
+    if np.any(np.isfinite(xuv) & (xuv > 0)):
         right = ax.twinx()
-        right.loglog(t, xuv, color="C0", linestyle="--", label="XUV flux")
+        lines += right.loglog(t, xuv, color="C0", linestyle="--", label="XUV flux")
         right.set_ylabel("XUV flux at the planet [W m$^{-2}$]", color="C0")
+        low, high = float(np.nanmin(xuv[xuv > 0])), float(np.nanmax(xuv))
+        right.set_ylim(low / 2.0, high * 100.0)
+    ax.legend(handles=lines, fontsize="small", loc="upper right")
     return ax
 
 
@@ -441,6 +524,8 @@ def retention_intervals(comparison: Any, gas: str, ax: Any = None) -> Any:
 
     For each case a bar spans the 5th to 95th percentile of the retained fraction at the end
     over the samples [1] (log scale), with a dot at the median and a cross at the nominal run.
+    The axis reaches four decades below the run's depletion fraction (a labelled vertical
+    line); smaller values are drawn at its left end, marked as such.
 
     Parameters
     ----------
@@ -460,7 +545,8 @@ def retention_intervals(comparison: Any, gas: str, ax: Any = None) -> Any:
     names = [str(n) for n in comparison["case"]]
     samples = np.asarray(comparison["sample_retained_fraction"], dtype=float)[:, :, j]
     nominal = np.asarray(comparison["final_retained_fraction"], dtype=float)[:, j]
-    floor = 1e-30  # retained fractions below this are drawn at the axis floor
+    depletion = float(comparison.config["options"].get("depletion_fraction", 1e-3))
+    floor = 1e-4 * depletion  # retained fractions below this are drawn at the axis floor
     y = np.arange(len(names))
     present = ~np.all(np.isnan(samples), axis=1)
     low, mid, high = (
@@ -473,12 +559,22 @@ def retention_intervals(comparison: Any, gas: str, ax: Any = None) -> Any:
     ax.plot(mid, y[present], "o", color="C0", label="median")
     ax.plot(np.clip(nominal[present], floor, None), y[present], "x", color="k", label="nominal run")
     ax.set_xscale("log")
-    ax.set_xlim(floor / 3, 3.0)
+    ax.set_xlim(floor / 2.0, 3.0)
+    _labelled_marker(ax, depletion, f"depletion fraction {depletion:g}", "0.4")
+    for k in np.flatnonzero(low <= floor):  # at or below the floor: drawn at it, and said so
+        ax.annotate(
+            f"$\\leq${floor:.0e}",
+            (floor, y[present][k]),
+            xytext=(4, 5),
+            textcoords="offset points",
+            fontsize="x-small",
+            color="0.3",
+        )
     ax.set_yticks(y, names)
     ax.invert_yaxis()
     ax.set_xlabel(f"retained fraction of {gas} at the end [1]")
     ax.set_title(f"{gas}: Monte Carlo spread over {comparison.samples} samples per case")
-    ax.legend(fontsize="small", loc="lower left")
+    ax.legend(fontsize="small", loc="best")
     return ax
 
 
@@ -773,3 +869,365 @@ def retention_map(
     fig.colorbar(scatter, ax=list(axes), label=what, shrink=0.85)
     fig.suptitle(f"Retention map after {_span_text(comparison)}")
     return fig
+
+
+# --- regime styles, labelled markers, one case's history across species ----------------------
+
+# Line styles by regime of the Jeans parameter: holds, transition, hydrodynamic.
+_REGIME_STYLES = ("-", "--", ":")
+
+
+def _thresholds(thresholds: Any) -> tuple[float, float]:
+    """(transition, hydrodynamic) thresholds [1] from a RegimeThresholds, a dict or None."""
+    if thresholds is None:
+        from .model import RegimeThresholds
+
+        thresholds = RegimeThresholds()
+    if isinstance(thresholds, dict):
+        return float(thresholds["transition"]), float(thresholds["hydrodynamic"])
+    return float(thresholds.transition), float(thresholds.hydrodynamic)
+
+
+def _regime_line(
+    ax: Any,
+    x: Any,
+    y: Any,
+    lam: Any,
+    limits: tuple[float, float],
+    color: str,
+    label: str,
+    linewidth: float = 1.5,
+) -> Any:
+    """Draw y(x) solid where ``lam`` is at or above the transition threshold, dashed in the
+    transition range, dotted below the hydrodynamic threshold; the legend entry (``label``)
+    is a solid line of the colour. Returns the regimes drawn, as a set of 0, 1, 2."""
+    transition, hydrodynamic = limits
+    lam = np.asarray(lam, dtype=float)
+    y = np.asarray(y, dtype=float)
+    regime = np.where(lam >= transition, 0, np.where(lam >= hydrodynamic, 1, 2))
+    regime = np.where(np.isfinite(lam), regime, 0)  # no Jeans parameter: drawn as it is
+    drawn = set()
+    for code, style in enumerate(_REGIME_STYLES):
+        inside = regime == code
+        joined = inside.copy()
+        joined[1:] |= inside[:-1]  # one point more, so the pieces meet
+        if np.any(inside & np.isfinite(y)):
+            ax.plot(x, np.where(joined, y, np.nan), color=color, ls=style, lw=linewidth)
+            drawn.add(code)
+    ax.plot([], [], color=color, lw=linewidth, label=label)
+    return drawn
+
+
+def _regime_legend(
+    ax: Any, limits: tuple[float, float], drawn: Any, bulk: bool = True, **legend: Any
+) -> None:
+    """Legend entries (grey) for the line styles of the regimes in ``drawn`` beyond Jeans.
+
+    ``bulk``: each line is a gas of its own (its lambda says its regime); otherwise the lines
+    are species of a mixture, whose regime is that of the densest gas (a trace gas with a
+    small lambda still escapes molecule by molecule), so the entries say only what lambda is.
+    """
+    transition, hydrodynamic = limits
+    texts = {
+        1: f"transition, {hydrodynamic:g} $\\leq \\lambda$ < {transition:g}",
+        2: f"hydrodynamic, $\\lambda$ < {hydrodynamic:g}: Jeans not the loss",
+    }
+    if not bulk:
+        texts = {
+            1: f"its $\\lambda$ in [{hydrodynamic:g}, {transition:g}): transition as a bulk gas",
+            2: f"its $\\lambda$ < {hydrodynamic:g}: hydrodynamic as a bulk gas",
+        }
+    for code in sorted(set(drawn) - {0}):
+        ax.plot([], [], color="0.4", ls=_REGIME_STYLES[code], label=texts[code])
+    ax.legend(fontsize="small", **legend)
+
+
+def _labelled_marker(ax: Any, x: float, text: str, color: str) -> None:
+    """A dotted vertical line at ``x`` (data) with ``text`` written along it near the bottom."""
+    ax.axvline(x, color=color, linestyle=":", linewidth=1)
+    ax.text(
+        x,
+        0.03,
+        text,
+        transform=ax.get_xaxis_transform(),
+        rotation=90,
+        ha="right",
+        va="bottom",
+        fontsize="x-small",
+        color=color,
+    )
+
+
+def _show_hidden(ax: Any, tolerance: float = 0.01) -> None:
+    """Widen every line that a later one covers, so that it shows as a band around it.
+
+    Two lines with the same abscissae coincide when they differ nowhere by more than
+    ``tolerance`` of the axis' span (in decades on a log axis). Call it once the limits are
+    set.
+    """
+    lines = [ln for ln in ax.get_lines() if len(ln.get_xdata()) > 1]
+    log = ax.get_yscale() == "log"
+
+    def values(line: Any) -> Any:
+        y = np.asarray(line.get_ydata(), dtype=float)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.log10(np.where(y > 0, y, np.nan)) if log else y
+
+    ys = [values(ln) for ln in lines]
+    bottom, top = ax.get_ylim()
+    span = float(abs(np.log10(top / bottom)) if log else abs(top - bottom)) or 1.0
+    for i in range(len(lines) - 2, -1, -1):  # from the last back: widths grow downwards
+        earlier, y0 = lines[i], ys[i]
+        x0 = np.asarray(earlier.get_xdata())
+        for later, y1 in zip(lines[i + 1 :], ys[i + 1 :], strict=True):
+            x1 = np.asarray(later.get_xdata())
+            if x0.shape != x1.shape or not np.array_equal(x0, x1):
+                continue
+            both = np.isfinite(y0) & np.isfinite(y1)
+            # Covered: along at least half of the earlier line, not just where pieces meet.
+            if both.sum() < max(2, 0.5 * np.isfinite(y0).sum()):
+                continue
+            if np.max(np.abs(y0[both] - y1[both])) <= tolerance * span:
+                earlier.set_linewidth(max(earlier.get_linewidth(), later.get_linewidth() + 2.5))
+                earlier.set_alpha(0.5)
+
+
+def case_history(
+    result: Any,
+    case: str | int | None = None,
+    species: Sequence[str] | None = None,
+    percentiles: tuple[float, float] = (5.0, 95.0),
+    fig: Any = None,
+) -> Any:
+    """One case's history across its species: retained fraction against stellar age (log
+    axes), exobase temperature below.
+
+    Each species' retained fraction N(t)/N(start) [1] is one colour, solid while its Jeans
+    parameter is at or above the transition threshold, dashed in the transition range and
+    dotted below the hydrodynamic threshold (the regimes it would be in as the bulk gas; the
+    run's regime is that of the densest species). A case whose bulk gas is hydrodynamic
+    without an energy-limited model (a sweep's ``hydrodynamic_unmodelled``; for an evolution,
+    a hydrodynamic regime without energy-limited loss) says so in the title. A dotted
+    vertical line, labelled, marks each species' depletion time (below the depletion
+    fraction, drawn as a grey horizontal line). With Monte Carlo samples (a comparison run
+    with ``samples > 0``) a bar at the end age spans the ``percentiles`` of the retained
+    fraction over the samples, with the median as a dot, and a bar at the depletion fraction
+    spans the same percentiles of the depletion time over the samples that deplete: those
+    are the values the result stores per sample.
+
+    Parameters
+    ----------
+    result : Comparison or EvolutionResult
+        From :func:`exosieve.compare` / :func:`exosieve.open_comparison`, or from
+        :func:`exosieve.evolve` / :func:`exosieve.open_result`.
+    case : str or int, optional
+        For a comparison: the case name, or its table row (the variable ``row``); default:
+        the first case. For an evolution result: a name for the title.
+    species : sequence of str, optional
+        Species to draw (default: those the case has).
+    percentiles : (float, float)
+        Lower and upper percentile of the sample bars [%] (default 5 and 95).
+    fig : matplotlib Figure, optional
+        Where to draw (a new one by default).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        With two Axes: retained fraction [1] and exobase temperature [K] against stellar age
+        [Gyr].
+    """
+    import matplotlib.pyplot as plt
+
+    history = _case_arrays(result, case)
+    names = history["species"]
+    if species is None:
+        chosen = [s for s, here in zip(names, history["present"], strict=True) if here]
+    else:
+        chosen = [str(s) for s in species]
+        unknown = [s for s in chosen if s not in names or not history["present"][names.index(s)]]
+        if unknown:
+            raise ValueError(
+                f"species {unknown} are not in case {history['name']!r} (have {names})"
+            )
+    if not chosen:
+        raise ValueError(f"case {history['name']!r} has no species to draw")
+    from ._arrays import real_number
+
+    if len(percentiles) != 2:
+        raise ValueError(f"percentiles must be two numbers [%], got {percentiles!r}")
+    low_q, high_q = (real_number(q, "percentiles", "%") for q in percentiles)
+    if not 0.0 <= low_q < high_q <= 100.0:
+        raise ValueError(
+            f"percentiles must be two increasing values in [0, 100], got {percentiles}"
+        )
+    if fig is None:
+        fig = plt.figure(figsize=(9.0, 6.2), layout="constrained")
+    top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=(3.0, 1.3))
+    t = history["time"] / _GYR
+    limits = history["limits"]
+    fraction = history["depletion_fraction"]
+    drawn: set[int] = set()
+    lowest = 1.0
+    samples = history["sample_fraction"]
+    for name in chosen:
+        j = names.index(name)
+        color = f"C{j % 10}"
+        y = history["retained"][:, j]
+        y = np.where(y > 0, y, np.nan)
+        drawn |= _regime_line(top, t, y, history["jeans"][:, j], limits, color, name)
+        if np.any(np.isfinite(y)):
+            lowest = min(lowest, float(np.nanmin(y)))
+        depleted = history["depletion"][j]
+        if np.isfinite(depleted):
+            _labelled_marker(top, depleted / _GYR, f"{name} depleted", color)
+        if samples is not None:
+            values = samples[:, j]
+            values = values[np.isfinite(values)]
+            if values.size:
+                lo, mid, hi = np.percentile(values, (low_q, 50.0, high_q))
+                end = history["age_end"] / _GYR * 1.03 ** (chosen.index(name) + 1)
+                shown = np.clip([lo, mid, hi], fraction * 1e-4, None)
+                top.plot([end, end], shown[[0, 2]], color=color, lw=4, alpha=0.5)
+                top.plot(end, shown[1], "o", color=color, ms=4)
+                lowest = min(lowest, float(shown[0]))
+            times = history["sample_depletion"][:, j]
+            times = times[np.isfinite(times)]
+            if times.size:
+                lo, hi = np.percentile(times, (low_q, high_q)) / _GYR
+                top.plot([lo, hi], [fraction, fraction], color=color, lw=4, alpha=0.5)
+    top.axhline(fraction, color="0.5", lw=0.8)
+    top.annotate(
+        f"depletion fraction {fraction:g}",
+        (0.01, fraction),
+        xycoords=("axes fraction", "data"),
+        xytext=(0, -3),
+        textcoords="offset points",
+        va="top",
+        fontsize="x-small",
+        color="0.4",
+        annotation_clip=True,
+    )
+    if samples is not None:
+        top.plot(
+            [],
+            [],
+            color="0.4",
+            lw=4,
+            alpha=0.5,
+            label=f"{low_q:g}-{high_q:g} % of {samples.shape[0]} samples:\nleft at the end "
+            "(upright),\ndepletion time of those\nthat deplete (across)",
+        )
+    top.set_xscale("log")
+    top.set_yscale("log")
+    # From a decade below the depletion fraction (or the lowest value) to 2: the depletion
+    # level is always on the axis, and values far below it are not stretched out.
+    top.set_ylim(max(min(lowest / 3.0, fraction / 10.0), fraction * 1e-4), 2.0)
+    _show_hidden(top)
+    _regime_legend(top, limits, drawn, bulk=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    top.set_ylabel("retained fraction N / N(start) [1]")
+    title = f"{history['name']}: what each species keeps"
+    if history["unmodelled"]:
+        title += "\n(bulk gas hydrodynamic without an energy-limited model: not its loss)"
+    top.set_title(title, fontsize="medium")
+    temperature = history["temperature"]
+    bottom.plot(t, temperature, color="C3")
+    if np.any(np.isfinite(temperature)):
+        bottom.set_ylim(0.0, 1.15 * float(np.nanmax(temperature)))
+    bottom.set_ylabel("exobase temperature [K]")
+    bottom.set_xlabel("stellar age [Gyr]")
+    return fig
+
+
+def _case_arrays(result: Any, case: str | int | None) -> dict[str, Any]:
+    """The arrays of one case of a comparison, or of an evolution result, for case_history."""
+    from .model import REGIMES
+
+    if hasattr(result, "inventory"):  # an EvolutionResult
+        config = result.config
+        initial = np.asarray(result.initial_inventory, dtype=float)
+        retained = np.asarray(result.inventory.values, dtype=float) / initial
+        depletion = np.array(
+            [
+                np.nan if result.depletion_time[s] is None else result.depletion_time[s]
+                for s in result.species
+            ]
+        )
+        return {
+            "name": case if isinstance(case, str) else "evolve() run",
+            "species": list(result.species),
+            "present": initial > 0,
+            "time": np.asarray(result.time, dtype=float),
+            "retained": retained,
+            "jeans": np.asarray(result.jeans_parameter.values, dtype=float),
+            "depletion": depletion,
+            "temperature": np.asarray(result.exobase_temperature, dtype=float),
+            "limits": _thresholds(config.get("regime_thresholds")),
+            "depletion_fraction": float(config.get("depletion_fraction", 1e-3)),
+            "age_end": float(result.time[-1]),
+            "unmodelled": bool(
+                np.any(
+                    (np.asarray(result.regime) == REGIMES.index("hydrodynamic"))
+                    & (np.asarray(result.energy_limited) == 0)
+                )
+            ),
+            "sample_fraction": None,
+            "sample_depletion": None,
+        }
+    if not hasattr(result, "cases"):
+        raise ValueError(
+            f"result must be a Comparison or an EvolutionResult, got {type(result).__name__}"
+        )
+    names = result.cases
+    if not names:
+        raise ValueError("the comparison holds no cases")
+    if case is None:
+        k = 0
+    elif isinstance(case, (int, np.integer)) and not isinstance(case, bool):
+        rows = np.flatnonzero(np.asarray(result["row"]) == int(case))
+        if rows.size == 0:
+            raise ValueError(f"case: no row {case} in the comparison (rows 0 to {len(names) - 1})")
+        k = int(rows[0])
+    elif isinstance(case, str):
+        if case not in names:
+            raise ValueError(f"case: no case {case!r} in the comparison (have {names[:10]})")
+        k = names.index(case)
+    else:
+        raise ValueError(f"case must be a case name or a row number, got {case!r}")
+    error = str(result["error"][k])
+    if error:
+        raise ValueError(f"case {names[k]!r} did not run: {error}")
+    options = result.config.get("options", {})
+    sampled = result.samples > 0
+    # The output ages are shared by all cases; this case's own end (its final values) is
+    # added where it falls between them, so that every line reaches the end of its run.
+    time = np.asarray(result.times, dtype=float)
+    retained = np.asarray(result["retained_fraction"][k], dtype=float)
+    jeans = np.asarray(result["jeans_parameter"][k], dtype=float)
+    temperature = np.asarray(result["exobase_temperature"][k], dtype=float)
+    end = float(result["age_end"][k])
+    if np.isfinite(end) and not np.any(time == end):
+        at = int(np.searchsorted(time, end))
+        time = np.insert(time, at, end)
+        retained = np.insert(retained, at, result["final_retained_fraction"][k], axis=0)
+        jeans = np.insert(jeans, at, result["jeans_parameter_end"][k], axis=0)
+        temperature = np.insert(temperature, at, np.nan)  # not stored at the end age
+    return {
+        "name": names[k],
+        "species": list(result.species),
+        "present": np.asarray(result["mole_fraction"][k]) > 0,
+        "time": time,
+        "retained": retained,
+        "jeans": jeans,
+        "depletion": np.asarray(result["depletion_time"][k], dtype=float),
+        "temperature": temperature,
+        "limits": _thresholds(options.get("regime_thresholds")),
+        "depletion_fraction": float(options.get("depletion_fraction", 1e-3)),
+        "age_end": float(result["age_end"][k]),
+        "unmodelled": int(result["hydrodynamic_unmodelled"][k]) == 1,
+        "sample_fraction": (
+            np.asarray(result["sample_retained_fraction"][k], dtype=float) if sampled else None
+        ),
+        "sample_depletion": (
+            np.asarray(result["sample_depletion_time"][k], dtype=float) if sampled else None
+        ),
+    }
