@@ -286,14 +286,9 @@ def _sensitivity(args: argparse.Namespace) -> int:
     if args.csv:
         print(f"wrote {Path(args.csv).resolve()}")
     if args.chart:
-        try:
-            import matplotlib
-        except ImportError:
-            print("exosieve: error: --chart needs matplotlib", file=sys.stderr)
+        plt = _pyplot("--chart")
+        if plt is None:
             return 2
-        matplotlib.use("Agg")
-        import matplotlib.pyplot as plt
-
         from .plot import sensitivity_chart
 
         if shown.empty:
@@ -306,25 +301,36 @@ def _sensitivity(args: argparse.Namespace) -> int:
     return 0
 
 
-def _chart(args: argparse.Namespace) -> int:
+def _pyplot(what: str) -> Any:
+    """matplotlib.pyplot on the file-only Agg backend; None (the error said) without it."""
     try:
         import matplotlib
     except ImportError:
-        print("exosieve: error: 'chart' needs matplotlib (pip install matplotlib)", file=sys.stderr)
-        return 2
-
+        print(f"exosieve: error: {what} needs matplotlib (pip install matplotlib)", file=sys.stderr)
+        return None
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from .batch import open_comparison
-    from .plot import retention_chart
+    return plt
 
-    result = open_comparison(args.result)
-    fig = retention_chart(result, species=args.species, retain=args.retain)
+
+def _save(plt: Any, fig: Any, args: argparse.Namespace) -> int:
+    """Write ``fig`` to ``args.output`` at ``args.dpi`` and say where."""
     fig.savefig(args.output, dpi=args.dpi)
     plt.close(fig)
     print(f"wrote {Path(args.output).resolve()}")
     return 0
+
+
+def _chart(args: argparse.Namespace) -> int:
+    plt = _pyplot("'chart'")
+    if plt is None:
+        return 2
+    from .batch import open_comparison
+    from .plot import retention_chart
+
+    result = open_comparison(args.result)
+    return _save(plt, retention_chart(result, species=args.species, retain=args.retain), args)
 
 
 def _columns(args: argparse.Namespace) -> int:
@@ -533,24 +539,15 @@ def _from_archive(args: argparse.Namespace) -> int:
 
 
 def _map(args: argparse.Namespace) -> int:
-    try:
-        import matplotlib
-    except ImportError:
-        print("exosieve: error: 'map' needs matplotlib (pip install matplotlib)", file=sys.stderr)
+    plt = _pyplot("'map'")
+    if plt is None:
         return 2
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
     from .batch import open_comparison
     from .plot import retention_map
 
     result = open_comparison(args.result)
     fig = retention_map(result, args.cases, species=args.species, x=args.x, retain=args.retain)
-    fig.savefig(args.output, dpi=args.dpi)
-    plt.close(fig)
-    print(f"wrote {Path(args.output).resolve()}")
-    return 0
+    return _save(plt, fig, args)
 
 
 def _table(args: argparse.Namespace) -> int:
@@ -567,15 +564,10 @@ def _table(args: argparse.Namespace) -> int:
 
 
 def _history(args: argparse.Namespace) -> int:
-    try:
-        import matplotlib
-    except ImportError:
-        print("exosieve: error: 'history' needs matplotlib", file=sys.stderr)
+    plt = _pyplot("'history'")
+    if plt is None:
         return 2
-    matplotlib.use("Agg")
     import json
-
-    import matplotlib.pyplot as plt
 
     from .batch import open_comparison
     from .plot import case_history
@@ -593,11 +585,7 @@ def _history(args: argparse.Namespace) -> int:
 
         result = open_result(args.result)
         case = args.case or Path(args.result).stem
-    fig = case_history(result, case, species=args.species)
-    fig.savefig(args.output, dpi=args.dpi)
-    plt.close(fig)
-    print(f"wrote {Path(args.output).resolve()}")
-    return 0
+    return _save(plt, case_history(result, case, species=args.species), args)
 
 
 def build_parser() -> argparse.ArgumentParser:
