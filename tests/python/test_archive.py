@@ -405,7 +405,9 @@ def test_retention_map_colours_are_the_probabilities(sweep, converted):
 
 def test_command_line_converts_and_maps(tmp_path):
     pytest.importorskip("matplotlib")
-    env = dict(os.environ, PYTHONPATH=str(ROOT / "python"), MPLBACKEND="Agg")
+    # The child imports the package this test imports (the source tree or the installed one).
+    package_parent = str(Path(exosieve.__file__).resolve().parents[1])
+    env = dict(os.environ, PYTHONPATH=package_parent, MPLBACKEND="Agg")
     cases = tmp_path / "cases.csv"
 
     def run(*args):
