@@ -78,8 +78,7 @@ void bind_file_schema(py::module_& m) {
         "Coordinates of a sweep file (case, row, species, time, sample, input) and input_unit: "
         "dicts with name, units, long_name");
     py::list regimes;
-    for (Regime k :
-         {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition, Regime::Hydrodynamic})
+    for (Regime k : all_regimes)
         regimes.append(regime_name(k));
     m.attr("REGIMES") = py::tuple(regimes);
 }

@@ -103,8 +103,7 @@ std::vector<std::int64_t> one(std::size_t value) {
 void write_result(const EvolutionResult& r, const std::string& path) {
     const std::size_t nr = r.ratio_names.size();
     std::vector<std::string> regimes;
-    for (Regime k :
-         {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition, Regime::Hydrodynamic})
+    for (Regime k : all_regimes)
         regimes.emplace_back(regime_name(k));
     const std::map<std::string, std::size_t> sizes{{"time", r.time_count()},
                                                    {"species", r.species_count()},

@@ -12,8 +12,7 @@ void set_regime_flags(FileVariable& variable, bool with_none) {
         variable.flag_values.push_back(-1);
         variable.flag_meanings = "none";
     }
-    for (Regime k :
-         {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition, Regime::Hydrodynamic}) {
+    for (Regime k : all_regimes) {
         variable.flag_values.push_back(static_cast<std::int64_t>(k));
         variable.flag_meanings += (variable.flag_meanings.empty() ? "" : " ");
         variable.flag_meanings += regime_name(k);

@@ -24,6 +24,10 @@ enum class Regime : int {
 //! Regime name: "jeans", "enhanced_jeans", "transition" or "hydrodynamic".
 const char* regime_name(Regime regime);
 
+//! Every regime, in code order (the order of REGIMES, of the files' `escape_regime` and flags).
+inline constexpr Regime all_regimes[] = {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition,
+                                         Regime::Hydrodynamic};
+
 //! Jeans-parameter thresholds between regimes [1]. Defaults: Volkov et al. (2011, ApJL 729,
 //! L24), direct simulation Monte Carlo of a single-gas atmosphere: ~6, ~3 and ~2.1.
 struct RegimeThresholds {
