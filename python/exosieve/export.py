@@ -22,7 +22,7 @@ Examples
 ...     "case": ["warm"], "planet_mass [M_earth]": [1.0], "planet_radius [R_earth]": [1.0],
 ...     "exobase_altitude [km]": [500.0], "exobase_density [m-3]": [1e13],
 ...     "exobase_temperature [K]": [900.0], "inventory [particles]": [1e37],
-...     "x_N2": [0.75], "x_He": [0.25]})
+...     "x_N2": [0.75], "x_He": [0.25], "exobase_composition": ["bulk"]})
 >>> table = comparison_table(compare(cases, threads=1, times=4))
 >>> table.columns[:4].tolist()
 ['case', 'error', 'row [1]', 'steps [1]']
