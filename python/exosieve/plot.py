@@ -145,6 +145,14 @@ def _mass(gas: str) -> float:
     return species(gas).mass
 
 
+def _label_points(ax: Any, labels: Any, x: Any, y: Any) -> None:
+    """Write each point's label just above and right of it, small."""
+    for label, xi, yi in zip(labels, x, y, strict=True):
+        ax.annotate(
+            str(label), (xi, yi), xytext=(3, 3), textcoords="offset points", fontsize="x-small"
+        )
+
+
 def retention_chart(
     comparison: Any,
     species: Sequence[str] | None = None,
@@ -286,14 +294,7 @@ def retention_chart(
             )
             any_unmodelled = True
         if here.sum() <= 20:
-            for label, xi, yi in zip(np.asarray(comparison["case"])[here], x, y, strict=True):
-                ax.annotate(
-                    str(label),
-                    (xi, yi),
-                    xytext=(3, 3),
-                    textcoords="offset points",
-                    fontsize="x-small",
-                )
+            _label_points(ax, np.asarray(comparison["case"])[here], x, y)
         ax.set_xscale("log")
         ax.set_yscale("log")
         for axis in (ax.xaxis, ax.yaxis):
@@ -839,19 +840,9 @@ def retention_map(
             zorder=3,
         )
         if draw.sum() <= 20:
-            for text, xi, yi in zip(
-                np.asarray(comparison["case"], dtype=object)[draw],
-                position[draw],
-                flux[draw],
-                strict=True,
-            ):
-                ax.annotate(
-                    str(text),
-                    (xi, yi),
-                    xytext=(3, 3),
-                    textcoords="offset points",
-                    fontsize="x-small",
-                )
+            _label_points(
+                ax, np.asarray(comparison["case"], dtype=object)[draw], position[draw], flux[draw]
+            )
         ax.set_xscale("log")
         ax.set_yscale("log")
         ax.xaxis.set_major_formatter(FuncFormatter(_plain))
