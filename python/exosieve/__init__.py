@@ -4,7 +4,7 @@ SI units throughout: temperatures [K], masses [kg], lengths [m], densities [m^-3
 Astropy quantities are accepted where astropy is installed.
 """
 
-from . import constants, results
+from . import constants, hdf5_io
 from ._core import ExosieveError, FileError, InputError, NumericalError, __version__
 from .archive import ArchiveCases, archive_cases, read_archive
 from .batch import Comparison, Interrupted, compare, open_comparison
@@ -103,7 +103,7 @@ __all__ = [
     "InputError",
     "NumericalError",
     "FileError",
-    "results",
+    "hdf5_io",
     "compare",
     "Comparison",
     "Interrupted",

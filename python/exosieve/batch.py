@@ -459,7 +459,7 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
     Only the rows recorded as complete are read (a sweep still running, or interrupted, has
     fewer rows than its table). Arrays are read when first used.
     """
-    from .results import read_attribute, read_doubles, read_int64s, read_int_attribute, read_strings
+    from .hdf5_io import read_attribute, read_doubles, read_int64s, read_int_attribute, read_strings
 
     path = Path(path)
     try:
@@ -489,7 +489,7 @@ _ADDED_LATER.update({name: math.nan for name, *_ in _VARIABLES if "loss_share" i
 def _require_layout(path: Path) -> None:
     """Refuse a sweep file of an earlier layout (before ``Conventions``, whose ``case``
     coordinate held row numbers), naming what to do."""
-    from .results import read_attribute
+    from .hdf5_io import read_attribute
 
     try:
         layout = read_attribute(path, "", "Conventions")
@@ -505,7 +505,7 @@ def _require_layout(path: Path) -> None:
 
 def _read_variable(path: Path, name: str, rows: int, checked: bool = True) -> NDArray[Any]:
     """The first ``rows`` rows of ``name``; with ``checked``, refused if out of range."""
-    from .results import has_dataset, read_doubles, read_int64s, read_strings
+    from .hdf5_io import has_dataset, read_doubles, read_int64s, read_strings
 
     if name in _ADDED_LATER and not has_dataset(path, name):
         # A species ran where its e-folding time is a number (NaN: absent, or not run).
@@ -527,7 +527,7 @@ def _read_variable(path: Path, name: str, rows: int, checked: bool = True) -> ND
 def _existing_output(path: Path) -> tuple[dict[str, Any], int] | None:
     """The configuration and completed rows of an existing sweep file at ``path``; None when
     there is no file or an empty one. Raises for a file that is locked or not a sweep file."""
-    from .results import FileError, file_is_locked, read_attribute, read_int_attribute
+    from .hdf5_io import FileError, file_is_locked, read_attribute, read_int_attribute
 
     if not path.exists():
         return None
@@ -601,7 +601,7 @@ def check_ranges(
     inputs: int = 0,
 ) -> None:
     """Read every variable of the first ``rows`` rows of a sweep file and check its range."""
-    from .results import read_doubles
+    from .hdf5_io import read_doubles
 
     if times is None:
         times = len(read_doubles(path, "time"))
@@ -614,7 +614,7 @@ def check_ranges(
 
 
 def _damaged(message: str) -> Exception:
-    from .results import FileError
+    from .hdf5_io import FileError
 
     error: Exception = FileError(message)
     return error
@@ -664,7 +664,7 @@ def _create_file(
     samples: int,
     inputs: Sequence[str] = (),
 ) -> Any:
-    from .results import ResultAppender, ResultWriter
+    from .hdf5_io import ResultAppender, ResultWriter
 
     schema = ResultWriter(path, config)
     schema.set_attribute("Conventions", _core.RESULT_FILE_CONVENTIONS)
@@ -856,7 +856,7 @@ class _FileSink:
         source: Path | None = None,
         inputs: Sequence[str] = (),
     ) -> None:
-        from .results import ResultAppender
+        from .hdf5_io import ResultAppender
 
         self.path = path
         self.resumed = False
@@ -883,7 +883,7 @@ class _FileSink:
                     "same retain and percentiles, then summarise with others "
                     "('exosieve summary --retain ...', Comparison.summarize(retain=...))"
                 )
-            from .results import has_dataset
+            from .hdf5_io import has_dataset
 
             written = _VARIABLES + (_SAMPLE_VARIABLES if samples else [])
             missing = [v[0] for v in written if not has_dataset(path, v[0])]

@@ -570,8 +570,8 @@ def _history(args: argparse.Namespace) -> int:
     import json
 
     from .batch import open_comparison
+    from .hdf5_io import read_attribute
     from .plot import case_history
-    from .results import read_attribute
 
     kind = json.loads(read_attribute(Path(args.result), "", "config")).get("kind")
     result: Any

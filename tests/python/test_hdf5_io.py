@@ -15,7 +15,7 @@ import pytest
 import xarray as xr
 
 import exosieve
-from exosieve.results import (
+from exosieve.hdf5_io import (
     FileError,
     ResultAppender,
     ResultWriter,

@@ -17,7 +17,7 @@ import pytest
 import exosieve
 from exosieve.batch import compare, open_comparison
 from exosieve.cli import main
-from exosieve.results import (
+from exosieve.hdf5_io import (
     FileError,
     ResultAppender,
     ResultWriter,
@@ -276,7 +276,7 @@ def test_values_outside_their_range_are_refused_on_open_and_on_resume(tmp_path):
 READ_ALL = """
 import sys
 from exosieve.batch import open_comparison
-from exosieve.results import FileError
+from exosieve.hdf5_io import FileError
 for path in sys.argv[1:]:
     try:
         r = open_comparison(path)

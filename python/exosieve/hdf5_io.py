@@ -24,7 +24,7 @@ Examples
 >>> import tempfile, pathlib
 >>> import numpy as np
 >>> import xarray as xr
->>> from exosieve.results import ResultAppender, ResultWriter
+>>> from exosieve.hdf5_io import ResultAppender, ResultWriter
 >>> folder = tempfile.TemporaryDirectory()
 >>> path = pathlib.Path(folder.name) / "sweep.h5"
 >>> schema = ResultWriter(path, {"model": "demo"})
