@@ -26,10 +26,9 @@ namespace odeint = boost::numeric::odeint;
 using State = Eigen::VectorXd;
 using constants::G;
 using constants::k_B;
-using detail::json_array;
-using detail::json_number;
-using detail::json_string;
-using detail::JsonObject;
+using detail::Json;
+using detail::json_text;
+using detail::json_value;
 
 namespace {
 
@@ -994,12 +993,9 @@ SourceRate::SourceRate(std::vector<double> times, std::vector<double> rates) {
 
 std::string SourceRate::to_json() const {
     if (table_.empty())
-        return JsonObject().string("kind", "constant").number("rate_s-1", rate_).str();
-    return JsonObject()
-        .string("kind", "table")
-        .add("times_s", json_array(table_.times()))
-        .add("rates_s-1", json_array(table_.values()))
-        .str();
+        return json_text({{"kind", "constant"}, {"rate_s-1", rate_}});
+    return json_text(
+        {{"kind", "table"}, {"times_s", table_.times()}, {"rates_s-1", table_.values()}});
 }
 
 GivenLoss::GivenLoss(double rate) : kind_(Kind::Constant), rate_(rate) {
@@ -1033,22 +1029,17 @@ GivenLoss GivenLoss::xuv_power_law(double reference_rate, double reference_flux,
 std::string GivenLoss::to_json() const {
     switch (kind_) {
     case Kind::None:
-        return JsonObject().string("kind", "none").str();
+        return json_text({{"kind", "none"}});
     case Kind::Constant:
-        return JsonObject().string("kind", "constant").number("rate_s-1", rate_).str();
+        return json_text({{"kind", "constant"}, {"rate_s-1", rate_}});
     case Kind::Table:
-        return JsonObject()
-            .string("kind", "table")
-            .add("times_s", json_array(table_.times()))
-            .add("rates_s-1", json_array(table_.values()))
-            .str();
+        return json_text(
+            {{"kind", "table"}, {"times_s", table_.times()}, {"rates_s-1", table_.values()}});
     case Kind::XuvPowerLaw:
-        return JsonObject()
-            .string("kind", "xuv_power_law")
-            .number("reference_rate_s-1", rate_)
-            .number("reference_flux_W_m-2", std::exp(log_flux_ref_))
-            .number("exponent", exponent_)
-            .str();
+        return json_text({{"kind", "xuv_power_law"},
+                          {"reference_rate_s-1", rate_},
+                          {"reference_flux_W_m-2", std::exp(log_flux_ref_)},
+                          {"exponent", exponent_}});
     }
     return "null";
 }
@@ -1219,18 +1210,15 @@ std::string EvolutionConfig::to_json() const {
         } catch (const InputError&) { // an invalid envelope: validate() says why
         }
     }
-    JsonObject planet_json;
-    planet_json.number("mass_kg", mass).number("radius_m", radius);
+    Json planet_json = {{"mass_kg", mass}, {"radius_m", radius}};
     if (planet.has_star()) {
         const Star& s = planet.star();
-        planet_json.number("semi_major_axis_m", planet.semi_major_axis())
-            .add("star", JsonObject()
-                             .number("mass_kg", s.mass())
-                             .number("luminosity_W", s.luminosity())
-                             .number("xuv_saturation_ratio", s.xuv().saturation_ratio)
-                             .number("xuv_saturation_time_s", s.xuv().saturation_time)
-                             .number("xuv_decay_index", s.xuv().decay_index)
-                             .str());
+        planet_json["semi_major_axis_m"] = planet.semi_major_axis();
+        planet_json["star"] = {{"mass_kg", s.mass()},
+                               {"luminosity_W", s.luminosity()},
+                               {"xuv_saturation_ratio", s.xuv().saturation_ratio},
+                               {"xuv_saturation_time_s", s.xuv().saturation_time},
+                               {"xuv_decay_index", s.xuv().decay_index}};
     }
     std::vector<std::string> names;
     std::vector<double> masses;
@@ -1238,119 +1226,101 @@ std::string EvolutionConfig::to_json() const {
         names.push_back(s.name);
         masses.push_back(s.mass);
     }
-    JsonObject o;
-    o.string("model", "exosieve.evolve")
-        .string("version", EXOSIEVE_VERSION)
-        .add("planet", planet_json.str())
-        .add("species", json_array(names))
-        .add("species_mass_kg", json_array(masses))
-        .add("initial_inventory", json_array(initial_inventory))
-        .add("exobase", exobase ? exobase->to_json() : "null")
-        .add("exobase_temperature", temperature.to_json());
+    Json o = {{"model", "exosieve.evolve"},
+              {"version", EXOSIEVE_VERSION},
+              {"planet", planet_json},
+              {"species", names},
+              {"species_mass_kg", masses},
+              {"initial_inventory", initial_inventory},
+              {"exobase", exobase ? json_value(exobase->to_json()) : Json()},
+              {"exobase_temperature", json_value(temperature.to_json())}};
     if (!given_losses.empty()) {
-        JsonObject given;
+        Json given = Json::object();
         for (std::size_t i = 0; i < given_losses.size(); ++i)
             if (!given_losses[i].is_zero())
-                given.add(species[i].name, given_losses[i].to_json());
-        o.add("given_losses", given.str());
+                given[species[i].name] = json_value(given_losses[i].to_json());
+        o["given_losses"] = given;
     }
     if (!sources.empty()) {
-        JsonObject src;
+        Json src = Json::object();
         for (std::size_t i = 0; i < sources.size(); ++i)
             if (!sources[i].is_zero())
-                src.add(species[i].name, sources[i].to_json());
-        o.add("sources", src.str());
+                src[species[i].name] = json_value(sources[i].to_json());
+        o["sources"] = src;
     }
     if (hydrodynamic) {
         const HydrodynamicOptions& h = *hydrodynamic;
-        JsonObject diff;
+        Json diff = Json::object();
         for (const auto& [name, law] : h.diffusion)
-            diff.add(name, JsonObject()
-                               .number("coefficient_m-1_s-1", law.coefficient)
-                               .number("temperature_exponent", law.exponent)
-                               .str());
+            diff[name] = {{"coefficient_m-1_s-1", law.coefficient},
+                          {"temperature_exponent", law.exponent}};
         const char* act = h.activation == HydrodynamicActivation::Always       ? "always"
                           : h.activation == HydrodynamicActivation::Transition ? "transition"
                                                                                : "hydrodynamic";
-        JsonObject hj;
-        hj.number("efficiency", h.efficiency);
+        Json hj = {{"efficiency", h.efficiency}};
         if (h.absorption) {
             const XuvAbsorption& a = *h.absorption;
-            hj.add("absorption", JsonObject()
-                                     .number("base_density_m-3", a.base_density)
-                                     .number("cross_section_m2", a.cross_section)
-                                     .number("mean_molecular_mass_kg", a.mean_molecular_mass)
-                                     .number("temperature_K", a.temperature)
-                                     .add("chord", a.chord ? "true" : "false")
-                                     .str());
+            hj["absorption"] = {{"base_density_m-3", a.base_density},
+                                {"cross_section_m2", a.cross_section},
+                                {"mean_molecular_mass_kg", a.mean_molecular_mass},
+                                {"temperature_K", a.temperature},
+                                {"chord", a.chord}};
         } else {
             if (h.xuv_radius > 0.0 || !envelope)
-                hj.number("xuv_radius_m", h.xuv_radius > 0.0 ? h.xuv_radius : planet.radius());
+                hj["xuv_radius_m"] = h.xuv_radius > 0.0 ? h.xuv_radius : planet.radius();
             else
-                hj.string("xuv_radius", "the evolving planet radius");
+                hj["xuv_radius"] = "the evolving planet radius";
         }
         if (h.recombination)
-            hj.add("recombination_limit",
-                   JsonObject()
-                       .number("temperature_K", h.recombination->temperature)
-                       .number("recombination_coefficient_m3_s-1",
-                               h.recombination->recombination_coefficient)
-                       .number("photon_energy_J", h.recombination->photon_energy)
-                       .str());
+            hj["recombination_limit"] = {
+                {"temperature_K", h.recombination->temperature},
+                {"recombination_coefficient_m3_s-1", h.recombination->recombination_coefficient},
+                {"photon_energy_J", h.recombination->photon_energy}};
         if (h.transonic) {
-            JsonObject w;
-            w.number("temperature_K", h.transonic->temperature)
-                .number("base_density_m-3", h.transonic->base_density);
+            Json w = {{"temperature_K", h.transonic->temperature},
+                      {"base_density_m-3", h.transonic->base_density}};
             if (h.transonic->mean_molecular_mass > 0.0)
-                w.number("mean_molecular_mass_kg", h.transonic->mean_molecular_mass);
+                w["mean_molecular_mass_kg"] = h.transonic->mean_molecular_mass;
             else
-                w.string("mean_molecular_mass", "the escaping species' mass");
-            w.string("base_radius", "the planet radius");
-            hj.add("transonic_wind", w.str());
+                w["mean_molecular_mass"] = "the escaping species' mass";
+            w["base_radius"] = "the planet radius";
+            hj["transonic_wind"] = w;
         }
-        hj.add("roche_lobe", h.roche_lobe ? "true" : "false")
-            .add("drag", h.drag ? "true" : "false")
-            .string("escaping_species", h.escaping_species)
-            .string("activation", act)
-            .add("diffusion", diff.str());
-        o.add("hydrodynamic", hj.str());
+        hj["roche_lobe"] = h.roche_lobe;
+        hj["drag"] = h.drag;
+        hj["escaping_species"] = h.escaping_species;
+        hj["activation"] = act;
+        hj["diffusion"] = diff;
+        o["hydrodynamic"] = hj;
     }
     if (envelope)
-        o.add("envelope",
-              JsonObject()
-                  .number("core_mass_kg", envelope->core_mass)
-                  .number("envelope_fraction", envelope->envelope_fraction)
-                  .string("opacity",
-                          envelope->opacity == EnvelopeOpacity::Enhanced ? "enhanced" : "solar")
-                  .string("radius", "Lopez & Fortney (2014) fit")
-                  .str());
-    o.add("regime_thresholds", JsonObject()
-                                   .number("enhanced", thresholds.enhanced)
-                                   .number("transition", thresholds.transition)
-                                   .number("hydrodynamic", thresholds.hydrodynamic)
-                                   .str());
+        o["envelope"] = {
+            {"core_mass_kg", envelope->core_mass},
+            {"envelope_fraction", envelope->envelope_fraction},
+            {"opacity", envelope->opacity == EnvelopeOpacity::Enhanced ? "enhanced" : "solar"},
+            {"radius", "Lopez & Fortney (2014) fit"}};
+    o["regime_thresholds"] = {{"enhanced", thresholds.enhanced},
+                              {"transition", thresholds.transition},
+                              {"hydrodynamic", thresholds.hydrodynamic}};
     if (!tail.is_identity()) {
         if (tail.table_jeans_parameter().empty())
-            o.number("tail_depletion", tail.constant());
+            o["tail_depletion"] = tail.constant();
         else
-            o.add("tail_depletion",
-                  JsonObject()
-                      .add("jeans_parameter", json_array(tail.table_jeans_parameter()))
-                      .add("factor", json_array(tail.table_factor()))
-                      .str());
+            o["tail_depletion"] = {{"jeans_parameter", tail.table_jeans_parameter()},
+                                   {"factor", tail.table_factor()}};
     }
     std::vector<std::string> ratio_names;
     for (const auto& [a, b] : isotope_ratios)
         ratio_names.push_back(a + "/" + b);
-    o.add("t_span_s", json_array(std::vector<double>{t_start, t_end}))
-        .number("rtol", rtol)
-        .add("atol", atol.empty() ? "null" : json_array(atol))
-        .number("depletion_fraction", depletion_fraction)
-        .number("max_steps", static_cast<double>(max_steps))
-        .add("isotope_ratios", json_array(ratio_names))
-        .string("stepper", stepper_name(stepper))
-        .string("integrator", "Boost.Odeint on ln N with dense output");
-    return o.str();
+    o["t_span_s"] = {t_start, t_end};
+    o["rtol"] = rtol;
+    o["atol"] = atol.empty() ? Json() : Json(atol);
+    o["depletion_fraction"] = depletion_fraction;
+    o["max_steps"] = max_steps;
+    o["isotope_ratios"] = ratio_names;
+    o["stepper"] = stepper_name(stepper);
+    o["integrator"] = "Boost.Odeint on ln N with dense output";
+    return json_text(o);
 }
 
 std::vector<std::pair<std::string, std::string>>

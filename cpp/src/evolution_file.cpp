@@ -9,7 +9,8 @@
 
 namespace exosieve {
 
-using detail::JsonObject;
+using detail::Json;
+using detail::json_text;
 
 const std::vector<FileCoordinate>& evolution_file_coordinates() {
     static const std::vector<FileCoordinate> list{
@@ -166,16 +167,11 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     put("rhs_evaluations", one(r.rhs_evaluations));
     put("completed", one(r.completed ? 1 : 0));
     put("t_reached", std::vector<double>{r.t_reached});
-    std::string changes = "[";
-    for (std::size_t k = 0; k < r.regime_changes.size(); ++k) {
-        const RegimeChange& c = r.regime_changes[k];
-        changes += (k ? ", " : "") + JsonObject()
-                                         .number("time_s", c.time)
-                                         .string("from", regime_name(c.from))
-                                         .string("to", regime_name(c.to))
-                                         .str();
-    }
-    w.set_attribute("regime_changes", changes + "]");
+    Json changes = Json::array();
+    for (const RegimeChange& c : r.regime_changes)
+        changes.push_back(
+            {{"time_s", c.time}, {"from", regime_name(c.from)}, {"to", regime_name(c.to)}});
+    w.set_attribute("regime_changes", json_text(changes));
     w.set_attribute("title", "exosieve evolution result");
     w.set_attribute("Conventions", result_file_conventions);
     w.set_attribute("stepper", r.stepper);

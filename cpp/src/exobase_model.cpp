@@ -9,9 +9,8 @@
 
 namespace exosieve {
 
-using detail::json_array;
-using detail::json_number;
-using detail::JsonObject;
+using detail::Json;
+using detail::json_text;
 
 TimeTable::TimeTable(std::vector<double> times, std::vector<double> values, const std::string& what)
     : times_(std::move(times)), values_(std::move(values)) {
@@ -168,29 +167,24 @@ std::vector<double> ExobaseTemperature::breakpoints(const Planet& planet, double
 }
 
 std::string ExobaseTemperature::to_json() const {
-    JsonObject o;
     switch (kind_) {
     case Kind::Constant:
-        o.string("kind", "constant").number("temperature_K", constant_);
-        break;
+        return json_text({{"kind", "constant"}, {"temperature_K", constant_}});
     case Kind::Table:
-        o.string("kind", "table")
-            .add("times_s", json_array(table_.times()))
-            .add("temperatures_K", json_array(table_.values()));
-        break;
+        return json_text({{"kind", "table"},
+                          {"times_s", table_.times()},
+                          {"temperatures_K", table_.values()}});
     case Kind::XuvPowerLaw:
-        o.string("kind", "xuv_power_law")
-            .number("reference_temperature_K", t_ref_)
-            .number("reference_flux_W_m2", f_ref_)
-            .number("exponent", gamma_)
-            .number("minimum_K", t_min_)
-            .number("maximum_K", t_max_);
-        break;
+        return json_text({{"kind", "xuv_power_law"},
+                          {"reference_temperature_K", t_ref_},
+                          {"reference_flux_W_m2", f_ref_},
+                          {"exponent", gamma_},
+                          {"minimum_K", t_min_},
+                          {"maximum_K", t_max_}});
     case Kind::Callable:
-        o.string("kind", "callable").string("description", description_);
-        break;
+        return json_text({{"kind", "callable"}, {"description", description_}});
     }
-    return o.str();
+    return "null";
 }
 
 PrescribedExobase::PrescribedExobase(double radius, std::vector<std::string> species,
@@ -234,13 +228,11 @@ void PrescribedExobase::check(const Planet& planet) const {
 }
 
 std::string PrescribedExobase::to_json() const {
-    return JsonObject()
-        .string("kind", "prescribed")
-        .number("radius_m", radius_)
-        .add("species", json_array(species_))
-        .add("densities_m3", json_array(densities_))
-        .string("scaling", scaling_ == DensityScaling::Inventory ? "inventory" : "fixed")
-        .str();
+    return json_text({{"kind", "prescribed"},
+                      {"radius_m", radius_},
+                      {"species", species_},
+                      {"densities_m3", densities_},
+                      {"scaling", scaling_ == DensityScaling::Inventory ? "inventory" : "fixed"}});
 }
 
 ThermosphereExobase::ThermosphereExobase(const Thermosphere& initial,
@@ -388,23 +380,23 @@ std::string ThermosphereExobase::to_json() const {
     std::vector<double> x0;
     for (double lx : log_x0_)
         x0.push_back(std::exp(lx));
-    JsonObject o;
-    o.string("kind", "thermosphere")
-        .number("homopause_radius_m", homopause_radius_)
-        .number("homopause_density_m-3", homopause_density_)
-        .number("outer_radius_m", outer_radius_)
-        .add("species", json_array(names_))
-        .add("initial_mole_fractions", json_array(x0))
-        .string("profile", kind_ == TemperatureProfile::Kind::bates ? "bates" : "isothermal");
-    if (kind_ == TemperatureProfile::Kind::bates)
-        o.number("base_temperature_K", base_temperature_)
-            .number("shape_m-1", shape_)
-            .number("base_radius_m", base_radius_);
-    o.add("limit_by_diffusion", limit_by_diffusion_ ? "true" : "false")
-        .string("diffusion_method", diffusion_method_name(method_));
+    Json o = {{"kind", "thermosphere"},
+              {"homopause_radius_m", homopause_radius_},
+              {"homopause_density_m-3", homopause_density_},
+              {"outer_radius_m", outer_radius_},
+              {"species", names_},
+              {"initial_mole_fractions", x0},
+              {"profile", kind_ == TemperatureProfile::Kind::bates ? "bates" : "isothermal"}};
+    if (kind_ == TemperatureProfile::Kind::bates) {
+        o["base_temperature_K"] = base_temperature_;
+        o["shape_m-1"] = shape_;
+        o["base_radius_m"] = base_radius_;
+    }
+    o["limit_by_diffusion"] = limit_by_diffusion_;
+    o["diffusion_method"] = diffusion_method_name(method_);
     if (!tail_.is_identity())
-        o.string("tail_depletion", "set");
-    return o.str();
+        o["tail_depletion"] = "set";
+    return json_text(o);
 }
 
 } // namespace exosieve
