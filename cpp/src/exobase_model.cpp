@@ -171,9 +171,8 @@ std::string ExobaseTemperature::to_json() const {
     case Kind::Constant:
         return json_text({{"kind", "constant"}, {"temperature_K", constant_}});
     case Kind::Table:
-        return json_text({{"kind", "table"},
-                          {"times_s", table_.times()},
-                          {"temperatures_K", table_.values()}});
+        return json_text(
+            {{"kind", "table"}, {"times_s", table_.times()}, {"temperatures_K", table_.values()}});
     case Kind::XuvPowerLaw:
         return json_text({{"kind", "xuv_power_law"},
                           {"reference_temperature_K", t_ref_},

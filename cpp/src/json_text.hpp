@@ -17,6 +17,8 @@ inline std::string json_text(const Json& value) {
 }
 
 // A configuration already in text form (a component's to_json()), as a value to nest.
-inline Json json_value(const std::string& text) { return Json::parse(text); }
+inline Json json_value(const std::string& text) {
+    return Json::parse(text);
+}
 
 } // namespace exosieve::detail
