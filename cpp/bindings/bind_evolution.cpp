@@ -612,19 +612,22 @@ void bind_evolution(py::module_& m) {
             r.stepper = f["stepper"].cast<std::string>();
             for (const auto& c : f["regime_changes"].cast<py::list>()) {
                 const auto t = c.cast<py::tuple>();
-                auto code = [](const std::string& name) {
-                    for (int k = 0; k < 4; ++k)
-                        if (name == regime_name(static_cast<Regime>(k)))
-                            return static_cast<Regime>(k);
-                    throw InputError("unknown regime name '" + name + "'");
-                };
-                r.regime_changes.push_back({t[0].cast<double>(), code(t[1].cast<std::string>()),
-                                            code(t[2].cast<std::string>())});
+                r.regime_changes.push_back({t[0].cast<double>(),
+                                            regime_named(t[1].cast<std::string>()),
+                                            regime_named(t[2].cast<std::string>())});
             }
             py::gil_scoped_release release;
             write_result(r, path);
         },
         py::arg("path"), py::arg("fields"));
+    m.def(
+        "read_result",
+        [](const py::handle& path) {
+            const std::string p = fspath(path);
+            py::gil_scoped_release release;
+            return read_result(p);
+        },
+        py::arg("path"), "Read an evolution result file (write_result's inverse).");
 
     // Runs without the GIL. At every progress call it takes the GIL to check for signals
     // (Ctrl-C stops the run and raises KeyboardInterrupt) and to call `progress(t)`, whose

@@ -18,11 +18,6 @@ namespace {
 
 using Int64Array = py::array_t<std::int64_t, py::array::c_style | py::array::forcecast>;
 
-// str, bytes or os.PathLike -> str (file-system encoding).
-std::string fspath(const py::handle& path) {
-    return py::module_::import("os").attr("fsdecode")(path).cast<std::string>();
-}
-
 // A str is kept, anything else (a dict) is written as JSON.
 std::string config_text(const py::handle& config) {
     if (py::isinstance<py::str>(config))

@@ -17,6 +17,11 @@ namespace exosieve::bindings {
 
 namespace py = pybind11;
 
+// str, bytes or os.PathLike -> str (file-system encoding).
+inline std::string fspath(const py::handle& path) {
+    return py::module_::import("os").attr("fsdecode")(path).cast<std::string>();
+}
+
 //! A progress hook (runs done, runs total) -> keep going, for engines that run without the GIL:
 //! takes the GIL, turns a pending signal (Ctrl-C) or an exception of `on_progress` into
 //! `failure` (raised by the caller once the engine has stopped) and stops; `on_progress(done,

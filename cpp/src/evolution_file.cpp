@@ -1,7 +1,9 @@
 #include "exosieve/evolution_file.hpp"
 
 #include <cstdint>
+#include <limits>
 #include <map>
+#include <type_traits>
 
 #include "exosieve/errors.hpp"
 #include "exosieve/hdf5_io.hpp"
@@ -91,21 +93,119 @@ const std::vector<FileVariable>& evolution_file_variables() {
 
 namespace {
 
-std::vector<std::int64_t> as_int64(const std::vector<int>& values) {
-    return std::vector<std::int64_t>(values.begin(), values.end());
+constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+
+// Every variable of the list with the member of EvolutionResult that holds it: the one place
+// that pairs them, for the writer and the reader alike. `visit(name, member)`.
+template <class Result, class Visit> void for_each_variable(Result& r, Visit&& visit) {
+    visit("inventory", r.inventory);
+    visit("escape_rate", r.escape_rate);
+    visit("source_rate", r.source_rate);
+    visit("given_loss_rate", r.given_loss_rate);
+    visit("jeans_parameter", r.jeans_parameter);
+    visit("exobase_radius", r.exobase_radius);
+    visit("exobase_temperature", r.exobase_temperature);
+    visit("xuv_flux", r.xuv_flux);
+    visit("regime", r.regime);
+    visit("energy_limited", r.energy_limited);
+    visit("isotope_ratio", r.isotope_ratio);
+    visit("depletion_time", r.depletion_time);
+    visit("initial_inventory", r.initial_inventory);
+    visit("species_mass", r.species_mass);
+    visit("regime_time", r.regime_time);
+    visit("regime_loss", r.regime_loss);
+    visit("energy_limited_loss", r.energy_limited_loss);
+    visit("given_loss", r.given_loss);
+    visit("non_jeans_loss_share", r.non_jeans_loss_share);
+    visit("bulk_regime_time", r.bulk_regime_time);
+    visit("envelope_mass", r.envelope_mass);
+    visit("planet_radius", r.planet_radius);
+    visit("envelope_loss_rate", r.envelope_loss_rate);
+    visit("core_mass", r.core_mass);
+    visit("stripping_time", r.stripping_time);
+    visit("steps", r.steps);
+    visit("rejected_steps", r.rejected_steps);
+    visit("rhs_evaluations", r.rhs_evaluations);
+    visit("completed", r.completed);
+    visit("t_reached", r.t_reached);
 }
 
-std::vector<std::int64_t> one(std::size_t value) {
+// Variables that files of earlier versions lack, and what such a file stands for: no given
+// loss (0), and an unknown loss ledger (NaN).
+const std::map<std::string, double>& added_later() {
+    static const std::map<std::string, double> fill{
+        {"given_loss_rate", 0.0},     {"regime_time", nan}, {"regime_loss", nan},
+        {"energy_limited_loss", nan}, {"given_loss", nan},  {"non_jeans_loss_share", nan},
+        {"bulk_regime_time", nan},
+    };
+    return fill;
+}
+
+std::vector<std::string> regime_names() {
+    std::vector<std::string> names;
+    for (Regime k : all_regimes)
+        names.emplace_back(regime_name(k));
+    return names;
+}
+
+bool present(const FileVariable& v, std::size_t ratios, bool envelope) {
+    return !(v.present_when == "ratios" && ratios == 0) &&
+           !(v.present_when == "envelope" && !envelope);
+}
+
+std::size_t value_count(const FileVariable& v, const std::map<std::string, std::size_t>& sizes) {
+    std::size_t count = 1;
+    for (const std::string& d : v.dims)
+        count *= sizes.at(d);
+    return count;
+}
+
+// A member as the values of its dataset (float64 or int64), and back.
+const std::vector<double>& as_values(const std::vector<double>& values) {
+    return values;
+}
+std::vector<std::int64_t> as_values(const std::vector<int>& values) {
+    return std::vector<std::int64_t>(values.begin(), values.end());
+}
+std::vector<double> as_values(double value) {
+    return {value};
+}
+std::vector<std::int64_t> as_values(std::size_t value) {
     return {static_cast<std::int64_t>(value)};
+}
+std::vector<std::int64_t> as_values(bool value) {
+    return {value ? 1 : 0};
+}
+
+// The dataset `name` read as the values its member is written as.
+template <class Values> Values read_values(const std::string& path, const std::string& name) {
+    if constexpr (std::is_same_v<Values, std::vector<double>>)
+        return read_doubles(path, name);
+    else
+        return read_int64s(path, name);
+}
+
+void from_values(const std::vector<double>& values, std::vector<double>& member) {
+    member = values;
+}
+void from_values(const std::vector<std::int64_t>& values, std::vector<int>& member) {
+    member.assign(values.begin(), values.end());
+}
+void from_values(const std::vector<double>& values, double& member) {
+    member = values.at(0);
+}
+void from_values(const std::vector<std::int64_t>& values, std::size_t& member) {
+    member = static_cast<std::size_t>(values.at(0));
+}
+void from_values(const std::vector<std::int64_t>& values, bool& member) {
+    member = values.at(0) != 0;
 }
 
 } // namespace
 
 void write_result(const EvolutionResult& r, const std::string& path) {
     const std::size_t nr = r.ratio_names.size();
-    std::vector<std::string> regimes;
-    for (Regime k : all_regimes)
-        regimes.emplace_back(regime_name(k));
+    const std::vector<std::string> regimes = regime_names();
     const std::map<std::string, std::size_t> sizes{{"time", r.time_count()},
                                                    {"species", r.species_count()},
                                                    {"ratio", nr},
@@ -120,53 +220,20 @@ void write_result(const EvolutionResult& r, const std::string& path) {
             w.add_coordinate(c.name, *labels.at(c.name), c.long_name);
     }
     // Every variable of the list, with its data, or none when the run lacks its condition.
-    auto put = [&](const std::string& name, const auto& data) {
+    for_each_variable(r, [&](const std::string& name, const auto& member) {
         const FileVariable& v = find_variable(evolution_file_variables(), name);
-        if ((v.present_when == "ratios" && nr == 0) ||
-            (v.present_when == "envelope" && !r.has_envelope()))
+        if (!present(v, nr, r.has_envelope()))
             return;
-        std::size_t want = 1;
-        for (const std::string& d : v.dims)
-            want *= sizes.at(d);
-        if (data.size() != want)
+        const auto& data = as_values(member);
+        if (data.size() != value_count(v, sizes))
             throw InputError("result " + name + " has " + std::to_string(data.size()) +
-                             " values, expected " + std::to_string(want));
+                             " values, expected " + std::to_string(value_count(v, sizes)));
         w.add_variable(name, v.dims, data, v.units, v.long_name);
         if (!v.flag_values.empty()) {
             w.set_attribute(name, "flag_values", v.flag_values);
             w.set_attribute(name, "flag_meanings", v.flag_meanings);
         }
-    };
-    put("inventory", r.inventory);
-    put("escape_rate", r.escape_rate);
-    put("source_rate", r.source_rate);
-    put("given_loss_rate", r.given_loss_rate);
-    put("jeans_parameter", r.jeans_parameter);
-    put("exobase_radius", r.exobase_radius);
-    put("exobase_temperature", r.exobase_temperature);
-    put("xuv_flux", r.xuv_flux);
-    put("regime", as_int64(r.regime));
-    put("energy_limited", as_int64(r.energy_limited));
-    put("isotope_ratio", r.isotope_ratio);
-    put("depletion_time", r.depletion_time);
-    put("initial_inventory", r.initial_inventory);
-    put("species_mass", r.species_mass);
-    put("regime_time", r.regime_time);
-    put("regime_loss", r.regime_loss);
-    put("energy_limited_loss", r.energy_limited_loss);
-    put("given_loss", r.given_loss);
-    put("non_jeans_loss_share", r.non_jeans_loss_share);
-    put("bulk_regime_time", r.bulk_regime_time);
-    put("envelope_mass", r.envelope_mass);
-    put("planet_radius", r.planet_radius);
-    put("envelope_loss_rate", r.envelope_loss_rate);
-    put("core_mass", std::vector<double>{r.core_mass});
-    put("stripping_time", std::vector<double>{r.stripping_time});
-    put("steps", one(r.steps));
-    put("rejected_steps", one(r.rejected_steps));
-    put("rhs_evaluations", one(r.rhs_evaluations));
-    put("completed", one(r.completed ? 1 : 0));
-    put("t_reached", std::vector<double>{r.t_reached});
+    });
     Json changes = Json::array();
     for (const RegimeChange& c : r.regime_changes)
         changes.push_back(
@@ -176,6 +243,48 @@ void write_result(const EvolutionResult& r, const std::string& path) {
     w.set_attribute("Conventions", result_file_conventions);
     w.set_attribute("stepper", r.stepper);
     w.commit();
+}
+
+EvolutionResult read_result(const std::string& path) {
+    EvolutionResult r;
+    r.time = read_doubles(path, "time");
+    r.species = read_strings(path, "species");
+    if (has_dataset(path, "ratio"))
+        r.ratio_names = read_strings(path, "ratio");
+    const bool envelope = has_dataset(path, "core_mass");
+    const std::map<std::string, std::size_t> sizes{{"time", r.time_count()},
+                                                   {"species", r.species_count()},
+                                                   {"ratio", r.ratio_names.size()},
+                                                   {"escape_regime", regime_names().size()}};
+    for_each_variable(r, [&](const std::string& name, auto& member) {
+        const FileVariable& v = find_variable(evolution_file_variables(), name);
+        if (!present(v, r.ratio_names.size(), envelope))
+            return;
+        const std::size_t want = value_count(v, sizes);
+        using Values = std::decay_t<decltype(as_values(member))>;
+        const auto fill = added_later().find(name);
+        if (fill != added_later().end() && !has_dataset(path, name)) {
+            if constexpr (std::is_same_v<Values, std::vector<double>>) // all of them are
+                from_values(Values(want, fill->second), member);
+            return;
+        }
+        const Values values = read_values<Values>(path, name);
+        const std::size_t got = values.size();
+        if (got == want)
+            from_values(values, member);
+        if (got != want)
+            throw InputError("result file " + path + ": " + name + " has " + std::to_string(got) +
+                             " values, expected " + std::to_string(want));
+    });
+    r.config = read_attribute(path, "", "config");
+    if (has_attribute(path, "", "stepper"))
+        r.stepper = read_attribute(path, "", "stepper");
+    if (has_attribute(path, "", "regime_changes"))
+        for (const Json& c : Json::parse(read_attribute(path, "", "regime_changes")))
+            r.regime_changes.push_back({c.at("time_s").get<double>(),
+                                        regime_named(c.at("from").get<std::string>()),
+                                        regime_named(c.at("to").get<std::string>())});
+    return r;
 }
 
 } // namespace exosieve

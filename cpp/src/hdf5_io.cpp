@@ -932,14 +932,23 @@ std::vector<std::string> read_text(hid_t file_type, std::size_t count, Read read
     return out;
 }
 
-Handle open_attribute(hid_t file, const std::string& path, const std::string& object,
-                      const std::string& name) {
+// The object owning an attribute ("/" for the file) and whether it has attribute `name`.
+std::string attribute_owner(hid_t file, const std::string& path, const std::string& object,
+                            const std::string& name, bool* exists) {
     const std::string owner = object.empty() || object == "/" ? std::string("/") : object;
     if (owner != "/" && !link_exists(file, owner))
         throw InputError("no dataset " + in_quotes(owner) + " in " + in_quotes(path));
-    const htri_t exists = H5Aexists_by_name(file, owner.c_str(), name.c_str(), H5P_DEFAULT);
-    check(exists, "look up attribute " + in_quotes(name) + " in " + in_quotes(path));
-    if (exists == 0)
+    const htri_t found = H5Aexists_by_name(file, owner.c_str(), name.c_str(), H5P_DEFAULT);
+    check(found, "look up attribute " + in_quotes(name) + " in " + in_quotes(path));
+    *exists = found > 0;
+    return owner;
+}
+
+Handle open_attribute(hid_t file, const std::string& path, const std::string& object,
+                      const std::string& name) {
+    bool exists = false;
+    const std::string owner = attribute_owner(file, path, object, name, &exists);
+    if (!exists)
         throw InputError("no attribute " + in_quotes(name) + " on " + in_quotes(owner) + " in " +
                          in_quotes(path));
     return checked(H5Aopen_by_name(file, owner.c_str(), name.c_str(), H5P_DEFAULT, H5P_DEFAULT),
@@ -1917,6 +1926,14 @@ bool has_dataset(const std::string& path, const std::string& dataset) {
     check(H5Oget_info_by_name(file.get(), dataset.c_str(), &info, H5P_DEFAULT),
           "look up " + in_quotes(dataset) + " in " + in_quotes(path));
     return info.type == H5O_TYPE_DATASET;
+}
+
+bool has_attribute(const std::string& path, const std::string& object, const std::string& name) {
+    QuietHdf5 quiet;
+    const Handle file = open_file(path, H5F_ACC_RDONLY);
+    bool exists = false;
+    attribute_owner(file.get(), path, object, name, &exists);
+    return exists;
 }
 
 std::vector<std::string> read_dimensions(const std::string& path, const std::string& dataset) {

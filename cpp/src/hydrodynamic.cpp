@@ -27,6 +27,15 @@ const char* regime_name(Regime regime) {
     return "unknown";
 }
 
+Regime regime_named(const std::string& name) {
+    for (Regime k : all_regimes)
+        if (name == regime_name(k))
+            return k;
+    throw InputError("regime: no regime is named '" + name +
+                     "' (known: jeans, enhanced_jeans, "
+                     "transition, hydrodynamic)");
+}
+
 void RegimeThresholds::validate() const {
     require_positive("hydrodynamic threshold", hydrodynamic);
     require_positive("transition threshold", transition);

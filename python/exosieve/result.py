@@ -182,12 +182,8 @@ class EvolutionResult:
         ]
         self.initial_inventory = np.asarray(data["initial_inventory"], dtype=np.float64)
         self.species_mass = np.asarray(data["species_mass"], dtype=np.float64)
-        n, nr = len(self.species), len(REGIMES)
-        shapes = {"species": n, "escape_regime": nr}
-        for name, (dims, _, _) in LOSS_VARIABLES.items():
-            shape = tuple(shapes[d] for d in dims)
-            value = data.get(name)  # absent from files written before these were kept
-            array = np.full(shape, np.nan) if value is None else np.asarray(value, np.float64)
+        for name in LOSS_VARIABLES:
+            array = np.asarray(data[name], np.float64)
             setattr(self, "_" + name if name == "non_jeans_loss_share" else name, array)
         self.non_jeans_loss_share: dict[str, float] = {
             s: float(v) for s, v in zip(self.species, self._non_jeans_loss_share, strict=True)
@@ -468,27 +464,5 @@ def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
     >>> bool(exosieve.open_result(path).inventory["H"][-1] == r.inventory["H"][-1])
     True
     """
-    import h5py
-
-    def text(value: Any) -> str:
-        return value.decode() if isinstance(value, bytes) else str(value)
-
-    with h5py.File(os.fspath(path), "r") as f:
-        species = [text(s) for s in f["species"][()]]
-        ratios = [text(s) for s in f["ratio"][()]] if "ratio" in f else []
-        time = f["time"][()]
-        data: dict[str, Any] = {"time": time, "species": species, "ratio_names": ratios}
-        has = {"": True, "ratios": bool(ratios), "envelope": "core_mass" in f}
-        for v in _SCHEMA:
-            name = v["name"]
-            if name == "given_loss_rate" and name not in f:
-                data[name] = np.zeros(f["inventory"].shape)  # files from before given losses
-            elif has[v["present_when"]] and (name in f or name not in LOSS_VARIABLES):
-                # (files written before the loss ledger lack its variables)
-                data[name] = f[name][()]
-        data["isotope_ratio"] = f["isotope_ratio"][()] if ratios else np.empty((len(time), 0))
-        data["config"] = text(f.attrs["config"])
-        data["stepper"] = text(f.attrs.get("stepper", ""))
-        changes = json.loads(text(f.attrs.get("regime_changes", "[]")))
-        data["regime_changes"] = [(c["time_s"], c["from"], c["to"]) for c in changes]
-    return EvolutionResult(data)
+    raw = _core.read_result(path)
+    return EvolutionResult._from_core(raw, list(raw.species_mass), list(raw.initial_inventory))

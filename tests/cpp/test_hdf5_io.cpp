@@ -21,33 +21,12 @@
 #include "exosieve/background_appender.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/hdf5_io.hpp"
+#include "temp_dir.hpp"
 
 using namespace exosieve;
 namespace fs = std::filesystem;
 
 namespace {
-
-// A fresh directory under the system temporary directory, removed afterwards.
-struct TempDir {
-    fs::path path;
-    TempDir() {
-        std::random_device random;
-        path = fs::temp_directory_path() /
-               ("exosieve-h5-" + std::to_string(::getpid()) + "-" + std::to_string(random()));
-        fs::create_directories(path);
-    }
-    ~TempDir() {
-        std::error_code ec;
-        fs::remove_all(path, ec);
-    }
-    std::string file(const std::string& name) const { return (path / name).string(); }
-    std::vector<std::string> entries() const {
-        std::vector<std::string> names;
-        for (const auto& e : fs::directory_iterator(path))
-            names.push_back(e.path().filename().string());
-        return names;
-    }
-};
 
 double from_bits(std::uint64_t bits) {
     double d;

@@ -3,6 +3,7 @@ keyword, and the XUV absorption radius and recombination limit of energy-limited
 
 from __future__ import annotations
 
+import math
 import pickle
 
 import numpy as np
@@ -144,6 +145,14 @@ def test_tabulated_given_loss_is_kept_apart_in_every_output(tmp_path):
     with h5py.File(old, "a") as f:
         del f["given_loss_rate"]
     assert np.all(exosieve.open_result(old).given_loss_rate.values == 0.0)
+    # One written before the loss ledger: the ledger reads as unknown (NaN), the rest as stored.
+    with h5py.File(old, "a") as f:
+        del f["regime_time"], f["non_jeans_loss_share"]
+    older = exosieve.open_result(old)
+    assert older.regime_time.shape == run.regime_time.shape
+    assert np.isnan(older.regime_time).all()
+    assert all(math.isnan(v) for v in older.non_jeans_loss_share.values())
+    np.testing.assert_array_equal(older.inventory.values, run.inventory.values)
     ds = run.to_xarray()
     assert ds["given_loss_rate"].attrs["units"] == "s-1"
     assert ds["given_loss_rate"].dims == ("time", "species")

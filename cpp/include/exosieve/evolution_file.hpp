@@ -25,4 +25,9 @@ const std::vector<FileVariable>& evolution_file_variables();
 //! and `Conventions`. InputError if an array's size does not match its dimensions.
 void write_result(const EvolutionResult& result, const std::string& path);
 
+//! Read a file written by write_result back into a result (its inverse). A file of an earlier
+//! version that lacks the given-loss rates or the loss ledger reads as no given loss (0) and an
+//! unknown ledger (NaN). InputError or FileError for a file that is not such a result.
+EvolutionResult read_result(const std::string& path);
+
 } // namespace exosieve

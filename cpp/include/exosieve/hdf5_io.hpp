@@ -272,6 +272,10 @@ bool file_is_locked(const std::string& path);
 //! lack variables that later ones write).
 bool has_dataset(const std::string& path, const std::string& dataset);
 
+//! True if the file ("" or "/") or the dataset `object` of the file at `path` has an attribute
+//! `name` (files of earlier versions may lack attributes that later ones write).
+bool has_attribute(const std::string& path, const std::string& object, const std::string& name);
+
 //! Names of the dimension scales attached to each dimension of `dataset` ("" if none).
 std::vector<std::string> read_dimensions(const std::string& path, const std::string& dataset);
 

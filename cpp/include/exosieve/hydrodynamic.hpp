@@ -23,6 +23,8 @@ enum class Regime : int {
 
 //! Regime name: "jeans", "enhanced_jeans", "transition" or "hydrodynamic".
 const char* regime_name(Regime regime);
+//! The regime of that name (regime_name's inverse); InputError naming it if there is none.
+Regime regime_named(const std::string& name);
 
 //! Every regime, in code order (the order of REGIMES, of the files' `escape_regime` and flags).
 inline constexpr Regime all_regimes[] = {Regime::Jeans, Regime::EnhancedJeans, Regime::Transition,
