@@ -55,7 +55,7 @@ from ._arrays import real_number, to_si, whole_number
 from .batch_options import _core_options, _default_chunk, _engine_options
 from .catalogue import CaseTable, load_cases, width_column
 from .distributed import _run_distributed
-from .model import REGIMES, as_thresholds
+from .hydrodynamic import REGIMES, as_thresholds
 from .progress import Progress
 from .sweep_file import (
     _COORDINATES,
