@@ -146,14 +146,10 @@ def engine(frame: pd.DataFrame, threads: int, folder: Path, cores: int | None = 
     streaming every chunk into an open sweep file (what compare() does after reading and
     checking the table and creating the file)."""
     from exosieve import _core
-    from exosieve.batch import (
-        _core_options,
-        _create_file,
-        _default_chunk,
-        _engine_options,
-        _output_times,
-    )
+    from exosieve.batch import _output_times
+    from exosieve.batch_options import _core_options, _default_chunk, _engine_options
     from exosieve.catalogue import load_cases
+    from exosieve.sweep_file import _create_file
 
     table = load_cases(frame)
     grid = _output_times(16, table, T_START, T_END)
@@ -177,7 +173,7 @@ def engine(frame: pd.DataFrame, threads: int, folder: Path, cores: int | None = 
 def append_cost(rows: int, samples: int, repeat: int, blocks: int = 20) -> tuple[float, float]:
     """Best wall-clock and CPU seconds per case of appending `blocks` blocks of `rows` cases
     to an open sweep file."""
-    from exosieve.batch import _SAMPLE_VARIABLES, _VARIABLES, _create_file
+    from exosieve.sweep_file import _SAMPLE_VARIABLES, _VARIABLES, _create_file
 
     sizes = {"species": len(SPECIES), "time": 16, "sample": samples}
     random = np.random.default_rng(1)
@@ -218,14 +214,10 @@ def calling_thread_cost(n: int, threads: int, repeat: int) -> dict[str, float]:
     sweep file and with the chunks dropped; and the whole process's CPU seconds per case of
     each (os.times(): the engine's workers and the file's writer thread)."""
     from exosieve import _core
-    from exosieve.batch import (
-        _core_options,
-        _create_file,
-        _default_chunk,
-        _engine_options,
-        _output_times,
-    )
+    from exosieve.batch import _output_times
+    from exosieve.batch_options import _core_options, _default_chunk, _engine_options
     from exosieve.catalogue import load_cases
+    from exosieve.sweep_file import _create_file
 
     table = load_cases(make_cases(n))
     grid = _output_times(16, table, T_START, T_END)

@@ -1149,7 +1149,7 @@ def engine_runner(table: Any, grid: np.ndarray, t0: float, t1: float) -> Any:
     """The batch engine alone (what compare() runs after checking the table), or None."""
     try:
         from exosieve import _core
-        from exosieve.batch import _core_options, _engine_options
+        from exosieve.batch_options import _core_options, _engine_options
 
         core_table = table.to_core(first_key=0, rows=slice(0, len(table)))
         species = list(table.species)

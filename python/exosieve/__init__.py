@@ -24,7 +24,19 @@ from .envelope import (
     envelope_planet_radius,
     envelope_radius,
 )
-from .evolution import evolve
+from .evolution import GivenLoss, TabulatedSource, evolve
+from .exobase_model import PrescribedExobase, TabulatedTemperature, XuvTemperature
+from .hydrodynamic import (
+    REGIMES,
+    EnergyLimitedEscape,
+    RegimeThresholds,
+    classify_regime,
+    crossover_mass,
+    dragged_flux,
+    energy_limited_mass_loss,
+    roche_lobe_factor,
+    roche_lobe_ratio,
+)
 from .inversion import InversionSamples, RatioInversion, invert_case, invert_ratio
 from .jeans import (
     TailDepletion,
@@ -43,24 +55,6 @@ from .maxwell import (
     most_probable_speed,
     rms_speed,
     speed_pdf,
-)
-from .model import (
-    REGIMES,
-    EnergyLimitedEscape,
-    GivenLoss,
-    Planet,
-    PrescribedExobase,
-    RegimeThresholds,
-    Star,
-    TabulatedSource,
-    TabulatedTemperature,
-    XuvTemperature,
-    classify_regime,
-    crossover_mass,
-    dragged_flux,
-    energy_limited_mass_loss,
-    roche_lobe_factor,
-    roche_lobe_ratio,
 )
 from .ocean import (
     WATER_DENSITY,
@@ -88,6 +82,7 @@ from .outflow import (
 from .result import EvolutionResult, open_result
 from .sensitivity import SobolIndices, saltelli_inputs, sobol_indices
 from .species import Species, register_species, species, species_names
+from .stellar import Planet, Star
 from .thermosphere import (
     Exobase,
     ExobaseStatus,

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 import sys
 from collections.abc import Callable
 from typing import Any
@@ -117,6 +118,49 @@ def whole_number(value: Any, name: str, minimum: int, what: str = "") -> int:
     if value > np.iinfo(np.int64).max:
         raise ValueError(f"{need}, got {_describe(value)} (beyond the range of int64)")
     return int(value)
+
+
+def _scalar(value: Any, name: str, unit: str) -> float:
+    if type(value) is float:  # the common case, no conversion needed
+        return value
+    array = to_si(value, name, unit)
+    if array.ndim != 0 and array.size != 1:
+        raise ValueError(f"{name} must be a single number, got an array of shape {array.shape}")
+    return float(array.reshape(()))
+
+
+def _vector(value: Any, name: str, unit: str) -> NDArray[np.float64]:
+    if isinstance(value, (list, tuple)) and any(hasattr(v, "unit") for v in value):
+        value = [to_si(v, name, unit) for v in value]  # e.g. (10 * u.Myr, 1 * u.Gyr)
+    array = np.atleast_1d(to_si(value, name, unit))
+    if array.ndim != 1:
+        raise ValueError(f"{name} must be one-dimensional, got shape {array.shape}")
+    return np.ascontiguousarray(array)
+
+
+def _finite(value: Any, name: str, unit: str) -> float:
+    number = _scalar(value, name, unit)
+    if not math.isfinite(number):
+        raise ValueError(f"{name} must be finite [{unit}], got {number!r}")
+    return number
+
+
+def _finite_vector(value: Any, name: str, unit: str) -> NDArray[np.float64]:
+    array = _vector(value, name, unit)
+    bad = np.flatnonzero(~np.isfinite(array))
+    if bad.size:
+        raise ValueError(
+            f"{name} must be finite [{unit}], got {float(array[bad[0]])!r} (element {bad[0]})"
+        )
+    return array
+
+
+def _map(
+    function: Callable[[NDArray[np.float64]], NDArray[np.float64]], value: Any, name: str, unit: str
+) -> FloatOrArray:
+    array = to_si(value, name, unit)
+    out = function(np.ascontiguousarray(array).reshape(-1)).reshape(array.shape)
+    return float(out) if array.ndim == 0 else out
 
 
 def flat_for_kernel(array: NDArray[np.float64], shape: tuple[int, ...]) -> NDArray[np.float64]:

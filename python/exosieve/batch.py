@@ -13,12 +13,7 @@ memory stays flat in the number of cases and an interrupted sweep resumes where 
 Carlo draws depend only on (seed, row, sample), so results are the same for any number of
 threads or workers.
 
-Result files (DESIGN section 5): dimensions ``case`` (appendable; the coordinate holds the
-case names, so that xarray selects with ``.sel(case="name")``; the variable ``row`` holds the
-table row), ``species``, ``time`` (stellar age [s]) and ``sample``; every variable has
-``units`` and ``long_name``, ``regime_start`` has CF's ``flag_values``/``flag_meanings``; the
-global attribute ``config`` holds the table's fingerprint and every option as JSON, and
-``Conventions`` is ``"exosieve-1"`` (see the README: CF's attributes, not CF itself).
+Result files: see :mod:`exosieve.sweep_file`.
 
 Examples
 --------
@@ -57,44 +52,30 @@ from numpy.typing import NDArray
 from . import _core
 from . import constants as c
 from ._arrays import real_number, to_si, whole_number
-from .catalogue import UNITS, CaseTable, _si_unit, given_units, load_cases, width_column
-from .model import REGIMES, as_thresholds
+from .batch_options import _core_options, _default_chunk, _engine_options
+from .catalogue import CaseTable, load_cases, width_column
+from .distributed import _run_distributed
+from .hydrodynamic import REGIMES, as_thresholds
+from .progress import Progress
+from .sweep_file import (
+    _COORDINATES,
+    _FLAGS,
+    _INPUT_VARIABLES,
+    _SAMPLE_VARIABLES,
+    _UNITS,
+    _VARIABLES,
+    _create_file,
+    _FileSink,
+    _read_variable,
+    _require_layout,
+    _variable_specs,
+    input_units,
+    sample_runs,
+)
 
 __all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
 
-# Case variables of a sweep file (the core's list): name, dtype, dimensions after `case`, units,
-# long name; those of every file, those of files with samples, and with samples and inputs.
-_Variable = tuple[str, type, list[str], str, str]
-_SCHEMA: list[dict[str, Any]] = _core.sweep_file_variables()
-_DTYPES: dict[str, type] = {"float64": float, "int64": int, "str": str}
-
-
-def _variables_when(condition: str) -> list[_Variable]:
-    return [
-        (v["name"], _DTYPES[v["dtype"]], list(v["dims"]), v["units"], v["long_name"])
-        for v in _SCHEMA
-        if v["present_when"] == condition
-    ]
-
-
-_VARIABLES = _variables_when("")
-_SAMPLE_VARIABLES = _variables_when("samples")
-_INPUT_VARIABLES = _variables_when("inputs")
 DESIGNS = ("monte_carlo", "saltelli")
-
-# Coordinates of a sweep file (and `row`, the table row of each case; `input_unit`, the
-# variable beside `input`): units, long name.
-_COORDINATES: dict[str, tuple[str, str]] = {
-    c["name"]: (c["units"], c["long_name"]) for c in _core.sweep_file_coordinates()
-}
-
-# CF flags of the code variables: values (of the variable's type) and one word per value.
-_FLAGS: dict[str, tuple[list[int], str]] = {
-    v["name"]: (list(v["flag_values"]), v["flag_meanings"]) for v in _SCHEMA if v["flag_values"]
-}
-
-# Units of the summary's columns: those of the file variables they come from.
-_UNITS: dict[str, str] = {v["name"]: v["units"] for v in _SCHEMA if v["dtype"] != "str"}
 
 
 class Interrupted(KeyboardInterrupt):
@@ -478,157 +459,6 @@ def open_comparison(path: str | os.PathLike[str]) -> Comparison:
     return Comparison(None, species, times, samples, config, path=path, rows=rows)
 
 
-# Variables that sweep files of this layout written before them lack, and what such a file
-# stands for where a species ran: no given losses, and the thermal rate not recorded.
-_ADDED_LATER: dict[str, float] = {"given_loss_rate_start": 0.0, "escape_rate_start": math.nan}
-# Nor were the regime times and loss shares recorded.
-_ADDED_LATER.update({name: math.nan for name, *_ in _VARIABLES if "regime_time_" in name})
-_ADDED_LATER.update({name: math.nan for name, *_ in _VARIABLES if "loss_share" in name})
-
-
-def _require_layout(path: Path) -> None:
-    """Refuse a sweep file of an earlier layout (before ``Conventions``, whose ``case``
-    coordinate held row numbers), naming what to do."""
-    from .hdf5_io import read_attribute
-
-    try:
-        layout = read_attribute(path, "", "Conventions")
-    except (OSError, ValueError):
-        layout = "none"
-    if layout != _core.RESULT_FILE_CONVENTIONS:
-        raise ValueError(
-            f"{path} is a sweep file of an earlier layout (Conventions {layout!r}, not "
-            f"{_core.RESULT_FILE_CONVENTIONS!r}); run the sweep again (with overwrite to "
-            "replace it)"
-        )
-
-
-def _read_variable(path: Path, name: str, rows: int, checked: bool = True) -> NDArray[Any]:
-    """The first ``rows`` rows of ``name``; with ``checked``, refused if out of range."""
-    from .hdf5_io import has_dataset, read_doubles, read_int64s, read_strings
-
-    if name in _ADDED_LATER and not has_dataset(path, name):
-        # A species ran where its e-folding time is a number (NaN: absent, or not run).
-        ran = ~np.isnan(_read_variable(path, "efolding_time", rows, checked))
-        return np.where(ran, _ADDED_LATER[name], np.nan)
-    kind = {"case": "str", "row": "int"}.get(name)
-    for variable, dtype, *_ in _VARIABLES + _SAMPLE_VARIABLES + _INPUT_VARIABLES:
-        if variable == name:
-            kind = {str: "str", int: "int", float: "float"}[dtype]
-    if kind == "str":
-        return np.asarray(read_strings(path, name)[:rows], dtype=object)
-    reader = read_int64s if kind == "int" else read_doubles
-    values = np.asarray(reader(path, name))
-    if checked:
-        _check_values(path, name, values, rows, values.shape[1:])
-    return values[:rows]
-
-
-def _existing_output(path: Path) -> tuple[dict[str, Any], int] | None:
-    """The configuration and completed rows of an existing sweep file at ``path``; None when
-    there is no file or an empty one. Raises for a file that is locked or not a sweep file."""
-    from .hdf5_io import FileError, file_is_locked, read_attribute, read_int_attribute
-
-    if not path.exists():
-        return None
-    if path.is_file() and file_is_locked(path):
-        raise FileError(
-            f"output {path} is locked: another process has it open for writing (a running "
-            "sweep?); it was left alone. Wait for that process to end, or choose another path"
-        )
-    if path.is_file() and path.stat().st_size == 0:
-        return None
-    try:
-        read_attribute(path, "", "exosieve_version")
-        config = json.loads(read_attribute(path, "", "config"))
-        rows = int(read_int_attribute(path, "", "completed"))
-    except Exception:  # not HDF5, not ours, or not a sweep file
-        config, rows = {}, -1
-    if not isinstance(config, dict) or config.get("kind") != "exosieve.compare" or rows < 0:
-        raise ValueError(
-            f"output {path} exists and is not a sweep file of exosieve; it was left alone "
-            "(exosieve replaces only its own result files, with or without overwrite): "
-            "choose another path"
-        )
-    return config, rows
-
-
-def _summary_text(summary: dict[str, Any]) -> str:
-    retain = summary.get("retain")
-    percentiles = ", ".join(f"{float(q):g}" for q in summary.get("percentiles", []))
-    return f"retain={retain}, percentiles=({percentiles})"
-
-
-# Allowed range of every stored variable, checked on opening and on resuming a file: a value
-# outside it can only come from a damaged file. NaN marks a missing value and is allowed.
-_RANGES: dict[str, tuple[float, float]] = {
-    v["name"]: tuple(v["range"]) for v in _SCHEMA if v["range"] is not None
-}
-
-
-def _check_values(
-    path: Path, name: str, values: NDArray[Any], rows: int, shape: tuple[int, ...]
-) -> None:
-    """Refuse ``values`` of ``name`` if their shape or range cannot be that of a sweep file."""
-    if values.shape[1:] != shape or values.shape[0] < rows:
-        raise _damaged(
-            f"{path} is damaged: dataset '{name}' has shape {values.shape}, expected "
-            f"({rows} or more, {', '.join(map(str, shape))})"
-        )
-    if name == "row":
-        bad = values[:rows] != np.arange(rows)
-    elif name in _RANGES:
-        low, high = _RANGES[name]
-        bad = (values[:rows] < low) | (values[:rows] > high)
-    else:
-        return
-    if bad.any():
-        where = tuple(int(i) for i in np.argwhere(bad)[0])
-        allowed = "the row numbers" if name == "row" else "[{}, {}]".format(*_RANGES[name])
-        value = values[:rows][where].item()
-        raise _damaged(
-            f"{path} is damaged: dataset '{name}' holds {value!r} at {where}, "
-            f"outside {allowed}; it was not used"
-        )
-
-
-def check_ranges(
-    path: Path,
-    rows: int,
-    samples: int,
-    species: int,
-    times: int | None = None,
-    inputs: int = 0,
-) -> None:
-    """Read every variable of the first ``rows`` rows of a sweep file and check its range."""
-    from .hdf5_io import read_doubles
-
-    if times is None:
-        times = len(read_doubles(path, "time"))
-    sizes = {"species": species, "time": times, "sample": samples, "input": inputs}
-    _check_values(path, "row", _read_variable(path, "row", rows, checked=False), rows, ())
-    _read_variable(path, "case", rows)  # the labels: their string heaps are checked
-    for name, _, dims, *_ in _variable_specs(samples, inputs):
-        values = _read_variable(path, name, rows, checked=False)
-        _check_values(path, name, values, rows, tuple(sizes[d] for d in dims))
-
-
-def _damaged(message: str) -> Exception:
-    from .hdf5_io import FileError
-
-    error: Exception = FileError(message)
-    return error
-
-
-def _variable_specs(samples: int, inputs: int) -> list[tuple[str, type, list[str], str, str]]:
-    """The case variables of a file with ``samples`` sample runs and ``inputs`` inputs."""
-    return (
-        _VARIABLES
-        + (_SAMPLE_VARIABLES if samples else [])
-        + (_INPUT_VARIABLES if samples and inputs else [])
-    )
-
-
 def table_inputs(columns: Sequence[str]) -> list[str]:
     """Uncertain inputs of a table with these numeric columns: the parameters with a
     ``_sigma``, ``_lnsigma`` or ``_sigma_upper``/``_sigma_lower`` column, in the order of their
@@ -639,110 +469,6 @@ def table_inputs(columns: Sequence[str]) -> list[str]:
         if kind is not None and base not in out:
             out.append(base)
     return out
-
-
-def input_units(inputs: Sequence[str]) -> list[str]:
-    """SI unit of each case parameter in ``inputs`` (also the per-species ones, e.g.
-    ``x_<species>``: 1, ``given_loss_<species>``: s-1)."""
-    return [_si_unit(name) or "1" for name in inputs]
-
-
-def sample_runs(options: dict[str, Any]) -> int:
-    """Sample runs per case of a run with these ``config["options"]``: ``samples``, times
-    (inputs + 2) for a Saltelli design."""
-    samples = int(options.get("samples", 0))
-    if options.get("design", "monte_carlo") == "saltelli":
-        return samples * (len(options.get("inputs", [])) + 2)
-    return samples
-
-
-def _create_file(
-    path: Path,
-    config: dict[str, Any],
-    species: list[str],
-    times: NDArray[Any],
-    samples: int,
-    inputs: Sequence[str] = (),
-) -> Any:
-    from .hdf5_io import ResultAppender, ResultWriter
-
-    schema = ResultWriter(path, config)
-    schema.set_attribute("Conventions", _core.RESULT_FILE_CONVENTIONS)
-    schema.label_cases(long_name=_COORDINATES["case"][1])
-    schema.add_coordinate("species", list(species), long_name=_COORDINATES["species"][1])
-    units, long_name = _COORDINATES["time"]
-    schema.add_coordinate("time", np.asarray(times, dtype=float), units=units, long_name=long_name)
-    variables = list(_VARIABLES)
-    if samples:
-        units, long_name = _COORDINATES["sample"]
-        schema.add_coordinate(
-            "sample", np.arange(samples, dtype=np.int64), units=units, long_name=long_name
-        )
-        variables += _SAMPLE_VARIABLES
-        if inputs:
-            schema.add_coordinate("input", list(inputs), long_name=_COORDINATES["input"][1])
-            schema.add_variable(
-                "input_unit",
-                ["input"],
-                input_units(inputs),
-                units=_COORDINATES["input_unit"][0],
-                long_name=_COORDINATES["input_unit"][1],
-            )
-            variables += _INPUT_VARIABLES
-    for name, dtype, dims, units, long_name in variables:
-        schema.add_case_variable(name, dtype, dims, units=units, long_name=long_name)
-    schema.set_attribute("long_name", _COORDINATES["row"][1], dataset="row")
-    for name, (values, meanings) in _FLAGS.items():
-        schema.set_attribute("flag_values", values, dataset=name)
-        schema.set_attribute("flag_meanings", meanings, dataset=name)
-    return ResultAppender(schema)
-
-
-# --- progress ---------------------------------------------------------------------------------
-
-
-class _Progress:
-    """A progress bar in cases with rate and time left (tqdm, a dependency), or a user callable
-    ``progress(done, total)``."""
-
-    def __init__(self, total: int, initial: int, progress: bool | Callable[[int, int], Any]):
-        self.total, self.done = total, initial
-        self.callback = progress if callable(progress) else None
-        self.bar: Any = None
-        self.reported: int | None = None
-        if progress is True:
-            from tqdm import tqdm
-
-            self.bar = tqdm(
-                total=total, initial=initial, unit="case", dynamic_ncols=True, smoothing=0.1
-            )
-
-    def update(self, done: int) -> None:
-        done = min(max(done, self.done), self.total)
-        if self.bar is not None:
-            self.bar.update(done - self.done)
-        self.done = done
-        self.reported = done
-        if self.callback is not None:
-            self.callback(done, self.total)
-
-    def finish(self, done: int) -> None:
-        """The count at the end, unless the last update already reported it."""
-        if self.reported != min(max(done, self.done), self.total):
-            self.update(done)
-
-    def close(self) -> None:
-        if self.bar is not None:
-            self.bar.close()
-
-
-# --- running ----------------------------------------------------------------------------------
-
-
-def _default_chunk(samples: int) -> int:
-    # An append costs ~10-20 ms (two fsyncs) whatever its size: chunks of up to 1024 cases
-    # spread it thin; 64k runs per chunk bound a chunk's memory with many samples.
-    return max(8, min(1024, 65536 // (1 + samples)))
 
 
 def _spans(table: CaseTable, t_start: float, t_end: float) -> tuple[float, float]:
@@ -796,11 +522,6 @@ def _output_times(times: int | Any, table: CaseTable, t_start: float, t_end: flo
     return np.ascontiguousarray(grid)
 
 
-def _run_key(config: dict[str, Any]) -> Any:
-    """What must match for a file to be resumed: the table and the options that change results."""
-    return (config.get("kind"), config.get("table", {}).get("sha256"), config.get("options"))
-
-
 class _MemorySink:
     def __init__(self) -> None:
         self.chunks: list[dict[str, Any]] = []
@@ -842,93 +563,6 @@ def _empty(name: str, s: int, t: int, n: int, k: int = 0) -> NDArray[Any]:
             kind = {str: object, int: np.int64, float: float}[dtype]
             return np.zeros(shape, dtype=kind)
     raise ValueError(name)
-
-
-class _FileSink:
-    def __init__(
-        self,
-        path: Path,
-        config: dict[str, Any],
-        species: list[str],
-        times: Any,
-        samples: int,
-        overwrite: bool,
-        source: Path | None = None,
-        inputs: Sequence[str] = (),
-    ) -> None:
-        from .hdf5_io import ResultAppender
-
-        self.path = path
-        self.resumed = False
-        if source is not None and path.exists() and path.samefile(source):
-            raise ValueError(f"output {path} is the case table itself; choose another path")
-        existing = _existing_output(path)
-        if existing is not None and not overwrite and existing[1] > 0:
-            old, rows = existing
-            _require_layout(path)
-            if _run_key(old) != _run_key(config):
-                what = (
-                    "of another case table"
-                    if old.get("table", {}).get("sha256") != config["table"]["sha256"]
-                    else "made with other options"
-                )
-                raise ValueError(
-                    f"output {path} holds a sweep {what}; choose another path or overwrite it"
-                )
-            if old.get("summary") != config["summary"]:
-                raise ValueError(
-                    f"output {path} holds a sweep started with summary options "
-                    f"{_summary_text(old.get('summary', {}))}, and these cannot change when it "
-                    f"resumes (asked: {_summary_text(config['summary'])}); run again with the "
-                    "same retain and percentiles, then summarise with others "
-                    "('exosieve summary --retain ...', Comparison.summarize(retain=...))"
-                )
-            from .hdf5_io import has_dataset
-
-            written = _VARIABLES + (_SAMPLE_VARIABLES if samples else [])
-            missing = [v[0] for v in written if not has_dataset(path, v[0])]
-            if missing and rows < int(config["table"]["rows"]):  # rows would be appended
-                raise ValueError(
-                    f"output {path} holds a sweep written by an earlier version of exosieve, "
-                    f"without {', '.join(missing)}; it cannot be continued: choose another path "
-                    "or overwrite it"
-                )
-            # Reopening first repairs a last chunk whose checksum a kill left stale (and
-            # refuses a damaged one); then every variable is read and range-checked.
-            self.appender = ResultAppender(path)
-            try:
-                check_ranges(path, rows, int(samples), len(species), inputs=len(inputs))
-            except BaseException:
-                self.appender.close()
-                raise
-            self.resumed = True
-        else:
-            # A new file, or one that holds no results (an empty file, or a sweep that stopped
-            # before its first chunk); ResultWriter refuses to replace anything but an exosieve
-            # result, and a file another process has locked.
-            self.appender = _create_file(path, config, species, times, samples, inputs)
-
-    @property
-    def completed(self) -> int:
-        """Rows in the file."""
-        return int(self.appender.completed)
-
-    def append(self, chunk: dict[str, Any]) -> None:
-        self.appender.append(chunk)
-
-    @property
-    def target(self) -> Any:
-        """What the batch engine hands its chunks to: the file itself, so that the engine
-        appends each chunk's rows without building interpreter objects."""
-        return self.appender
-
-    def close(self) -> None:
-        self.appender.close()
-
-    def result(
-        self, species: list[str], times: Any, samples: int, config: dict[str, Any]
-    ) -> Comparison:
-        return open_comparison(self.path)
 
 
 def compare(
@@ -1150,12 +784,12 @@ def compare(
     else:
         sink = _MemorySink()
     begin = sink.completed
-    bar = _Progress(len(table), begin, progress)
+    bar = Progress(len(table), begin, progress)
     runs_per_case = 1 + runs
     interrupted = False
     try:
         if client is not None and begin < len(table):
-            _run_distributed(client, table, begin, options, chunk, threads, sink, bar, every)
+            _run_distributed(client, table, begin, options, chunk, threads, sink.append, bar, every)
         for first in range(begin, len(table) if client is None else begin, block):
             last = min(first + block, len(table))
             if first == 0 and checked is not None:
@@ -1175,52 +809,14 @@ def compare(
     finally:
         bar.close()
         sink.close()
-    result = sink.result(species, grid, runs, config)
+    if isinstance(sink, _FileSink):
+        result = open_comparison(sink.path)
+    else:
+        result = sink.result(species, grid, runs, config)
     result.resumed_from = begin
     if interrupted:
         raise Interrupted(result)
     return result
-
-
-def _engine_options(
-    species: list[str],
-    times: NDArray[np.float64],
-    t_start: float,
-    t_end: float,
-    *,
-    rtol: float = 1e-6,
-    max_steps: int = 100_000,
-    depletion_fraction: float = 1e-3,
-    thresholds: Any = (6.0, 3.0, 2.1),
-    samples: int = 0,
-    seed: int = 0,
-    design: str = "monte_carlo",
-) -> dict[str, Any]:
-    """The batch engine's options as plain values (picklable, for Dask workers); defaults as
-    :func:`compare`'s. The engine reports invalid rows (skip_invalid); whether they stop the run
-    is decided before it (``bad_rows``)."""
-    return {
-        "species": species,
-        "times": times,
-        "t_start": t_start,
-        "t_end": t_end,
-        "rtol": rtol,
-        "max_steps": max_steps,
-        "depletion_fraction": depletion_fraction,
-        "thresholds": thresholds,
-        "samples": samples,
-        "seed": seed,
-        "design": design,
-        "skip_invalid": True,
-    }
-
-
-def _core_options(options: dict[str, Any], threads: int, chunk_size: int) -> Any:
-    kwargs = dict(options)
-    kwargs["thresholds"] = _core.RegimeThresholds(*kwargs["thresholds"])
-    kwargs["times"] = np.asarray(kwargs["times"], dtype=float)
-    # Four chunks in flight: workers go on while the calling thread appends a chunk to the file.
-    return _core.BatchOptions(threads=threads, chunk_size=chunk_size, chunks_in_flight=4, **kwargs)
 
 
 def _raise_for_rows(table: CaseTable, block: int, core_options: Any) -> Any:
@@ -1242,99 +838,3 @@ def _raise_for_rows(table: CaseTable, block: int, core_options: Any) -> Any:
         text = "".join(f"\n  {e}" for e in listed) + ("\n  ..." if bad > 10 else "")
         raise ValueError(f"case table: {bad} invalid row{'s' if bad > 1 else ''}{text}")
     return first_part
-
-
-# --- Dask -------------------------------------------------------------------------------------
-
-
-def _run_chunk(payload: dict[str, Any], options: dict[str, Any], threads: int) -> dict[str, Any]:
-    """One chunk on a Dask worker: the rows in `payload` through the C++ batch engine."""
-    table = _core.CaseTable()
-    table.names = payload["names"]
-    table.row_labels = payload["row_labels"]
-    table.row_errors = payload["row_errors"]
-    table.first_key = payload["first_key"]
-    for name, values in payload["columns"].items():
-        table.add_column(name, values)
-    for name, values in payload["text"].items():
-        table.add_text(name, values)
-    for name, unit in payload.get("units", {}).items():
-        table.set_given_unit(name, unit, UNITS[unit][0])
-    rows = len(payload["names"])
-    core_options = _core_options(options, threads=threads, chunk_size=max(rows, 1))
-    chunks: list[dict[str, Any]] = []
-    _core.run_batch(table, 0, rows, core_options, chunks.append, None)
-    return chunks[0]
-
-
-def _payload(table: CaseTable, start: int, stop: int) -> dict[str, Any]:
-    rows = slice(start, stop)
-    return {
-        "names": table.names[rows],
-        "row_labels": table.row_labels[rows] if table.row_labels else [],
-        "row_errors": table.row_errors[rows] if any(table.row_errors) else [],
-        "first_key": start,
-        "columns": {k: np.asarray(v, dtype=float)[rows] for k, v in table.columns.items()},
-        "text": {k: v[rows] for k, v in table.text_columns.items() if k != "case"},
-        "units": given_units(table.units),
-    }
-
-
-def _run_distributed(
-    client: Any,
-    table: CaseTable,
-    begin: int,
-    options: dict[str, Any],
-    chunk: int,
-    threads: int | None,
-    sink: _FileSink | _MemorySink,
-    bar: _Progress,
-    every: int = 0,
-) -> None:
-    """Chunks on the workers of `client`, a bounded number in flight; results are written in
-    table order as soon as every earlier chunk is in. The progress is updated after each
-    chunk written, or after every `every`-th."""
-    from distributed import as_completed
-
-    options = dict(options)
-    options["times"] = np.asarray(options["times"], dtype=float)
-    starts = iter(range(begin, len(table), chunk))
-    workers = max(1, len(client.scheduler_info().get("workers", {})))
-    window = 2 * workers
-    pending = as_completed(loop=client.loop)
-    where: dict[str, int] = {}
-    finished: dict[int, dict[str, Any]] = {}
-    next_row = begin
-    written = 0
-
-    def submit() -> bool:
-        start = next(starts, None)
-        if start is None:
-            return False
-        stop = min(start + chunk, len(table))
-        future = client.submit(
-            _run_chunk, _payload(table, start, stop), options, int(threads or 1), pure=False
-        )
-        where[future.key] = start
-        pending.add(future)
-        return True
-
-    for _ in range(window):
-        if not submit():
-            break
-    try:
-        for future in pending:
-            start = where.pop(future.key)
-            finished[start] = future.result()
-            future.release()
-            while next_row in finished:
-                block = finished.pop(next_row)
-                sink.append(block)
-                next_row += len(block["row"])
-                written += 1
-                if not every or written % every == 0:
-                    bar.update(next_row)
-            submit()
-    except BaseException:
-        client.cancel(list(pending.futures))
-        raise

@@ -157,7 +157,8 @@ def _print_hydrodynamic(result: Any, limit: int = 10) -> None:
 
 def _summary(args: argparse.Namespace) -> int:
     from . import constants as c
-    from .batch import check_ranges, open_comparison
+    from .batch import open_comparison
+    from .sweep_file import check_ranges
 
     result = open_comparison(args.result)
     # Every stored variable is read (checksums) and range-checked, not only those summarised,

@@ -27,8 +27,8 @@ import numpy as np
 from numpy.typing import DTypeLike, NDArray
 
 from . import _core
-from ._arrays import FloatOrArray, apply, to_si
-from .model import Star, _scalar
+from ._arrays import FloatOrArray, _scalar, apply, to_si
+from .stellar import Star
 
 __all__ = [
     "SOLAR_IRRADIANCE",

@@ -7,33 +7,157 @@ Rosenbrock 4(3) when sources make the problem stiff), with dense output at ``t_e
 events located on the dense output (depletion by TOMS 748, regime changes by bisection). In
 ``ln N`` a species lost in 1e4 years beside one lasting 10 Gyr costs no extra steps, and
 inventories far below 1e-308 of their start stay representable.
+
+Sources (:class:`TabulatedSource`) and losses given by the user (:class:`GivenLoss`) enter the
+same equation.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
-from . import _core
-from ._arrays import real_number, whole_number
-from .envelope import Envelope
-from .model import (
-    EnergyLimitedEscape,
-    Planet,
-    PrescribedExobase,
-    _name,
-    _scalar,
-    _vector,
-    as_thresholds,
-    given_loss,
-    source_rate,
-    temperature_history,
-)
-from .result import EvolutionResult
+from numpy.typing import ArrayLike
 
-__all__ = ["evolve"]
+from . import _core
+from ._arrays import _finite, _finite_vector, _scalar, _vector, real_number, whole_number
+from .envelope import Envelope
+from .exobase_model import PrescribedExobase, temperature_history
+from .hydrodynamic import EnergyLimitedEscape, as_thresholds
+from .result import EvolutionResult
+from .species import _name
+from .stellar import Planet
+
+__all__ = ["evolve", "TabulatedSource", "GivenLoss"]
 
 ExobaseLike = Any  # PrescribedExobase or Thermosphere
+
+
+class TabulatedSource:
+    """A source (e.g. outgassing) against time [s^-1]: linear between points, held at the ends.
+
+    Parameters
+    ----------
+    times : array_like
+        Strictly increasing times [s].
+    rates : array_like
+        Source rates [particles s^-1] (>= 0).
+
+    Examples
+    --------
+    >>> TabulatedSource([0.0, 1e16], [1e27, 0.0])(5e15)
+    5e+26
+    """
+
+    def __init__(self, times: ArrayLike, rates: ArrayLike) -> None:
+        self.times = _finite_vector(times, "times", "s")
+        self.rates = _finite_vector(rates, "rates", "s-1")
+        self._core = _core.SourceRate(self.times, self.rates)
+
+    def __call__(self, t: float) -> float:
+        """Rate [s^-1] at time ``t`` [s]."""
+        return float(self._core(_finite(t, "t", "s")))
+
+    def __repr__(self) -> str:
+        return f"TabulatedSource(times={self.times!r}, rates={self.rates!r})"
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (TabulatedSource, (self.times, self.rates))
+
+
+def source_rate(value: Any, name: str) -> Any:
+    """The core source for a float rate [s^-1], a TabulatedSource or a (times, rates) pair."""
+    if isinstance(value, TabulatedSource):
+        return value._core
+    if isinstance(value, tuple) and len(value) == 2:
+        return TabulatedSource(*value)._core
+    rate = _scalar(value, f"source of {name}", "s-1")
+    if not (math.isfinite(rate) and rate >= 0.0):
+        raise ValueError(f"source of {name} must be finite and >= 0 [s^-1], got {rate!r}")
+    return _core.SourceRate(rate)
+
+
+class GivenLoss:
+    """A loss of one species that the user gives [particles s^-1], beyond thermal escape.
+
+    For non-thermal escape (photochemical escape, ion pick-up, sputtering), which exosieve does
+    not model, or any loss measured or modelled elsewhere. :func:`exosieve.evolve` adds it to the
+    thermal (Jeans or hydrodynamic) loss, ``dN/dt = S - Q - L``, and reports it apart, as
+    ``result.given_loss_rate``. It does not vanish with the inventory, so a species with a given
+    loss is held at its depletion level once it reaches it.
+
+    Build one with ``GivenLoss(rate)`` (constant [s^-1]), :meth:`table` or :meth:`xuv_power_law`.
+
+    Examples
+    --------
+    >>> GivenLoss(1e25)(0.0)
+    1e+25
+    >>> GivenLoss.table([0.0, 1e16], [1e26, 0.0])(5e15)
+    5e+25
+    >>> f"{GivenLoss.xuv_power_law(1e26, 1.0, 0.5)(0.0, xuv_flux=4.0):.6g}"
+    '2e+26'
+    """
+
+    def __init__(self, rate: float) -> None:
+        value = _finite(rate, "given loss rate", "s-1")
+        if not value >= 0.0:
+            raise ValueError(f"given loss rate must be >= 0 [s^-1], got {value!r}")
+        self.kind = "constant"
+        self.parameters: dict[str, Any] = {"rate": value}
+        self._core = _core.GivenLoss(value)
+
+    @classmethod
+    def table(cls, times: ArrayLike, rates: ArrayLike) -> GivenLoss:
+        """Rates [s^-1] (>= 0) against strictly increasing times [s], linear between points and
+        held at the ends."""
+        t = _finite_vector(times, "times", "s")
+        r = _finite_vector(rates, "rates", "s-1")
+        self = cls.__new__(cls)
+        self.kind = "table"
+        self.parameters = {"times": t, "rates": r}
+        self._core = _core.GivenLoss(t, r)
+        return self
+
+    @classmethod
+    def xuv_power_law(
+        cls, reference_rate: float, reference_flux: float, exponent: float
+    ) -> GivenLoss:
+        """``L = reference_rate (F_xuv / reference_flux)^exponent``: reference_rate [s^-1]
+        (>= 0) at reference_flux [W m^-2] (> 0), exponent [1]. Needs the planet's star."""
+        rate = _finite(reference_rate, "reference_rate", "s-1")
+        flux = _finite(reference_flux, "reference_flux", "W m-2")
+        p = _finite(exponent, "exponent", "1")
+        self = cls.__new__(cls)
+        self.kind = "xuv_power_law"
+        self.parameters = {"reference_rate": rate, "reference_flux": flux, "exponent": p}
+        self._core = _core.GivenLoss.xuv_power_law(rate, flux, p)
+        return self
+
+    def __call__(self, t: float, xuv_flux: float = 0.0) -> float:
+        """Rate [s^-1] at time ``t`` [s] and XUV flux ``xuv_flux`` [W m^-2] (power law only)."""
+        return float(self._core(_finite(t, "t", "s"), _finite(xuv_flux, "xuv_flux", "W m-2")))
+
+    def __repr__(self) -> str:
+        args = ", ".join(f"{k}={v!r}" for k, v in self.parameters.items())
+        return f"GivenLoss.{self.kind}({args})" if self.kind != "constant" else f"GivenLoss({args})"
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        if self.kind == "constant":
+            return (GivenLoss, (self.parameters["rate"],))
+        return (getattr(GivenLoss, self.kind), tuple(self.parameters.values()))
+
+
+def given_loss(value: Any, name: str) -> Any:
+    """The core given loss for a float rate [s^-1], a GivenLoss or a (times, rates) pair."""
+    if isinstance(value, GivenLoss):
+        return value._core
+    if isinstance(value, tuple) and len(value) == 2:
+        return GivenLoss.table(*value)._core
+    rate = _scalar(value, f"given loss of {name}", "s-1")
+    if not (math.isfinite(rate) and rate >= 0.0):
+        raise ValueError(f"given loss of {name} must be finite and >= 0 [s^-1], got {rate!r}")
+    return _core.GivenLoss(rate)
 
 
 def evolve(

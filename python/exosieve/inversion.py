@@ -38,8 +38,9 @@ from . import constants as c
 from ._arrays import real_number, whole_number
 from .catalogue import load_cases
 from .evolution import ExobaseLike, _build_config
-from .model import EnergyLimitedEscape, Planet, as_thresholds
+from .hydrodynamic import EnergyLimitedEscape, as_thresholds
 from .ocean import WATER_DENSITY, hydrogen_atoms, hydrogen_to_ocean_depth
+from .stellar import Planet
 
 __all__ = ["RatioInversion", "InversionSamples", "invert_ratio", "invert_case", "STATUSES"]
 

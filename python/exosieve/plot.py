@@ -871,7 +871,7 @@ _REGIME_STYLES = ("-", "--", ":")
 def _thresholds(thresholds: Any) -> tuple[float, float]:
     """(transition, hydrodynamic) thresholds [1] from a RegimeThresholds, a dict or None."""
     if thresholds is None:
-        from .model import RegimeThresholds
+        from .hydrodynamic import RegimeThresholds
 
         thresholds = RegimeThresholds()
     if isinstance(thresholds, dict):
@@ -1131,7 +1131,7 @@ def case_history(
 
 def _case_arrays(result: Any, case: str | int | None) -> dict[str, Any]:
     """The arrays of one case of a comparison, or of an evolution result, for case_history."""
-    from .model import REGIMES
+    from .hydrodynamic import REGIMES
 
     if hasattr(result, "inventory"):  # an EvolutionResult
         config = result.config

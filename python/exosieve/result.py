@@ -19,7 +19,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from . import _core
-from .model import REGIMES
+from .hydrodynamic import REGIMES
 
 __all__ = ["EvolutionResult", "PerName", "open_result", "VARIABLES"]
 

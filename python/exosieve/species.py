@@ -6,6 +6,8 @@ The registry is read from ``data/species.csv`` (compiled into the core). Unknown
 
 from __future__ import annotations
 
+from typing import Any
+
 from . import _core
 
 Species = _core.Species
@@ -89,3 +91,12 @@ def species_names() -> list[str]:
     True
     """
     return list(_core.species_names())
+
+
+def _name(key: Any) -> str:
+    """The name of a species given by name or as a :class:`Species` (a mapping key)."""
+    if isinstance(key, _core.Species):
+        return str(key.name)
+    if not isinstance(key, str):
+        raise ValueError(f"species must be given by name (str), got {key!r}")
+    return key

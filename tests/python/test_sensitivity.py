@@ -156,7 +156,7 @@ def test_saltelli_sweep_against_the_closed_form_of_exponential_loss():
     offset = g - np.log(x[:, 0]) + np.log(x[:, 1])
     assert np.std(offset) < 1e-9 * np.std(g)
     # A and B are the Monte Carlo draws 2r and 2r + 1 of the case.
-    table = exosieve.batch.load_cases(_closed_form_table()).to_core()
+    table = exosieve.catalogue.load_cases(_closed_form_table()).to_core()
     for run, draw in [(0, 0), (base, 1), (base + 5, 11), (2 * base + 3, 6)]:
         values = _core.case_values(table, 0, 5, draw)
         assert x[run, 1] == values["inventory"]
@@ -245,7 +245,7 @@ def test_saltelli_sweep_file_threads_and_monte_carlo_inputs(tmp_path):
         assert ds["sample_input"].dims == ("case", "sample", "input")
     # A plain Monte Carlo sweep stores its drawn inputs too: run j is the case's draw j.
     mc = compare(cases, t_end=T_END, samples=5, seed=9)
-    table = exosieve.batch.load_cases(cases).to_core()
+    table = exosieve.catalogue.load_cases(cases).to_core()
     values = _core.case_values(table, 0, 9, 3)
     assert mc["sample_input"][0, 3, 2] == values["exobase_temperature"]
     assert mc["sample_input"][1, 3, 2] == 875.0  # held at its table value

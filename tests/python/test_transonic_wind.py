@@ -13,7 +13,8 @@ import pytest
 import exosieve
 from exosieve import _core
 from exosieve import constants as c
-from exosieve.batch import _core_options, _engine_options, compare
+from exosieve.batch import compare
+from exosieve.batch_options import _core_options, _engine_options
 from exosieve.catalogue import case_table_from_frame
 from exosieve.cli import main
 
