@@ -13,7 +13,6 @@
 #include <optional>
 #include <set>
 #include <sstream>
-#include <thread>
 #include <utility>
 
 #include "closest_names.hpp"
@@ -21,6 +20,7 @@
 #include "exosieve/errors.hpp"
 #include "exosieve/outflow.hpp"
 #include "exosieve/sensitivity.hpp"
+#include "worker_threads.hpp"
 
 namespace exosieve {
 
@@ -1472,9 +1472,7 @@ void check_design(const CaseTable& table, const BatchOptions& o) {
 std::vector<std::string> check_rows(const CaseTable& table, const BatchOptions& o,
                                     std::size_t begin, std::size_t end) {
     std::vector<std::string> errors(end - begin);
-    const std::size_t hardware = std::max(1u, std::thread::hardware_concurrency());
-    const std::size_t threads = std::max<std::size_t>(
-        1, std::min<std::size_t>(o.threads ? o.threads : hardware, (end - begin) / 256 + 1));
+    const std::size_t threads = detail::thread_count(o.threads, (end - begin) / 256 + 1);
     // One plan per thread (it holds scratch space), made here where a failure can still throw.
     std::vector<TablePlan> plans(threads, plan_table(table));
     auto check = [&](std::size_t first, std::size_t stride) {
@@ -1498,18 +1496,7 @@ std::vector<std::string> check_rows(const CaseTable& table, const BatchOptions& 
             }
         }
     };
-    std::vector<std::thread> pool;
-    try {
-        for (std::size_t k = 1; k < threads; ++k)
-            pool.emplace_back(check, k, threads);
-    } catch (...) {
-        for (std::thread& t : pool)
-            t.join();
-        throw;
-    }
-    check(0, threads);
-    for (std::thread& t : pool)
-        t.join();
+    detail::run_on_threads(threads, [&](std::size_t first) { check(first, threads); });
     return errors;
 }
 
@@ -1755,8 +1742,8 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
     const std::size_t chunks = (cases + chunk - 1) / chunk;
     const std::size_t total_runs = cases * per_case;
     const std::size_t window = std::min(o.chunks_in_flight, std::max<std::size_t>(chunks, 1));
-    std::size_t threads = o.threads ? o.threads : std::thread::hardware_concurrency();
-    threads = std::max<std::size_t>(1, std::min(threads, std::max<std::size_t>(total_runs, 1)));
+    const std::size_t threads =
+        detail::thread_count(o.threads, std::max<std::size_t>(total_runs, 1));
 
     std::vector<Slot> slots(window);
     auto chunk_end_run = [&](std::size_t c) { return std::min((c + 1) * chunk, cases) * per_case; };
@@ -1880,90 +1867,90 @@ BatchStatus run_batch(const CaseTable& table, std::size_t begin, std::size_t end
         }
     };
 
-    std::vector<std::thread> pool;
-    auto stop = [&]() {
+    // Wakes the workers to return (those in a run stop within a step through its progress hook).
+    auto cancel_all = [&]() {
         {
             std::lock_guard<std::mutex> lock(m);
             cancel.store(true);
         }
         work_cv.notify_all();
-        for (std::thread& t : pool)
-            if (t.joinable())
-                t.join();
     };
     BatchStatus status;
-    try {
-        for (std::size_t k = 0; k < threads; ++k)
-            pool.emplace_back(worker, std::ref(plans[k]));
-        // Progress by time (about every `interval`, with the runs finished so far) or by count
-        // (after every `every`-th chunk handed out, with the runs of the chunks handed out).
-        const std::size_t every = hooks.progress_every_chunks;
-        auto last_progress = std::chrono::steady_clock::now();
-        const auto interval = std::chrono::milliseconds(hooks.progress_interval_ms);
-        auto report = [&](std::size_t done) {
-            last_progress = std::chrono::steady_clock::now();
-            if (hooks.on_progress && !hooks.on_progress(done, total_runs)) {
-                status.cancelled = true;
-                return false;
-            }
-            return true;
-        };
-        std::size_t runs_handed_out = 0;
-        for (std::size_t c = 0; c < chunks && !status.cancelled; ++c) {
-            Slot& s = slots[c % window];
-            if (every > 0) {
-                std::unique_lock<std::mutex> lock(m);
-                done_cv.wait(lock, [&] { return s.remaining == 0; });
-            } else {
-                for (;;) {
-                    {
-                        std::unique_lock<std::mutex> lock(m);
-                        if (done_cv.wait_until(lock, last_progress + interval,
-                                               [&] { return s.remaining == 0; }))
+    {
+        detail::WorkerThreads pool(
+            threads, [&](std::size_t k) { worker(plans[k]); }, cancel_all);
+        try {
+            // Progress by time (about every `interval`, with the runs finished so far) or by count
+            // (after every `every`-th chunk handed out, with the runs of the chunks handed out).
+            const std::size_t every = hooks.progress_every_chunks;
+            auto last_progress = std::chrono::steady_clock::now();
+            const auto interval = std::chrono::milliseconds(hooks.progress_interval_ms);
+            auto report = [&](std::size_t done) {
+                last_progress = std::chrono::steady_clock::now();
+                if (hooks.on_progress && !hooks.on_progress(done, total_runs)) {
+                    status.cancelled = true;
+                    return false;
+                }
+                return true;
+            };
+            std::size_t runs_handed_out = 0;
+            for (std::size_t c = 0; c < chunks && !status.cancelled; ++c) {
+                Slot& s = slots[c % window];
+                if (every > 0) {
+                    std::unique_lock<std::mutex> lock(m);
+                    done_cv.wait(lock, [&] { return s.remaining == 0; });
+                } else {
+                    for (;;) {
+                        {
+                            std::unique_lock<std::mutex> lock(m);
+                            if (done_cv.wait_until(lock, last_progress + interval,
+                                                   [&] { return s.remaining == 0; }))
+                                break;
+                        }
+                        if (!report(runs_done.load()))
                             break;
                     }
-                    if (!report(runs_done.load()))
+                    if (status.cancelled)
                         break;
                 }
-                if (status.cancelled)
-                    break;
-            }
-            // A finished chunk: hand it out, then reuse its slot for the chunk `window` ahead.
-            for (std::size_t j = 0; j < s.out.count; ++j) {
-                if (!s.out.error[j].empty())
-                    ++status.cases_failed;
-                for (std::size_t k = 0; k < N; ++k)
-                    status.samples_failed += s.out.sample_failed[j * N + k];
-            }
-            if (hooks.on_chunk)
-                hooks.on_chunk(s.out);
-            status.cases_done += s.out.count;
-            runs_handed_out += s.out.count * per_case;
-            if (c + window < chunks) {
-                open_chunk(c + window);
-                {
-                    std::lock_guard<std::mutex> lock(m);
-                    window_end = chunk_end_run(c + window);
+                // A finished chunk: hand it out, then reuse its slot for the chunk `window` ahead.
+                for (std::size_t j = 0; j < s.out.count; ++j) {
+                    if (!s.out.error[j].empty())
+                        ++status.cases_failed;
+                    for (std::size_t k = 0; k < N; ++k)
+                        status.samples_failed += s.out.sample_failed[j * N + k];
                 }
-                work_cv.notify_all();
+                if (hooks.on_chunk)
+                    hooks.on_chunk(s.out);
+                status.cases_done += s.out.count;
+                runs_handed_out += s.out.count * per_case;
+                if (c + window < chunks) {
+                    open_chunk(c + window);
+                    {
+                        std::lock_guard<std::mutex> lock(m);
+                        window_end = chunk_end_run(c + window);
+                    }
+                    work_cv.notify_all();
+                }
+                // The last chunk is reported by the call at the end.
+                if (c + 1 == chunks)
+                    break;
+                if (every > 0) {
+                    if ((c + 1) % every == 0)
+                        report(runs_handed_out);
+                } else if (std::chrono::steady_clock::now() - last_progress >= interval) {
+                    report(runs_done.load());
+                }
             }
-            // The last chunk is reported by the call at the end.
-            if (c + 1 == chunks)
-                break;
-            if (every > 0) {
-                if ((c + 1) % every == 0)
-                    report(runs_handed_out);
-            } else if (std::chrono::steady_clock::now() - last_progress >= interval) {
-                report(runs_done.load());
-            }
+            if (!status.cancelled && hooks.on_progress)
+                hooks.on_progress(every > 0 ? runs_handed_out : runs_done.load(), total_runs);
+        } catch (...) {
+            cancel_all(); // the pool's destructor joins the workers
+            throw;
         }
-        if (!status.cancelled && hooks.on_progress)
-            hooks.on_progress(every > 0 ? runs_handed_out : runs_done.load(), total_runs);
-    } catch (...) {
-        stop();
-        throw;
+        cancel_all();
+        pool.join();
     }
-    stop();
     return status;
 }
 
