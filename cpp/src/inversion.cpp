@@ -13,7 +13,10 @@
 #include <optional>
 #include <utility>
 
+#include "exosieve/case_config.hpp"
+#include "exosieve/case_sampling.hpp"
 #include "exosieve/errors.hpp"
+#include "exosieve/random.hpp"
 #include "worker_threads.hpp"
 
 namespace exosieve {
