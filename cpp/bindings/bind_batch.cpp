@@ -10,6 +10,10 @@
 #include <vector>
 
 #include "exosieve/background_appender.hpp"
+#include "exosieve/batch.hpp"
+#include "exosieve/case_config.hpp"
+#include "exosieve/case_sampling.hpp"
+#include "exosieve/case_table.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/sweep_file.hpp"
 

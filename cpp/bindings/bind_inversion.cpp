@@ -7,7 +7,7 @@
 #include <string>
 #include <vector>
 
-#include "exosieve/batch.hpp"
+#include "exosieve/case_table.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/inversion.hpp"
 #include "exosieve/ocean.hpp"

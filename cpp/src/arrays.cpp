@@ -4,10 +4,10 @@
 #include <cmath>
 #include <limits>
 #include <string>
-#include <thread>
 #include <vector>
 
 #include "exosieve/errors.hpp"
+#include "worker_threads.hpp"
 
 namespace exosieve {
 
@@ -72,22 +72,17 @@ void require_at_most(const char* what, ArrayArg values, double limit) {
 void parallel_for(std::size_t count, const std::function<void(std::size_t, std::size_t)>& body) {
     // Threads pay off only when each one gets a few hundred microseconds of work.
     constexpr std::size_t min_per_thread = 1u << 16;
-    const std::size_t hardware = std::max(1u, std::thread::hardware_concurrency());
-    const std::size_t threads = std::min(hardware, count / min_per_thread);
+    const std::size_t threads = detail::thread_count(0, count / min_per_thread);
     if (threads <= 1) {
         body(0, count);
         return;
     }
-    std::vector<std::thread> pool;
     const std::size_t chunk = (count + threads - 1) / threads;
-    for (std::size_t t = 1; t < threads; ++t) {
+    detail::run_on_threads(threads, [&](std::size_t t) {
         const std::size_t begin = t * chunk, end = std::min(count, begin + chunk);
         if (begin < end)
-            pool.emplace_back(body, begin, end);
-    }
-    body(0, std::min(count, chunk));
-    for (auto& th : pool)
-        th.join();
+            body(begin, end);
+    });
 }
 
 } // namespace exosieve

@@ -11,10 +11,13 @@
 #include <exception>
 #include <mutex>
 #include <optional>
-#include <thread>
 #include <utility>
 
+#include "exosieve/case_config.hpp"
+#include "exosieve/case_sampling.hpp"
 #include "exosieve/errors.hpp"
+#include "exosieve/random.hpp"
+#include "worker_threads.hpp"
 
 namespace exosieve {
 
@@ -466,6 +469,11 @@ InversionSamples run_pool(std::size_t samples, std::size_t threads, const Invers
                 r = InversionResult{};
                 r.status = InversionStatus::Failed;
                 r.message = e.what();
+            } catch (...) {
+                // Reported too: the calling thread waits for every task to be done.
+                r = InversionResult{};
+                r.status = InversionStatus::Failed;
+                r.message = "unknown error";
             }
             std::lock_guard<std::mutex> lock(m);
             results[j] = std::move(r);
@@ -477,56 +485,52 @@ InversionSamples run_pool(std::size_t samples, std::size_t threads, const Invers
             cv.notify_all();
         }
     };
-    const std::size_t hardware = std::max(1u, std::thread::hardware_concurrency());
-    threads = std::max<std::size_t>(1, std::min(threads ? threads : hardware, total));
-    std::vector<std::thread> pool;
-    auto stop = [&]() {
-        cancel.store(true);
-        for (std::thread& t : pool)
-            if (t.joinable())
-                t.join();
-    };
+    threads = detail::thread_count(threads, total);
     bool cancelled = false;
     std::size_t kept = total;
-    try {
-        for (std::size_t k = 0; k < threads; ++k)
-            pool.emplace_back(worker);
-        const std::size_t every = hooks.progress_every;
-        if (every > 0) {
-            for (std::size_t mark = std::min(every, total);; mark = std::min(mark + every, total)) {
-                {
-                    std::unique_lock<std::mutex> lock(m);
-                    cv.wait(lock, [&] { return prefix >= mark; });
-                }
-                if (mark == total)
-                    break;
-                if (hooks.on_progress && !hooks.on_progress(mark, total)) {
-                    cancelled = true;
-                    kept = mark;
-                    break;
-                }
-            }
-        } else {
-            const auto interval = std::chrono::milliseconds(hooks.progress_interval_ms);
-            for (;;) {
-                std::size_t count;
-                {
-                    std::unique_lock<std::mutex> lock(m);
-                    if (cv.wait_for(lock, interval, [&] { return finished == total; }))
+    {
+        detail::WorkerThreads pool(
+            threads, [&](std::size_t) { worker(); }, [&] { cancel.store(true); });
+        try {
+            const std::size_t every = hooks.progress_every;
+            if (every > 0) {
+                for (std::size_t mark = std::min(every, total);;
+                     mark = std::min(mark + every, total)) {
+                    {
+                        std::unique_lock<std::mutex> lock(m);
+                        cv.wait(lock, [&] { return prefix >= mark; });
+                    }
+                    if (mark == total)
                         break;
-                    count = finished;
+                    if (hooks.on_progress && !hooks.on_progress(mark, total)) {
+                        cancelled = true;
+                        kept = mark;
+                        break;
+                    }
                 }
-                if (hooks.on_progress && !hooks.on_progress(count, total)) {
-                    cancelled = true;
-                    break;
+            } else {
+                const auto interval = std::chrono::milliseconds(hooks.progress_interval_ms);
+                for (;;) {
+                    std::size_t count;
+                    {
+                        std::unique_lock<std::mutex> lock(m);
+                        if (cv.wait_for(lock, interval, [&] { return finished == total; }))
+                            break;
+                        count = finished;
+                    }
+                    if (hooks.on_progress && !hooks.on_progress(count, total)) {
+                        cancelled = true;
+                        break;
+                    }
                 }
             }
+        } catch (...) {
+            cancel.store(true); // the pool's destructor joins the workers, which now stop
+            throw;
         }
-    } catch (...) {
-        stop();
-        throw;
+        cancel.store(true);
+        pool.join();
     }
-    stop();
     if (!cancelled && hooks.on_progress)
         hooks.on_progress(total, total);
 

@@ -3,10 +3,10 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
-#include <thread>
 
 #include "exosieve/errors.hpp"
 #include "exosieve/random.hpp"
+#include "worker_threads.hpp"
 
 namespace exosieve {
 
@@ -167,25 +167,12 @@ std::vector<SobolIndices> sobol_indices_many(const double* y, std::size_t count,
     d.validate();
     o.validate();
     std::vector<SobolIndices> out(count);
-    const std::size_t hardware = std::max(1u, std::thread::hardware_concurrency());
-    threads = std::max<std::size_t>(1, std::min(threads ? threads : hardware, count));
+    threads = detail::thread_count(threads, count);
     const std::size_t runs = d.runs();
-    auto work = [&](std::size_t first) {
+    detail::run_on_threads(threads, [&](std::size_t first) {
         for (std::size_t k = first; k < count; k += threads)
             out[k] = sobol_indices(y + k * runs, d, o);
-    };
-    std::vector<std::thread> pool;
-    try {
-        for (std::size_t t = 1; t < threads; ++t)
-            pool.emplace_back(work, t);
-    } catch (...) {
-        for (std::thread& t : pool)
-            t.join();
-        throw;
-    }
-    work(0);
-    for (std::thread& t : pool)
-        t.join();
+    });
     return out;
 }
 

@@ -4,17 +4,16 @@
 #include <array>
 #include <atomic>
 #include <cmath>
-#include <exception>
 #include <limits>
 #include <mutex>
 #include <sstream>
-#include <thread>
 
 #include <boost/math/tools/toms748_solve.hpp>
 #include <boost/numeric/odeint.hpp>
 
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
+#include "worker_threads.hpp"
 
 namespace exosieve {
 
@@ -680,31 +679,16 @@ void solve_thermospheres(const std::vector<Species>& species, std::size_t count,
         }
     };
     // Each case costs tens of microseconds: threads pay off from a few hundred cases.
-    const std::size_t hardware = std::max(1u, std::thread::hardware_concurrency());
-    std::size_t workers = threads == 0 ? hardware : threads;
-    workers = std::max<std::size_t>(1, std::min(workers, count / 256));
+    const std::size_t workers = detail::thread_count(threads, count / 256);
     if (workers <= 1) {
         work(0, count);
         return;
     }
-    std::vector<std::thread> pool;
-    std::vector<std::exception_ptr> errors(workers);
     const std::size_t chunk = (count + workers - 1) / workers;
-    for (std::size_t w = 0; w < workers; ++w) {
+    detail::run_on_threads(workers, [&](std::size_t w) {
         const std::size_t begin = w * chunk, end = std::min(count, begin + chunk);
-        pool.emplace_back([&, w, begin, end] {
-            try {
-                work(begin, end);
-            } catch (...) {
-                errors[w] = std::current_exception();
-            }
-        });
-    }
-    for (auto& th : pool)
-        th.join();
-    for (auto& err : errors)
-        if (err)
-            std::rethrow_exception(err);
+        work(begin, end);
+    });
 }
 
 } // namespace exosieve

@@ -7,10 +7,14 @@
 #include <vector>
 
 #include "exosieve/batch.hpp"
+#include "exosieve/case_config.hpp"
+#include "exosieve/case_sampling.hpp"
+#include "exosieve/case_table.hpp"
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/jeans.hpp"
 #include "exosieve/outflow.hpp"
+#include "exosieve/random.hpp"
 #include "exosieve/sensitivity.hpp"
 
 using namespace exosieve;

@@ -6,7 +6,8 @@
 #include <string>
 #include <vector>
 
-#include "exosieve/batch.hpp"
+#include "exosieve/case_sampling.hpp"
+#include "exosieve/case_table.hpp"
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/evolution.hpp"

@@ -42,7 +42,8 @@
 #include <string>
 #include <vector>
 
-#include "exosieve/batch.hpp"
+#include "exosieve/batch_options.hpp"
+#include "exosieve/case_table.hpp"
 #include "exosieve/evolution.hpp"
 
 namespace exosieve {
