@@ -57,7 +57,7 @@ from numpy.typing import NDArray
 from . import _core
 from . import constants as c
 from ._arrays import real_number, to_si, whole_number
-from .catalogue import UNITS, CaseTable, _si_unit, given_units, load_cases, width_column
+from .catalogue import CaseTable, _si_unit, given_units, load_cases, unit_factor, width_column
 from .model import REGIMES, as_thresholds
 
 __all__ = ["compare", "Comparison", "open_comparison", "Interrupted"]
@@ -1259,7 +1259,7 @@ def _run_chunk(payload: dict[str, Any], options: dict[str, Any], threads: int) -
     for name, values in payload["text"].items():
         table.add_text(name, values)
     for name, unit in payload.get("units", {}).items():
-        table.set_given_unit(name, unit, UNITS[unit][0])
+        table.set_given_unit(name, unit, unit_factor(name, unit))
     rows = len(payload["names"])
     core_options = _core_options(options, threads=threads, chunk_size=max(rows, 1))
     chunks: list[dict[str, Any]] = []
