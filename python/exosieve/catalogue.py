@@ -733,10 +733,10 @@ def frame_from_table(table: Any) -> Any:
     A column with a unit (a QTable's Quantity column, a Table column's ``unit``) becomes the
     header ``name [unit]`` with its numbers, the unit as astropy writes it; a unit whose text
     does not read back as exactly that unit (a scale rounded in print, ``1.23457e+17 / m3``; a
-    unit astropy does not enable by default) is converted to the column's SI unit instead. A
-    column without a unit is taken as it is, as a DataFrame's would be (``x_He``,
-    ``planet_mass [M_earth]``). Masked cells become empty ("not given"). Columns are
-    converted whole, never row by row.
+    unit astropy does not enable by default; a dimensionless count) is converted to the
+    column's SI unit instead. A column without a unit is taken as it is, as a DataFrame's
+    would be (``x_He``, ``planet_mass [M_earth]``). Masked cells become empty ("not given").
+    Columns are converted whole, never row by row.
 
     Examples
     --------
@@ -768,8 +768,8 @@ def frame_from_table(table: Any) -> Any:
                     "quantity (a header with a [unit] takes no astropy unit besides)"
                 )
             text = _units.exact_text(unit)
-            if text is None:
-                si = _si_unit(header)
+            si = _si_unit(header)
+            if text is None or (si == "particles" and text == "1"):  # a count: u.one
                 if si is None:
                     raise ValueError(
                         f"{kind} column '{name}': unknown column with the unit '{unit}'"

@@ -286,3 +286,17 @@ def test_quantity_arguments_take_any_unit_of_their_dimension():
     assert grams == pytest.approx(in_si, rel=1e-15)
     with pytest.raises(ValueError, match=r"planet_mass: cannot convert .* to \[kg\]"):
         exosieve.escape_speed(2.0 * u.km, 1.0 * u.m)
+
+
+def test_dimensionless_count_in_a_qtable_is_particles():
+    # astropy has no "particles": a count is dimensionless (u.one, or scaled: 1e30)
+    frame = _earth_like("planet_mass [M_earth]", 1.0)
+    table = QTable.from_pandas(frame.drop(columns="inventory [particles]"))
+    table["inventory"] = [1e37] * u.one
+    assert frame_from_table(table).columns[-1] == "inventory [particles]"
+    assert load_cases(table).column("inventory")[0] == 1e37
+    table["inventory"] = [1e7] * u.Unit(1e30)
+    assert frame_from_table(table).columns[-1] == "inventory [1e+30]"
+    assert load_cases(table).column("inventory")[0] == pytest.approx(1e37, rel=1e-15)
+    with pytest.raises(ValueError, match=r"unit '1' does not measure inventory"):
+        load_cases(frame.rename(columns={"inventory [particles]": "inventory [1]"}))  # as before
