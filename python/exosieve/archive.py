@@ -392,7 +392,7 @@ def archive_cases(
 
     Parameters
     ----------
-    archive : str, Path or pandas.DataFrame
+    archive : str, Path, pandas.DataFrame or astropy Table
         The archive table (see :func:`read_archive`).
     limits : {"drop", "bound"}
         Rows whose value of a quantity is only a limit: left out, or kept with the limit as
