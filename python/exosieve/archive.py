@@ -106,7 +106,15 @@ from numpy.typing import NDArray
 
 from . import constants as c
 from ._arrays import real_number
-from .catalogue import _HEADER, UNITS, _data_path, _si_unit, width_column
+from .catalogue import (
+    _HEADER,
+    _data_path,
+    _is_astropy_table,
+    _si_unit,
+    frame_from_table,
+    unit_factor,
+    width_column,
+)
 from .species import species as _species
 
 #: Stefan-Boltzmann constant [W m^-2 K^-4]: 2 pi^5 k^4 / (15 h^3 c^2) with the exact SI
@@ -253,9 +261,10 @@ def read_archive(archive: str | Path | Any) -> tuple[Any, NDArray[np.int64], str
 
     Parameters
     ----------
-    archive : str, Path or pandas.DataFrame
+    archive : str, Path, pandas.DataFrame or astropy Table
         A CSV file (comment lines starting with ``#``, then the header) or a DataFrame with
-        the archive's column names.
+        the archive's column names; an astropy Table or QTable with them (columns with units
+        converted to the archive's units: :func:`_frame_from_archive_table`).
 
     Returns
     -------
@@ -280,13 +289,18 @@ def read_archive(archive: str | Path | Any) -> tuple[Any, NDArray[np.int64], str
         body = "".join(lines[k - 1] for k in kept)
         frame = pd.read_csv(io.StringIO(body), dtype=str, keep_default_na=False)
         numbers = np.array(kept[1 : 1 + len(frame)], dtype=np.int64)
+    elif _is_astropy_table(archive):
+        source = type(archive).__name__
+        frame = _frame_from_archive_table(archive).astype(object)
+        numbers = np.arange(1, len(frame) + 1, dtype=np.int64)
     elif hasattr(archive, "columns") and hasattr(archive, "index"):
         source = "DataFrame"
         frame = archive.reset_index(drop=True).astype(object)
         numbers = np.arange(1, len(frame) + 1, dtype=np.int64)
     else:
         raise ValueError(
-            f"archive must be a CSV path or a pandas DataFrame, got {type(archive).__name__}"
+            "archive must be a CSV path or a pandas DataFrame (or an astropy Table), got "
+            f"{type(archive).__name__}"
         )
     frame.columns = [str(name).strip() for name in frame.columns]
     if "pl_name" not in frame.columns:
@@ -310,6 +324,47 @@ def read_archive(archive: str | Path | Any) -> tuple[Any, NDArray[np.int64], str
             )
         out[name] = values if wanted or not bad.any() else text
     return pd.DataFrame(out), numbers, source
+
+
+def _frame_from_archive_table(table: Any) -> Any:
+    """An astropy Table or QTable in the archive layout as a DataFrame: the archive's columns
+    read here (``pl_bmasse`` and its ``err1``/``err2``, ...) with a unit are converted to the
+    archive's own unit (``st_lum`` stays log10 L/L_sun: a ``dex(solLum)`` value is converted
+    with the IAU 2015 L_sun, its errors, in dex, are taken as they are); every other column
+    as :func:`~exosieve.catalogue.frame_from_table` takes it (case-table columns with units
+    become ``name [unit]`` headers)."""
+    from . import _units
+
+    archive_units = {q: (base, factor) for q, base, _, factor in _QUANTITIES}
+    plain_table = table.copy(copy_data=False)
+    for name in table.colnames:
+        column = table[name]
+        unit = getattr(column, "unit", None)
+        stem = name.removesuffix("err1").removesuffix("err2")
+        if unit is None or stem not in archive_units:
+            continue
+        base, factor = archive_units[stem]
+        plain = getattr(column, "unmasked", column)
+        values = np.asarray(getattr(plain, "value", plain), dtype=float)
+        physical = getattr(unit, "physical_unit", None)  # dex(solLum): solLum
+        try:
+            if factor is not None:
+                values = values * (_units.unit_factor(unit, _si_unit(base)) / factor)
+            elif str(getattr(unit, "function_unit", unit)) != "dex":
+                raise _units.WrongDimension("")
+            elif name == stem and physical is not None and str(physical) != "":
+                values = values + np.log10(_units.unit_factor(physical, "W") / c.L_SUN)
+        except _units.WrongDimension as err:
+            need = "log10 L/L_sun (dex)" if factor is None else f"a unit of {_si_unit(base)}"
+            raise ValueError(
+                f"{type(table).__name__} column '{name}': unit '{unit}' does not measure "
+                f"{base} (need {need}){'; ' + str(err) if str(err) else ''}"
+            ) from None
+        mask = getattr(column, "mask", None)
+        if mask is not None:
+            values = np.where(np.asarray(mask, dtype=bool), np.nan, values)
+        plain_table[name] = values
+    return frame_from_table(plain_table)
 
 
 def _is_read(name: str) -> bool:
@@ -337,7 +392,7 @@ def archive_cases(
 
     Parameters
     ----------
-    archive : str, Path or pandas.DataFrame
+    archive : str, Path, pandas.DataFrame or astropy Table
         The archive table (see :func:`read_archive`).
     limits : {"drop", "bound"}
         Rows whose value of a quantity is only a limit: left out, or kept with the limit as
@@ -550,7 +605,7 @@ def archive_cases(
             if kind == "lnsigma"
             else override_units.get(q) or _DISPLAY.get(base) or _si_unit(q) or "1"
         )
-        cases[f"{q} [{unit}]"] = values / UNITS[unit][0]
+        cases[f"{q} [{unit}]"] = values / unit_factor(q, unit)
     valley = value["radius_valley"] / c.R_EARTH
     cases["comment"] = np.where(
         rocky,
@@ -624,13 +679,12 @@ def _overrides(frame: Any) -> tuple[dict[str, NDArray[np.float64]], dict[str, st
             if not (name.startswith("x_") or name.endswith("_lnsigma")):
                 continue
             unit = "1"
-        if unit not in UNITS or UNITS[unit][1] != expected:
-            raise ValueError(
-                f"archive column '{header}': unit '{unit}' does not measure {name} "
-                f"(which is in {expected})"
-            )
+        try:
+            factor = unit_factor(name, unit)
+        except ValueError as err:
+            raise ValueError(f"archive column '{header}': {err}") from None
         if name.startswith("x_") and _is_value(name):
             _species(name[2:])  # unknown species: ValueError with the closest names
-        out[name] = np.asarray(frame[header], dtype=float) * UNITS[unit][0]
+        out[name] = np.asarray(frame[header], dtype=float) * factor
         units[name] = unit
     return out, units

@@ -593,8 +593,9 @@ def compare(
 
     Parameters
     ----------
-    cases : str, Path, pandas.DataFrame or CaseTable
-        The case table (CSV path or DataFrame with ``quantity [unit]`` headers; see the README).
+    cases : str, Path, pandas.DataFrame, astropy Table/QTable or CaseTable
+        The case table (a CSV path or a frame with ``quantity [unit]`` headers, or a Table
+        whose columns carry their units; see the README).
     t_start : float, optional
         Stellar age at the start [s] for rows without ``age_start``. Default 10 Myr.
     t_end : float, optional

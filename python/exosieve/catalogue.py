@@ -18,6 +18,7 @@ import csv
 import hashlib
 import os
 import re
+import sys
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from importlib import resources
@@ -27,7 +28,7 @@ from typing import Any, overload
 import numpy as np
 from numpy.typing import NDArray
 
-from . import _core
+from . import _core, _units
 from . import constants as c
 from .species import species as _species
 
@@ -267,7 +268,7 @@ class CaseTable:
         for name, values in self.columns.items():
             table.add_column(name, np.ascontiguousarray(values[rows], dtype=float))
         for name, unit in given_units(self.units).items():
-            table.set_given_unit(name, unit, UNITS[unit][0])
+            table.set_given_unit(name, unit, unit_factor(name, unit))
         for name, texts in self.text_columns.items():
             if name != "case":
                 table.add_text(name, texts[rows])
@@ -312,7 +313,45 @@ class LineLabels(Sequence[str]):
 
 def given_units(units: dict[str, str]) -> dict[str, str]:
     """The columns of `units` given in a unit other than SI (the ones messages convert)."""
-    return {name: unit for name, unit in units.items() if UNITS.get(unit, (1.0,))[0] != 1.0}
+    return {name: unit for name, unit in units.items() if unit_factor(name, unit) != 1.0}
+
+
+def unit_factor(name: str, unit: str) -> float:
+    """The factor taking column `name`'s values in `unit` to its SI unit (:func:`_si_unit`).
+
+    A word of :data:`UNITS` that measures the column takes its factor there; any other unit is
+    read by astropy (``Mearth``, ``g cm-3``, ``erg / (s cm2)``, ``1e17 m-3``) and converted
+    with astropy's own constants. ValueError, without the column's source, when the unit is
+    unknown (astropy's closest names), measures something else, or needs astropy and it is
+    not installed.
+
+    Examples
+    --------
+    >>> unit_factor("exobase_altitude", "km")
+    1000.0
+    >>> unit_factor("planet_mass", "K")
+    Traceback (most recent call last):
+    ...
+    ValueError: unit 'K' does not measure planet_mass (which is in kg)
+    """
+    expected = _si_unit(name)
+    known = UNITS.get(unit)
+    if known is not None and (expected is None or known[1] == expected):
+        return known[0]
+    if known is None:
+        try:
+            return _units.factor(unit, expected)
+        except _units.UnknownUnit as err:
+            raise ValueError(
+                f"unknown unit '{unit}': {err} (built-in words: {', '.join(UNITS)}; or any unit "
+                "astropy reads)"
+            ) from None
+        except _units.WrongDimension as err:
+            reason = f"; {err}" if str(err) else ""
+            raise ValueError(
+                f"unit '{unit}' does not measure {name} (which is in {expected}){reason}"
+            ) from None
+    raise ValueError(f"unit '{unit}' does not measure {name} (which is in {expected})")
 
 
 def demo_catalogue_path() -> Path:
@@ -341,6 +380,7 @@ class _Reader:
         self.collect = collect
         self.source = source
         self.parsed: list[tuple[str, str | None]] = []
+        self.factors: dict[str, float] = {}  # to SI, by numeric column
         for number, text in enumerate(header, start=1):
             text = str(text)
             if number == 1:
@@ -386,22 +426,16 @@ class _Reader:
             return
         if unit is None:
             if name.startswith(("x_", "exobase_x_")) or name.endswith("_lnsigma"):
+                self.factors[name] = UNITS["1"][0]
                 return
             raise ValueError(
                 f"{self.source} {where} column '{name}': the header must name a unit, "
                 f"e.g. '{name} [K]'"
             )
-        if unit not in UNITS:
-            raise ValueError(
-                f"{self.source} {where} column '{text}': unknown unit '{unit}' "
-                f"(known: {', '.join(UNITS)})"
-            )
-        expected = _si_unit(name)
-        if expected is not None and UNITS[unit][1] != expected:
-            raise ValueError(
-                f"{self.source} {where} column '{text}': unit '{unit}' does not measure "
-                f"{name} (which is in {expected})"
-            )
+        try:
+            self.factors[name] = unit_factor(name, unit)
+        except ValueError as err:
+            raise ValueError(f"{self.source} {where} column '{text}': {err}") from None
 
     def read(
         self, labels: Sequence[str], cells: list[Any], widths: list[int] | None = None
@@ -418,7 +452,7 @@ class _Reader:
                         f"{self.source} {labels[i]}: {width} fields, the header has "
                         f"{len(self.parsed)}"
                     )
-        for (name, unit), column in zip(self.parsed, cells, strict=True):
+        for (name, _), column in zip(self.parsed, cells, strict=True):
             raw = np.asarray(column, dtype=object) if not _is_float_array(column) else column
             if name in table.text_columns:
                 # Texts as given, unless a cell is missing (not text, or the text "nan").
@@ -460,7 +494,7 @@ class _Reader:
                     what = "is not finite" if isinstance(value, float) else "is not a number"
                     shown = f"value {value}" if isinstance(value, float) else _shown(str(value))
                     errors[i] = f"{self.source} {labels[i]} column '{name}': {shown} {what}"
-            self.numbers[name].extend(values * UNITS[unit or "1"][0])
+            self.numbers[name].extend(values * self.factors[name])
         self.labels.append(labels)
         self.errors.update((first + i, text) for i, text in errors.items())
         self.rows += n
@@ -693,16 +727,95 @@ def case_table_from_frame(
     return reader.finish()
 
 
+def frame_from_table(table: Any) -> Any:
+    """A pandas DataFrame in the case-table convention from an astropy Table or QTable.
+
+    A column with a unit (a QTable's Quantity column, a Table column's ``unit``) becomes the
+    header ``name [unit]`` with its numbers, the unit as astropy writes it; a unit whose text
+    does not read back as exactly that unit (a scale rounded in print, ``1.23457e+17 / m3``; a
+    unit astropy does not enable by default; a dimensionless count) is converted to the
+    column's SI unit instead. A column without a unit is taken as it is, as a DataFrame's
+    would be (``x_He``, ``planet_mass [M_earth]``). Masked cells become empty ("not given").
+    Columns are converted whole, never row by row.
+
+    Examples
+    --------
+    >>> import astropy.units as u
+    >>> from astropy.table import QTable
+    >>> table = QTable({"case": ["A"], "planet_mass": [2.0] * u.Mjup, "x_N2": [1.0]})
+    >>> list(frame_from_table(table).columns)
+    ['case', 'planet_mass [jupiterMass]', 'x_N2']
+    """
+    import pandas as pd
+
+    kind = type(table).__name__
+    data: dict[str, Any] = {}
+    for name in table.colnames:
+        column = table[name]
+        if column.ndim != 1:
+            raise ValueError(
+                f"{kind} column '{name}' holds values of shape {column.shape[1:]} per row; a "
+                "case table takes one value per row"
+            )
+        plain = getattr(column, "unmasked", column)  # a masked Quantity's values
+        values = np.asarray(getattr(plain, "value", plain))
+        unit = getattr(column, "unit", None)
+        header = str(name)
+        if unit is not None:
+            if _HEADER.match(header) is None or "[" in header:
+                raise ValueError(
+                    f"{kind} column '{name}' has the unit '{unit}' and a name that is not a "
+                    "quantity (a header with a [unit] takes no astropy unit besides)"
+                )
+            text = _units.exact_text(unit)
+            si = _si_unit(header)
+            if text is None or (si == "particles" and text == "1"):  # a count: u.one
+                if si is None:
+                    raise ValueError(
+                        f"{kind} column '{name}': unknown column with the unit '{unit}'"
+                    )
+                try:
+                    values = values * _units.unit_factor(unit, si)
+                except ValueError as err:
+                    raise ValueError(
+                        f"{kind} column '{name}': unit '{unit}' does not measure {header} "
+                        f"(which is in {si}); {err}"
+                    ) from None
+                text = si
+            header = f"{header} [{text}]"
+        mask = getattr(column, "mask", None)
+        if mask is not None and np.any(mask):
+            mask = np.broadcast_to(np.asarray(mask, dtype=bool), values.shape)
+            if values.dtype.kind in "fiu":
+                values = np.where(mask, np.nan, values.astype(float))
+            else:
+                values = values.astype(object)
+                values[mask] = None
+        data[header] = values
+    return pd.DataFrame(data)
+
+
+def _is_astropy_table(value: Any) -> bool:
+    module = sys.modules.get("astropy.table")  # present whenever such a table exists
+    return module is not None and isinstance(value, module.Table)
+
+
 def load_cases(cases: Any, errors: str = "raise") -> CaseTable:
-    """A :class:`CaseTable` from a CSV path, a pandas DataFrame or a CaseTable."""
+    """A :class:`CaseTable` from a CSV path, a pandas DataFrame, an astropy Table or QTable
+    (through :func:`frame_from_table`) or a CaseTable."""
     if isinstance(cases, CaseTable):
         return cases
     if isinstance(cases, (str, Path)):
         return read_case_table(cases, errors=errors)
+    if _is_astropy_table(cases):
+        return case_table_from_frame(
+            frame_from_table(cases), source=type(cases).__name__, errors=errors
+        )
     if hasattr(cases, "columns") and hasattr(cases, "index"):
         return case_table_from_frame(cases, errors=errors)
     raise ValueError(
-        f"cases must be a CSV path, a pandas DataFrame or a CaseTable, got {type(cases).__name__}"
+        "cases must be a CSV path, a pandas DataFrame, an astropy Table or a CaseTable, got "
+        f"{type(cases).__name__}"
     )
 
 

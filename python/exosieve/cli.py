@@ -376,6 +376,11 @@ def _columns(args: argparse.Namespace) -> int:
     for word, (_, si) in UNITS.items():
         by_unit.setdefault(si, []).append(word)
     print("Unit words: " + "; ".join(f"{si}: {', '.join(w)}" for si, w in by_unit.items()))
+    print(
+        "Any other unit astropy reads is accepted where it measures the quantity (with astropy "
+        "installed), e.g. 'planet_mass [Mjup]', 'temperature_reference_flux [erg / (s cm2)]', "
+        "'homopause_density [1e17 m-3]'."
+    )
     print(f"Template: {case_table_template_path()}")
     return 0
 

@@ -13,7 +13,7 @@ import numpy as np
 
 from . import _core
 from .batch_options import _core_options
-from .catalogue import UNITS, CaseTable, given_units
+from .catalogue import CaseTable, given_units, unit_factor
 from .progress import Progress
 
 
@@ -29,7 +29,7 @@ def _run_chunk(payload: dict[str, Any], options: dict[str, Any], threads: int) -
     for name, values in payload["text"].items():
         table.add_text(name, values)
     for name, unit in payload.get("units", {}).items():
-        table.set_given_unit(name, unit, UNITS[unit][0])
+        table.set_given_unit(name, unit, unit_factor(name, unit))
     rows = len(payload["names"])
     core_options = _core_options(options, threads=threads, chunk_size=max(rows, 1))
     chunks: list[dict[str, Any]] = []

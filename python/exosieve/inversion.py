@@ -663,7 +663,7 @@ def invert_case(
 
     Parameters
     ----------
-    cases : str, Path, pandas.DataFrame or CaseTable
+    cases : str, Path, pandas.DataFrame, astropy Table or CaseTable
         The case table (see :func:`exosieve.compare`).
     case : str or int, optional
         The row: its ``case`` name, or its index (0-based, the ``case`` key of a sweep). May be

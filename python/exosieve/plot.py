@@ -719,7 +719,7 @@ def retention_map(
     ----------
     comparison : Comparison
         From :func:`exosieve.compare` or :func:`exosieve.open_comparison`.
-    cases : str, Path, pandas.DataFrame or CaseTable
+    cases : str, Path, pandas.DataFrame, astropy Table or CaseTable
         The case table the comparison was run on (its fingerprint must match), for the
         instellation (``star_luminosity``, ``semi_major_axis``).
     species : sequence of str, optional
