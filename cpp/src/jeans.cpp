@@ -51,28 +51,12 @@ struct BlockInputs {
     }
 };
 
-// True when every value of the block is valid: density finite and >= 0, the other four
-// finite and > 0. Branch-free so that it vectorises; it runs on cache-hot data just before
-// the kernel, which saves a separate pass over memory.
-EXOSIEVE_VECTOR_CLONES bool block_valid(const double* n, const double* T, const double* m,
-                                        const double* M, const double* r, std::size_t len) {
-    constexpr double big = std::numeric_limits<double>::max();
-    double bad = 0.0;
-    for (std::size_t i = 0; i < len; ++i) {
-        const bool ok = (n[i] >= 0.0) & (n[i] <= big) & (T[i] > 0.0) & (T[i] <= big) &
-                        (m[i] > 0.0) & (m[i] <= big) & (M[i] > 0.0) & (M[i] <= big) & (r[i] > 0.0) &
-                        (r[i] <= big);
-        bad += ok ? 0.0 : 1.0;
-    }
-    return bad == 0.0;
-}
-
 void check_flux_arrays(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg planet_mass,
                        ArrayArg radius, std::size_t count);
 
-// kernel(n, T, m, M, r, out, length) on contiguous blocks, in parallel for long arrays.
-// Inputs are validated block by block; if any block is bad, nothing is returned and the
-// serial check reports the first offending argument and element.
+// kernel(n, T, m, M, r, out, length) on contiguous blocks, in parallel for long arrays. The
+// kernel checks its block's inputs in the same pass and returns false for a bad one; then
+// nothing is returned and the serial check reports the first offending argument and element.
 template <class Kernel>
 void run_blocks(std::array<ArrayArg, 5> args, double* out, std::size_t count, Kernel kernel) {
     check_lengths(count, {args[0], args[1], args[2], args[3], args[4]});
@@ -81,13 +65,11 @@ void run_blocks(std::array<ArrayArg, 5> args, double* out, std::size_t count, Ke
         BlockInputs in(args);
         for (std::size_t b = begin; b < end; b += block) {
             const std::size_t len = std::min(block, end - b);
-            const double *n = in.at(0, b), *T = in.at(1, b), *m = in.at(2, b), *M = in.at(3, b),
-                         *r = in.at(4, b);
-            if (!block_valid(n, T, m, M, r, len)) {
+            if (!kernel(in.at(0, b), in.at(1, b), in.at(2, b), in.at(3, b), in.at(4, b), out + b,
+                        len)) {
                 all_valid = false;
                 return;
             }
-            kernel(n, T, m, M, r, out + b, len);
         }
     });
     if (!all_valid) {
@@ -127,11 +109,20 @@ double log_thermal_speed(double T, double m) {
     return 0.5 * (std::log(2.0 * k_B) + std::log(T) - std::log(m));
 }
 
-// Jeans flux on a contiguous block without the tail factor; vectorises.
-EXOSIEVE_VECTOR_CLONES void flux_block(const double* n, const double* T, const double* m,
+// Jeans flux on a contiguous block without the tail factor, with the block's checks in the same
+// pass over its inputs (branch-free, so that it vectorises). Returns false when a value is
+// invalid: density finite and >= 0, the other four finite and > 0. `*not_finite` is set when a
+// flux came out inf or NaN, which a product of the linear form does for finite extreme inputs.
+EXOSIEVE_VECTOR_CLONES bool flux_block(const double* n, const double* T, const double* m,
                                        const double* M, const double* r, double* out,
-                                       std::size_t len) {
+                                       std::size_t len, bool* not_finite) {
+    constexpr double big = std::numeric_limits<double>::max();
+    double bad = 0.0, overflowed = 0.0;
     for (std::size_t i = 0; i < len; ++i) {
+        const bool ok = (n[i] >= 0.0) & (n[i] <= big) & (T[i] > 0.0) & (T[i] <= big) &
+                        (m[i] > 0.0) & (m[i] <= big) & (M[i] > 0.0) & (M[i] <= big) & (r[i] > 0.0) &
+                        (r[i] <= big);
+        bad += ok ? 0.0 : 1.0;
         const double kT = k_B * T[i];
         const double lambda = G * M[i] * m[i] / (kT * r[i]);
         const double v0 = std::sqrt(2.0 * kT / m[i]);
@@ -140,14 +131,16 @@ EXOSIEVE_VECTOR_CLONES void flux_block(const double* n, const double* T, const d
         // exp(-lambda) as a square applied to the prefactor one factor at a time: the result
         // keeps full precision where exp(-lambda) alone would be subnormal (lambda > 708).
         const double half = detail::vector_exp(-0.5 * lam);
-        out[i] = (n[i] * v0 * inv_two_sqrt_pi * (1.0 + lam) * half) * half;
+        const double flux = (n[i] * v0 * inv_two_sqrt_pi * (1.0 + lam) * half) * half;
+        out[i] = flux;
+        overflowed += std::abs(flux) <= big ? 0.0 : 1.0; // inf or NaN
     }
+    *not_finite = overflowed != 0.0;
+    return bad == 0.0;
 }
 
 void apply_tail(const TailDepletion& tail, const double* T, const double* m, const double* M,
                 const double* r, double* out, std::size_t len) {
-    if (tail.is_identity())
-        return;
     for (std::size_t i = 0; i < len; ++i)
         out[i] *= tail(G * M[i] * m[i] / (k_B * T[i] * r[i]));
 }
@@ -313,17 +306,24 @@ void jeans_flux(ArrayArg density, ArrayArg temperature, ArrayArg mass, ArrayArg 
     run_blocks({density, temperature, mass, planet_mass, radius}, out, count,
                [&](const double* n, const double* T, const double* m, const double* M,
                    const double* r, double* o, std::size_t len) {
-                   flux_block(n, T, m, M, r, o, len);
-                   apply_tail(tail, T, m, M, r, o, len);
+                   bool not_finite = false;
+                   if (!flux_block(n, T, m, M, r, o, len, &not_finite))
+                       return false;
+                   if (!tail.is_identity()) {
+                       apply_tail(tail, T, m, M, r, o, len);
+                       not_finite = true; // scan again below: the factor may have overflowed
+                   }
                    // Where a product of the linear form over- or underflowed into inf or NaN
                    // (finite extreme inputs), the exponential of the log form: finite wherever
-                   // the flux is. Scanned while the block is in cache, not in a second pass.
-                   for (std::size_t j = 0; j < len; ++j)
-                       if (!std::isfinite(o[j])) {
-                           const auto i = static_cast<std::size_t>(o - out) + j;
-                           o[j] = std::exp(log_flux_at(density, temperature, mass, planet_mass,
-                                                       radius, i, tail));
-                       }
+                   // the flux is. Found while the block is in cache, not in a second pass.
+                   if (not_finite)
+                       for (std::size_t j = 0; j < len; ++j)
+                           if (!std::isfinite(o[j])) {
+                               const auto i = static_cast<std::size_t>(o - out) + j;
+                               o[j] = std::exp(log_flux_at(density, temperature, mass, planet_mass,
+                                                           radius, i, tail));
+                           }
+                   return true;
                });
 }
 
