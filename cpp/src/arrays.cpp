@@ -72,17 +72,7 @@ void require_at_most(const char* what, ArrayArg values, double limit) {
 void parallel_for(std::size_t count, const std::function<void(std::size_t, std::size_t)>& body) {
     // Threads pay off only when each one gets a few hundred microseconds of work.
     constexpr std::size_t min_per_thread = 1u << 16;
-    const std::size_t threads = detail::thread_count(0, count / min_per_thread);
-    if (threads <= 1) {
-        body(0, count);
-        return;
-    }
-    const std::size_t chunk = (count + threads - 1) / threads;
-    detail::run_on_threads(threads, [&](std::size_t t) {
-        const std::size_t begin = t * chunk, end = std::min(count, begin + chunk);
-        if (begin < end)
-            body(begin, end);
-    });
+    detail::run_in_chunks(count, detail::thread_count(0, count / min_per_thread), body);
 }
 
 } // namespace exosieve

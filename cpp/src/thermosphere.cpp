@@ -679,16 +679,7 @@ void solve_thermospheres(const std::vector<Species>& species, std::size_t count,
         }
     };
     // Each case costs tens of microseconds: threads pay off from a few hundred cases.
-    const std::size_t workers = detail::thread_count(threads, count / 256);
-    if (workers <= 1) {
-        work(0, count);
-        return;
-    }
-    const std::size_t chunk = (count + workers - 1) / workers;
-    detail::run_on_threads(workers, [&](std::size_t w) {
-        const std::size_t begin = w * chunk, end = std::min(count, begin + chunk);
-        work(begin, end);
-    });
+    detail::run_in_chunks(count, detail::thread_count(threads, count / 256), work);
 }
 
 } // namespace exosieve

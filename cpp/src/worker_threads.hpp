@@ -83,4 +83,19 @@ template <class Body> void run_on_threads(std::size_t count, const Body& body) {
     others.join();
 }
 
+//! Runs body(begin, end) on `threads` contiguous chunks of [0, count), the first on the calling
+//! thread; with one thread, body(0, count) right here. Rethrows like run_on_threads.
+template <class Body> void run_in_chunks(std::size_t count, std::size_t threads, const Body& body) {
+    if (threads <= 1) {
+        body(std::size_t{0}, count);
+        return;
+    }
+    const std::size_t chunk = (count + threads - 1) / threads;
+    run_on_threads(threads, [&](std::size_t t) {
+        const std::size_t begin = std::min(count, t * chunk), end = std::min(count, begin + chunk);
+        if (begin < end)
+            body(begin, end);
+    });
+}
+
 } // namespace exosieve::detail

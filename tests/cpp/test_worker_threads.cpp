@@ -43,6 +43,38 @@ TEST_CASE("run_on_threads runs every index once, index 0 on the calling thread")
     }
 }
 
+TEST_CASE("run_in_chunks covers [0, count) once, in contiguous chunks, the first here") {
+    const std::thread::id caller = std::this_thread::get_id();
+    for (std::size_t count : {1, 5, 100, 101}) {
+        for (std::size_t threads : {1, 2, 3, 8}) {
+            CAPTURE(count);
+            CAPTURE(threads);
+            std::vector<std::atomic<int>> hits(count);
+            std::mutex m;
+            std::vector<std::pair<std::size_t, std::size_t>> chunks;
+            std::thread::id first;
+            run_in_chunks(count, threads, [&](std::size_t begin, std::size_t end) {
+                for (std::size_t i = begin; i < end; ++i)
+                    hits[i].fetch_add(1);
+                std::lock_guard<std::mutex> lock(m);
+                chunks.emplace_back(begin, end);
+                if (begin == 0)
+                    first = std::this_thread::get_id();
+            });
+            for (std::size_t i = 0; i < count; ++i)
+                CHECK(hits[i].load() == 1);
+            CHECK(chunks.size() <= threads);
+            for (const auto& [begin, end] : chunks)
+                CHECK(begin < end);
+            CHECK((first == caller));
+        }
+    }
+    std::size_t calls = 0; // an empty range: the one call of a single thread, as a loop would
+    run_in_chunks(0, 1,
+                  [&](std::size_t begin, std::size_t end) { calls += begin == 0 && end == 0; });
+    CHECK(calls == 1);
+}
+
 TEST_CASE("run_on_threads rethrows the exception of the lowest index that threw") {
     std::vector<std::atomic<int>> runs(6);
     auto body = [&](std::size_t k) {
