@@ -225,9 +225,10 @@ void write_result(const EvolutionResult& r, const std::string& path) {
         if (!present(v, nr, r.has_envelope()))
             return;
         const auto& data = as_values(member);
-        if (data.size() != value_count(v, sizes))
+        const std::size_t want = value_count(v, sizes);
+        if (data.size() != want)
             throw InputError("result " + name + " has " + std::to_string(data.size()) +
-                             " values, expected " + std::to_string(value_count(v, sizes)));
+                             " values, expected " + std::to_string(want));
         w.add_variable(name, v.dims, data, v.units, v.long_name);
         if (!v.flag_values.empty()) {
             w.set_attribute(name, "flag_values", v.flag_values);
@@ -269,12 +270,11 @@ EvolutionResult read_result(const std::string& path) {
             return;
         }
         const Values values = read_values<Values>(path, name);
-        const std::size_t got = values.size();
-        if (got == want)
-            from_values(values, member);
-        if (got != want)
-            throw InputError("result file " + path + ": " + name + " has " + std::to_string(got) +
-                             " values, expected " + std::to_string(want));
+        if (values.size() != want)
+            throw InputError("result file " + path + ": " + name + " has " +
+                             std::to_string(values.size()) + " values, expected " +
+                             std::to_string(want));
+        from_values(values, member);
     });
     r.config = read_attribute(path, "", "config");
     if (has_attribute(path, "", "stepper"))

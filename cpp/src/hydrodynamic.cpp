@@ -28,12 +28,13 @@ const char* regime_name(Regime regime) {
 }
 
 Regime regime_named(const std::string& name) {
-    for (Regime k : all_regimes)
+    std::string known;
+    for (Regime k : all_regimes) {
         if (name == regime_name(k))
             return k;
-    throw InputError("regime: no regime is named '" + name +
-                     "' (known: jeans, enhanced_jeans, "
-                     "transition, hydrodynamic)");
+        known += (known.empty() ? "" : ", ") + std::string(regime_name(k));
+    }
+    throw InputError("regime: no regime is named '" + name + "' (known: " + known + ")");
 }
 
 void RegimeThresholds::validate() const {
