@@ -298,7 +298,7 @@ def evolve(
         progress_every = whole_number(progress_every, "progress_every", 1, " [steps]")
     if progress is not None and not callable(progress):
         raise ValueError(f"progress must be a callable progress(t) or None, got {progress!r}")
-    config, species_objects, initial = _build_config(
+    config = _build_config(
         planet,
         exobase,
         inventory,
@@ -320,7 +320,7 @@ def evolve(
         envelope=envelope,
     )
     raw = _core.evolve(config, progress, int(progress_every or 0))
-    return EvolutionResult._from_core(raw, [s.mass for s in species_objects], initial)
+    return EvolutionResult._from_core(raw)
 
 
 def _build_config(
@@ -344,9 +344,8 @@ def _build_config(
     stepper: str = "auto",
     given_losses: Mapping[str, Any] | None = None,
     envelope: Envelope | None = None,
-) -> tuple[Any, list[Any], list[float]]:
-    """The core EvolutionConfig of :func:`evolve`'s arguments (checked), with the species
-    objects and the initial inventories [particles]."""
+) -> Any:
+    """The core EvolutionConfig of :func:`evolve`'s arguments (checked)."""
     from .jeans import _tail
 
     if not isinstance(planet, Planet):
@@ -427,7 +426,7 @@ def _build_config(
         config.isotope_ratios = _core.default_isotope_ratios(names)
     else:
         config.isotope_ratios = [(str(a), str(b)) for a, b in isotope_ratios]
-    return config, species_objects, initial
+    return config
 
 
 def _exobase_model(

@@ -590,7 +590,7 @@ tail_depletion, max_steps, exobase_temperature, limit_by_diffusion, stepper
     )
     run = _sampling(samples, seed, threads, progress_every)
     progress = _progress(progress)
-    config, _, _ = _build_config(
+    config = _build_config(
         planet,
         exobase,
         inventory,

@@ -159,7 +159,7 @@ class EvolutionResult:
     def __init__(self, data: Mapping[str, Any]) -> None:
         self.time: NDArray[np.float64] = np.asarray(data["time"], dtype=np.float64)
         self.species: list[str] = [str(s) for s in data["species"]]
-        ratios = [str(s) for s in data.get("ratio_names", [])]
+        ratios = [str(s) for s in data["ratio_names"]]
         for name in SPECIES_VARIABLES:
             setattr(self, name, PerName(self.species, np.asarray(data[name], dtype=np.float64)))
         self.isotope_ratio = PerName(
@@ -178,7 +178,7 @@ class EvolutionResult:
             for s, t in zip(self.species, depletion, strict=True)
         }
         self.regime_changes: list[tuple[float, str, str]] = [
-            (float(t), str(a), str(b)) for t, a, b in data.get("regime_changes", [])
+            (float(t), str(a), str(b)) for t, a, b in data["regime_changes"]
         ]
         self.initial_inventory = np.asarray(data["initial_inventory"], dtype=np.float64)
         self.species_mass = np.asarray(data["species_mass"], dtype=np.float64)
@@ -191,7 +191,7 @@ class EvolutionResult:
         self.steps = int(data["steps"])
         self.rejected_steps = int(data["rejected_steps"])
         self.rhs_evaluations = int(data["rhs_evaluations"])
-        self.stepper = str(data.get("stepper", ""))
+        self.stepper = str(data["stepper"])
         self.completed = bool(data["completed"])
         self.t_reached = float(data["t_reached"])
         self.config_json: str = str(data["config"])
@@ -223,7 +223,7 @@ class EvolutionResult:
     envelope_loss_rate: NDArray[np.float64] | None
 
     @classmethod
-    def _from_core(cls, raw: Any, masses: list[float], initial: list[float]) -> EvolutionResult:
+    def _from_core(cls, raw: Any) -> EvolutionResult:
         return cls(
             {
                 "time": raw.time,
@@ -245,8 +245,8 @@ class EvolutionResult:
                     (c.time, REGIMES[c.from_regime], REGIMES[c.to_regime])
                     for c in raw.regime_changes
                 ],
-                "initial_inventory": initial,
-                "species_mass": masses,
+                "initial_inventory": raw.initial_inventory,
+                "species_mass": raw.species_mass,
                 **{name: getattr(raw, name) for name in LOSS_VARIABLES},
                 "steps": raw.steps,
                 "rejected_steps": raw.rejected_steps,
@@ -464,5 +464,4 @@ def open_result(path: str | os.PathLike[str]) -> EvolutionResult:
     >>> bool(exosieve.open_result(path).inventory["H"][-1] == r.inventory["H"][-1])
     True
     """
-    raw = _core.read_result(path)
-    return EvolutionResult._from_core(raw, list(raw.species_mass), list(raw.initial_inventory))
+    return EvolutionResult._from_core(_core.read_result(path))
