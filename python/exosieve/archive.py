@@ -108,6 +108,7 @@ from . import constants as c
 from ._arrays import real_number
 from .catalogue import (
     _HEADER,
+    _column_values,
     _data_path,
     _is_astropy_table,
     _si_unit,
@@ -344,8 +345,7 @@ def _frame_from_archive_table(table: Any) -> Any:
         if unit is None or stem not in archive_units:
             continue
         base, factor = archive_units[stem]
-        plain = getattr(column, "unmasked", column)
-        values = np.asarray(getattr(plain, "value", plain), dtype=float)
+        values = np.asarray(_column_values(column), dtype=float)
         physical = getattr(unit, "physical_unit", None)  # dex(solLum): solLum
         try:
             if factor is not None:

@@ -335,23 +335,21 @@ def unit_factor(name: str, unit: str) -> float:
     ValueError: unit 'K' does not measure planet_mass (which is in kg)
     """
     expected = _si_unit(name)
+    mismatch = f"unit '{unit}' does not measure {name} (which is in {expected})"
     known = UNITS.get(unit)
-    if known is not None and (expected is None or known[1] == expected):
-        return known[0]
-    if known is None:
-        try:
-            return _units.factor(unit, expected)
-        except _units.UnknownUnit as err:
-            raise ValueError(
-                f"unknown unit '{unit}': {err} (built-in words: {', '.join(UNITS)}; or any unit "
-                "astropy reads)"
-            ) from None
-        except _units.WrongDimension as err:
-            reason = f"; {err}" if str(err) else ""
-            raise ValueError(
-                f"unit '{unit}' does not measure {name} (which is in {expected}){reason}"
-            ) from None
-    raise ValueError(f"unit '{unit}' does not measure {name} (which is in {expected})")
+    if known is not None:
+        if expected is None or known[1] == expected:
+            return known[0]
+        raise ValueError(mismatch)
+    try:
+        return _units.factor(unit, expected)
+    except _units.UnknownUnit as err:
+        raise ValueError(
+            f"unknown unit '{unit}': {err} (built-in words: {', '.join(UNITS)}; or any unit "
+            "astropy reads)"
+        ) from None
+    except _units.WrongDimension as err:
+        raise ValueError(mismatch + (f"; {err}" if str(err) else "")) from None
 
 
 def demo_catalogue_path() -> Path:
@@ -757,8 +755,7 @@ def frame_from_table(table: Any) -> Any:
                 f"{kind} column '{name}' holds values of shape {column.shape[1:]} per row; a "
                 "case table takes one value per row"
             )
-        plain = getattr(column, "unmasked", column)  # a masked Quantity's values
-        values = np.asarray(getattr(plain, "value", plain))
+        values = _column_values(column)
         unit = getattr(column, "unit", None)
         header = str(name)
         if unit is not None:
@@ -793,6 +790,12 @@ def frame_from_table(table: Any) -> Any:
                 values[mask] = None
         data[header] = values
     return pd.DataFrame(data)
+
+
+def _column_values(column: Any) -> NDArray[Any]:
+    """The numbers (or texts) of an astropy Table column, without its unit or mask."""
+    plain = getattr(column, "unmasked", column)  # a masked Quantity's values
+    return np.asarray(getattr(plain, "value", plain))
 
 
 def _is_astropy_table(value: Any) -> bool:
