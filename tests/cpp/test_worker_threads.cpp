@@ -43,7 +43,7 @@ TEST_CASE("run_on_threads runs every index once, index 0 on the calling thread")
     }
 }
 
-TEST_CASE("run_in_chunks covers [0, count) once, in contiguous chunks, the first here") {
+TEST_CASE("run_in_chunks covers every index once, in contiguous chunks, the first here") {
     const std::thread::id caller = std::this_thread::get_id();
     for (std::size_t count : {1, 5, 100, 101}) {
         for (std::size_t threads : {1, 2, 3, 8}) {
