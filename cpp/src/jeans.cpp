@@ -4,11 +4,13 @@
 #include <array>
 #include <atomic>
 #include <cmath>
+#include <cstdint>
 #include <limits>
 #include <string>
 
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
+#include "flux_block.hpp"
 #include "vector_exp.hpp"
 
 namespace exosieve {
@@ -18,7 +20,8 @@ using constants::k_B;
 
 namespace {
 
-constexpr double inv_two_sqrt_pi = 0.28209479177387814347; // 1 / (2 sqrt(pi))
+using detail::flux_loop;
+using detail::inv_two_sqrt_pi;
 
 void check_lambda_args(double temperature, double mass, double planet_mass, double radius) {
     require_positive("temperature", temperature);
@@ -109,34 +112,22 @@ double log_thermal_speed(double T, double m) {
     return 0.5 * (std::log(2.0 * k_B) + std::log(T) - std::log(m));
 }
 
-// Jeans flux on a contiguous block without the tail factor, with the block's checks in the same
-// pass over its inputs (branch-free, so that it vectorises). Returns false when a value is
-// invalid: density finite and >= 0, the other four finite and > 0. `*not_finite` is set when a
-// flux came out inf or NaN, which a product of the linear form does for finite extreme inputs.
-EXOSIEVE_VECTOR_CLONES bool flux_block(const double* n, const double* T, const double* m,
-                                       const double* M, const double* r, double* out,
-                                       std::size_t len, bool* not_finite) {
-    constexpr double big = std::numeric_limits<double>::max();
-    double bad = 0.0, overflowed = 0.0;
-    for (std::size_t i = 0; i < len; ++i) {
-        const bool ok = (n[i] >= 0.0) & (n[i] <= big) & (T[i] > 0.0) & (T[i] <= big) &
-                        (m[i] > 0.0) & (m[i] <= big) & (M[i] > 0.0) & (M[i] <= big) & (r[i] > 0.0) &
-                        (r[i] <= big);
-        bad += ok ? 0.0 : 1.0;
-        const double kT = k_B * T[i];
-        const double lambda = G * M[i] * m[i] / (kT * r[i]);
-        const double v0 = std::sqrt(2.0 * kT / m[i]);
-        // lambda beyond ~1e300 would make (1 + lambda) * exp(-lambda) = inf * 0.
-        const double lam = lambda < 1e300 ? lambda : 1e300;
-        // exp(-lambda) as a square applied to the prefactor one factor at a time: the result
-        // keeps full precision where exp(-lambda) alone would be subnormal (lambda > 708).
-        const double half = detail::vector_exp(-0.5 * lam);
-        const double flux = (n[i] * v0 * inv_two_sqrt_pi * (1.0 + lam) * half) * half;
-        out[i] = flux;
-        overflowed += std::abs(flux) <= big ? 0.0 : 1.0; // inf or NaN
-    }
-    *not_finite = overflowed != 0.0;
-    return bad == 0.0;
+#if EXOSIEVE_HAS_TARGETS
+EXOSIEVE_TARGET("arch=x86-64-v4")
+bool flux_block(const double* n, const double* T, const double* m, const double* M, const double* r,
+                double* out, std::size_t len, bool* not_finite) {
+    return flux_loop<true>(n, T, m, M, r, out, len, not_finite);
+}
+EXOSIEVE_TARGET("arch=x86-64-v3")
+bool flux_block(const double* n, const double* T, const double* m, const double* M, const double* r,
+                double* out, std::size_t len, bool* not_finite) {
+    return flux_loop<false>(n, T, m, M, r, out, len, not_finite);
+}
+EXOSIEVE_TARGET("default")
+#endif
+bool flux_block(const double* n, const double* T, const double* m, const double* M, const double* r,
+                double* out, std::size_t len, bool* not_finite) {
+    return flux_loop<false>(n, T, m, M, r, out, len, not_finite);
 }
 
 void apply_tail(const TailDepletion& tail, const double* T, const double* m, const double* M,

@@ -13,15 +13,26 @@
 // IEEE operations in the same order (no FMA contraction under -std=c++17), so their results
 // are identical. Not under ThreadSanitizer: the clones' resolver runs while the program is
 // relocated, before the sanitizer's runtime is up, and crashes it.
+// EXOSIEVE_TARGET(level) marks one version of a function written out per level (a loop whose
+// best form differs between instruction sets), with the same GCC dispatch.
 #if defined(__GNUC__) && !defined(__clang__) && defined(__x86_64__) && defined(__linux__) &&       \
     !defined(__SANITIZE_THREAD__)
 #define EXOSIEVE_VECTOR_CLONES                                                                     \
     __attribute__((target_clones("arch=x86-64-v4", "arch=x86-64-v3", "default")))
+#define EXOSIEVE_HAS_TARGETS 1
+#define EXOSIEVE_TARGET(level) __attribute__((target(level)))
 #else
 #define EXOSIEVE_VECTOR_CLONES
+#define EXOSIEVE_HAS_TARGETS 0
 #endif
 
 namespace exosieve::detail {
+
+inline std::uint64_t double_to_bits(double d) {
+    std::uint64_t bits;
+    std::memcpy(&bits, &d, sizeof bits);
+    return bits;
+}
 
 inline double bits_to_double(std::uint64_t bits) {
     double d;

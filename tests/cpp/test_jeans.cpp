@@ -1,12 +1,16 @@
 #include <doctest/doctest.h>
 
 #include <cmath>
+#include <cstring>
+#include <limits>
 #include <vector>
 
 #include "exosieve/constants.hpp"
 #include "exosieve/errors.hpp"
 #include "exosieve/jeans.hpp"
 #include "exosieve/maxwell.hpp"
+
+#include "../../cpp/src/flux_block.hpp"
 
 using namespace exosieve;
 using constants::amu;
@@ -147,4 +151,47 @@ TEST_CASE("array kernels: equal to scalar forms, broadcast, threaded for long ar
     CHECK_THROWS_AS(jeans_flux(ArrayArg{T.data(), 3}, ArrayArg{T.data(), 2}, ArrayArg{&m, 1},
                                ArrayArg{&M_planet, 1}, ArrayArg{&r_exo, 1}, out.data(), 2),
                     InputError);
+}
+
+TEST_CASE("flux block: the bit-pattern checks give the comparisons' verdicts and the same fluxes") {
+    // Each form is compiled for one instruction set in jeans.cpp; here both run on this CPU.
+    const double big = std::numeric_limits<double>::max();
+    const double tiny = std::numeric_limits<double>::denorm_min();
+    const double nan = std::numeric_limits<double>::quiet_NaN();
+    const double inf = std::numeric_limits<double>::infinity();
+    const std::vector<double> specials = {0.0, -0.0, tiny, -tiny, 1e-300, big,  -big,
+                                          inf, -inf, nan,  -nan,  1.0,    -1.0, 2.5e-308};
+    const double typical[5] = {1e12, 1000.0, m_H, M_planet, r_exo};
+    std::size_t valid = 0, invalid = 0, overflowing = 0;
+    for (std::size_t k = 0; k < 5; ++k)
+        for (double special : specials) {
+            // The special value in the middle of a block of typical inputs.
+            constexpr std::size_t len = 37, at = 17;
+            std::vector<std::vector<double>> in(5);
+            for (std::size_t j = 0; j < 5; ++j)
+                in[j].assign(len, typical[j]);
+            in[k][at] = special;
+            std::vector<double> by_bits(len), by_comparisons(len);
+            bool bits_not_finite = false, comparisons_not_finite = false;
+            const bool bits_ok =
+                detail::flux_loop<true>(in[0].data(), in[1].data(), in[2].data(), in[3].data(),
+                                        in[4].data(), by_bits.data(), len, &bits_not_finite);
+            const bool comparisons_ok = detail::flux_loop<false>(
+                in[0].data(), in[1].data(), in[2].data(), in[3].data(), in[4].data(),
+                by_comparisons.data(), len, &comparisons_not_finite);
+            CAPTURE(k);
+            CAPTURE(special);
+            CHECK(bits_ok == comparisons_ok);
+            // The rule itself: density finite and >= 0, the others finite and > 0.
+            const bool rule =
+                k == 0 ? special >= 0.0 && special <= big : special > 0.0 && special <= big;
+            CHECK(bits_ok == rule);
+            CHECK(bits_not_finite == comparisons_not_finite);
+            CHECK(std::memcmp(by_bits.data(), by_comparisons.data(), len * sizeof(double)) == 0);
+            (rule ? valid : invalid) += 1;
+            overflowing += bits_not_finite ? 1 : 0;
+        }
+    CHECK(valid == 27);
+    CHECK(invalid == 43);
+    CHECK(overflowing > 0); // e.g. a density of DBL_MAX: the linear form overflows
 }
