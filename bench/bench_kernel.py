@@ -6,7 +6,9 @@ Run: python bench/bench_kernel.py [--sizes 1e6,1e7] [--repeat R]
 Prints millions of elements per second. Goals: exosieve >= 3x numpy, ahead of jax.jit, and
 within 1.5x of the memory ceiling: 5 inputs read and 1 output written per element (48 bytes),
 at the bandwidth of the fastest of numpy copies on 1 and on all cores (a copy moves 16 bytes
-per element).
+per element). The copy writes into an array it has written before (no page faults), so
+exosieve is held to the ceiling writing into a given output (out=); against numpy and jax,
+which return a new array, it returns one too.
 """
 
 from __future__ import annotations
@@ -133,15 +135,23 @@ def main() -> None:
         worst = np.max(np.abs(ours[normal] - peer[normal]) / peer[normal])
         bandwidth, threads = copy_bandwidth(n, opts.repeat)
         ceiling = bandwidth / 48.0
+        # A new output array per call, as the peers return one; and into a given output
+        # (out=), warm like the copy's destination: the one compared with the ceiling.
         t_ours = best_of(opts.repeat, exosieve.jeans_flux, *args)
+        warm = np.empty(n)
+        t_warm = best_of(opts.repeat, lambda a=args, o=warm: exosieve.jeans_flux(*a, out=o))
         print(f"jeans_flux, {n:.0e} elements, 5 array arguments [M elements/s]:")
         print(
             f"  memory ceiling : {ceiling / 1e6:7.0f}  (copy at {bandwidth / 1e9:.1f} GB/s on "
-            f"{threads} thread(s), 48 bytes per element)"
+            f"{threads} thread(s) into a warm array, 48 bytes per element)"
         )
         print(
-            f"  exosieve       : {n / t_ours / 1e6:7.0f}  ({ceiling * t_ours / n:.2f}x the "
+            f"  exosieve out=  : {n / t_warm / 1e6:7.0f}  ({ceiling * t_warm / n:.2f}x the "
             f"ceiling's time; goal <= 1.5x)"
+        )
+        print(
+            f"  exosieve       : {n / t_ours / 1e6:7.0f}  (a new output array per call, as the "
+            f"peers below)"
         )
         t_numpy = best_of(opts.repeat, numpy_jeans_flux, *args)
         print(
