@@ -316,6 +316,15 @@ const Thermosphere::Column& Thermosphere::column_cache() const {
     return *col;
 }
 
+std::shared_ptr<const Thermosphere::Column> Thermosphere::shared_column() const {
+    column_cache();
+    return std::atomic_load(&column_);
+}
+
+void Thermosphere::adopt_column(std::shared_ptr<const Column> column) const {
+    std::atomic_store(&column_, std::move(column));
+}
+
 double Thermosphere::column(double r) const {
     if (profile_.kind() == TemperatureProfile::Kind::isothermal) {
         const double span = 1.0 / homopause_radius_ - 1.0 / r;

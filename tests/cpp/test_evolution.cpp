@@ -427,6 +427,47 @@ TEST_CASE("a thermosphere's minor species decays exponentially when its share fo
                                  << " evaluations");
 }
 
+TEST_CASE("a thermosphere exobase reuses its column integral at a repeated temperature, bit "
+          "for bit") {
+    // Two models that differ only in their Bates shape, evaluated in turn at the same
+    // temperatures on one thread: each must give what a model of its own, fresh on its own
+    // thread (an empty column cache), gives; the cache is keyed by the model.
+    const Planet planet(constants::M_earth, constants::R_earth);
+    const double r_h = constants::R_earth + 120e3;
+    auto model = [&](double shape) {
+        const Thermosphere th(planet.mass(), planet.radius(), r_h, 3e18,
+                              {species("N2"), species("O"), species("H")}, {0.8, 0.2 - 1e-5, 1e-5},
+                              TemperatureProfile::bates(1000.0, 360.0, shape, r_h));
+        return ThermosphereExobase(th, {"N2", "O", "H"}, true);
+    };
+    const ThermosphereExobase a = model(1.0 / 50e3), b = model(1.0 / 30e3);
+    const double log_fraction[3] = {0.0, -0.1, -2.0};
+    auto state = [&](const ThermosphereExobase& m, double T) {
+        ExobaseState s;
+        s.log_density.resize(3);
+        s.log_escape_rate.resize(3);
+        m.evaluate(0.0, log_fraction, T, s);
+        return s;
+    };
+    auto fresh = [&](const ThermosphereExobase& m, double T) {
+        ExobaseState s;
+        std::thread([&] { s = state(m, T); }).join();
+        return s;
+    };
+    std::size_t compared = 0;
+    for (const double T : {1200.0, 1200.0, 900.0, 1200.0})
+        for (const ThermosphereExobase* m : {&a, &b, &a}) {
+            const ExobaseState got = state(*m, T), want = fresh(*m, T);
+            CHECK(got.radius == want.radius);
+            CHECK(got.log_escape_rate == want.log_escape_rate);
+            CHECK(got.log_density == want.log_density);
+            ++compared;
+        }
+    CHECK(compared == 12);
+    // The two shapes give different exobases: a shared column would have shown above.
+    CHECK(state(a, 1200.0).radius != state(b, 1200.0).radius);
+}
+
 TEST_CASE("no exobase in a hot thermosphere: energy-limited loss until an exobase forms") {
     // The hot H/He envelope of the thermosphere tests (invented sub-Neptune: 5 Earth masses,
     // 2.5 Earth radii), cooling from 5000 K to 300 K while its star is saturated. Down to about

@@ -5,6 +5,7 @@
 //! left. Also the histories that drive it: the exobase temperature and tables against time.
 
 #include <cstddef>
+#include <cstdint>
 #include <functional>
 #include <string>
 #include <vector>
@@ -206,6 +207,7 @@ class ThermosphereExobase final : public ExobaseModel {
 
   private:
     double planet_mass_, planet_radius_, homopause_radius_, homopause_density_, outer_radius_;
+    std::uint64_t id_; // tells this model's column cache entries from another's
     std::vector<Species> species_;
     std::vector<std::string> names_;
     std::vector<double> log_x0_;

@@ -166,6 +166,13 @@ class Thermosphere {
     void temperature(const double* r, double* out, std::size_t count) const;
 
     struct Column; //!< cached column integral (defined in the source file)
+    //! The column integral, built on first use; shared, so that a thermosphere with the same
+    //! planet, homopause radius and temperature profile can adopt it.
+    std::shared_ptr<const Column> shared_column() const;
+    //! Use `column`, the shared_column() of a thermosphere with the same planet mass, homopause
+    //! radius and temperature profile (the column depends on nothing else), instead of
+    //! building it again.
+    void adopt_column(std::shared_ptr<const Column> column) const;
 
   private:
     // Sums over the species at one radius, taken in log space so that nothing underflows.
