@@ -1,8 +1,10 @@
-"""Thermosphere sweep: the per-case cost of exosieve.compare() against a scipy peer of the same
-model, compared at equal achieved accuracy (work-precision).
+"""Thermosphere sweep: the per-case cost of exosieve.compare() against scipy and numba peers of
+the same model, compared at equal achieved accuracy (work-precision).
 
 Run: python bench/bench_thermosphere_sweep.py [--cases N] [--peer-cases P]
          [--rtols 1e-4,...] [--peer-rtols 1e-3,...] [--peer-methods RK45,DOP853] [--cpu K]
+         [--skip-numba]
+ or: bash bench/work_precision.sh --thermosphere [the same options]   (with the numba peer)
 
 The model (invented Earth-like planets, seeded): an Earth mass and radius 1 au from a Sun-like
 star whose XUV output is saturated at 10^-3.5 L_bol until 100 Myr, then decays as (t/t_sat)^-1.23;
@@ -24,6 +26,12 @@ the kinks of T(t) (end of saturation, clamp crossings, computed in closed form);
 right-hand-side call the thermosphere of bench_thermosphere.peer_case (solve_ivp DOP853 for the
 density profiles at 1e-3 of the outer rtol, floored at 1e-12, capped at 1e-8; the exobase
 bracketed by steps, then brentq). Both integrate the same rate law.
+
+The compiled peer (where numba is installed: bench/work_precision.sh --thermosphere runs this
+file in the benchmarks' own environment): the same model and rate law in numba (see
+build_numba_peer: the densities in closed form but for one quadrature, the exobase by Newton
+from the previous call's), integrated by numba_dopri5's Dormand-Prince loop, on all N cases at
+each of --rtols, the best of --repeat runs.
 
 Accuracy: the largest relative error of N/N0 over the cases, species and output ages where the
 reference N/N0 > 1e-3; the reference is exosieve at rtol 1e-12 (and the peer's tightest run
@@ -50,10 +58,17 @@ import numpy as np
 from scipy import integrate
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from bench_thermosphere import R_H, SHAPE, SPECIES, T_H, peer_case  # noqa: E402
+from bench_thermosphere import (  # noqa: E402
+    R_H,
+    SHAPE,
+    SPECIES,
+    T_H,
+    peer_case,
+    peer_diffusion_parameter,
+)
 
 import exosieve  # noqa: E402
-from exosieve.constants import AU, GYR, L_SUN, M_EARTH, MYR, R_EARTH, G  # noqa: E402
+from exosieve.constants import AU, GYR, K_B, L_SUN, M_EARTH, MYR, R_EARTH, G  # noqa: E402
 
 T_START, T_END = 10 * MYR, 10 * GYR
 AGES = np.geomspace(T_START, T_END, 8)[1:]  # output ages after the start [s]
@@ -223,6 +238,225 @@ def peer_run(case: Case, rtol: float, method: str, props: Any, fits: Any) -> tup
     return out, calls
 
 
+# ------------------------------------------------------------------------------ numba peer
+
+
+def build_numba_peer(props: Any, fits: Any) -> Any:
+    """The same model and rate law compiled with numba, integrated by the Dormand-Prince loop of
+    numba_dopri5 (Hairer's controller and dense output), or None without numba.
+
+    The thermosphere in closed form where it has one: d ln n_i/dr = -m_i G M/(r^2 k T) -
+    (1 + alpha_i) T'/T integrates to ln n_i(r) = ln(x_i n_h) - m_i A(r) - (1 + alpha_i)
+    ln(T(r)/T_h), with A(r) = integral from r_h to r of G M/(r'^2 k T(r')) dr' (the one
+    quadrature left, Gauss-Legendre with 8 points over each step of the exobase search; a step
+    is at most half a scale height of the heaviest species and half the temperature's scale, over
+    which the integrand is smooth: 1e-16 relative). The exobase (n sigma H = 1) is bracketed by
+    the same steps as the scipy peer's, then found by Newton's method on ln(n sigma H) kept inside
+    the bracket (bisection where a Newton step leaves it), to 1e-13 of the radius."""
+    try:
+        from numba import njit
+        from numba_dopri5 import WORK_ROWS, make_dopri5
+    except ImportError:
+        return None
+    mass, sigma, alpha, objs = props
+    k = len(SPECIES)
+    # Diffusion parameters b_ij at the homopause temperature, fixed for every case.
+    inv_b = np.zeros((k, k))
+    for i in range(k):
+        for j in range(k):
+            if i != j:
+                inv_b[i, j] = 1.0 / peer_diffusion_parameter(objs[i], objs[j], T_H, fits)
+    big_m, r_h, g_h = M_EARTH, R_H, G * M_EARTH / R_H**2
+    nodes, weights = np.polynomial.legendre.leggauss(8)
+    f_sat, t_sat, index = saturated_flux(), XUV["time"], XUV["index"]
+    log_floor = math.log(1e-30)
+    two_sqrt_pi = 2.0 * math.sqrt(math.pi)
+
+    @njit(cache=False)
+    def temperature(r, t_inf):
+        return t_inf - (t_inf - T_H) * math.exp(-SHAPE * (r - r_h))
+
+    @njit(cache=False)
+    def a_integral(a, b, t_inf):  # integral of G M/(r^2 k T(r)) over [a, b]
+        mid, half = 0.5 * (a + b), 0.5 * (b - a)
+        total = 0.0
+        for q in range(nodes.size):
+            r = mid + half * nodes[q]
+            total += weights[q] / (r * r * temperature(r, t_inf))
+        return G * big_m / K_B * half * total
+
+    @njit(cache=False)
+    def criterion(r, area, t_inf, x, n_h, ln, w):
+        """-ln(n sigma H) at r (A(r) = area; < 0 below the exobase) and its derivative in r;
+        fills ln n_i and w_i = n_i / max n."""
+        T = temperature(r, t_inf)
+        slope = SHAPE * (t_inf - T_H) * math.exp(-SHAPE * (r - r_h))
+        top = -np.inf
+        for i in range(k):
+            ln[i] = math.log(x[i] * n_h) - mass[i] * area - (1.0 + alpha[i]) * math.log(T / T_H)
+            top = max(top, ln[i])
+        ns = ws = wm = 0.0
+        d_ns = d_ws = d_wm = 0.0
+        for i in range(k):
+            w[i] = math.exp(ln[i] - top)
+            d = -mass[i] * G * big_m / (r * r * K_B * T) - (1.0 + alpha[i]) * slope / T
+            ns += w[i] * sigma[i]
+            ws += w[i]
+            wm += w[i] * mass[i]
+            d_ns += w[i] * sigma[i] * d
+            d_ws += w[i] * d
+            d_wm += w[i] * mass[i] * d
+        m_mean = wm / ws
+        h = K_B * T * r * r / (G * big_m * m_mean)
+        value = top + math.log(ns) + math.log(h)
+        d_log_m = d_wm / wm - d_ws / ws
+        return -value, -(d_ns / ns + slope / T + 2.0 / r - d_log_m), ns
+
+    @njit(cache=False)
+    def search_step(r, t_inf, w, ns):
+        """Half a scale height of the heaviest species that matters, at most 0.1 r and half the
+        temperature's scale (the scipy peer's steps)."""
+        heaviest = 0.0
+        for i in range(k):
+            if w[i] * sigma[i] >= 1e-3 * ns:
+                heaviest = max(heaviest, mass[i])
+        T = temperature(r, t_inf)
+        slope = SHAPE * (t_inf - T_H) * math.exp(-SHAPE * (r - r_h))
+        return min(0.5 * K_B * T * r * r / (G * big_m * heaviest), 0.1 * r, 0.5 * T / slope)
+
+    @njit(cache=False)
+    def rhs(t, u, p, out):
+        # p: T_ref, gamma, n_h, ln x_i0 (k), ln N_i0 (k), the last exobase radius [m] or 0.
+        flux_xuv = f_sat if t <= t_sat else f_sat * (t / t_sat) ** (-index)
+        t_inf = min(T_MAX, max(T_MIN, p[0] * (flux_xuv / F_REF) ** p[1]))
+        n_h = p[2]
+        lx = np.empty(k)
+        top = -np.inf
+        for i in range(k):
+            lx[i] = p[3 + i] + u[i]
+            top = max(top, lx[i])
+        total = 0.0
+        for i in range(k):
+            total += math.exp(lx[i] - top)
+        norm = top + math.log(total)
+        x = np.empty(k)
+        used = np.empty(k)
+        for i in range(k):
+            lx[i] -= norm
+            used[i] = max(lx[i], log_floor)  # as the scipy peer: traces solved at 1e-30
+            x[i] = math.exp(used[i])
+        ln = np.empty(k)
+        w = np.empty(k)
+        # Bracket the exobase by steps from the previous call's exobase (p[3 + 2k], 0 at a
+        # case's start: the homopause), outward or inward as the sign asks.
+        r_lo, area_lo = r_h, 0.0
+        r_prev = p[3 + 2 * k]
+        if r_prev > r_h:
+            panels = int(math.ceil((r_prev - r_h) / 2.0e4))  # of at most 20 km
+            width = (r_prev - r_h) / panels
+            for q in range(panels):
+                area_lo += a_integral(r_h + q * width, r_h + (q + 1) * width, t_inf)
+            r_lo = r_prev
+        f_lo, _, ns = criterion(r_lo, area_lo, t_inf, x, n_h, ln, w)
+        top_r = r_h + 3.0e6
+        r_hi, area_hi, f_hi = r_lo, area_lo, f_lo
+        while f_lo >= 0.0:  # above the exobase: inward
+            if r_lo <= r_h:
+                for i in range(k):
+                    out[i] = np.nan
+                return
+            r_hi, area_hi, f_hi = r_lo, area_lo, f_lo
+            r_lo = max(r_h, r_hi - search_step(r_hi, t_inf, w, ns))
+            area_lo = area_hi - a_integral(r_lo, r_hi, t_inf)
+            f_lo, _, ns = criterion(r_lo, area_lo, t_inf, x, n_h, ln, w)
+        while f_hi < 0.0:  # below it: outward
+            if r_hi >= top_r:
+                for i in range(k):
+                    out[i] = np.nan
+                return
+            r_lo, area_lo, f_lo = r_hi, area_hi, f_hi
+            r_hi = min(r_lo + search_step(r_lo, t_inf, w, ns), top_r)
+            area_hi = area_lo + a_integral(r_lo, r_hi, t_inf)
+            f_hi, _, ns = criterion(r_hi, area_hi, t_inf, x, n_h, ln, w)
+        # Newton inside [r_lo, r_hi] (f < 0 at r_lo, >= 0 at r_hi), bisection as the fallback.
+        a, b = r_lo, r_hi
+        r = r_lo - f_lo * (r_hi - r_lo) / (f_hi - f_lo)
+        for _ in range(100):
+            area = area_lo + a_integral(r_lo, r, t_inf)
+            f, df, _ = criterion(r, area, t_inf, x, n_h, ln, w)
+            if f < 0.0:
+                a = r
+            else:
+                b = r
+            step_r = f / df if df != 0.0 else 0.0
+            r_new = r - step_r
+            if not (a < r_new < b):
+                r_new = 0.5 * (a + b)
+            if abs(r_new - r) <= 1e-13 * r:
+                r = r_new
+                break
+            r = r_new
+        area = area_lo + a_integral(r_lo, r, t_inf)
+        criterion(r, area, t_inf, x, n_h, ln, w)
+        p[3 + 2 * k] = r
+        T_e = temperature(r, t_inf)
+        z = r - r_h
+        for i in range(k):
+            lam = G * big_m * mass[i] / (K_B * T_e * r)
+            v0 = math.sqrt(2.0 * K_B * T_e / mass[i])
+            phi_j = math.exp(ln[i]) * v0 / two_sqrt_pi * (1.0 + lam) * math.exp(-lam)
+            rest = m_a = inv = 0.0
+            for j in range(k):
+                if j != i:
+                    rest += x[j]
+            for j in range(k):
+                if j != i:
+                    m_a += x[j] / rest * mass[j]
+                    inv += x[j] / rest * inv_b[i, j]
+            beta = (m_a - mass[i]) * g_h / (K_B * T_H)
+            depth = z if beta == 0.0 else -math.expm1(-beta * z) / beta
+            flux = phi_j / (1.0 + phi_j * depth * inv / x[i])
+            log_rate = math.log(4.0 * math.pi * r * r * flux) + (lx[i] - used[i])
+            out[i] = -math.exp(log_rate - (p[3 + k + i] + u[i]))
+
+    dopri5_case = make_dopri5(rhs, k)
+
+    @njit(cache=False)
+    def run_all(p, edges, counts, grid, rtol, out, nfev, steps):
+        work = np.zeros((WORK_ROWS, k))
+        for c in range(p.shape[0]):
+            nfev[c], steps[c] = dopri5_case(
+                p[c], edges[c, : counts[c]], grid, rtol, rtol, out[c], work
+            )
+
+    def run(cases: list[Case], rtol: float) -> tuple[np.ndarray, np.ndarray]:
+        """N/N0 [case x age x species] and the rhs calls per case."""
+        p = np.zeros((len(cases), 4 + 2 * k))
+        edges_list = []
+        for c, case in enumerate(cases):
+            total = (
+                PRESSURE * 4 * math.pi * R_EARTH**2 / (G * M_EARTH / R_EARTH**2 * (case.x @ mass))
+            )
+            p[c, :3] = case.t_ref, case.gamma, case.homopause_density
+            p[c, 3 : 3 + k] = np.log(case.x)
+            p[c, 3 + k : 3 + 2 * k] = np.log(total * case.x)
+            edges_list.append(np.array([T_START, *kinks(case), T_END]))
+        width = max(e.size for e in edges_list)
+        edges = np.array(
+            [np.pad(e, (0, width - e.size), constant_values=e[-1]) for e in edges_list]
+        )
+        counts = np.array([e.size for e in edges_list], dtype=np.int64)
+        grid = np.concatenate([[T_START], AGES])
+        out = np.empty((len(cases), grid.size, k))
+        nfev = np.zeros(len(cases), dtype=np.int64)
+        steps = np.zeros(len(cases), dtype=np.int64)
+        run_all(p, edges, counts, grid, rtol, out, nfev, steps)
+        return np.exp(out[:, 1:, :]), nfev
+
+    run.rhs = rhs  # type: ignore[attr-defined]  # for checks against the scipy peer's rates
+    return run
+
+
 # ------------------------------------------------------------------------------ comparison
 
 
@@ -267,6 +501,7 @@ def main() -> None:
     parser.add_argument("--peer-methods", default="RK45,DOP853")
     parser.add_argument("--repeat", type=int, default=3, help="timed exosieve runs (best kept)")
     parser.add_argument("--cpu", type=int, default=None, help="CPU to pin to (default: first)")
+    parser.add_argument("--skip-numba", action="store_true", help="leave out the numba peer")
     opts = parser.parse_args()
     cpus = sorted(os.sched_getaffinity(0))
     cpu = cpus[0] if opts.cpu is None else opts.cpu
@@ -312,13 +547,34 @@ def main() -> None:
                 f"  scipy {method:6s} rtol {rtol:7.0e}: error {err:8.2e}  "
                 f"{cost * 1e6:11.0f} us/case  ({calls / count:.0f} rhs calls per case)"
             )
+    compiled: list[Run] = []
+    numba_run = None if opts.skip_numba else build_numba_peer(props, fits)
+    if numba_run is None:
+        print("  numba peer: not run (numba is not installed, or --skip-numba)")
+    else:
+        numba_run(cases[:2], 1e-6)  # compile before timing
+        for rtol in (float(v) for v in opts.rtols.split(",")):
+            best = math.inf
+            for _ in range(opts.repeat):
+                start = time.perf_counter()
+                got, nfev = numba_run(cases, rtol)
+                best = min(best, time.perf_counter() - start)
+            compiled.append(Run("numba", rtol, relative_error(got, reference), best / len(cases)))
+            r = compiled[-1]
+            print(
+                f"  numba DP5(4) rtol {rtol:7.0e}: error {r.error:8.2e}  {r.cost * 1e6:9.1f} "
+                f"us/case  ({np.median(nfev):.0f} rhs calls per case)"
+            )
     # Targets both sides reach: decades between the largest of the smallest errors and the
     # smallest of the largest ones.
-    everyone = [*ours, *(r for runs in peers.values() for r in runs)]
+    everyone = [*ours, *(r for runs in peers.values() for r in runs), *compiled]
     lo = max(min(r.error for r in ours), min(r.error for r in everyone if r.name != "exosieve"))
     hi = min(max(r.error for r in ours), max(r.error for r in everyone if r.name != "exosieve"))
     targets = [10.0**e for e in range(math.ceil(math.log10(lo)), math.floor(math.log10(hi)) + 1)]
-    print("per-case cost at equal achieved accuracy (max relative error of N/N0); goal >= 100x")
+    print(
+        "per-case cost at equal achieved accuracy (max relative error of N/N0); goals: >= 100x "
+        "scipy, >= 2x the compiled peer"
+    )
     for target in targets:
         mine = cost_at(ours, target)
         line = f"  error {target:7.0e}: exosieve "
@@ -332,6 +588,15 @@ def main() -> None:
                 )
             else:
                 line += f"; scipy {method} not reached"
+        if compiled:
+            theirs = cost_at(compiled, target)
+            if theirs and mine:
+                line += (
+                    f"; numba {theirs[1]}{theirs[0] * 1e6:.0f} us: "
+                    f"ratio {theirs[0] / mine[0]:.2f}x (goal >= 2x)"
+                )
+            else:
+                line += "; numba not reached"
         print(line)
     print(f"load average at the end: {os.getloadavg()}")
 

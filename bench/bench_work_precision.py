@@ -498,9 +498,10 @@ def build_numba_peers():
     """The numba Dormand-Prince 5(4) loop and the numbalsoda driver (compiled on first use)."""
     import numba
     from numba import njit
+    from numba_dopri5 import WORK_ROWS, make_dopri5
 
     @njit(cache=False)
-    def rhs(t, p, out):
+    def rhs(t, _y, p, out):  # du_i/dt does not depend on u (see peer_parameters)
         raw = p[2] if t <= p[0] else p[2] * (t / p[0]) ** (-p[1])
         temp = min(max(raw, p[3]), p[4])
         root = math.sqrt(temp)
@@ -508,148 +509,11 @@ def build_numba_peers():
             lam = p[9 + s] / temp
             out[s] = -p[5 + s] * root * (1.0 + lam) * math.exp(-lam)
 
-    # Dormand & Prince (1980) 5(4) coefficients and Hairer's dense output (DOPRI5, Hairer,
-    # Norsett & Wanner, Solving ODEs I, 2nd ed., 1993).
-    c2, c3, c4, c5 = 0.2, 0.3, 0.8, 8.0 / 9.0
-    a21 = 0.2
-    a31, a32 = 3.0 / 40.0, 9.0 / 40.0
-    a41, a42, a43 = 44.0 / 45.0, -56.0 / 15.0, 32.0 / 9.0
-    a51, a52, a53, a54 = 19372.0 / 6561.0, -25360.0 / 2187.0, 64448.0 / 6561.0, -212.0 / 729.0
-    a61, a62, a63 = 9017.0 / 3168.0, -355.0 / 33.0, 46732.0 / 5247.0
-    a64, a65 = 49.0 / 176.0, -5103.0 / 18656.0
-    a71, a73, a74 = 35.0 / 384.0, 500.0 / 1113.0, 125.0 / 192.0
-    a75, a76 = -2187.0 / 6784.0, 11.0 / 84.0
-    e1, e3, e4 = 71.0 / 57600.0, -71.0 / 16695.0, 71.0 / 1920.0
-    e5, e6, e7 = -17253.0 / 339200.0, 22.0 / 525.0, -1.0 / 40.0
-    d1, d3 = -12715105075.0 / 11282082432.0, 87487479700.0 / 32700410799.0
-    d4, d5 = -10690763975.0 / 1880347072.0, 701980252875.0 / 199316789632.0
-    d6, d7 = -1453857185.0 / 822651844.0, 69997945.0 / 29380423.0
-    safe, fac1, fac2, beta = 0.9, 0.2, 10.0, 0.04
-    expo1 = 0.2 - beta * 0.75
-
-    @njit(cache=False)
-    def initial_step(t, y, f0, p, rtol, atol, hmax, y1, f1):
-        """Hairer's HINIT for order 5."""
-        n = y.size
-        dnf, dny = 0.0, 0.0
-        for s in range(n):
-            sk = atol + rtol * abs(y[s])
-            dnf += (f0[s] / sk) ** 2
-            dny += (y[s] / sk) ** 2
-        h = 1e-6 if (dnf <= 1e-10 or dny <= 1e-10) else math.sqrt(dny / dnf) * 0.01
-        h = min(h, hmax)
-        for s in range(n):
-            y1[s] = y[s] + h * f0[s]
-        rhs(t + h, p, f1)
-        der2 = 0.0
-        for s in range(n):
-            sk = atol + rtol * abs(y[s])
-            der2 += ((f1[s] - f0[s]) / sk) ** 2
-        der2 = math.sqrt(der2) / h
-        der12 = max(abs(der2), math.sqrt(dnf))
-        h1 = max(1e-6, abs(h) * 1e-3) if der12 <= 1e-15 else (0.01 / der12) ** 0.2
-        return min(100.0 * abs(h), h1, hmax)
-
-    @njit(cache=False)
-    def dopri5_case(p, edges, grid, rtol, atol, out, work):
-        n = 4
-        y, y1, ys = work[0], work[1], work[2]
-        k1, k2, k3, k4, k5, k6, k7 = work[3], work[4], work[5], work[6], work[7], work[8], work[9]
-        r1, r2, r3, r4, r5 = work[10], work[11], work[12], work[13], work[14]
-        y[:] = 0.0
-        out[0, :] = 0.0
-        g = 1
-        nfev, accepted = 0, 0
-        for piece in range(edges.size - 1):
-            t, t_end = edges[piece], edges[piece + 1]
-            rhs(t, p, k1)
-            h = initial_step(t, y, k1, p, rtol, atol, t_end - t, y1, k2)
-            nfev += 2
-            facold = 1e-4
-            reject = False
-            while t < t_end:
-                last = t + 1.01 * h >= t_end
-                if last:
-                    h = t_end - t
-                for s in range(n):
-                    ys[s] = y[s] + h * a21 * k1[s]
-                rhs(t + c2 * h, p, k2)
-                for s in range(n):
-                    ys[s] = y[s] + h * (a31 * k1[s] + a32 * k2[s])
-                rhs(t + c3 * h, p, k3)
-                for s in range(n):
-                    ys[s] = y[s] + h * (a41 * k1[s] + a42 * k2[s] + a43 * k3[s])
-                rhs(t + c4 * h, p, k4)
-                for s in range(n):
-                    ys[s] = y[s] + h * (a51 * k1[s] + a52 * k2[s] + a53 * k3[s] + a54 * k4[s])
-                rhs(t + c5 * h, p, k5)
-                for s in range(n):
-                    ys[s] = y[s] + h * (
-                        a61 * k1[s] + a62 * k2[s] + a63 * k3[s] + a64 * k4[s] + a65 * k5[s]
-                    )
-                t_new = t_end if last else t + h
-                rhs(t_new, p, k6)
-                for s in range(n):
-                    y1[s] = y[s] + h * (
-                        a71 * k1[s] + a73 * k3[s] + a74 * k4[s] + a75 * k5[s] + a76 * k6[s]
-                    )
-                rhs(t_new, p, k7)
-                nfev += 6
-                err = 0.0
-                for s in range(n):
-                    sk = atol + rtol * max(abs(y[s]), abs(y1[s]))
-                    es = h * (
-                        e1 * k1[s] + e3 * k3[s] + e4 * k4[s] + e5 * k5[s] + e6 * k6[s] + e7 * k7[s]
-                    )
-                    err += (es / sk) ** 2
-                err = math.sqrt(err / n)
-                fac11 = err**expo1
-                fac = fac11 / facold**beta
-                fac = max(1.0 / fac2, min(1.0 / fac1, fac / safe))
-                h_new = h / fac
-                if err <= 1.0:
-                    facold = max(err, 1e-4)
-                    accepted += 1
-                    if g < grid.size and grid[g] <= t_new:
-                        for s in range(n):
-                            diff = y1[s] - y[s]
-                            bspl = h * k1[s] - diff
-                            r1[s] = y[s]
-                            r2[s] = diff
-                            r3[s] = bspl
-                            r4[s] = diff - h * k7[s] - bspl
-                            r5[s] = h * (
-                                d1 * k1[s]
-                                + d3 * k3[s]
-                                + d4 * k4[s]
-                                + d5 * k5[s]
-                                + d6 * k6[s]
-                                + d7 * k7[s]
-                            )
-                        while g < grid.size and grid[g] <= t_new:
-                            theta = (grid[g] - t) / h
-                            theta1 = 1.0 - theta
-                            for s in range(n):
-                                out[g, s] = r1[s] + theta * (
-                                    r2[s] + theta1 * (r3[s] + theta * (r4[s] + theta1 * r5[s]))
-                                )
-                            g += 1
-                    for s in range(n):
-                        y[s] = y1[s]
-                        k1[s] = k7[s]
-                    t = t_new
-                    if reject:
-                        h_new = min(h_new, h)
-                    reject = False
-                    h = h_new
-                else:
-                    h = h / min(1.0 / fac1, fac11 / safe)
-                    reject = True
-        return nfev, accepted
+    dopri5_case = make_dopri5(rhs, 4)
 
     @njit(cache=False)
     def dopri5_all(p, edges, counts, grid, rtol, out, nfev, steps):
-        work = np.zeros((15, 4))  # state, stages and dense-output coefficients, reused
+        work = np.zeros((WORK_ROWS, 4))  # state, stages and dense-output coefficients, reused
         for i in range(p.shape[0]):
             nfev[i], steps[i] = dopri5_case(
                 p[i], edges[i, : counts[i]], grid, rtol, rtol, out[i], work
@@ -664,7 +528,7 @@ def build_numba_peers():
 
         @numba.cfunc(lsoda_sig)
         def lsoda_rhs(t, u, du, p):
-            rhs(t, p, du)  # the same compiled model as the Dormand-Prince loop
+            rhs(t, u, p, du)  # the same compiled model as the Dormand-Prince loop
 
         address = lsoda_rhs.address
 

@@ -2,6 +2,7 @@
 # Work-precision benchmark of the evolution integrator, in one command:
 #
 #   bash bench/work_precision.sh [--setup-only] [options of bench/bench_work_precision.py]
+#   bash bench/work_precision.sh --thermosphere [options of bench/bench_thermosphere_sweep.py]
 #
 # 1. creates a virtual environment of its own for the benchmark-only peers (default
 #    bench/.venv-peers, git-ignored; EXOSIEVE_PEERS_VENV=/path chooses another), apart from the
@@ -12,7 +13,8 @@
 # 3. builds and installs exosieve from this work tree (committed or not) into it, again only
 #    when a source file changed since the last build (the CMake build directory is kept in the
 #    environment, so a rebuild compiles only what changed);
-# 4. runs bench/bench_work_precision.py with the remaining arguments and prints its table.
+# 4. runs bench/bench_work_precision.py (with --thermosphere: bench/bench_thermosphere_sweep.py,
+#    the thermosphere case against scipy and numba) with the remaining arguments.
 #
 # Safe to run again: each step does only what is missing. PYTHON chooses the interpreter that
 # creates the environment (default python3).
@@ -20,8 +22,12 @@ set -euo pipefail
 root="$(cd "$(dirname "$0")/.." && pwd)"
 venv="${EXOSIEVE_PEERS_VENV:-$root/bench/.venv-peers}"
 setup_only=0
+bench="bench_work_precision.py"
 if [ "${1:-}" = "--setup-only" ]; then
     setup_only=1
+    shift
+elif [ "${1:-}" = "--thermosphere" ]; then
+    bench="bench_thermosphere_sweep.py"
     shift
 fi
 say() { echo "work-precision setup: $*"; }
@@ -101,4 +107,4 @@ if [ "$setup_only" -eq 1 ]; then
 fi
 # The installed package, not the source folder: no PYTHONPATH.
 exec env -u PYTHONPATH EXOSIEVE_BUILD_INFO="$venv/exosieve-source.txt" \
-    "$py" "$root/bench/bench_work_precision.py" "$@"
+    "$py" "$root/bench/$bench" "$@"
