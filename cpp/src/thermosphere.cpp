@@ -325,6 +325,26 @@ void Thermosphere::adopt_column(std::shared_ptr<const Column> column) const {
     std::atomic_store(&column_, std::move(column));
 }
 
+std::shared_ptr<const std::vector<double>> Thermosphere::shared_diffusion() const {
+    std::shared_ptr<const std::vector<double>> table = std::atomic_load(&diffusion_);
+    if (!table) {
+        const std::size_t n = species_.size();
+        auto b = std::make_shared<std::vector<double>>(n * n, nan);
+        for (std::size_t i = 0; i < n; ++i)
+            for (std::size_t j = 0; j < n; ++j)
+                if (j != i && fractions_[i] > 0.0 && fractions_[j] > 0.0)
+                    (*b)[i * n + j] = binary_diffusion_parameter(species_[i], species_[j],
+                                                                 homopause_temperature_, method_);
+        table = std::move(b);
+        std::atomic_store(&diffusion_, table);
+    }
+    return table;
+}
+
+void Thermosphere::adopt_diffusion(std::shared_ptr<const std::vector<double>> diffusion) const {
+    std::atomic_store(&diffusion_, std::move(diffusion));
+}
+
 double Thermosphere::column(double r) const {
     if (profile_.kind() == TemperatureProfile::Kind::isothermal) {
         const double span = 1.0 / homopause_radius_ - 1.0 / r;
@@ -607,12 +627,13 @@ double Thermosphere::escape_flux_at(const Exobase& e, std::size_t i,
             rest += fractions_[j];
     if (!(rest > 0.0))
         return phi_j; // a pure gas is not limited by diffusion through itself
-    for (std::size_t j = 0; j < species_.size(); ++j)
+    const std::shared_ptr<const std::vector<double>> b = shared_diffusion();
+    const std::size_t n = species_.size();
+    for (std::size_t j = 0; j < n; ++j)
         if (j != i && fractions_[j] > 0.0) {
             const double y = fractions_[j] / rest;
             m_a += y * species_[j].mass;
-            inverse_b +=
-                y / binary_diffusion_parameter(s, species_[j], homopause_temperature_, method_);
+            inverse_b += y / (*b)[i * n + j];
         }
     const double g = G * planet_mass_ / (homopause_radius_ * homopause_radius_);
     const double beta = (m_a - s.mass) * g / (k_B * homopause_temperature_);

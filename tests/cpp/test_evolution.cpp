@@ -427,11 +427,12 @@ TEST_CASE("a thermosphere's minor species decays exponentially when its share fo
                                  << " evaluations");
 }
 
-TEST_CASE("a thermosphere exobase reuses its column integral at a repeated temperature, bit "
-          "for bit") {
+TEST_CASE("a thermosphere exobase reuses its column integral and diffusion parameters at a "
+          "repeated temperature, bit for bit") {
     // Two models that differ only in their Bates shape, evaluated in turn at the same
     // temperatures on one thread: each must give what a model of its own, fresh on its own
-    // thread (an empty column cache), gives; the cache is keyed by the model.
+    // thread (an empty cache), gives; the cache is keyed by the model. The escape rates are
+    // the coupled diffusion-Jeans ones, so they also read the diffusion parameters.
     const Planet planet(constants::M_earth, constants::R_earth);
     const double r_h = constants::R_earth + 120e3;
     auto model = [&](double shape) {

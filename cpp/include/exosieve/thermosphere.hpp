@@ -126,7 +126,10 @@ class Thermosphere {
     std::size_t index(const std::string& name) const;
 
     //! How binary diffusion parameters are estimated for escape_flux (default measured_first).
-    void set_diffusion_method(DiffusionMethod method) { method_ = method; }
+    void set_diffusion_method(DiffusionMethod method) {
+        method_ = method;
+        diffusion_.reset(); // built again, with this method, when next needed
+    }
     //! Tail-depletion factor applied to the Jeans flux (default none).
     void set_tail_depletion(const TailDepletion& tail) { tail_ = tail; }
 
@@ -173,6 +176,13 @@ class Thermosphere {
     //! radius and temperature profile (the column depends on nothing else), instead of
     //! building it again.
     void adopt_column(std::shared_ptr<const Column> column) const;
+    //! b_ij = n D_ij of every pair of present species at the homopause temperature
+    //! [m^-1 s^-1], row i the background of species i in the coupled flux (NaN where either is
+    //! absent); built on first use, shared like the column.
+    std::shared_ptr<const std::vector<double>> shared_diffusion() const;
+    //! Use the shared_diffusion() of a thermosphere with the same species present, diffusion
+    //! method and homopause temperature instead of computing it again.
+    void adopt_diffusion(std::shared_ptr<const std::vector<double>> diffusion) const;
 
   private:
     // Sums over the species at one radius, taken in log space so that nothing underflows.
@@ -201,6 +211,7 @@ class Thermosphere {
     TailDepletion tail_;
     double homopause_temperature_ = 0.0;
     mutable std::shared_ptr<const Column> column_;
+    mutable std::shared_ptr<const std::vector<double>> diffusion_; // see shared_diffusion
     mutable std::shared_ptr<const Exobase> exobase_;
 };
 
