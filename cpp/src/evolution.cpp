@@ -47,6 +47,14 @@ EXOSIEVE_VECTOR_CLONES void loss_derivatives(const double* factor, const double*
         out[i] = -factor[i] * detail::vector_exp(log_rate[i] - y[i]);
 }
 
+// (N_i(a) - N_i(b)) / N_i0 = -e^(ya_i - y0_i) (e^(yb_i - ya_i) - 1) of every species over a
+// step, for the ledger, likewise vectorised (expm1 keeps the digits of a small fall).
+EXOSIEVE_VECTOR_CLONES void step_falls(const double* ya, const double* yb, const double* y0,
+                                       double* out, std::size_t n) {
+    for (std::size_t i = 0; i < n; ++i)
+        out[i] = -detail::vector_exp(ya[i] - y0[i]) * detail::vector_expm1(yb[i] - ya[i]);
+}
+
 // e^(y_i) of every species, likewise vectorised: the inventories of an output.
 EXOSIEVE_VECTOR_CLONES void exp_each(const double* y, double* out, std::size_t n) {
     for (std::size_t i = 0; i < n; ++i)
@@ -61,15 +69,38 @@ std::string when(double t) {
 // of ln N that an error rtol N_i + atol_i in N_i makes. Not rtol + atol_i / N_i: that allows a
 // step of e^(atol_i / N_i) e-folds where N_i is far below atol_i, and an inventory fed by a
 // source from there could jump to e^(1e12) particles.
-double checker_tolerance(double rtol, double log_atol, double y) {
-    const double x = log_atol - y; // ln(atol_i / N_i)
-    if (x > 40.0)
+// From x = ln(atol_i / N_i) and e^x (unused beyond 40).
+double tolerance_from(double rtol, double x, double exp_x, double y) {
+    if (x > 40.0 || x != x)
         return x;
-    const double z = rtol + std::exp(x);
+    const double z = rtol + exp_x;
     // ln(1 + z) = z - z^2/2 + z^3/3 - ...: to 3e-7 relative below 1e-3, without a call.
     const double tol = z < 1e-3 ? z * (1.0 - 0.5 * z) : std::log1p(z);
     // Never below what a double resolves in y itself (|y| ~ 1e12 long after depletion).
     return std::max(tol, 8.0 * std::numeric_limits<double>::epsilon() * std::abs(y));
+}
+
+double checker_tolerance(double rtol, double log_atol, double y) {
+    const double x = log_atol - y;
+    return tolerance_from(rtol, x, x > 40.0 ? 0.0 : std::exp(x), y);
+}
+
+// e^(min(ln atol_i - y_i, 40)) of every species in one vectorised pass.
+EXOSIEVE_VECTOR_CLONES void exp_offsets(const double* log_atol, const double* y, double* out,
+                                        std::size_t n) {
+    for (std::size_t i = 0; i < n; ++i) {
+        const double x = log_atol[i] - y[i];
+        out[i] = detail::vector_exp(x < 40.0 ? x : 40.0);
+    }
+}
+
+// checker_tolerance of every species into out, the exponentials vectorised (they were a
+// fifth of a step's cost: two to four per species and step).
+void checker_tolerances(double rtol, const double* log_atol, const double* y, double* out,
+                        std::size_t n) {
+    exp_offsets(log_atol, y, out, n);
+    for (std::size_t i = 0; i < n; ++i)
+        out[i] = tolerance_from(rtol, log_atol[i] - y[i], out[i], y[i]);
 }
 
 // Error test in y = ln N equivalent to |err(N_i)| <= rtol N_i + atol_i, the test of a linear
@@ -83,17 +114,21 @@ class LogErrorChecker {
     LogErrorChecker() = default;
     // envelope_atol: absolute tolerance of the envelope state M_env / M_core, the one linear
     // component after the species' ln N (present when the state is longer than log_atol).
-    LogErrorChecker(double rtol, const State* log_atol, std::size_t* worst,
+    // tolerance: where each test leaves the species' tolerances at y_old (log_atol's size).
+    LogErrorChecker(double rtol, const State* log_atol, std::size_t* worst, double* tolerance,
                     double envelope_atol = 0.0)
-        : rtol_(rtol), log_atol_(log_atol), worst_(worst), envelope_atol_(envelope_atol) {}
+        : rtol_(rtol), log_atol_(log_atol), worst_(worst), tolerance_(tolerance),
+          envelope_atol_(envelope_atol) {}
 
     template <class Algebra, class StateT, class Deriv, class Err, class Time>
     double error(Algebra&, const StateT& y_old, const Deriv&, Err& y_err, Time) const {
         double largest = 0.0;
         std::size_t index = 0;
         const Eigen::Index n = log_atol_->size();
+        checker_tolerances(rtol_, log_atol_->data(), y_old.data(), tolerance_,
+                           static_cast<std::size_t>(n));
         for (Eigen::Index i = 0; i < n; ++i) {
-            const double tol = checker_tolerance(rtol_, (*log_atol_)[i], y_old[i]);
+            const double tol = tolerance_[i];
             double ratio = std::abs(y_err[i]) / tol;
             if (std::isnan(ratio))
                 ratio = inf; // a NaN trial step must be rejected
@@ -120,6 +155,7 @@ class LogErrorChecker {
     double rtol_ = 1e-8;
     const State* log_atol_ = nullptr;
     std::size_t* worst_ = nullptr;
+    double* tolerance_ = nullptr;
     double envelope_atol_ = 0.0;
 };
 
@@ -948,9 +984,15 @@ class RegimeLedger {
     // source and given loss over the stretch [particles].
     void add(std::size_t i, int regime, bool energy_limited, double a, double b, double ya,
              double yb, double source, double given) {
+        const double fall = -std::exp(ya - y0_[i]) * std::expm1(yb - ya); // (N(a) - N(b)) / N0
+        add_fall(i, regime, energy_limited, a, b, fall, source, given);
+    }
+
+    // As add(), with the fall (N(a) - N(b)) / N0 given (step_falls: every species at once).
+    void add_fall(std::size_t i, int regime, bool energy_limited, double a, double b, double fall,
+                  double source, double given) {
         time_[i * regimes + static_cast<std::size_t>(regime)] += b - a;
         const double scale = inverse_n0_[i];
-        const double fall = -std::exp(ya - y0_[i]) * std::expm1(yb - ya); // (N(a) - N(b)) / N0
         const double total = std::max(0.0, fall + source * scale);
         const double given_part = std::min(total, given * scale);
         const double thermal = total - given_part;
@@ -1565,7 +1607,10 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     dt = step_after_kink(dt);
 
     std::size_t worst = 0;
-    const LogErrorChecker checker(c.rtol, &log_atol, &worst, envelope_atol);
+    // The species' tolerances at the start of the last trial step (the checker's), and at its
+    // end, for the tests on an accepted step below.
+    std::vector<double> start_tolerance(n, 0.0), end_tolerance(n, 0.0);
+    const LogErrorChecker checker(c.rtol, &log_atol, &worst, start_tolerance.data(), envelope_atol);
     std::unique_ptr<Stepper> stepper;
     // Measured (DEVELOPERS.md): in ln N a loss alone is not stiff and Dopri5 takes the fewest
     // steps; a source balancing a fast loss is, and Rosenbrock4 then takes ~1e3x fewer.
@@ -1585,8 +1630,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     auto largest_rate_ratio = [&]() { // max over species of max(b/a, a/b), 1 for none
         double largest = 1.0;
         for (std::size_t i = 0; i < n; ++i) {
-            if (!monotone[i] ||
-                !(std::abs(y_new[i] - y[i]) > checker_tolerance(c.rtol, log_atol[i], y[i])))
+            if (!monotone[i] || !(std::abs(y_new[i] - y[i]) > start_tolerance[i]))
                 continue;
             const double a = std::abs(dydt[i]), b = std::abs(dydt_new[i]);
             if (a > 0.0 && b > 0.0)
@@ -1598,7 +1642,7 @@ EvolutionResult evolve(const EvolutionConfig& c) {
     auto limited_by = [&](std::size_t k) {
         return k < n ? "ln N[" + c.species[k].name + "]" : std::string("the envelope mass");
     };
-    std::vector<double> depleted_at(n, nan), step_tolerance(n, 0.0);
+    std::vector<double> depleted_at(n, nan), step_tolerance(n, 0.0), falls(n, 0.0);
     std::vector<char> freeze(n, 0);
     Mode next_mode = mode;
     while (t < c.t_end) {
@@ -1691,9 +1735,9 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         bool step_tolerance_set = false;
         auto output = [&](double tq, State& out) {
             if (!step_tolerance_set) {
+                checker_tolerances(c.rtol, log_atol.data(), y_new.data(), end_tolerance.data(), n);
                 for (std::size_t i = 0; i < n; ++i)
-                    step_tolerance[i] = std::min(checker_tolerance(c.rtol, log_atol[i], y[i]),
-                                                 checker_tolerance(c.rtol, log_atol[i], y_new[i]));
+                    step_tolerance[i] = std::min(start_tolerance[i], end_tolerance[i]);
                 step_tolerance_set = true;
             }
             dense(tq, out);
@@ -1794,10 +1838,17 @@ EvolutionResult evolve(const EvolutionConfig& c) {
         }
         model.species_regimes(t_cut, *y_end, regimes_end);
         const double scale_end = model.jeans_scale();
+        step_falls(y.data(), y_end->data(), model.y0().data(), falls.data(), n);
         bool probed = false;
         for (std::size_t i = 0; i < n; ++i) {
             int from = ledger.regime()[i];
             const int to = regimes_end[i];
+            if (from == to) { // the whole step in one regime: its fall from the vectorised pass
+                ledger.add_fall(i, from, mode.energy_limited, t, t_cut, falls[i],
+                                model.source_integral(i, t, t_cut),
+                                model.given_integral(i, t, t_cut));
+                continue;
+            }
             double a = t, ya = y[i];
             for (int change = 0; from != to && change < 4; ++change) {
                 if (!probed) {

@@ -99,3 +99,24 @@ TEST_CASE("the vectorisable exp agrees with std::exp to a few ulp over the doubl
     CHECK(std::isinf(detail::vector_exp(800.0)));
     CHECK(std::isnan(detail::vector_exp(NAN)));
 }
+
+TEST_CASE("the vectorisable expm1 agrees with std::expm1 to a few ulp, also near 0") {
+    // Near 0 on a logarithmic grid of both signs (where e^x - 1 would lose every digit), then
+    // across the range on a linear one, through the switch at ln2/2.
+    std::size_t checked = 0;
+    for (double a = 1e-300; a < 1.0; a *= 1.37)
+        for (const double x : {a, -a}) {
+            const double ref = std::expm1(x);
+            CHECK(std::fabs(detail::vector_expm1(x) - ref) <= 4.5e-16 * std::fabs(ref));
+            ++checked;
+        }
+    for (double x = -40.0; x < 700.0; x += 0.00731) {
+        const double ref = std::expm1(x);
+        CHECK(std::fabs(detail::vector_expm1(x) - ref) <= 9e-16 * std::fabs(ref));
+        ++checked;
+    }
+    CHECK(checked > 100000);
+    CHECK(detail::vector_expm1(0.0) == 0.0);
+    CHECK(detail::vector_expm1(-800.0) == -1.0);
+    CHECK(std::isnan(detail::vector_expm1(NAN)));
+}
