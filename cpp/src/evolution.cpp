@@ -94,8 +94,8 @@ EXOSIEVE_VECTOR_CLONES void exp_offsets(const double* log_atol, const double* y,
     }
 }
 
-// checker_tolerance of every species into out, the exponentials vectorised (they were a
-// fifth of a step's cost: two to four per species and step).
+// checker_tolerance of every species into out, the exponentials vectorised (two to four per
+// species and step before: the error test, the rate-change test and the output test).
 void checker_tolerances(double rtol, const double* log_atol, const double* y, double* out,
                         std::size_t n) {
     exp_offsets(log_atol, y, out, n);

@@ -332,9 +332,15 @@ std::shared_ptr<const std::vector<double>> Thermosphere::shared_diffusion() cons
         auto b = std::make_shared<std::vector<double>>(n * n, nan);
         for (std::size_t i = 0; i < n; ++i)
             for (std::size_t j = 0; j < n; ++j)
-                if (j != i && fractions_[i] > 0.0 && fractions_[j] > 0.0)
-                    (*b)[i * n + j] = binary_diffusion_parameter(species_[i], species_[j],
-                                                                 homopause_temperature_, method_);
+                if (j != i && fractions_[i] > 0.0 && fractions_[j] > 0.0) {
+                    try {
+                        (*b)[i * n + j] = binary_diffusion_parameter(
+                            species_[i], species_[j], homopause_temperature_, method_);
+                    } catch (const InputError&) {
+                        // No estimate for the pair (left NaN): escape_flux_at asks again, and
+                        // says why, only if the pair is needed.
+                    }
+                }
         table = std::move(b);
         std::atomic_store(&diffusion_, table);
     }
@@ -633,7 +639,11 @@ double Thermosphere::escape_flux_at(const Exobase& e, std::size_t i,
         if (j != i && fractions_[j] > 0.0) {
             const double y = fractions_[j] / rest;
             m_a += y * species_[j].mass;
-            inverse_b += y / (*b)[i * n + j];
+            const double b_ij = (*b)[i * n + j];
+            inverse_b +=
+                y / (std::isnan(b_ij) ? binary_diffusion_parameter(s, species_[j],
+                                                                   homopause_temperature_, method_)
+                                      : b_ij);
         }
     const double g = G * planet_mass_ / (homopause_radius_ * homopause_radius_);
     const double beta = (m_a - s.mass) * g / (k_B * homopause_temperature_);

@@ -207,7 +207,7 @@ class ThermosphereExobase final : public ExobaseModel {
 
   private:
     double planet_mass_, planet_radius_, homopause_radius_, homopause_density_, outer_radius_;
-    std::uint64_t id_; // tells this model's column cache entries from another's
+    std::uint64_t id_; // tells this model's cached tables (exobase_model.cpp) from another's
     std::vector<Species> species_;
     std::vector<std::string> names_;
     std::vector<double> log_x0_;

@@ -178,7 +178,7 @@ class Thermosphere {
     void adopt_column(std::shared_ptr<const Column> column) const;
     //! b_ij = n D_ij of every pair of present species at the homopause temperature
     //! [m^-1 s^-1], row i the background of species i in the coupled flux (NaN where either is
-    //! absent); built on first use, shared like the column.
+    //! absent or the pair has no estimate); built on first use, shared like the column.
     std::shared_ptr<const std::vector<double>> shared_diffusion() const;
     //! Use the shared_diffusion() of a thermosphere with the same species present, diffusion
     //! method and homopause temperature instead of computing it again.
