@@ -469,3 +469,30 @@ TEST_CASE("thermosphere: bad input names the argument and the value") {
     CHECK(message([&] { t.index("He"); }).find("it has N2, O") != std::string::npos);
     CHECK(message([] { species("Oxygen"); }).find("unknown species") != std::string::npos);
 }
+
+TEST_CASE("a pair without a diffusion estimate fails only the fluxes that need it") {
+    // Two invented heavy species without Lennard-Jones parameters, each with a measured fit
+    // against N2 (invented values, added to the process-wide table under names of their own)
+    // but none between them. N2's coupled flux needs only its pairs with them; their own fluxes
+    // are 0 (lambda in the thousands) and need no pair; a flux through the missing pair says
+    // why it cannot.
+    auto heavy = [](const char* name) {
+        Species s = species("N2");
+        s.name = name;
+        s.mass = 500.0 * amu;
+        s.lj_diameter = s.lj_well_depth = 0.0;
+        return s;
+    };
+    const Species a = heavy("Xheavy_a"), b = heavy("Xheavy_b");
+    default_diffusion_pairs().add({"N2", a.name, 5e19, 0.7, "invented for this test"});
+    default_diffusion_pairs().add({"N2", b.name, 5e19, 0.7, "invented for this test"});
+    const double r_h = constants::R_earth + 120e3;
+    const Thermosphere th(constants::M_earth, constants::R_earth, r_h, 3e18, {species("N2"), a, b},
+                          {0.98, 0.01, 0.01}, TemperatureProfile::isothermal(900.0));
+    REQUIRE(th.exobase().found());
+    CHECK(th.escape_flux(0, true) > 0.0);
+    CHECK(th.escape_flux(0, true) <= th.escape_flux(0, false));
+    CHECK(th.escape_flux(1, true) == 0.0);
+    CHECK_THROWS_WITH_AS(binary_diffusion_parameter(a, b, 900.0),
+                         doctest::Contains("Lennard-Jones"), InputError);
+}
