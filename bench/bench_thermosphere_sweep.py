@@ -468,6 +468,32 @@ class Run:
     cost: float  # [s] per case
 
 
+def timed_runs(
+    name: str,
+    call: Any,
+    rtols: list[float],
+    repeat: int,
+    reference: np.ndarray,
+    count: int,
+) -> list[Run]:
+    """At each rtol, the best of `repeat` calls of call(rtol) -> (N/N0 of `count` cases, a note)
+    as cost per case, with its error against the reference; each printed."""
+    runs = []
+    for rtol in rtols:
+        best = math.inf
+        for _ in range(repeat):
+            start = time.perf_counter()
+            got, note = call(rtol)
+            best = min(best, time.perf_counter() - start)
+        runs.append(Run(name, rtol, relative_error(got, reference), best / count))
+        r = runs[-1]
+        print(
+            f"  {name:12s} rtol {rtol:7.0e}: error {r.error:8.2e}  "
+            f"{r.cost * 1e6:9.1f} us/case{note}"
+        )
+    return runs
+
+
 def relative_error(got: np.ndarray, ref: np.ndarray) -> float:
     mask = ref > KEPT
     return float(np.max(np.abs(got[mask] / ref[mask] - 1.0)))
@@ -517,16 +543,12 @@ def main() -> None:
         f"{int(mask.sum())} of {mask.size} reference N/N0 values above {KEPT:g}; median "
         f"{int(np.median(result['steps']))} accepted steps per case at rtol 1e-12"
     )
-    ours: list[Run] = []
-    for rtol in (float(v) for v in opts.rtols.split(",")):
-        best = math.inf
-        for _ in range(opts.repeat):
-            start = time.perf_counter()
-            got, _ = run_exosieve(table, rtol)
-            best = min(best, time.perf_counter() - start)
-        ours.append(Run("exosieve", rtol, relative_error(got, reference), best / len(cases)))
-        r = ours[-1]
-        print(f"  exosieve rtol {rtol:7.0e}: error {r.error:8.2e}  {r.cost * 1e6:9.1f} us/case")
+    rtols = [float(v) for v in opts.rtols.split(",")]
+
+    def exosieve_run(rtol: float) -> tuple[np.ndarray, str]:
+        return run_exosieve(table, rtol)[0], ""
+
+    ours = timed_runs("exosieve", exosieve_run, rtols, opts.repeat, reference, len(cases))
 
     props, fits = peer_props()
     count = min(opts.peer_cases, len(cases))
@@ -553,18 +575,12 @@ def main() -> None:
         print("  numba peer: not run (numba is not installed, or --skip-numba)")
     else:
         numba_run(cases[:2], 1e-6)  # compile before timing
-        for rtol in (float(v) for v in opts.rtols.split(",")):
-            best = math.inf
-            for _ in range(opts.repeat):
-                start = time.perf_counter()
-                got, nfev = numba_run(cases, rtol)
-                best = min(best, time.perf_counter() - start)
-            compiled.append(Run("numba", rtol, relative_error(got, reference), best / len(cases)))
-            r = compiled[-1]
-            print(
-                f"  numba DP5(4) rtol {rtol:7.0e}: error {r.error:8.2e}  {r.cost * 1e6:9.1f} "
-                f"us/case  ({np.median(nfev):.0f} rhs calls per case)"
-            )
+
+        def compiled_run(rtol: float) -> tuple[np.ndarray, str]:
+            got, nfev = numba_run(cases, rtol)
+            return got, f"  ({np.median(nfev):.0f} rhs calls per case)"
+
+        compiled = timed_runs("numba", compiled_run, rtols, opts.repeat, reference, len(cases))
     # Targets both sides reach: decades between the largest of the smallest errors and the
     # smallest of the largest ones.
     everyone = [*ours, *(r for runs in peers.values() for r in runs), *compiled]
