@@ -191,12 +191,16 @@ def peer_props() -> tuple[Any, Any]:
     return props, fits
 
 
+def initial_inventories(case: Case, mass: np.ndarray) -> np.ndarray:
+    """N_i0 [particles] of the 1 bar column: N = P 4 pi R^2 / (g m_mean), g = G M / R^2, shared
+    by the x_i."""
+    total = PRESSURE * 4 * math.pi * R_EARTH**2 / (G * M_EARTH / R_EARTH**2 * (case.x @ mass))
+    return total * case.x
+
+
 def peer_run(case: Case, rtol: float, method: str, props: Any, fits: Any) -> tuple[np.ndarray, int]:
     """N/N0 [age x species] and the number of right-hand-side calls."""
-    mass = props[0]
-    # The 1 bar column: N = P 4 pi R^2 / (g m_mean), g = G M / R^2, shared by the x_i.
-    total = PRESSURE * 4 * math.pi * R_EARTH**2 / (G * M_EARTH / R_EARTH**2 * (case.x @ mass))
-    y0 = np.log(total * case.x)
+    y0 = np.log(initial_inventories(case, props[0]))
     inner = min(1e-8, max(1e-12, 1e-3 * rtol))
     calls = 0
 
@@ -434,12 +438,9 @@ def build_numba_peer(props: Any, fits: Any) -> Any:
         p = np.zeros((len(cases), 4 + 2 * k))
         edges_list = []
         for c, case in enumerate(cases):
-            total = (
-                PRESSURE * 4 * math.pi * R_EARTH**2 / (G * M_EARTH / R_EARTH**2 * (case.x @ mass))
-            )
             p[c, :3] = case.t_ref, case.gamma, case.homopause_density
             p[c, 3 : 3 + k] = np.log(case.x)
-            p[c, 3 + k : 3 + 2 * k] = np.log(total * case.x)
+            p[c, 3 + k : 3 + 2 * k] = np.log(initial_inventories(case, mass))
             edges_list.append(np.array([T_START, *kinks(case), T_END]))
         width = max(e.size for e in edges_list)
         edges = np.array(
@@ -453,7 +454,6 @@ def build_numba_peer(props: Any, fits: Any) -> Any:
         run_all(p, edges, counts, grid, rtol, out, nfev, steps)
         return np.exp(out[:, 1:, :]), nfev
 
-    run.rhs = rhs  # type: ignore[attr-defined]  # for checks against the scipy peer's rates
     return run
 
 

@@ -306,19 +306,27 @@ void Thermosphere::require_in_range(const char* what, double r) const {
                          format_value(homopause_radius_) + " m) or not finite");
 }
 
-const Thermosphere::Column& Thermosphere::column_cache() const {
-    std::shared_ptr<const Column> col = std::atomic_load(&column_);
-    if (!col) {
-        col =
-            std::make_shared<const Column>(build_column(profile_, planet_mass_, homopause_radius_));
-        std::atomic_store(&column_, col);
+namespace {
+// The value in `slot`, built by build() on first use. Concurrent first uses may both build it;
+// they build the same value, and one of them is kept.
+template <class T, class Build>
+std::shared_ptr<const T> built_once(std::shared_ptr<const T>& slot, Build build) {
+    std::shared_ptr<const T> value = std::atomic_load(&slot);
+    if (!value) {
+        value = std::make_shared<const T>(build());
+        std::atomic_store(&slot, value);
     }
-    return *col;
+    return value;
+}
+} // namespace
+
+const Thermosphere::Column& Thermosphere::column_cache() const {
+    return *shared_column();
 }
 
 std::shared_ptr<const Thermosphere::Column> Thermosphere::shared_column() const {
-    column_cache();
-    return std::atomic_load(&column_);
+    return built_once(column_,
+                      [&] { return build_column(profile_, planet_mass_, homopause_radius_); });
 }
 
 void Thermosphere::adopt_column(std::shared_ptr<const Column> column) const {
@@ -326,25 +334,22 @@ void Thermosphere::adopt_column(std::shared_ptr<const Column> column) const {
 }
 
 std::shared_ptr<const std::vector<double>> Thermosphere::shared_diffusion() const {
-    std::shared_ptr<const std::vector<double>> table = std::atomic_load(&diffusion_);
-    if (!table) {
+    return built_once(diffusion_, [&] {
         const std::size_t n = species_.size();
-        auto b = std::make_shared<std::vector<double>>(n * n, nan);
+        std::vector<double> b(n * n, nan);
         for (std::size_t i = 0; i < n; ++i)
             for (std::size_t j = 0; j < n; ++j)
                 if (j != i && fractions_[i] > 0.0 && fractions_[j] > 0.0) {
                     try {
-                        (*b)[i * n + j] = binary_diffusion_parameter(
-                            species_[i], species_[j], homopause_temperature_, method_);
+                        b[i * n + j] = binary_diffusion_parameter(species_[i], species_[j],
+                                                                  homopause_temperature_, method_);
                     } catch (const InputError&) {
                         // No estimate for the pair (left NaN): escape_flux_at asks again, and
                         // says why, only if the pair is needed.
                     }
                 }
-        table = std::move(b);
-        std::atomic_store(&diffusion_, table);
-    }
-    return table;
+        return b;
+    });
 }
 
 void Thermosphere::adopt_diffusion(std::shared_ptr<const std::vector<double>> diffusion) const {
@@ -580,12 +585,7 @@ Exobase Thermosphere::find_exobase() const {
 }
 
 const Exobase& Thermosphere::exobase() const {
-    std::shared_ptr<const Exobase> e = std::atomic_load(&exobase_);
-    if (!e) {
-        e = std::make_shared<const Exobase>(find_exobase());
-        std::atomic_store(&exobase_, e);
-    }
-    return *e;
+    return *built_once(exobase_, [&] { return find_exobase(); });
 }
 
 double Thermosphere::jeans_flux(std::size_t i) const {
